@@ -1,0 +1,529 @@
+"""Material description files: TOML in, a validated, frozen :class:`Material` out.
+
+The schema is documented in the README ("Material files"). Every problem is reported as an
+:class:`~bandpert.errors.InputError` naming the file, the dotted key, what is wrong and what was
+expected. Unknown keys are refused so that a misspelt key never silently does nothing.
+
+Conventions (see CONVENTIONS.md): lengths in Å, energies converted once to eV here; form-factor
+shells |G|² are given in units of (2π/a)², with ``a`` the lattice constant ``lattice.a_A``.
+"""
+
+from __future__ import annotations
+
+import math
+import tomllib
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+
+from .errors import InputError
+from .units import ENERGY_UNITS_TO_EV
+
+#: Lattice types by name, their dimension and the constants they take.
+LATTICE_TYPES: dict[str, tuple[int, tuple[str, ...]]] = {
+    "chain": (1, ("a_A",)),
+    "square": (2, ("a_A",)),
+    "rectangular": (2, ("a_A", "b_A")),
+    "hexagonal-2d": (2, ("a_A",)),
+    "oblique": (2, ("a_A", "b_A", "gamma_deg")),
+    "sc": (3, ("a_A",)),
+    "fcc": (3, ("a_A",)),
+    "bcc": (3, ("a_A",)),
+    "hexagonal": (3, ("a_A", "c_A")),
+    "tetragonal": (3, ("a_A", "c_A")),
+    "orthorhombic": (3, ("a_A", "b_A", "c_A")),
+    "vectors": (0, ("vectors_A", "a_A")),
+}
+
+#: Forms of the crystal potential.
+POTENTIAL_FORMS = ("empty", "symmetric-antisymmetric", "per-species", "fourier")
+
+#: Labels accepted on input for Γ.
+GAMMA_ALIASES = {"G": "Γ", "Gamma": "Γ", "GAMMA": "Γ", "Γ": "Γ"}
+
+#: Closest allowed distance between two atoms, in Å.
+MIN_ATOM_DISTANCE_A = 0.3
+
+
+def canonical_label(label: str) -> str:
+    """Return the label as stored (``G``/``Gamma`` become ``Γ``)."""
+    return GAMMA_ALIASES.get(label, label)
+
+
+@dataclass(frozen=True)
+class Atom:
+    """One atom of the basis: species name and position in fractions of the lattice vectors."""
+
+    species: str
+    position_frac: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class Potential:
+    """The crystal potential as read from the file, energies already in eV.
+
+    Attributes
+    ----------
+    form : str
+        One of :data:`POTENTIAL_FORMS`.
+    shells_g2 : tuple of float
+        |G|² of each shell in units of (2π/a)² (form-factor forms only).
+    symmetric_eV, antisymmetric_eV : tuple of float
+        V_S and V_A on each shell ("symmetric-antisymmetric" form).
+    species_eV : dict
+        Per-species form factors v_j on each shell ("per-species" form).
+    miller : tuple of tuple of int
+        Miller indices of explicit Fourier coefficients ("fourier" form).
+    fourier_eV : tuple of complex
+        V(G) for each Miller index, completed so that V(−G) = V(G)*.
+    file_unit : str
+        The energy unit the file used ("eV" or "Ry").
+    """
+
+    form: str
+    file_unit: str = "eV"
+    shells_g2: tuple[float, ...] = ()
+    symmetric_eV: tuple[float, ...] = ()
+    antisymmetric_eV: tuple[float, ...] = ()
+    species_eV: dict[str, tuple[float, ...]] = field(default_factory=dict)
+    miller: tuple[tuple[int, ...], ...] = ()
+    fourier_eV: tuple[complex, ...] = ()
+
+
+@dataclass(frozen=True)
+class CustomPath:
+    """A user-given k-path: labelled points (fractional reciprocal coordinates) and legs."""
+
+    points_frac: dict[str, tuple[float, ...]]
+    legs: tuple[tuple[str, ...], ...]
+
+
+@dataclass(frozen=True)
+class Material:
+    """A validated material description.
+
+    Attributes
+    ----------
+    name, source, note : str
+        Human description; ``source`` cites where the parameters come from.
+    file : str
+        The file it was read from ("" when built in code).
+    lattice_type : str
+        One of :data:`LATTICE_TYPES`.
+    dimension : int
+        1, 2 or 3.
+    vectors_A : numpy.ndarray
+        Primitive lattice vectors as rows, shape (dimension, dimension), in Å.
+    a_A : float
+        The lattice constant ``a`` in Å (the unit of the form-factor shells).
+    atoms : tuple of Atom
+        The basis.
+    potential : Potential
+        The crystal potential.
+    cutoff_eV : float or None
+        Plane-wave kinetic-energy cutoff; None means "choose a converged one".
+    valence_electrons : int or None
+        Electrons per primitive cell (sets the energy zero); None keeps absolute energies.
+    n_bands : int or None
+        Default number of bands to compute.
+    path : CustomPath or None
+        A custom k-path; None means the standard path of the lattice.
+    """
+
+    name: str
+    source: str
+    note: str
+    file: str
+    lattice_type: str
+    dimension: int
+    vectors_A: np.ndarray
+    a_A: float
+    atoms: tuple[Atom, ...]
+    potential: Potential
+    cutoff_eV: float | None = None
+    valence_electrons: int | None = None
+    n_bands: int | None = None
+    path: CustomPath | None = None
+
+    @property
+    def volume_A(self) -> float:
+        """Cell volume (Å³), area (Å²) or length (Å) of the primitive cell."""
+        return float(abs(np.linalg.det(self.vectors_A)))
+
+
+class _Reader:
+    """Walks a parsed TOML table, checking keys and types, naming file and key on error."""
+
+    def __init__(self, table: dict[str, Any], source: str, prefix: str = ""):
+        self.table = table
+        self.source = source
+        self.prefix = prefix
+        self.used: set[str] = set()
+
+    def key(self, name: str) -> str:
+        return f"{self.prefix}{name}"
+
+    def fail(self, name: str, problem: str) -> InputError:
+        return InputError(problem, self.source, self.key(name) if name else self.prefix.rstrip("."))
+
+    def has(self, name: str) -> bool:
+        return name in self.table
+
+    def raw(self, name: str, required: bool = True) -> Any:
+        self.used.add(name)
+        if name not in self.table:
+            if required:
+                raise self.fail(name, "missing; this key is required")
+            return None
+        return self.table[name]
+
+    def string(self, name: str, required: bool = True, default: str = "",
+               choices: tuple[str, ...] | None = None) -> str:
+        value = self.raw(name, required)
+        if value is None:
+            return default
+        if not isinstance(value, str):
+            raise self.fail(name, f"expected a string, got {_kind(value)}")
+        if choices is not None and value not in choices:
+            raise self.fail(name, f"'{value}' is not one of: {', '.join(choices)}")
+        return value
+
+    def number(self, name: str, required: bool = True, positive: bool = False,
+               default: float | None = None) -> float | None:
+        value = self.raw(name, required)
+        if value is None:
+            return default
+        return _number(value, self, name, positive)
+
+    def integer(self, name: str, required: bool = True, minimum: int | None = None) -> int | None:
+        value = self.raw(name, required)
+        if value is None:
+            return None
+        if isinstance(value, bool) or not isinstance(value, int):
+            raise self.fail(name, f"expected an integer, got {_kind(value)}")
+        if minimum is not None and value < minimum:
+            raise self.fail(name, f"must be at least {minimum}, got {value}")
+        return value
+
+    def sub(self, name: str, required: bool = True) -> _Reader | None:
+        value = self.raw(name, required)
+        if value is None:
+            return None
+        if not isinstance(value, dict):
+            raise self.fail(name, f"expected a table, got {_kind(value)}")
+        return _Reader(value, self.source, f"{self.key(name)}.")
+
+    def finish(self) -> None:
+        unknown = sorted(set(self.table) - self.used)
+        if unknown:
+            allowed = ", ".join(sorted(self.used)) or "none"
+            raise self.fail(unknown[0], f"unknown key (allowed here: {allowed})")
+
+
+def _kind(value: Any) -> str:
+    return {bool: "a boolean", int: "an integer", float: "a number", str: "a string",
+            list: "an array", dict: "a table"}.get(type(value), type(value).__name__)
+
+
+def _number(value: Any, reader: _Reader, name: str, positive: bool = False) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)):
+        raise reader.fail(name, f"expected a number, got {_kind(value)}")
+    value = float(value)
+    if not math.isfinite(value):
+        raise reader.fail(name, f"expected a finite number, got {value}")
+    if positive and value <= 0:
+        raise reader.fail(name, f"must be positive, got {value:g}")
+    return value
+
+
+def _number_list(value: Any, reader: _Reader, name: str, length: int | None = None,
+                 positive: bool = False) -> tuple[float, ...]:
+    if not isinstance(value, list):
+        raise reader.fail(name, f"expected an array of numbers, got {_kind(value)}")
+    if length is not None and len(value) != length:
+        raise reader.fail(name, f"expected {length} numbers, got {len(value)}")
+    return tuple(_number(v, reader, name, positive) for v in value)
+
+
+def lattice_vectors(lattice_type: str, a: float, b: float | None = None, c: float | None = None,
+                    gamma_deg: float | None = None) -> np.ndarray:
+    """Primitive lattice vectors (rows, Å) of a named lattice.
+
+    Parameters
+    ----------
+    lattice_type : str
+        A key of :data:`LATTICE_TYPES` other than ``"vectors"``.
+    a, b, c : float
+        Lattice constants in Å (``a`` is the cubic edge for sc/fcc/bcc).
+    gamma_deg : float, optional
+        Angle between the two vectors of an oblique lattice.
+
+    Returns
+    -------
+    numpy.ndarray
+        Shape (d, d). fcc: a/2 (0,1,1), (1,0,1), (1,1,0); bcc: a/2 (−1,1,1), (1,−1,1), (1,1,−1);
+        hexagonal: a(1,0,0), a(−1/2, √3/2, 0), c(0,0,1) (common practice, no source).
+    """
+    s3 = math.sqrt(3.0)
+    table = {
+        "chain": lambda: [[a]],
+        "square": lambda: [[a, 0.0], [0.0, a]],
+        "rectangular": lambda: [[a, 0.0], [0.0, b]],
+        "hexagonal-2d": lambda: [[a, 0.0], [-a / 2, a * s3 / 2]],
+        "oblique": lambda: [[a, 0.0], [b * math.cos(math.radians(gamma_deg)),
+                                       b * math.sin(math.radians(gamma_deg))]],
+        "sc": lambda: np.eye(3) * a,
+        "fcc": lambda: np.array([[0, 1, 1], [1, 0, 1], [1, 1, 0]]) * (a / 2),
+        "bcc": lambda: np.array([[-1, 1, 1], [1, -1, 1], [1, 1, -1]]) * (a / 2),
+        "hexagonal": lambda: [[a, 0, 0], [-a / 2, a * s3 / 2, 0], [0, 0, c]],
+        "tetragonal": lambda: [[a, 0, 0], [0, a, 0], [0, 0, c]],
+        "orthorhombic": lambda: [[a, 0, 0], [0, b, 0], [0, 0, c]],
+    }
+    return np.array(table[lattice_type](), dtype=float)
+
+
+def _read_lattice(r: _Reader) -> tuple[str, int, np.ndarray, float]:
+    kind = r.string("type", choices=tuple(LATTICE_TYPES))
+    dim, keys = LATTICE_TYPES[kind]
+    if kind == "vectors":
+        raw = r.raw("vectors_A")
+        if not isinstance(raw, list) or not raw or len(raw) > 3:
+            raise r.fail("vectors_A", "expected 1 to 3 lattice vectors, each an array of numbers")
+        dim = len(raw)
+        vectors = np.array([_number_list(v, r, "vectors_A", length=dim) for v in raw])
+        a = r.number("a_A", required=False, positive=True,
+                     default=float(np.linalg.norm(vectors[0])))
+    else:
+        consts = {k: r.number(k, positive=True) for k in keys}
+        if kind == "oblique" and not 0.0 < consts["gamma_deg"] < 180.0:
+            raise r.fail("gamma_deg", f"must lie strictly between 0 and 180, got {consts['gamma_deg']:g}")
+        a = consts["a_A"]
+        vectors = lattice_vectors(kind, a, consts.get("b_A"), consts.get("c_A"),
+                                  consts.get("gamma_deg"))
+    det = float(np.linalg.det(vectors))
+    scale = float(np.prod(np.linalg.norm(vectors, axis=1)))
+    if abs(det) < 1e-6 * scale:
+        raise r.fail("", "the lattice vectors are linearly dependent (zero cell volume); "
+                         "expected independent vectors")
+    if det < 0:
+        raise r.fail("vectors_A", "the lattice vectors are left-handed (negative determinant); "
+                                  "swap two vectors to make them right-handed")
+    r.finish()
+    return kind, dim, vectors, a
+
+
+def _read_atoms(raw: Any, source: str, dim: int, vectors: np.ndarray) -> tuple[Atom, ...]:
+    if not isinstance(raw, list) or not raw:
+        raise InputError("expected at least one [[atoms]] entry with species and position",
+                         source, "atoms")
+    atoms = []
+    for i, entry in enumerate(raw):
+        if not isinstance(entry, dict):
+            raise InputError(f"expected a table, got {_kind(entry)}", source, f"atoms[{i}]")
+        r = _Reader(entry, source, f"atoms[{i}].")
+        species = r.string("species")
+        if not species.strip():
+            raise r.fail("species", "must not be empty")
+        pos = _number_list(r.raw("position"), r, "position", length=dim)
+        r.finish()
+        atoms.append(Atom(species, pos))
+    frac = np.array([a.position_frac for a in atoms])
+    for i in range(len(atoms)):
+        for j in range(i + 1, len(atoms)):
+            d = frac[i] - frac[j]
+            d -= np.round(d)
+            dist = float(np.linalg.norm(d @ vectors))
+            if dist < MIN_ATOM_DISTANCE_A:
+                raise InputError(f"atoms {i} and {j} are {dist:.3g} Å apart (periodic images "
+                                 f"included); expected at least {MIN_ATOM_DISTANCE_A} Å",
+                                 source, f"atoms[{j}].position")
+    return tuple(atoms)
+
+
+def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
+    form = r.string("form", choices=POTENTIAL_FORMS)
+    if form == "empty":
+        r.finish()
+        return Potential(form="empty")
+    unit = r.string("unit", choices=tuple(ENERGY_UNITS_TO_EV))
+    to_ev = ENERGY_UNITS_TO_EV[unit]
+    if form == "fourier":
+        raw = r.raw("coefficients")
+        if not isinstance(raw, list) or not raw:
+            raise r.fail("coefficients", "expected an array of {miller = [...], value = ...} tables")
+        coeffs: dict[tuple[int, ...], complex] = {}
+        for i, entry in enumerate(raw):
+            key = f"coefficients[{i}]"
+            if not isinstance(entry, dict):
+                raise r.fail(key, f"expected a table, got {_kind(entry)}")
+            e = _Reader(entry, r.source, f"{r.key(key)}.")
+            miller = e.raw("miller")
+            if (not isinstance(miller, list) or len(miller) != dim
+                    or any(isinstance(m, bool) or not isinstance(m, int) for m in miller)):
+                raise e.fail("miller", f"expected {dim} integers")
+            value = e.raw("value")
+            if isinstance(value, list):
+                re_im = _number_list(value, e, "value", length=2)
+                z = complex(re_im[0], re_im[1]) * to_ev
+            else:
+                z = complex(_number(value, e, "value")) * to_ev
+            e.finish()
+            m = tuple(miller)
+            if m in coeffs:
+                raise e.fail("miller", f"{list(m)} is listed twice")
+            coeffs[m] = z
+        for m, z in list(coeffs.items()):
+            minus = tuple(-x for x in m)
+            if minus in coeffs:
+                if abs(coeffs[minus] - z.conjugate()) > 1e-9 * max(1.0, abs(z)):
+                    raise r.fail("coefficients", f"V({list(minus)}) = {coeffs[minus] / to_ev} is "
+                                 f"not the complex conjugate of V({list(m)}) = {z / to_ev}; a real "
+                                 "potential needs V(-G) = V(G)*")
+            else:
+                coeffs[minus] = z.conjugate()
+            if all(x == 0 for x in m) and abs(z.imag) > 1e-12:
+                raise r.fail("coefficients", "V(0) must be real")
+        r.finish()
+        keys = sorted(coeffs)
+        return Potential(form=form, file_unit=unit, miller=tuple(keys),
+                         fourier_eV=tuple(coeffs[k] for k in keys))
+    shells = _number_list(r.raw("shells"), r, "shells")
+    if not shells:
+        raise r.fail("shells", "expected at least one |G|² shell")
+    if any(s < 0 for s in shells) or len(set(shells)) != len(shells):
+        raise r.fail("shells", "expected distinct non-negative |G|² values in units of (2π/a)²")
+    n = len(shells)
+    if form == "symmetric-antisymmetric":
+        if len(atoms) != 2:
+            raise r.fail("form", f"the symmetric-antisymmetric form needs exactly 2 atoms, the file "
+                                 f"has {len(atoms)}; use form = \"per-species\"")
+        sym = _number_list(r.raw("symmetric"), r, "symmetric", length=n)
+        anti = r.raw("antisymmetric", required=False)
+        anti = (0.0,) * n if anti is None else _number_list(anti, r, "antisymmetric", length=n)
+        r.finish()
+        return Potential(form=form, file_unit=unit, shells_g2=shells,
+                         symmetric_eV=tuple(v * to_ev for v in sym),
+                         antisymmetric_eV=tuple(v * to_ev for v in anti))
+    species_r = r.sub("species")
+    needed = {a.species for a in atoms}
+    values: dict[str, tuple[float, ...]] = {}
+    for name in sorted(needed):
+        if not species_r.has(name):
+            raise species_r.fail(name, f"missing form factors for species '{name}' (atoms list it)")
+        values[name] = tuple(v * to_ev for v in _number_list(species_r.raw(name), species_r,
+                                                             name, length=n))
+    species_r.finish()
+    r.finish()
+    return Potential(form=form, file_unit=unit, shells_g2=shells, species_eV=values)
+
+
+def _read_path(r: _Reader, dim: int) -> CustomPath:
+    pts_r = r.sub("points")
+    points: dict[str, tuple[float, ...]] = {}
+    for label in list(pts_r.table):
+        points[canonical_label(label)] = _number_list(pts_r.raw(label), pts_r, label, length=dim)
+    pts_r.finish()
+    raw = r.raw("legs")
+    if not isinstance(raw, list) or not raw:
+        raise r.fail("legs", "expected an array of legs, each an array of at least two labels")
+    legs = []
+    for i, leg in enumerate(raw):
+        if not isinstance(leg, list) or len(leg) < 2 or not all(isinstance(x, str) for x in leg):
+            raise r.fail("legs", f"leg {i} must be an array of at least two labels")
+        leg = [canonical_label(x) for x in leg]
+        for label in leg:
+            if label not in points:
+                raise r.fail("legs", f"label '{label}' in leg {i} is not among path.points "
+                                     f"({', '.join(points)})")
+        for x, y in zip(leg, leg[1:], strict=False):
+            if x == y:
+                raise r.fail("legs", f"leg {i} repeats '{x}' twice in a row (a zero-length step)")
+        legs.append(tuple(leg))
+    r.finish()
+    return CustomPath(points, tuple(legs))
+
+
+def parse_material(doc: dict[str, Any], source: str = "") -> Material:
+    """Validate a parsed material document (the TOML tables) into a :class:`Material`.
+
+    Parameters
+    ----------
+    doc : dict
+        The parsed TOML document.
+    source : str
+        Name of the file, used in error messages.
+
+    Returns
+    -------
+    Material
+
+    Raises
+    ------
+    InputError
+        On any missing, unknown, mistyped or non-physical value.
+    """
+    r = _Reader(doc, source)
+    name = r.string("name")
+    src = r.string("source")
+    note = r.string("note", required=False)
+    lat = r.sub("lattice")
+    kind, dim, vectors, a = _read_lattice(lat)
+    atoms = _read_atoms(r.raw("atoms"), source, dim, vectors)
+    pot = _read_potential(r.sub("potential"), atoms, dim)
+    cutoff = None
+    basis = r.sub("basis", required=False)
+    n_bands = None
+    if basis is not None:
+        c_ev = basis.number("cutoff_eV", required=False, positive=True)
+        c_ry = basis.number("cutoff_Ry", required=False, positive=True)
+        if c_ev is not None and c_ry is not None:
+            raise basis.fail("cutoff_Ry", "give either cutoff_eV or cutoff_Ry, not both")
+        cutoff = c_ev if c_ev is not None else (None if c_ry is None
+                                                 else c_ry * ENERGY_UNITS_TO_EV["Ry"])
+        n_bands = basis.integer("bands", required=False, minimum=1)
+        basis.finish()
+    electrons = None
+    el = r.sub("electrons", required=False)
+    if el is not None:
+        electrons = el.integer("valence", minimum=1)
+        el.finish()
+    path_r = r.sub("path", required=False)
+    path = _read_path(path_r, dim) if path_r is not None else None
+    r.finish()
+    return Material(name=name, source=src, note=note, file=source, lattice_type=kind,
+                    dimension=dim, vectors_A=vectors, a_A=a, atoms=atoms, potential=pot,
+                    cutoff_eV=cutoff, valence_electrons=electrons, n_bands=n_bands, path=path)
+
+
+def load_material(path: str | Path) -> Material:
+    """Read and validate a material file.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+        A TOML file in the bandpert material schema (README, "Material files").
+
+    Returns
+    -------
+    Material
+
+    Raises
+    ------
+    InputError
+        If the file cannot be read, is not TOML, or fails validation.
+    """
+    path = Path(path)
+    try:
+        text = path.read_bytes().decode("utf-8")
+    except FileNotFoundError:
+        raise InputError("file not found; expected a material TOML file", str(path)) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise InputError(f"cannot be read as UTF-8 text ({exc.__class__.__name__})",
+                         str(path)) from None
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML ({exc})", str(path)) from None
+    return parse_material(doc, str(path))
