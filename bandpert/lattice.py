@@ -218,3 +218,17 @@ def sample_path(reciprocal_invA: np.ndarray, points: dict[str, tuple[float, ...]
     return KPath(k_frac=k_frac, k_cart_invA=k_frac @ b, distance_invA=np.concatenate(dist_parts),
                  label_indices=np.array(label_idx), labels=tuple(labels),
                  leg_starts=np.array(leg_starts), points_frac=dict(points))
+
+
+def describe_position(path: KPath, index: int) -> str:
+    """Where k-point ``index`` sits: a label, or e.g. ``"0.86 of Γ→X"`` along its segment."""
+    idx = list(path.label_indices)
+    if index in idx:
+        return path.labels[idx.index(index)]
+    after = int(np.searchsorted(path.label_indices, index))
+    i0, i1 = path.label_indices[after - 1], path.label_indices[after]
+    start = path.labels[after - 1].split("|")[-1]
+    end = path.labels[after].split("|")[0]
+    d = path.distance_invA
+    frac = (d[index] - d[i0]) / (d[i1] - d[i0])
+    return f"{frac:.2f} of {start}→{end}"
