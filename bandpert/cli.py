@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import sys
 from contextlib import contextmanager
-from enum import Enum
+from enum import StrEnum
 from pathlib import Path
 from typing import Annotated
 
@@ -31,7 +31,7 @@ out = Console()
 err = Console(stderr=True)
 
 
-class ImageFormat(str, Enum):
+class ImageFormat(StrEnum):
     png = "png"
     svg = "svg"
     pdf = "pdf"
@@ -44,8 +44,9 @@ MaterialFile = Annotated[Path, typer.Argument(help="Material description file (T
 @contextmanager
 def progress_bar(description: str):
     """A transient rich progress bar on stderr; yields a ``progress(done, total)`` callback."""
-    bar = Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.percentage:>3.0f}%"),
-                   TimeRemainingColumn(), console=err, transient=True, disable=not err.is_terminal)
+    bar = Progress(TextColumn("{task.description}"), BarColumn(),
+                   TextColumn("{task.percentage:>3.0f}%"), TimeRemainingColumn(), console=err,
+                   transient=True, disable=not err.is_terminal)
     with bar:
         task = bar.add_task(description, total=None)
 

@@ -298,7 +298,8 @@ def _read_lattice(r: _Reader) -> tuple[str, int, np.ndarray, float]:
     else:
         consts = {k: r.number(k, positive=True) for k in keys}
         if kind == "oblique" and not 0.0 < consts["gamma_deg"] < 180.0:
-            raise r.fail("gamma_deg", f"must lie strictly between 0 and 180, got {consts['gamma_deg']:g}")
+            raise r.fail("gamma_deg", "must lie strictly between 0 and 180, got "
+                                      f"{consts['gamma_deg']:g}")
         a = consts["a_A"]
         vectors = lattice_vectors(kind, a, consts.get("b_A"), consts.get("c_A"),
                                   consts.get("gamma_deg"))
@@ -352,7 +353,8 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
     if form == "fourier":
         raw = r.raw("coefficients")
         if not isinstance(raw, list) or not raw:
-            raise r.fail("coefficients", "expected an array of {miller = [...], value = ...} tables")
+            raise r.fail("coefficients",
+                         "expected an array of {miller = [...], value = ...} tables")
         coeffs: dict[tuple[int, ...], complex] = {}
         for i, entry in enumerate(raw):
             key = f"coefficients[{i}]"
@@ -397,8 +399,8 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
     n = len(shells)
     if form == "symmetric-antisymmetric":
         if len(atoms) != 2:
-            raise r.fail("form", f"the symmetric-antisymmetric form needs exactly 2 atoms, the file "
-                                 f"has {len(atoms)}; use form = \"per-species\"")
+            raise r.fail("form", "the symmetric-antisymmetric form needs exactly 2 atoms, the "
+                                 f"file has {len(atoms)}; use form = \"per-species\"")
         sym = _number_list(r.raw("symmetric"), r, "symmetric", length=n)
         anti = r.raw("antisymmetric", required=False)
         anti = (0.0,) * n if anti is None else _number_list(anti, r, "antisymmetric", length=n)

@@ -1,0 +1,28 @@
+"""Shared helpers for the tests: materials built in code from plain dictionaries."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pytest
+
+from bandpert.material import Material, load_material, parse_material
+
+MATERIALS = Path(__file__).resolve().parent.parent / "materials"
+
+
+def make_material(lattice: dict, atoms: list[dict], potential: dict, **extra) -> Material:
+    """A material from Python values, validated exactly like a file."""
+    doc = {"name": "test", "source": "test", "lattice": lattice, "atoms": atoms,
+           "potential": potential, **extra}
+    return parse_material(doc, "<test>")
+
+
+def bundled(name: str) -> Material:
+    """A bundled material by file stem."""
+    return load_material(MATERIALS / f"{name}.toml")
+
+
+@pytest.fixture(scope="session")
+def silicon() -> Material:
+    return bundled("silicon")
