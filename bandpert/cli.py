@@ -12,7 +12,6 @@ from enum import StrEnum
 from pathlib import Path
 from typing import Annotated
 
-import click
 import numpy as np
 import typer
 from rich.console import Console
@@ -25,8 +24,15 @@ from .lattice import crystal_symmetry, describe_position, reciprocal_vectors, st
 from .material import Material, load_material
 from .planewave import build_model
 
+try:  # typer >= 0.26 carries its own copy of click; its exceptions are the ones raised
+    from typer._click.exceptions import ClickException, UsageError
+except ImportError:  # pragma: no cover - older typer on the public click
+    from click.exceptions import ClickException, UsageError
+
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
-                  help="Crystal bands by exact diagonalisation and by perturbation theory.")
+                  help="Crystal bands by exact diagonalisation and by perturbation theory. "
+                       "Add --debug anywhere on the line to see the traceback of an internal "
+                       "error.")
 out = Console()
 err = Console(stderr=True)
 
@@ -208,12 +214,12 @@ def main(argv: list[str] | None = None) -> None:
     command = typer.main.get_command(app)
     try:
         code = command.main(args=args, prog_name="bandpert", standalone_mode=False)
-    except click.exceptions.Exit as exc:
+    except typer.Exit as exc:
         code = exc.exit_code
-    except click.ClickException as exc:
+    except ClickException as exc:
         exc.show()
-        code = 2 if isinstance(exc, click.UsageError) else exc.exit_code
-    except (click.exceptions.Abort, KeyboardInterrupt):
+        code = 2 if isinstance(exc, UsageError) else exc.exit_code
+    except (typer.Abort, KeyboardInterrupt):
         print("bandpert: interrupted; no partial output was left", file=sys.stderr)
         code = 130
     except InputError as exc:

@@ -32,6 +32,9 @@ def atomic_path(target: str | Path) -> Iterator[Path]:
                                dir=target.parent)
     os.close(fd)
     tmp_path = Path(tmp)
+    umask = os.umask(0)
+    os.umask(umask)
+    os.chmod(tmp_path, 0o666 & ~umask)  # mkstemp makes 0600; give the usual permissions
     try:
         yield tmp_path
         os.replace(tmp_path, target)

@@ -10,6 +10,8 @@ shells |G|² are given in units of (2π/a)², with ``a`` the lattice constant ``
 
 from __future__ import annotations
 
+import itertools
+import json
 import math
 import tomllib
 from dataclasses import dataclass, field
@@ -45,6 +47,16 @@ GAMMA_ALIASES = {"G": "Γ", "Gamma": "Γ", "GAMMA": "Γ", "Γ": "Γ"}
 
 #: Closest allowed distance between two atoms, in Å.
 MIN_ATOM_DISTANCE_A = 0.3
+
+#: Largest accepted magnitude of a fractional atomic coordinate (guards the arithmetic only).
+MAX_FRACTIONAL_COORDINATE = 1000.0
+
+#: Largest accepted magnitude of a Miller index of an explicit Fourier coefficient. Far beyond
+#: any basis the plane-wave model allows, and small enough for its integer index arithmetic.
+MAX_MILLER_INDEX = 100_000
+
+#: Relative tolerance under which two |G|² shells count as the same shell.
+SHELL_MATCH_TOLERANCE = 1e-6
 
 
 def canonical_label(label: str) -> str:
@@ -173,7 +185,7 @@ class _Reader:
 
     def raw(self, name: str, required: bool = True) -> Any:
         self.used.add(name)
-        if name not in self.table:
+        if self.table.get(name) is None:  # TOML has no null; None from code means "absent"
             if required:
                 raise self.fail(name, "missing; this key is required")
             return None
@@ -223,14 +235,34 @@ class _Reader:
 
 
 def _kind(value: Any) -> str:
-    return {bool: "a boolean", int: "an integer", float: "a number", str: "a string",
+    """Describe a value's TOML type for a message, with the value itself when it is short."""
+    kind = {bool: "a boolean", int: "an integer", float: "a number", str: "a string",
             list: "an array", dict: "a table"}.get(type(value), type(value).__name__)
+    if isinstance(value, (bool, int, float, str)):
+        text = repr(value) if not isinstance(value, bool) else str(value).lower()
+        if len(text) <= 30:
+            kind += f" ({text})"
+    return kind
+
+
+def _entries(n: int) -> str:
+    return f"{n} entry" if n == 1 else f"{n} entries"
+
+
+def _show_list(values: list) -> str:
+    """A short array as TOML would write it (``[true, 1.5]``), cut after 60 characters."""
+    text = json.dumps(values, default=str, ensure_ascii=False)
+    return text if len(text) <= 60 else text[:57] + "..."
 
 
 def _number(value: Any, reader: _Reader, name: str, positive: bool = False) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise reader.fail(name, f"expected a number, got {_kind(value)}")
-    value = float(value)
+    try:
+        value = float(value)
+    except OverflowError:
+        raise reader.fail(name, "expected a finite number, got an integer too large for a "
+                                "float") from None
     if not math.isfinite(value):
         raise reader.fail(name, f"expected a finite number, got {value}")
     if positive and value <= 0:
@@ -243,8 +275,27 @@ def _number_list(value: Any, reader: _Reader, name: str, length: int | None = No
     if not isinstance(value, list):
         raise reader.fail(name, f"expected an array of numbers, got {_kind(value)}")
     if length is not None and len(value) != length:
-        raise reader.fail(name, f"expected {length} numbers, got {len(value)}")
+        raise reader.fail(name, f"expected {length} numbers, got {_entries(len(value))}")
     return tuple(_number(v, reader, name, positive) for v in value)
+
+
+def _to_ev(value: complex, to_ev: float, reader: _Reader, name: str) -> complex:
+    """Convert an energy to eV, refusing a value that overflows on the way."""
+    z = complex(value) * to_ev
+    if not (math.isfinite(z.real) and math.isfinite(z.imag)):
+        raise reader.fail(name, f"{_show(complex(value))} is too large to convert to eV; "
+                                "expected a finite energy")
+    return z
+
+
+def _show(z: complex) -> str:
+    """A complex number for a message: ``1.5`` when real, else ``[re, im]`` as in the file."""
+    return f"{z.real:g}" if z.imag == 0 else f"[{z.real:g}, {z.imag:g}]"
+
+
+def _energies_ev(values: tuple[float, ...], to_ev: float, reader: _Reader,
+                 name: str) -> tuple[float, ...]:
+    return tuple(_to_ev(v, to_ev, reader, name).real for v in values)
 
 
 def lattice_vectors(lattice_type: str, a: float, b: float | None = None, c: float | None = None,
@@ -290,35 +341,63 @@ def _read_lattice(r: _Reader) -> tuple[str, int, np.ndarray, float]:
     if kind == "vectors":
         raw = r.raw("vectors_A")
         if not isinstance(raw, list) or not raw or len(raw) > 3:
-            raise r.fail("vectors_A", "expected 1 to 3 lattice vectors, each an array of numbers")
+            got = _entries(len(raw)) if isinstance(raw, list) else _kind(raw)
+            raise r.fail("vectors_A", "expected 1 to 3 lattice vectors, each an array of numbers, "
+                                      f"got {got}")
         dim = len(raw)
         vectors = np.array([_number_list(v, r, "vectors_A", length=dim) for v in raw])
         a = r.number("a_A", required=False, positive=True,
                      default=float(np.linalg.norm(vectors[0])))
     else:
-        consts = {k: r.number(k, positive=True) for k in keys}
+        consts = {k: r.number(k, positive=k != "gamma_deg") for k in keys}
         if kind == "oblique" and not 0.0 < consts["gamma_deg"] < 180.0:
             raise r.fail("gamma_deg", "must lie strictly between 0 and 180, got "
                                       f"{consts['gamma_deg']:g}")
         a = consts["a_A"]
         vectors = lattice_vectors(kind, a, consts.get("b_A"), consts.get("c_A"),
                                   consts.get("gamma_deg"))
-    det = float(np.linalg.det(vectors))
-    scale = float(np.prod(np.linalg.norm(vectors, axis=1)))
-    if abs(det) < 1e-6 * scale:
-        raise r.fail("", "the lattice vectors are linearly dependent (zero cell volume); "
-                         "expected independent vectors")
+    # the key to blame: the vectors themselves, the angle, or the single lattice constant
+    blame = {"vectors": "vectors_A", "oblique": "gamma_deg"}.get(kind, "a_A" if len(keys) == 1
+                                                                 else "")
+    with np.errstate(all="ignore"):
+        lengths = np.linalg.norm(vectors, axis=1)
+        det = float(np.linalg.det(vectors))
+        scale = float(np.prod(lengths))
+    if not (math.isfinite(det) and math.isfinite(scale)):
+        raise r.fail(blame, "the cell volume overflows; expected lattice lengths in Å")
+    if abs(det) < 1e-6 * scale or det == 0.0:
+        raise r.fail(blame, "the lattice vectors are linearly dependent (zero cell volume); "
+                            "expected independent vectors")
     if det < 0:
         raise r.fail("vectors_A", "the lattice vectors are left-handed (negative determinant); "
                                   "swap two vectors to make them right-handed")
+    shortest = _shortest_translation(vectors)
+    if shortest < MIN_ATOM_DISTANCE_A:
+        raise r.fail(blame, f"the shortest lattice translation is {shortest:.3g} Å, so every atom "
+                            f"would overlap its own periodic image; expected lengths in Å "
+                            f"giving at least {MIN_ATOM_DISTANCE_A} Å")
     r.finish()
+    vectors.setflags(write=False)
     return kind, dim, vectors, a
+
+
+def _image_shifts(dim: int) -> np.ndarray:
+    """Integer shifts {-1, 0, 1}^dim: the neighbouring cells searched for periodic images."""
+    return np.array(list(itertools.product((-1, 0, 1), repeat=dim)), dtype=float)
+
+
+def _shortest_translation(vectors: np.ndarray) -> float:
+    """Length of the shortest non-zero lattice vector among the neighbouring-cell shifts (Å)."""
+    shifts = _image_shifts(vectors.shape[0])
+    shifts = shifts[np.any(shifts != 0, axis=1)]
+    return float(np.min(np.linalg.norm(shifts @ vectors, axis=1)))
 
 
 def _read_atoms(raw: Any, source: str, dim: int, vectors: np.ndarray) -> tuple[Atom, ...]:
     if not isinstance(raw, list) or not raw:
-        raise InputError("expected at least one [[atoms]] entry with species and position",
-                         source, "atoms")
+        got = "an empty array" if isinstance(raw, list) else _kind(raw)
+        raise InputError("expected at least one [[atoms]] entry with species and position, got "
+                         f"{got}", source, "atoms")
     atoms = []
     for i, entry in enumerate(raw):
         if not isinstance(entry, dict):
@@ -328,14 +407,19 @@ def _read_atoms(raw: Any, source: str, dim: int, vectors: np.ndarray) -> tuple[A
         if not species.strip():
             raise r.fail("species", "must not be empty")
         pos = _number_list(r.raw("position"), r, "position", length=dim)
+        if any(abs(x) > MAX_FRACTIONAL_COORDINATE for x in pos):
+            raise r.fail("position", f"{list(pos)} is not a fractional position; expected "
+                                     "fractions of the lattice vectors (usually between 0 and 1)")
         r.finish()
         atoms.append(Atom(species, pos))
     frac = np.array([a.position_frac for a in atoms])
+    shifts = _image_shifts(dim)
     for i in range(len(atoms)):
         for j in range(i + 1, len(atoms)):
             d = frac[i] - frac[j]
             d -= np.round(d)
-            dist = float(np.linalg.norm(d @ vectors))
+            # the nearest image of a skewed cell may sit one cell beyond the rounded one
+            dist = float(np.min(np.linalg.norm((d + shifts) @ vectors, axis=1)))
             if dist < MIN_ATOM_DISTANCE_A:
                 raise InputError(f"atoms {i} and {j} are {dist:.3g} Å apart (periodic images "
                                  f"included); expected at least {MIN_ATOM_DISTANCE_A} Å",
@@ -356,6 +440,7 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
             raise r.fail("coefficients",
                          "expected an array of {miller = [...], value = ...} tables")
         coeffs: dict[tuple[int, ...], complex] = {}
+        where: dict[tuple[int, ...], int] = {}
         for i, entry in enumerate(raw):
             key = f"coefficients[{i}]"
             if not isinstance(entry, dict):
@@ -364,29 +449,42 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
             miller = e.raw("miller")
             if (not isinstance(miller, list) or len(miller) != dim
                     or any(isinstance(m, bool) or not isinstance(m, int) for m in miller)):
-                raise e.fail("miller", f"expected {dim} integers")
+                got = (f"{_entries(len(miller))} {_show_list(miller)}"
+                       if isinstance(miller, list) else _kind(miller))
+                raise e.fail("miller", f"expected {dim} integers (a Miller index of this "
+                                       f"{dim}D lattice), got {got}")
+            if any(abs(m) > MAX_MILLER_INDEX for m in miller):
+                raise e.fail("miller", f"{_show_list(miller)} is far outside any plane-wave "
+                                       "basis; expected integers of magnitude at most "
+                                       f"{MAX_MILLER_INDEX}")
             value = e.raw("value")
             if isinstance(value, list):
                 re_im = _number_list(value, e, "value", length=2)
-                z = complex(re_im[0], re_im[1]) * to_ev
+                z = _to_ev(complex(re_im[0], re_im[1]), to_ev, e, "value")
             else:
-                z = complex(_number(value, e, "value")) * to_ev
+                z = _to_ev(_number(value, e, "value"), to_ev, e, "value")
             e.finish()
             m = tuple(miller)
             if m in coeffs:
-                raise e.fail("miller", f"{list(m)} is listed twice")
+                raise e.fail("miller", f"{list(m)} is listed twice (first in "
+                                       f"coefficients[{where[m]}]); expected each G once")
+            if all(x == 0 for x in m) and abs(z.imag) > 1e-12 * max(1.0, abs(z)):
+                raise e.fail("value", "V(0) must be real (the average potential); expected a "
+                                      "real number")
             coeffs[m] = z
+            where[m] = i
         for m, z in list(coeffs.items()):
             minus = tuple(-x for x in m)
             if minus in coeffs:
                 if abs(coeffs[minus] - z.conjugate()) > 1e-9 * max(1.0, abs(z)):
-                    raise r.fail("coefficients", f"V({list(minus)}) = {coeffs[minus] / to_ev} is "
-                                 f"not the complex conjugate of V({list(m)}) = {z / to_ev}; a real "
-                                 "potential needs V(-G) = V(G)*")
+                    later = max(where[m], where[minus])
+                    raise r.fail(f"coefficients[{later}]",
+                                 f"V({list(minus)}) = {_show(coeffs[minus] / to_ev)} is not the "
+                                 f"complex conjugate of V({list(m)}) = {_show(z / to_ev)}; a real "
+                                 "potential needs V(-G) = V(G)* (give one of the two and the "
+                                 "loader completes the other)")
             else:
                 coeffs[minus] = z.conjugate()
-            if all(x == 0 for x in m) and abs(z.imag) > 1e-12:
-                raise r.fail("coefficients", "V(0) must be real")
         r.finish()
         keys = sorted(coeffs)
         return Potential(form=form, file_unit=unit, miller=tuple(keys),
@@ -394,8 +492,15 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
     shells = _number_list(r.raw("shells"), r, "shells")
     if not shells:
         raise r.fail("shells", "expected at least one |G|² shell")
-    if any(s < 0 for s in shells) or len(set(shells)) != len(shells):
-        raise r.fail("shells", "expected distinct non-negative |G|² values in units of (2π/a)²")
+    if any(s < 0 for s in shells):
+        raise r.fail("shells", f"{list(shells)} has a negative |G|²; expected non-negative "
+                               "values in units of (2π/a)²")
+    ordered = sorted(shells)
+    for lo, hi in zip(ordered, ordered[1:], strict=False):
+        if hi - lo <= SHELL_MATCH_TOLERANCE * max(hi, 1.0):
+            same = (f"|G|² = {hi:g} is listed twice" if hi == lo else
+                    f"|G|² = {lo:.12g} and {hi:.12g} match within the shell tolerance")
+            raise r.fail("shells", f"{same}; expected distinct shells")
     n = len(shells)
     if form == "symmetric-antisymmetric":
         if len(atoms) != 2:
@@ -406,16 +511,16 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
         anti = (0.0,) * n if anti is None else _number_list(anti, r, "antisymmetric", length=n)
         r.finish()
         return Potential(form=form, file_unit=unit, shells_g2=shells,
-                         symmetric_eV=tuple(v * to_ev for v in sym),
-                         antisymmetric_eV=tuple(v * to_ev for v in anti))
+                         symmetric_eV=_energies_ev(sym, to_ev, r, "symmetric"),
+                         antisymmetric_eV=_energies_ev(anti, to_ev, r, "antisymmetric"))
     species_r = r.sub("species")
     needed = {a.species for a in atoms}
     values: dict[str, tuple[float, ...]] = {}
     for name in sorted(needed):
         if not species_r.has(name):
             raise species_r.fail(name, f"missing form factors for species '{name}' (atoms list it)")
-        values[name] = tuple(v * to_ev for v in _number_list(species_r.raw(name), species_r,
-                                                             name, length=n))
+        factors = _number_list(species_r.raw(name), species_r, name, length=n)
+        values[name] = _energies_ev(factors, to_ev, species_r, name)
     species_r.finish()
     r.finish()
     return Potential(form=form, file_unit=unit, shells_g2=shells, species_eV=values)
@@ -424,24 +529,39 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
 def _read_path(r: _Reader, dim: int) -> CustomPath:
     pts_r = r.sub("points")
     points: dict[str, tuple[float, ...]] = {}
+    given: dict[str, str] = {}
     for label in list(pts_r.table):
-        points[canonical_label(label)] = _number_list(pts_r.raw(label), pts_r, label, length=dim)
+        name = canonical_label(label)
+        if not label.strip() or "|" in label:
+            raise pts_r.fail(label, "expected a non-empty label without '|' (the plot uses "
+                                    "'|' to join the labels at a jump)")
+        if name in points:
+            raise pts_r.fail(label, f"'{label}' and '{given[name]}' both name the point {name}; "
+                                    "expected each point once")
+        points[name] = _number_list(pts_r.raw(label), pts_r, label, length=dim)
+        given[name] = label
     pts_r.finish()
     raw = r.raw("legs")
     if not isinstance(raw, list) or not raw:
-        raise r.fail("legs", "expected an array of legs, each an array of at least two labels")
+        got = "an empty array" if isinstance(raw, list) else _kind(raw)
+        raise r.fail("legs", "expected an array of legs, each an array of at least two labels, "
+                             f"got {got}")
     legs = []
     for i, leg in enumerate(raw):
+        key = f"legs[{i}]"
         if not isinstance(leg, list) or len(leg) < 2 or not all(isinstance(x, str) for x in leg):
-            raise r.fail("legs", f"leg {i} must be an array of at least two labels")
+            got = (_entries(len(leg)) if isinstance(leg, list) and len(leg) < 2
+                   else _show_list(leg) if isinstance(leg, list) else _kind(leg))
+            raise r.fail(key, f"expected an array of at least two labels, got {got}")
         leg = [canonical_label(x) for x in leg]
         for label in leg:
             if label not in points:
-                raise r.fail("legs", f"label '{label}' in leg {i} is not among path.points "
-                                     f"({', '.join(points)})")
+                raise r.fail(key, f"label '{label}' is not among path.points "
+                                  f"({', '.join(points) or 'none given'})")
         for x, y in zip(leg, leg[1:], strict=False):
             if x == y:
-                raise r.fail("legs", f"leg {i} repeats '{x}' twice in a row (a zero-length step)")
+                raise r.fail(key, f"repeats '{x}' twice in a row (a zero-length step); expected "
+                                  "consecutive labels to differ")
         legs.append(tuple(leg))
     r.finish()
     return CustomPath(points, tuple(legs))
@@ -466,9 +586,15 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
     InputError
         On any missing, unknown, mistyped or non-physical value.
     """
+    if not isinstance(doc, dict):
+        raise InputError(f"expected a document of keys and tables, got {_kind(doc)}", source)
     r = _Reader(doc, source)
     name = r.string("name")
+    if not name.strip():
+        raise r.fail("name", "must not be empty; expected the material's name")
     src = r.string("source")
+    if not src.strip():
+        raise r.fail("source", "must not be empty; expected where the parameters come from")
     note = r.string("note", required=False)
     lat = r.sub("lattice")
     kind, dim, vectors, a = _read_lattice(lat)
@@ -482,8 +608,9 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
         c_ry = basis.number("cutoff_Ry", required=False, positive=True)
         if c_ev is not None and c_ry is not None:
             raise basis.fail("cutoff_Ry", "give either cutoff_eV or cutoff_Ry, not both")
-        cutoff = c_ev if c_ev is not None else (None if c_ry is None
-                                                 else c_ry * ENERGY_UNITS_TO_EV["Ry"])
+        cutoff = c_ev if c_ev is not None else (
+            None if c_ry is None else _to_ev(c_ry, ENERGY_UNITS_TO_EV["Ry"], basis,
+                                             "cutoff_Ry").real)
         n_bands = basis.integer("bands", required=False, minimum=1)
         basis.finish()
     electrons = None
@@ -518,12 +645,20 @@ def load_material(path: str | Path) -> Material:
     """
     path = Path(path)
     try:
-        text = path.read_bytes().decode("utf-8")
+        data = path.read_bytes()
     except FileNotFoundError:
         raise InputError("file not found; expected a material TOML file", str(path)) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"cannot be read as UTF-8 text ({exc.__class__.__name__})",
-                         str(path)) from None
+    except IsADirectoryError:
+        raise InputError("is a folder; expected a material TOML file", str(path)) from None
+    except OSError as exc:
+        raise InputError(f"cannot be read ({exc.strerror or exc.__class__.__name__}); expected a "
+                         "readable material TOML file", str(path)) from None
+    try:
+        text = data.decode("utf-8-sig")  # a leading byte-order mark is harmless
+    except UnicodeDecodeError as exc:
+        line = data[:exc.start].count(b"\n") + 1
+        raise InputError(f"is not UTF-8 text (invalid byte 0x{data[exc.start]:02x} on line "
+                         f"{line}); expected a UTF-8 TOML file", str(path)) from None
     try:
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:

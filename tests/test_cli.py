@@ -1,0 +1,309 @@
+"""The command line: help, `bands` outputs (image, CSV, JSON), `check`, and exit statuses.
+
+User errors exit 2 with one stderr line; internal errors exit 1 with a one-line pointer to
+``--debug``; no run leaves a temporary (dot) file in the output folder.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import io
+import json
+from pathlib import Path
+
+import numpy as np
+import pytest
+import scipy.special
+import typer
+from rich.console import Console
+
+import bandpert.cli as cli
+from bandpert.material import load_material
+from bandpert.planewave import build_model
+from bandpert.units import HBAR2_OVER_2M0_EV_A2
+
+MATERIALS = Path(__file__).resolve().parents[1] / "materials"
+CHAIN = MATERIALS / "cosine-chain.toml"
+N_K = 30
+
+
+def run(args: list[str]) -> tuple[int, str, str]:
+    """Run ``bandpert ARGS`` in-process; return (exit status, stdout, stderr)."""
+    stdout, stderr = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
+        with pytest.raises(SystemExit) as stop:
+            cli.main(args)
+    code = stop.value.code
+    return (0 if code is None else code), stdout.getvalue(), stderr.getvalue()
+
+
+def assert_user_error(code: int, err: str, *fragments: str) -> None:
+    assert code == 2, err
+    lines = err.splitlines()
+    assert len(lines) == 1, err
+    assert lines[0].startswith("bandpert: error:")
+    assert "Traceback" not in err
+    for f in fragments:
+        assert f in lines[0]
+
+
+def no_dot_files(folder: Path) -> bool:
+    return not folder.exists() or not any(p.name.startswith(".") for p in folder.iterdir())
+
+
+@pytest.fixture(autouse=True)
+def wide_console(monkeypatch):
+    """A wide, plain console so that table cells are not wrapped mid-phrase."""
+    monkeypatch.setattr(cli, "out", Console(width=200, color_system=None))
+
+
+# ---------------------------------------------------------------------------------------------
+# help
+# ---------------------------------------------------------------------------------------------
+
+COMMAND = typer.main.get_command(cli.app)
+
+#: The options each command documents (kept by hand so that a lost option is noticed).
+OPTIONS = {
+    "bands": ["--out", "--k-points", "--bands", "--cutoff-eV", "--format", "--json", "--emin",
+              "--emax", "--help"],
+    "check": ["--cutoff-eV", "--help"],
+}
+
+
+def test_app_help_lists_the_commands():
+    code, out, err = run(["--help"])
+    assert code == 0, err
+    assert "Usage" in out
+    for name in COMMAND.commands:
+        assert name in out
+    assert "--help" in out
+    assert set(COMMAND.commands) == set(OPTIONS)
+
+
+@pytest.mark.parametrize("name", sorted(OPTIONS))
+def test_command_help_mentions_every_option(name):
+    code, out, err = run([name, "--help"])
+    assert code == 0, err
+    declared = {opt for p in COMMAND.commands[name].params for opt in p.opts if opt.startswith("-")}
+    assert declared | {"--help"} == set(OPTIONS[name])
+    for opt in OPTIONS[name]:
+        assert opt in out, opt
+    assert "png" in out if name == "bands" else True
+
+
+# ---------------------------------------------------------------------------------------------
+# bands
+# ---------------------------------------------------------------------------------------------
+
+@pytest.fixture(scope="module")
+def chain_run(tmp_path_factory):
+    """One `bands` run on the cosine chain (fast: a 1D basis of about a dozen plane waves)."""
+    out_dir = tmp_path_factory.mktemp("bands")
+    code, out, err = run(["bands", str(CHAIN), "--out", str(out_dir), "--k-points", str(N_K)])
+    assert code == 0, err
+    return out_dir, out, err
+
+
+def test_bands_writes_image_csv_and_json(chain_run):
+    out_dir, out, _ = chain_run
+    names = sorted(p.name for p in out_dir.iterdir())
+    assert names == ["cosine-chain-bands.csv", "cosine-chain-bands.json",
+                     "cosine-chain-bands.png"]
+    assert (out_dir / "cosine-chain-bands.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert "cosine-chain-bands.json" in out
+    assert no_dot_files(out_dir)
+
+
+def test_bands_json_layout(chain_run):
+    out_dir, _, _ = chain_run
+    doc = json.loads((out_dir / "cosine-chain-bands.json").read_text(encoding="utf-8"))
+    assert set(doc) == {"command", "tool", "material", "settings", "results"}
+    assert doc["command"] == "bands"
+    assert doc["tool"]["name"] == "bandpert"
+    assert doc["material"]["file"] == str(CHAIN)
+    res = doc["results"]
+    for key in ("k_frac", "k_cart_invA", "path_distance_invA", "labels", "energies_eV",
+                "energy_zero_eV", "energy_zero_kind", "basis_size"):
+        assert key in res, key
+    e = np.array(res["energies_eV"])
+    n_k = len(res["k_frac"])
+    assert n_k >= N_K - 1
+    assert e.shape == (n_k, 6)  # basis.bands = 6 in cosine-chain.toml
+    assert np.array(res["k_cart_invA"]).shape == (n_k, 1)
+    assert np.all(np.diff(res["path_distance_invA"]) >= 0)
+    assert np.all(np.diff(e, axis=1) >= -1e-12)  # ascending at each k
+    assert [lab["label"] for lab in res["labels"]] == ["Γ", "X"]
+    assert res["energy_zero_kind"] == "absolute" and res["energy_zero_eV"] == 0.0
+    assert res["basis_size"] == doc["settings"]["basis_size"]
+    assert doc["settings"]["bands"] == 6
+
+
+def test_bands_json_matches_mathieu_characteristic_values(chain_run):
+    """V(x) = 2 V1 cos(2πx/a) turns the Schrödinger equation into Mathieu's equation
+    y'' + (A − 2q cos 2z) y = 0 with z = πx/a, A = E/E_R, q = V1/E_R, E_R = ħ²π²/(2 m0 a²).
+    Period-a solutions (Γ) have A = a_0, b_2, a_2; antiperiodic ones (X) have A = b_1, a_1
+    (Abramowitz & Stegun, Handbook of Mathematical Functions (1964), ch. 20)."""
+    out_dir, _, _ = chain_run
+    e = np.array(json.loads((out_dir / "cosine-chain-bands.json").read_text())["results"]
+                 ["energies_eV"])
+    a, v1 = 4.0, 1.0  # cosine-chain.toml
+    e_r = HBAR2_OVER_2M0_EV_A2 * np.pi**2 / a**2
+    q = v1 / e_r
+    gamma = [scipy.special.mathieu_a(0, q), scipy.special.mathieu_b(2, q),
+             scipy.special.mathieu_a(2, q)]
+    x = [scipy.special.mathieu_b(1, q), scipy.special.mathieu_a(1, q)]
+    # the default cutoff converges the bands to 5 meV (bandpert.bands.CONVERGENCE_TOLERANCE_EV)
+    assert e[0, :3] == pytest.approx(e_r * np.array(gamma), abs=5e-3)
+    assert e[-1, :2] == pytest.approx(e_r * np.array(x), abs=5e-3)
+
+
+def test_bands_csv_layout(chain_run):
+    out_dir, _, _ = chain_run
+    lines = (out_dir / "cosine-chain-bands.csv").read_text(encoding="utf-8").splitlines()
+    header = [ln for ln in lines if ln.startswith("#")]
+    assert lines[:len(header)] == header and len(header) >= 1
+    assert any("eV" in h for h in header) and any("1/Angstrom" in h for h in header)
+    columns = lines[len(header)].split(",")
+    assert columns[:2] == ["k_index", "path_distance_invA"]
+    assert [c for c in columns if c.startswith("band")] == [f"band{i}_eV" for i in range(1, 7)]
+    rows = np.array([[float(x) for x in ln.split(",")] for ln in lines[len(header) + 1:]])
+    doc = json.loads((out_dir / "cosine-chain-bands.json").read_text())["results"]
+    assert rows.shape == (len(doc["k_frac"]), len(columns))
+    assert rows[:, 0].tolist() == list(range(len(rows)))
+    energies = np.array(doc["energies_eV"]) - doc["energy_zero_eV"]
+    assert rows[:, -6:] == pytest.approx(energies, abs=1e-8)
+
+
+@pytest.mark.parametrize(("fmt", "magic"), [("svg", b"<svg"), ("pdf", b"%PDF")])
+def test_bands_other_image_formats(fmt, magic, tmp_path):
+    code, _, err = run(["bands", str(CHAIN), "--out", str(tmp_path), "--k-points", "10",
+                        "--format", fmt])
+    assert code == 0, err
+    image = tmp_path / f"cosine-chain-bands.{fmt}"
+    data = image.read_bytes()
+    assert (magic in data[:2000]) if fmt == "svg" else data.startswith(magic)
+    assert not (tmp_path / "cosine-chain-bands.png").exists()
+    assert no_dot_files(tmp_path)
+
+
+def test_bands_json_option_and_energy_window(tmp_path):
+    target = tmp_path / "elsewhere" / "result.json"
+    code, _, err = run(["bands", str(CHAIN), "--out", str(tmp_path / "out"), "--k-points", "10",
+                        "--json", str(target), "--emin", "-1", "--emax", "12"])
+    assert code == 0, err
+    assert json.loads(target.read_text())["command"] == "bands"
+    assert not (tmp_path / "out" / "cosine-chain-bands.json").exists()
+    assert no_dot_files(tmp_path / "out") and no_dot_files(target.parent)
+
+
+def test_bands_more_than_the_basis_is_a_user_error(tmp_path):
+    # at a 20 eV cutoff the chain (a = 4 Å, ħ²(2π/a)²/2m0 ≈ 9.4 eV) keeps G = 0, ±2π/a only
+    size = build_model(load_material(CHAIN), 20.0).size
+    assert size == 3
+    code, _, err = run(["bands", str(CHAIN), "--out", str(tmp_path), "--cutoff-eV", "20",
+                        "--bands", "5"])
+    assert_user_error(code, err, "5 bands", f"only {size} plane waves")
+    assert not any(tmp_path.iterdir())
+
+
+@pytest.mark.parametrize(("args", "fragment"), [
+    (["--k-points", "1"], "--k-points"),
+    (["--k-points", "0"], "--k-points"),
+    (["--bands", "0"], "--bands"),
+    (["--cutoff-eV", "-5"], "--cutoff-eV"),
+    (["--emin", "3", "--emax", "1"], "--emin"),
+])
+def test_bad_options_are_user_errors(args, fragment, tmp_path):
+    out_dir = tmp_path / "out"
+    code, _, err = run(["bands", str(CHAIN), "--out", str(out_dir), *args])
+    assert_user_error(code, err, fragment)
+    assert not out_dir.exists() or not any(out_dir.iterdir())
+
+
+# Usage errors (click's convention, exit status 2), whichever copy of click typer uses.
+@pytest.mark.parametrize("args", [["bands"], ["bands", str(CHAIN), "--format", "gif"],
+                                  ["bands", str(CHAIN), "--k-points", "many"], ["frobnicate"]])
+def test_usage_errors_exit_2(args, tmp_path):
+    code, out, err = run([*args, "--out", str(tmp_path / "out")] if args[0] == "bands"
+                         else args)
+    assert code == 2
+    assert "Traceback" not in out + err
+    assert not (tmp_path / "out").exists()
+
+
+def test_missing_file_is_a_user_error(tmp_path):
+    code, _, err = run(["check", str(tmp_path / "nowhere.toml")])
+    assert_user_error(code, err, "nowhere.toml", "not found")
+
+
+# ---------------------------------------------------------------------------------------------
+# internal errors
+# ---------------------------------------------------------------------------------------------
+
+def test_internal_error_exits_1_with_a_pointer(monkeypatch, tmp_path):
+    def broken(*args, **kwargs):
+        raise RuntimeError("simulated failure")
+
+    # `bands` calls the name bound in bandpert.cli (imported at module level from .bands)
+    monkeypatch.setattr(cli, "compute_band_structure", broken)
+    out_dir = tmp_path / "out"
+    code, out, err = run(["bands", str(CHAIN), "--out", str(out_dir)])
+    assert code == 1
+    lines = err.splitlines()
+    assert len(lines) == 1, err
+    assert "internal error" in lines[0] and "--debug" in lines[0]
+    assert "RuntimeError" in lines[0] and "simulated failure" in lines[0]
+    assert "Traceback" not in out + err
+    assert not out_dir.exists()
+    # with --debug the exception itself propagates (the traceback is shown)
+    with pytest.raises(RuntimeError, match="simulated failure"):
+        cli.main(["bands", str(CHAIN), "--out", str(out_dir), "--debug"])
+
+
+def test_failed_write_leaves_no_temporary_file(monkeypatch, tmp_path):
+    import matplotlib.figure
+
+    def half_written(self, path, **kwargs):
+        Path(path).write_bytes(b"\x89PNG partial")
+        raise RuntimeError("renderer crashed (simulated)")
+
+    monkeypatch.setattr(matplotlib.figure.Figure, "savefig", half_written)
+    code, _, err = run(["bands", str(CHAIN), "--out", str(tmp_path), "--k-points", "10"])
+    assert code == 1, err
+    assert "--debug" in err and len(err.splitlines()) == 1
+    assert no_dot_files(tmp_path)
+    assert not (tmp_path / "cosine-chain-bands.png").exists()
+
+
+# ---------------------------------------------------------------------------------------------
+# check
+# ---------------------------------------------------------------------------------------------
+
+def test_check_prints_lattice_and_basis(chain_run):
+    code, out, err = run(["check", str(CHAIN)])
+    assert code == 0, err
+    assert "chain (1D), a = 4 Å" in out
+    assert "(4.0000)" in out  # a1 in Å
+    # the same converged default cutoff as `bands`, hence the same basis
+    doc = json.loads((chain_run[0] / "cosine-chain-bands.json").read_text())
+    assert f"{doc['settings']['basis_size']} plane waves at cutoff" in out
+    assert "converged default" in out
+    assert "Γ–X" in out
+
+
+def test_check_with_a_given_cutoff():
+    size = build_model(load_material(CHAIN), 50.0).size
+    code, out, err = run(["check", str(CHAIN), "--cutoff-eV", "50"])
+    assert code == 0, err
+    assert f"{size} plane waves at cutoff 50.00 eV (given)" in out
+
+
+def test_check_3d_material():
+    code, out, err = run(["check", str(MATERIALS / "silicon.toml")])
+    assert code == 0, err
+    assert "fcc (3D), a = 5.43 Å" in out
+    # the diamond structure has space group Fd-3m, No. 227 (International Tables for
+    # Crystallography, Vol. A, 1983)
+    assert "227" in out
+    assert "plane waves at cutoff" in out
