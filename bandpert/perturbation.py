@@ -75,7 +75,7 @@ DEFAULT_DEGENERACY_TOL: float = 1e-8
 
 #: Coupling ratio ``|λ V_mn| / |e_m - e_n|`` above which two levels are treated together.
 #: See :func:`group_levels` for the derivation of the value from the two-level problem.
-DEFAULT_COUPLING_THRESHOLD: float = 0.25
+DEFAULT_COUPLING_THRESHOLD: float = 0.1
 
 TREATMENT_NONDEGENERATE: int = 0
 TREATMENT_SUBSPACE: int = 1
@@ -636,17 +636,20 @@ def group_levels(
 
     Groups are the connected components (transitive closure) of the links.
 
-    Choice of the default threshold (0.25). For the two-level problem
+    Choice of the default threshold (0.1). For the two-level problem
     ``[[0, λv], [λv*, Δ]]`` with :math:`r = |\lambda v|/\Delta` the exact shift of the lower
     level is :math:`\tfrac{\Delta}{2}(1 - \sqrt{1 + 4r^2}) = -\Delta(r^2 - r^4 + 2r^6 - \dots)`
     while second order gives :math:`-\Delta r^2`. The series is one in :math:`(2r)^2`, so it
     converges for :math:`r < 1/2` (exceptional points at :math:`\lambda = \pm i\Delta/(2|v|)`,
-    Kato 1966) and each further pair of orders is smaller by :math:`4r^2`. At the default
-    :math:`r = 1/4` (half the radius) the two-level second-order shift is off by 5.9 % of the
-    shift (:math:`\approx r^2` relative, :math:`\approx r^4 = 0.4\,\%` of the gap), the
-    fourth-order one by 0.7 %, and the omitted tail shrinks by a factor 4 per two orders, so
-    the next-order error estimate of :func:`perturbative_levels` is reliable. Larger values
-    (0.4 and up) approach the divergence at 0.5; smaller ones only make groups larger.
+    Kato 1966) and each further pair of orders is smaller by :math:`4r^2`. A pair left to the
+    non-degenerate series therefore costs about :math:`r^4 \Delta` at second order: at
+    :math:`r = 0.25` that is 0.4 % of the gap (20 meV for a 5 eV gap: far above the meV
+    accuracy users want from a band structure), at the default :math:`r = 0.1` it is
+    :math:`10^{-4}\Delta` (0.5 meV for 5 eV), and each further pair of orders shrinks by
+    :math:`4r^2 = 0.04`. Measured on the aluminium model (200 k-points, 6 bands, second order):
+    the share of (band, k) points within 5 meV of exact rises from 68 % at 0.25 to 80 % at 0.1,
+    and the share the error estimate can vouch for from 43 % to 58 %, at the same cost. Smaller
+    values only make groups larger.
 
     Parameters
     ----------
@@ -1138,23 +1141,37 @@ def perturbative_levels(
 #: Largest ratio per order assumed by the geometric tail of the error estimate.
 _MAX_TAIL_RATIO = 0.9
 
+#: The error estimate is this many times the change of the result from order p to p + 2.
+#: Measured on the aluminium model (200 k-points, 6 bands, second order): the plain change
+#: covers the true error on 56 % of the (band, k) points, twice the change on 99.7 %.
+ESTIMATE_SAFETY_FACTOR = 2.0
 
-def _tail_estimate(mags: FloatArray, order: int) -> FloatArray:
-    """Error estimate of a series truncated after ``order`` from term sizes ``mags[j]``.
 
-    ``(|t_{p+1}| + |t_{p+2}|) / (1 - ρ)`` with the per-order ratio
-    ``ρ = sqrt(|t_{q+2}| / |t_q|)``, ``q = max(p, 2)`` (a two-step ratio, so that vanishing
-    odd orders do not fake convergence; orders 0 and 1 are the unperturbed energy and the
-    diagonal of V and say nothing about convergence), capped at ``_MAX_TAIL_RATIO``.
+def _tail_ratio(mags: FloatArray, order: int) -> FloatArray:
+    """Per-order ratio ``ρ = sqrt(|t_{q+2}| / |t_q|)``, ``q = max(p, 2)``, capped at 0.9.
+
+    A two-step ratio, so that vanishing odd orders do not fake convergence; orders 0 and 1
+    (the unperturbed energy and the diagonal of V) say nothing about convergence.
     """
-    nxt = mags[order + 1] + mags[order + 2]
     q = max(order, 2)
     num, den = mags[q + 2], mags[q]
-    rho2 = np.full(nxt.shape, _MAX_TAIL_RATIO**2)
+    rho2 = np.full(num.shape, _MAX_TAIL_RATIO**2)
     np.divide(num, den, out=rho2, where=den > 0)
     rho2[num == 0] = 0.0
-    rho = np.sqrt(np.minimum(rho2, _MAX_TAIL_RATIO**2))
-    return nxt / (1.0 - rho)
+    return np.sqrt(np.minimum(rho2, _MAX_TAIL_RATIO**2))
+
+
+def _difference_estimate(step: FloatArray, last: FloatArray, rho: FloatArray) -> FloatArray:
+    """Error estimate of an order-p result from the two orders above it.
+
+    ``ESTIMATE_SAFETY_FACTOR``-fold (or ``1/(1 - ρ)``-fold, if larger: the geometric tail)
+    ``|E_{p+2} - E_p|``: the change of the result when two more orders are added (two, because
+    odd orders often vanish at symmetric points). ``last`` (the size of order p+2 alone) is
+    not used as a floor: on the aluminium model that floor halves the trusted points without
+    catching a single underestimate.
+    """
+    factor = np.maximum(ESTIMATE_SAFETY_FACTOR, 1.0 / (1.0 - rho))
+    return factor * step
 
 
 def _driver_chunk(
@@ -1192,7 +1209,12 @@ def _driver_chunk(
     vdiag = np.real(np.take_along_axis(vcol, targets[..., None], axis=2)[..., 0])
     coeffs = _rs_core(dinv, vcol, vdiag, lambda x: x @ vt, top, vpsi1=vpsi1)
     e_nd = et + coeffs[1 : order + 1].sum(axis=0)
-    err_nd = _tail_estimate(np.abs(coeffs), order) if estimate_error else np.full(et.shape, np.nan)
+    if estimate_error:
+        err_nd = _difference_estimate(
+            np.abs(coeffs[order + 1] + coeffs[order + 2]), np.abs(coeffs[order + 2]),
+            _tail_ratio(np.abs(coeffs), order))
+    else:
+        err_nd = np.full(et.shape, np.nan)
     ratio_nd = r1.max(axis=2)
 
     # -- stage 2: the groups of the targets (all rows at once), then their Löwdin series
@@ -1251,11 +1273,14 @@ def _driver_chunk(
             w = np.linalg.eigvalsh(series[: order + 1].sum(axis=0))
             if estimate_error:
                 norms = np.abs(np.linalg.eigvalsh(series[1:])).max(axis=-1)  # (top, G)
-                est = _tail_estimate(np.concatenate([np.zeros((1, st.size)), norms]), order)
+                norms = np.concatenate([np.zeros((1, st.size)), norms])
+                w_next = np.linalg.eigvalsh(series[: order + 3].sum(axis=0))
+                est = _difference_estimate(np.abs(w_next - w), norms[order + 2][:, None],
+                                           _tail_ratio(norms, order)[:, None]).ravel()
             else:
-                est = np.full(st.size, np.nan)
+                est = np.full(w.size, np.nan)
             cand.append(
-                (np.repeat(grow, g), w.ravel(), np.repeat(est, g), np.repeat(outside, g),
+                (np.repeat(grow, g), w.ravel(), est, np.repeat(outside, g),
                  np.full(w.size, TREATMENT_SUBSPACE), np.full(w.size, g, dtype=np.intp))
             )
     crow, ce, cerr, crat, ctr, cg = (np.concatenate(x) for x in zip(*cand, strict=True))

@@ -474,21 +474,25 @@ def test_group_levels_indirect_coupling():
 
 
 def test_default_threshold_two_level_claim():
-    # docstring claim of group_levels, from the two-level closed form: at r = 0.25 the
-    # second-order shift is 5.9 % off, the fourth-order one 0.7 %
+    # docstring claim of group_levels, from the two-level closed form
+    # E = Δ/2 (1 - sqrt(1 + 4r²)) (any QM text, e.g. Sakurai & Napolitano 2011, §5.1): at the
+    # default r = 0.1 second order is off by about r⁴Δ = 1e-4 Δ (1 % of the shift) and fourth
+    # order by about 2 r⁶ Δ
     delta = 1.0
     r = pt.DEFAULT_COUPLING_THRESHOLD
+    assert r == 0.1
     e0 = np.array([0.0, delta])
     v = np.array([[0.0, r * delta], [r * delta, 0.0]])
     exact = delta / 2 * (1 - np.sqrt(1 + 4 * r**2))
-    rel = []
+    errors = []
     for order in (2, 4):
         res = pt.perturbative_levels(e0, v, 1, order=order)
         assert res.treatment[0] == pt.TREATMENT_NONDEGENERATE  # ratio equal to threshold
-        rel.append(abs(res.energies[0] - exact) / abs(exact))
-        assert abs(res.energies[0] - exact) <= res.error_estimate[0]
-    assert rel[0] == pytest.approx(0.059, abs=0.001)
-    assert rel[1] == pytest.approx(0.007, abs=0.001)
+        errors.append(abs(res.energies[0] - exact))
+        assert errors[-1] <= res.error_estimate[0]
+    assert errors[0] == pytest.approx(r**4 * delta, rel=0.05)
+    assert errors[0] / abs(exact) == pytest.approx(0.0099, abs=0.0005)
+    assert errors[1] == pytest.approx(2 * r**6 * delta, rel=0.1)
 
 
 # --------------------------------------------------------------------------------------------
@@ -544,16 +548,19 @@ def test_driver_batched_free_electron():
 
 def test_driver_subspace_estimate_definition():
     # internal consistency: the driver's subspace energies and error estimate are those of
-    # effective_hamiltonian_series for the same group, ε = (t3 + t4)/(1 - ρ), ρ = sqrt(t4/t2)
+    # effective_hamiltonian_series for the same group, ε = max(2, 1/(1 - ρ)) |E(4) - E(2)|
+    # per eigenvalue, ρ = sqrt(t4/t2) with t_j the spectral norm of the order-j term
     rng = np.random.default_rng(13)
     e0 = np.array([0.0, 1.0, 1.04, 1.1, 2.5, 3.0, 3.2, 4.0, 5.0])
     v = random_hermitian(rng, e0.size, 0.05)
-    res = pt.perturbative_levels(e0, v, 4, order=2)
+    res = pt.perturbative_levels(e0, v, 4, order=2, coupling_threshold=0.25)
     assert list(res.treatment) == [0, 1, 1, 1]
     series = pt.effective_hamiltonian_series(e0, v, [1, 2, 3], 4)
     t = [np.linalg.norm(h, 2) for h in series]
     rho = min(0.9, np.sqrt(t[4] / t[2]))
-    np.testing.assert_allclose(res.error_estimate[1:], (t[3] + t[4]) / (1 - rho), rtol=1e-10)
+    step = np.abs(np.linalg.eigvalsh(series.sum(0)) - np.linalg.eigvalsh(series[:3].sum(0)))
+    np.testing.assert_allclose(res.error_estimate[1:], max(2.0, 1 / (1 - rho)) * step,
+                               rtol=1e-10)
     np.testing.assert_allclose(res.energies[1:], np.linalg.eigvalsh(series[:3].sum(0)),
                                atol=1e-13)
     # the same rows computed along the two internal routes (with and without the grouping
@@ -574,7 +581,7 @@ def test_driver_group_reaching_outside_window():
     v = np.zeros((5, 5))
     v[2, 3] = v[3, 2] = 0.1
     v[0, 4] = v[4, 0] = 0.05
-    res = pt.perturbative_levels(e0, v, 3, buffer_levels=0, order=2)
+    res = pt.perturbative_levels(e0, v, 3, buffer_levels=0, order=2, coupling_threshold=0.25)
     np.testing.assert_allclose(res.energies, exact_lowest(e0, v, 3), atol=1e-6)
     assert list(res.treatment) == [0, 0, 1]
     assert res.group_size[2] == 2
@@ -586,7 +593,7 @@ def test_driver_group_reaching_outside_window():
     v[2, 0] = v[0, 2] = 0.3
     v[3, 4] = v[4, 3] = 0.065
     exact = exact_lowest(e0, v, 3)
-    res = pt.perturbative_levels(e0, v, 3, buffer_levels=1, order=2)
+    res = pt.perturbative_levels(e0, v, 3, buffer_levels=1, order=2, coupling_threshold=0.25)
     assert np.all(res.treatment == pt.TREATMENT_NONDEGENERATE)
     np.testing.assert_allclose(res.energies, exact, atol=5e-3)
     unbuffered = pt.perturbative_levels(e0, v, 3, buffer_levels=0, order=2)
@@ -600,7 +607,7 @@ def test_driver_coupling_ratios():
     v = np.zeros((4, 4))
     for (i, j), x in {(0, 1): 0.1, (1, 2): 0.05, (2, 3): 0.2, (0, 3): 0.15}.items():
         v[i, j] = v[j, i] = x
-    res = pt.perturbative_levels(e0, v, 3, order=2)
+    res = pt.perturbative_levels(e0, v, 3, order=2, coupling_threshold=0.25)
     assert list(res.treatment) == [0, 1, 1]
     np.testing.assert_allclose(res.max_coupling_ratio, [0.1, 0.2 / 1.98, 0.2 / 1.98])
     err = np.abs(res.energies - exact_lowest(e0, v, 3))
@@ -700,7 +707,7 @@ def test_property_first_order_degenerate_block(g, n_other, seed, cplx):
     rng = np.random.default_rng(seed)
     e0 = np.concatenate([np.full(g, 1.0), 3.0 + 2.0 * np.arange(n_other)])
     v = random_hermitian(rng, e0.size, 0.1, cplx)
-    res = pt.perturbative_levels(e0, v, g, order=1)
+    res = pt.perturbative_levels(e0, v, g, order=1, coupling_threshold=0.25)
     block = np.linalg.eigvalsh(np.diag(e0[:g]) + v[:g, :g])
     np.testing.assert_allclose(res.energies, block, atol=1e-12)
     assert np.all(res.treatment == pt.TREATMENT_SUBSPACE)
