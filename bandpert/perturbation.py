@@ -51,6 +51,7 @@ from scipy.interpolate import pade
 __all__ = [
     "DEFAULT_COUPLING_THRESHOLD",
     "DEFAULT_DEGENERACY_TOL",
+    "DEFAULT_MAX_SUBSPACE",
     "TREATMENT_NAMES",
     "TREATMENT_NONDEGENERATE",
     "TREATMENT_SUBSPACE",
@@ -68,6 +69,7 @@ __all__ = [
     "rs_state_series",
     "second_order_shifts",
     "subspace_levels",
+    "threshold_ladder",
 ]
 
 #: Absolute tolerance (unit of ``e0``) below which two unperturbed energies count as equal.
@@ -76,6 +78,12 @@ DEFAULT_DEGENERACY_TOL: float = 1e-8
 #: Coupling ratio ``|λ V_mn| / |e_m - e_n|`` above which two levels are treated together.
 #: See :func:`group_levels` for the derivation of the value from the two-level problem.
 DEFAULT_COUPLING_THRESHOLD: float = 0.1
+
+#: Default cap on the levels held by the groups of one row (see ``perturbative_levels``).
+DEFAULT_MAX_SUBSPACE: int = 48
+
+#: Thresholds tried, in order, when the groups of a row outgrow ``max_subspace``.
+THRESHOLD_LADDER_STEPS: tuple[float, ...] = (0.25, 0.45)
 
 TREATMENT_NONDEGENERATE: int = 0
 TREATMENT_SUBSPACE: int = 1
@@ -559,8 +567,13 @@ def _grow_groups(
     tol: float,
     thr: float,
     indirect: bool,
-) -> tuple[NDArray[np.intp], list[tuple[NDArray, ...]]]:
+    max_members: int | None = None,
+) -> tuple[NDArray[np.intp], list[tuple[NDArray, ...]], NDArray[np.bool_]]:
     """Connected components (per batch row) reached from the seed levels; -1 elsewhere.
+
+    With ``max_members``, a row stops growing once its seeds and the levels they reach would
+    exceed that many; such rows are flagged in the third return value (their groups are
+    then incomplete and the caller must redo them).
 
     ``join[i]`` are the links of seed ``(rows[i], levels[i])``. Levels reached for the first
     time get their own links computed (breadth first, all rows at once); components are then
@@ -575,6 +588,16 @@ def _grow_groups(
     keys = rows[p] * n + m
     new = np.unique(keys[~in_set.ravel()[keys]])
     steps: list[tuple[NDArray, ...]] = []
+    overflow = np.zeros(c, dtype=bool)
+
+    def capped(new: NDArray[np.intp]) -> NDArray[np.intp]:
+        if max_members is None or not new.size:
+            return new
+        count = in_set.sum(axis=1) + np.bincount(new // n, minlength=c)
+        overflow[count > max_members] = True
+        return new[~overflow[new // n]]
+
+    new = capped(new)
     while new.size:
         fr, fm = new // n, new % n
         in_set[fr, fm] = True
@@ -585,7 +608,7 @@ def _grow_groups(
         es.append(fm[p])
         ed.append(m)
         keys = fr[p] * n + m
-        new = np.unique(keys[~in_set.ravel()[keys]])
+        new = capped(np.unique(keys[~in_set.ravel()[keys]]))
     r, s, t = np.concatenate(er), np.concatenate(es), np.concatenate(ed)
     lab = np.broadcast_to(np.arange(n), (c, n)).copy()
     while r.size:
@@ -595,7 +618,7 @@ def _grow_groups(
         np.minimum.at(lab, (r, s), low)
         np.minimum.at(lab, (r, t), low)
     lab[~in_set] = -1
-    return lab, steps
+    return lab, steps, overflow
 
 
 def _relabel(labels: NDArray[np.intp]) -> NDArray[np.intp]:
@@ -689,7 +712,7 @@ def group_levels(
         rows = np.zeros(seeds.size, dtype=np.intp)
         ek = e2[k : k + 1]
         join = _link_pairs(ek, vk, rows, seeds, degeneracy_tol, coupling_threshold, indirect)[0]
-        labels, _ = _grow_groups(
+        labels, _, _ = _grow_groups(
             ek, vk, rows, seeds, join, degeneracy_tol, coupling_threshold, indirect
         )
         out[k] = _relabel(labels[0])
@@ -1009,6 +1032,12 @@ class PerturbedLevels:
         Size of the next two orders, see :func:`perturbative_levels`.
     group_size : ndarray of int
         Number of unperturbed levels in the level's group (1 for non-degenerate treatment).
+    origin : ndarray of int
+        Index (into the row of ``e0``) of the unperturbed level a result comes from; for a
+        subspace result, the lowest-index member of its group.
+    threshold : ndarray of float, shape (n_k,) (a float for an unbatched call)
+        Coupling threshold actually used per row (see ``max_subspace`` of
+        :func:`perturbative_levels`).
     order : int
         Perturbation order used.
     """
@@ -1018,6 +1047,8 @@ class PerturbedLevels:
     max_coupling_ratio: FloatArray
     error_estimate: FloatArray
     group_size: NDArray[np.intp]
+    origin: NDArray[np.intp]
+    threshold: FloatArray
     order: int
 
 
@@ -1034,6 +1065,7 @@ def perturbative_levels(
     indirect: bool = True,
     estimate_error: bool = True,
     chunk_size: int | None = None,
+    max_subspace: int | None = DEFAULT_MAX_SUBSPACE,
 ) -> PerturbedLevels:
     r"""Lowest perturbative levels of many spectra sharing one perturbation.
 
@@ -1098,6 +1130,13 @@ def perturbative_levels(
         Compute the error estimate (default). With False the series stop at order ``p``,
         ``error_estimate`` is NaN, and at ``p = 2`` with ``indirect=False`` no product with
         ``V`` is needed at all (the fastest mode).
+    max_subspace : int or None
+        Largest number of unperturbed levels the groups of one row may hold together. A
+        subspace that grows to a large part of the basis is no longer perturbation theory (it
+        is exact diagonalisation of a big block, and slower): where a row's groups would exceed
+        this, the row is redone with the threshold raised along :func:`threshold_ladder`
+        (the last step is not capped). The threshold used per row is returned. ``None``
+        disables the cap.
     chunk_size : int, optional
         Rows processed at once (memory ~ chunk * (n_levels + buffer) * n numbers; default
         keeps it near 2e6).
@@ -1124,18 +1163,34 @@ def perturbative_levels(
     ratio = np.empty((n_k, n_levels))
     error = np.empty((n_k, n_levels))
     gsize = np.empty((n_k, n_levels), dtype=np.intp)
-    outs = (energies, treatment, ratio, error, gsize)
+    origin = np.empty((n_k, n_levels), dtype=np.intp)
+    outs = (energies, treatment, ratio, error, gsize, origin)
     chunk = chunk_size or max(1, 2_000_000 // (n_t * n))
-    for start in range(0, n_k, chunk):
-        sl = slice(start, min(n_k, start + chunk))
-        _driver_chunk(
-            e2[sl], vv if vv.ndim == 2 else vv[sl], n_levels, n_t, order,
-            coupling_threshold, degeneracy_tol, indirect, estimate_error,
-            tuple(o[sl] for o in outs),
+    ladder = threshold_ladder(coupling_threshold) if max_subspace else [coupling_threshold]
+    used = np.empty(n_k)
+
+    def run(rows: NDArray[np.intp], thr: float, cap: int | None) -> NDArray[np.intp]:
+        part = tuple(np.empty((rows.size, n_levels), dtype=o.dtype) for o in outs)
+        over = _driver_chunk(
+            e2[rows], vv if vv.ndim == 2 else vv[rows], n_levels, n_t, order, thr,
+            degeneracy_tol, indirect, estimate_error, part, cap,
         )
+        for o, q in zip(outs, part, strict=True):
+            o[rows] = q
+        used[rows] = thr
+        return rows[over]
+
+    for start in range(0, n_k, chunk):
+        rows = np.arange(start, min(n_k, start + chunk))
+        for step, thr in enumerate(ladder):
+            last = step == len(ladder) - 1
+            rows = run(rows, thr, None if last else max_subspace)
+            if not rows.size:
+                break
     if not batched:
         outs = tuple(o[0] for o in outs)
-    return PerturbedLevels(*outs, order=order)
+        used = used[0]
+    return PerturbedLevels(*outs, threshold=used, order=order)
 
 
 #: Largest ratio per order assumed by the geometric tail of the error estimate.
@@ -1174,6 +1229,12 @@ def _difference_estimate(step: FloatArray, last: FloatArray, rho: FloatArray) ->
     return factor * step
 
 
+def threshold_ladder(coupling_threshold: float) -> list[float]:
+    """The thresholds tried in turn: the given one, then the larger steps of
+    :data:`THRESHOLD_LADDER_STEPS`."""
+    return [coupling_threshold] + [t for t in THRESHOLD_LADDER_STEPS if t > coupling_threshold]
+
+
 def _driver_chunk(
     ec: FloatArray,
     vv: NDArray,
@@ -1185,7 +1246,8 @@ def _driver_chunk(
     indirect: bool,
     estimate_error: bool,
     outs: tuple[NDArray, ...],
-) -> None:
+    max_members: int | None = None,
+) -> NDArray[np.bool_]:
     c, n = ec.shape
     # -- stage 1, vectorised over rows and targets: links and the RS series of every target
     targets = np.argsort(ec, axis=1, kind="stable")[:, :n_t]
@@ -1219,9 +1281,11 @@ def _driver_chunk(
 
     # -- stage 2: the groups of the targets (all rows at once), then their Löwdin series
     rows = np.repeat(np.arange(c), n_t)
-    lab, steps = _grow_groups(
-        ec, vv, rows, targets.ravel(), join.reshape(c * n_t, n), tol, thr, indirect
+    lab, steps, overflow = _grow_groups(
+        ec, vv, rows, targets.ravel(), join.reshape(c * n_t, n), tol, thr, indirect,
+        max_members,
     )
+    lab[overflow] = -1  # incomplete groups: the caller redoes these rows, skip their work
     # V ψ¹ of every member is known from the grouping when the indirect rule ran: index it
     reuse = indirect and vpsi1 is not None and top >= 3
     if reuse:
@@ -1247,7 +1311,8 @@ def _driver_chunk(
     cr, ci = np.nonzero(single)
     cand = [
         (cr, e_nd[cr, ci], err_nd[cr, ci], ratio_nd[cr, ci],
-         np.full(cr.size, TREATMENT_NONDEGENERATE), np.ones(cr.size, dtype=np.intp))
+         np.full(cr.size, TREATMENT_NONDEGENERATE), np.ones(cr.size, dtype=np.intp),
+         targets[cr, ci])
     ]
     srt = np.argsort(gkey, kind="stable")
     starts = np.searchsorted(gkey[srt], uniq)
@@ -1281,17 +1346,19 @@ def _driver_chunk(
                 est = np.full(w.size, np.nan)
             cand.append(
                 (np.repeat(grow, g), w.ravel(), est, np.repeat(outside, g),
-                 np.full(w.size, TREATMENT_SUBSPACE), np.full(w.size, g, dtype=np.intp))
+                 np.full(w.size, TREATMENT_SUBSPACE), np.full(w.size, g, dtype=np.intp),
+                 np.repeat(members.min(axis=1), g))
             )
-    crow, ce, cerr, crat, ctr, cg = (np.concatenate(x) for x in zip(*cand, strict=True))
+    crow, ce, cerr, crat, ctr, cg, co = (np.concatenate(x) for x in zip(*cand, strict=True))
     # -- keep the n_levels lowest candidates per row, ascending
     pick = np.lexsort((ce, crow))
     crow = crow[pick]
     rank = np.arange(crow.size) - np.searchsorted(crow, crow)
     keep = rank < n_levels
     at = (crow[keep], rank[keep])
-    for out, val in zip(outs, (ce, ctr, crat, cerr, cg), strict=True):
+    for out, val in zip(outs, (ce, ctr, crat, cerr, cg, co), strict=True):
         out[at] = val[pick][keep]
+    return overflow
 
 
 # --------------------------------------------------------------------------------------------
@@ -1431,6 +1498,7 @@ def level_convergence_radius(
     *,
     degeneracy_tol: float = DEFAULT_DEGENERACY_TOL,
     method: str = "root",
+    subspace: ArrayLike | None = None,
 ) -> float:
     r"""Convergence radius in λ of the perturbation series of one level of ``H0 + λV``.
 
@@ -1457,6 +1525,9 @@ def level_convergence_radius(
     degeneracy_tol : float
     method : {"root", "pade"}
         See :func:`convergence_radius`.
+    subspace : array_like of int, optional
+        The group the level is treated in (e.g. from :func:`group_levels`, which also joins
+        strongly coupled levels); default: the levels degenerate with it.
 
     Returns
     -------
@@ -1465,7 +1536,12 @@ def level_convergence_radius(
     e, vv = _single(e0, v, 1.0)
     if not 0 <= index < e.size:
         raise ValueError(f"index {index} out of range for {e.size} levels")
-    group = np.flatnonzero(np.abs(e - e[index]) <= degeneracy_tol)
+    if subspace is None:
+        group = np.flatnonzero(np.abs(e - e[index]) <= degeneracy_tol)
+    else:
+        group = np.unique(np.asarray(subspace, dtype=np.intp))
+        if index not in group:
+            raise ValueError("subspace must contain index")
     if group.size == 1:
         coeffs = rs_energy_series(e, vv, index, max_order, degeneracy_tol=degeneracy_tol)
         return convergence_radius(coeffs, method=method)
