@@ -22,6 +22,14 @@ from .lattice import (
     standard_path,
 )
 from .material import Material
+from .perturbation import perturbative_levels
+from .perturbative_bands import (
+    Comparison,
+    PerturbationSettings,
+    PerturbativeBands,
+    compare,
+    perturbative_bands,
+)
 from .planewave import PlaneWaveModel, build_model
 from .units import HBAR2_OVER_2M0_EV_A2
 
@@ -239,7 +247,7 @@ def band_edges(energies_eV: np.ndarray, n_valence_bands: int) -> BandEdges | Non
 
 @dataclass(frozen=True)
 class BandStructure:
-    """Exact bands of a plane-wave model along a path.
+    """Bands of a plane-wave model along a path: exact, perturbative, or both.
 
     Attributes
     ----------
@@ -247,35 +255,91 @@ class BandStructure:
     symmetry : Symmetry
     path : KPath
     model : PlaneWaveModel
-    energies_eV : numpy.ndarray
-        (n_k, n_bands) absolute energies (the model's zero, V(G=0) as given).
+    energies_eV : numpy.ndarray or None
+        (n_k, n_bands) exact absolute energies (the model's zero, V(G=0) as given); None when
+        the exact diagonalisation was skipped.
     energy_zero_eV : float
-        Reference used for display: subtract it from ``energies_eV``.
+        Reference used for display: subtract it from the absolute energies.
     energy_zero_kind : str
         "valence-band maximum", "Fermi level" or "absolute".
     edges : BandEdges or None
         Semiconductor edges (absolute energies), None for a metal or without an electron count.
+    perturbative : PerturbativeBands or None
+        Perturbative bands at the same k-points, if asked for.
+    comparison : Comparison or None
+        Perturbative against exact, when both were computed.
     """
 
     material: Material
     symmetry: Symmetry
     path: KPath
     model: PlaneWaveModel
-    energies_eV: np.ndarray
+    energies_eV: np.ndarray | None
     energy_zero_eV: float
     energy_zero_kind: str
     edges: BandEdges | None
+    perturbative: PerturbativeBands | None = None
+    comparison: Comparison | None = None
+
+    @property
+    def reference_energies_eV(self) -> np.ndarray:
+        """The exact energies, or the perturbative ones when the exact ones were skipped."""
+        if self.energies_eV is not None:
+            return self.energies_eV
+        return self.perturbative.energies_eV
 
     @property
     def relative_energies_eV(self) -> np.ndarray:
-        """Energies measured from the energy zero."""
-        return self.energies_eV - self.energy_zero_eV
+        """Reference energies measured from the energy zero."""
+        return self.reference_energies_eV - self.energy_zero_eV
+
+    @property
+    def n_bands(self) -> int:
+        """Bands per k-point."""
+        return int(self.reference_energies_eV.shape[1])
+
+
+def energy_reference(material: Material, path_energies_eV: np.ndarray,
+                     mesh_energies: Callable[[np.ndarray, int], np.ndarray],
+                     fermi_mesh: int | None = None) -> tuple[float, str, BandEdges | None]:
+    """Energy zero for display: valence-band maximum, Fermi level, or none.
+
+    With ``electrons.valence`` given and even, a gap on the path between the occupied and
+    empty bands makes the crystal a semiconductor (zero at the valence maximum); otherwise it
+    is a metal and the zero is the Fermi level on a uniform mesh (:func:`fermi_level`).
+
+    Parameters
+    ----------
+    material : Material
+    path_energies_eV : numpy.ndarray
+        (n_k, n_bands) absolute energies on the path.
+    mesh_energies : callable
+        ``mesh_energies(k_cart_invA, n_bands)`` → (n_mesh, n_bands) energies on the mesh.
+    fermi_mesh : int, optional
+        Mesh points per axis (default 24 in 3D, 60 in 2D, 600 in 1D).
+
+    Returns
+    -------
+    zero_eV, kind, edges
+    """
+    n_el = material.valence_electrons
+    if n_el is None:
+        return 0.0, "absolute", None
+    edges = band_edges(path_energies_eV, n_el // 2) if n_el % 2 == 0 else None
+    if edges is not None:
+        return edges.valence_max_eV, "valence-band maximum", edges
+    mesh = fermi_mesh or {1: 600, 2: 60, 3: 24}[material.dimension]
+    k_frac, w = uniform_mesh(material, mesh)
+    b = reciprocal_vectors(material.vectors_A)
+    e_mesh = mesh_energies(k_frac @ b, n_el // 2 + 4)
+    return fermi_level(e_mesh, w, n_el), "Fermi level", None
 
 
 def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | None = None,
                            cutoff_eV: float | None = None, fermi_mesh: int | None = None,
-                           progress: Progress | None = None) -> BandStructure:
-    """Material → exact bands along its standard (or custom) path.
+                           progress: Progress | None = None, exact: bool = True,
+                           perturbation: PerturbationSettings | None = None) -> BandStructure:
+    """Material → bands along its standard (or custom) path: exact and/or perturbative.
 
     Parameters
     ----------
@@ -287,10 +351,13 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     cutoff_eV : float, optional
         Overrides the file's cutoff; without either, :func:`converged_cutoff` chooses one.
     fermi_mesh : int, optional
-        k-points per axis of the uniform mesh for a metal's Fermi level (default 24 in 3D,
-        60 in 2D, 600 in 1D).
+        k-points per axis of the uniform mesh for a metal's Fermi level.
     progress : callable, optional
         ``progress(done, total)`` for the path diagonalisation.
+    exact : bool
+        Diagonalise H(k) exactly (default). Without it the perturbative bands set the zero.
+    perturbation : PerturbationSettings, optional
+        Also compute perturbative bands (H0 = kinetic energy, V = crystal potential).
 
     Returns
     -------
@@ -298,25 +365,32 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     """
     if n_k < 2:
         raise InputError(f"expected at least 2 k-points, got {n_k}", key="k-points")
+    if not exact and perturbation is None:
+        raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
+                         "bands were asked for", key="--no-exact")
     nb = default_bands(material) if n_bands is None else n_bands
     cutoff = cutoff_eV or material.cutoff_eV or converged_cutoff(material, nb)
     model = build_model(material, cutoff)
     points, legs = standard_path(material)
     path = sample_path(model.reciprocal_invA, points, legs, n_k)
-    energies = exact_energies(model, path.k_cart_invA, nb, progress)
-    zero, kind, edges = 0.0, "absolute", None
-    n_el = material.valence_electrons
-    if n_el is not None:
-        if n_el % 2 == 0:
-            edges = band_edges(energies, n_el // 2)
-        if edges is not None:
-            zero, kind = edges.valence_max_eV, "valence-band maximum"
-        else:
-            mesh = fermi_mesh or {1: 600, 2: 60, 3: 24}[material.dimension]
-            k_frac, w = uniform_mesh(material, mesh)
-            n_mesh_bands = min(model.size, n_el // 2 + 4)
-            e_mesh = exact_energies(model, k_frac @ model.reciprocal_invA, n_mesh_bands)
-            zero, kind = fermi_level(e_mesh, w, n_el), "Fermi level"
+    energies = exact_energies(model, path.k_cart_invA, nb, progress) if exact else None
+    pert = None
+    if perturbation is not None:
+        pert = perturbative_bands(model, path.k_cart_invA, nb, perturbation, path.label_indices)
+
+    def mesh_energies(k_cart: np.ndarray, n: int) -> np.ndarray:
+        n = min(n, model.size)
+        if exact:
+            return exact_energies(model, k_cart, n)
+        return perturbative_levels(model.kinetic_eV(k_cart), model.potential_eV, n,
+                                   lam=perturbation.lam, order=perturbation.order,
+                                   coupling_threshold=perturbation.coupling_threshold,
+                                   estimate_error=False).energies
+
+    reference = energies if energies is not None else pert.energies_eV
+    zero, kind, edges = energy_reference(material, reference, mesh_energies, fermi_mesh)
     return BandStructure(material=material, symmetry=crystal_symmetry(material), path=path,
                          model=model, energies_eV=energies, energy_zero_eV=float(zero),
-                         energy_zero_kind=kind, edges=edges)
+                         energy_zero_kind=kind, edges=edges, perturbative=pert,
+                         comparison=None if (energies is None or pert is None)
+                         else compare(energies, pert))

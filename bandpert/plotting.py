@@ -15,6 +15,10 @@ from .bands import BandStructure  # noqa: E402
 
 EXACT_COLOUR = "#1f3a5f"
 GAP_COLOUR = "#f2c14e"
+NONDEGENERATE_COLOUR = "#e07a1f"
+SUBSPACE_COLOUR = "#2a9d8f"
+TRUSTED_COLOUR = "#8fc99a"
+UNTRUSTED_COLOUR = "#d9626b"
 
 
 def draw_path_axes(ax: Axes, distance: np.ndarray, label_indices: np.ndarray,
@@ -59,10 +63,21 @@ def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None 
     -------
     matplotlib.figure.Figure
     """
+    if bs.perturbative is not None:
+        return comparison_figure(bs, energy_window_eV)
     fig, ax = plt.subplots(figsize=(6.4, 4.8), constrained_layout=True)
+    _draw_bands_panel(ax, bs, energy_window_eV)
+    _footer(fig, bs)
+    return fig
+
+
+def _draw_bands_panel(ax: Axes, bs: BandStructure,
+                      energy_window_eV: tuple[float, float] | None) -> None:
     x = bs.path.distance_invA
     e = bs.relative_energies_eV
-    draw_leg_lines(ax, x, e, bs.path.leg_starts, color=EXACT_COLOUR, lw=1.3)
+    if bs.energies_eV is not None:
+        draw_leg_lines(ax, x, e, bs.path.leg_starts, color=EXACT_COLOUR, lw=1.3,
+                       label="exact (diagonalisation)")
     draw_path_axes(ax, x, bs.path.label_indices, bs.path.labels)
     zero_name = {"valence-band maximum": "valence-band maximum", "Fermi level": "$E_F$",
                  "absolute": "model zero"}[bs.energy_zero_kind]
@@ -87,11 +102,97 @@ def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None 
         ax.set_ylim(e.min() - 0.04 * span, e.max() + 0.04 * span)
     ax.set_ylabel(f"Energy − {zero_name} (eV)" if bs.energy_zero_kind != "absolute"
                   else "Energy (eV)")
-    ax.set_xlabel("Wave vector along the path")
     ax.set_title(bs.material.name, fontsize=11)
+    if bs.perturbative is None:
+        ax.set_xlabel("Wave vector along the path")
+
+
+def _footer(fig: Figure, bs: BandStructure) -> None:
     fig.text(0.01, 0.002, _wrap(f"Parameters: {bs.material.source}"), fontsize=6, color="0.35",
              va="bottom")
     fig.get_layout_engine().set(rect=(0, 0.05, 1, 0.95))
+
+
+def comparison_figure(bs: BandStructure,
+                      energy_window_eV: tuple[float, float] | None = None) -> Figure:
+    """Perturbative bands beside exact bands, with the error panel and the validity map.
+
+    Top: exact bands as lines; perturbative energies as markers, orange dots where the
+    non-degenerate (Rayleigh–Schrödinger) series was used and teal diamonds where a subspace
+    (Löwdin) treatment was used; hollow markers where the point is not trustworthy. Middle:
+    on a log scale in meV, the true error |E_pert − E_exact| (solid, when the exact bands were
+    computed) and the error estimate (dotted) of every band, with the tolerance. Bottom: the
+    validity map, one row per band, green where trustworthy and red where not.
+
+    Parameters
+    ----------
+    bs : BandStructure
+        Must carry perturbative bands.
+    energy_window_eV : (float, float), optional
+        Energy limits of the top panel (relative energies).
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    pb = bs.perturbative
+    fig, (ax, ax_err, ax_map) = plt.subplots(
+        3, 1, figsize=(6.8, 7.6), sharex=True, constrained_layout=True,
+        gridspec_kw={"height_ratios": [3.2, 1.5, 0.55]})
+    _draw_bands_panel(ax, bs, energy_window_eV)
+    x = bs.path.distance_invA
+    e_pert = pb.energies_eV - bs.energy_zero_eV
+    n_k, n_b = e_pert.shape
+    stride = max(1, n_k // 70)
+    xs = np.broadcast_to(x[:, None], e_pert.shape)
+    sub = np.zeros(e_pert.shape, dtype=bool)
+    sub[::stride] = True
+    for code, colour, marker, name in ((0, NONDEGENERATE_COLOUR, "o", "non-degenerate"),
+                                       (1, SUBSPACE_COLOUR, "D", "subspace (Löwdin)")):
+        for trusted, face, suffix in ((True, colour, ""), (False, "none", ", not trustworthy")):
+            m = sub & (pb.treatment == code) & (pb.trustworthy == trusted)
+            if m.any():
+                ax.scatter(xs[m], e_pert[m], s=9, marker=marker, facecolors=face,
+                           edgecolors=colour, linewidths=0.7, zorder=4,
+                           label=f"order {pb.settings.order}, {name}{suffix}")
+    ax.legend(fontsize=6.5, loc="upper right", framealpha=0.9, ncol=1)
+    # error panel
+    tol_meV = pb.settings.tolerance_eV * 1e3
+    floor = 1e-4
+    for b in range(n_b):
+        est = np.maximum(pb.error_estimate_eV[:, b] * 1e3, floor)
+        ax_err.plot(x, est, ls=":", lw=0.8, color="0.45",
+                    label="error estimate" if b == 0 else "_nolegend_")
+        if bs.comparison is not None:
+            err = np.maximum(bs.comparison.abs_error_eV[:, b] * 1e3, floor)
+            ax_err.plot(x, err, lw=0.9, color=plt.cm.viridis(b / max(n_b - 1, 1)),
+                        label="|perturbative − exact|" if b == 0 else "_nolegend_")
+    ax_err.axhline(tol_meV, color=UNTRUSTED_COLOUR, lw=1.0, ls="--",
+                   label=f"tolerance {tol_meV:g} meV")
+    ax_err.set_yscale("log")
+    ax_err.set_ylim(floor, None)
+    ax_err.set_ylabel("error (meV)")
+    ax_err.legend(fontsize=6.5, loc="upper right", ncol=3, framealpha=0.9)
+    for xv in x[bs.path.label_indices][1:-1]:
+        ax_err.axvline(xv, color="0.6", lw=0.6, zorder=0)
+    # validity map
+    from matplotlib.colors import ListedColormap
+
+    edges_x = np.concatenate([[x[0]], (x[1:] + x[:-1]) / 2, [x[-1]]])
+    ax_map.pcolormesh(edges_x, np.arange(n_b + 1) + 0.5, pb.trustworthy.T.astype(float),
+                      cmap=ListedColormap([UNTRUSTED_COLOUR, TRUSTED_COLOUR]), vmin=0, vmax=1,
+                      shading="flat")
+    ax_map.set_ylim(0.5, n_b + 0.5)
+    ax_map.set_yticks([1, n_b])
+    ax_map.set_ylabel("band", fontsize=8)
+    share = pb.trustworthy.mean() * 100
+    ax_map.set_title(f"validity map: trustworthy (green) on {share:.0f} % of (band, k) points",
+                     fontsize=8, loc="left")
+    for xv in x[bs.path.label_indices][1:-1]:
+        ax_map.axvline(xv, color="white", lw=0.8)
+    ax_map.set_xticks(x[bs.path.label_indices], bs.path.labels)
+    ax_map.set_xlabel("Wave vector along the path")
+    _footer(fig, bs)
     return fig
 
 

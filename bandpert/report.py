@@ -45,6 +45,7 @@ def band_structure_results(bs: BandStructure) -> dict[str, Any]:
             "conduction_min_k_frac": p.k_frac[g.conduction_min_index],
         }
     return {
+        "perturbative": None if bs.perturbative is None else perturbative_results(bs),
         "k_frac": p.k_frac,
         "k_cart_invA": p.k_cart_invA,
         "path_distance_invA": p.distance_invA,
@@ -61,13 +62,75 @@ def band_structure_results(bs: BandStructure) -> dict[str, Any]:
     }
 
 
+def _finite_or_none(a: np.ndarray) -> list:
+    """Nested lists with +inf (a terminating series) written as null."""
+    return [[None if not np.isfinite(x) else float(x) for x in row] for row in np.atleast_2d(a)]
+
+
+def perturbative_results(bs: BandStructure) -> dict[str, Any]:
+    """The ``results.perturbative`` section of ``bandpert bands`` (keys in the README)."""
+    pb = bs.perturbative
+    s = pb.settings
+    cmp = bs.comparison
+    return {
+        "order": s.order,
+        "coupling_threshold": s.coupling_threshold,
+        "tolerance_eV": s.tolerance_eV,
+        "lambda": s.lam,
+        "energies_eV": pb.energies_eV,
+        "treatment": pb.treatment,
+        "treatment_names": list(pb.treatment_names),
+        "error_estimate_eV": pb.error_estimate_eV,
+        "max_coupling_ratio": pb.max_coupling_ratio,
+        "group_size": pb.group_size,
+        "trustworthy": pb.trustworthy,
+        "trustworthy_fraction": float(pb.trustworthy.mean()),
+        "threshold_used": pb.threshold_used,
+        "convergence_radius": {
+            "k_indices": pb.radius_k_indices,
+            "radius": _finite_or_none(pb.convergence_radius) if len(pb.radius_k_indices) else [],
+            "lambda_inside": pb.convergence_radius > s.lam,
+        },
+        "comparison": None if cmp is None else {
+            "matched": "band by band in sorted order at each k",
+            "abs_error_eV": cmp.abs_error_eV,
+            "max_error_eV": float(cmp.abs_error_eV.max()),
+            "max_error_trustworthy_eV": cmp.max_error_trustworthy_eV,
+            "estimate_coverage": cmp.estimate_coverage,
+        },
+    }
+
+
+def perturbative_table(bs: BandStructure) -> tuple[list[str], list[str], np.ndarray]:
+    """Header lines, column names and rows of the perturbative-bands CSV."""
+    pb = bs.perturbative
+    header = [
+        f"bandpert {__version__} perturbative bands (order {pb.settings.order}): "
+        f"{bs.material.name}",
+        f"energies in eV relative to the {bs.energy_zero_kind} "
+        f"(add {bs.energy_zero_eV:.6f} eV for absolute energies); error estimates in meV; "
+        "treatment 0 = non-degenerate (Rayleigh-Schrodinger), 1 = subspace (Lowdin); "
+        "trustworthy 1 = error estimate below the tolerance",
+    ]
+    n_b = pb.energies_eV.shape[1]
+    cols = ["k_index", "path_distance_invA"]
+    blocks = [np.arange(len(bs.path.k_frac)), bs.path.distance_invA]
+    for b in range(n_b):
+        cols += [f"band{b + 1}_eV", f"band{b + 1}_estimate_meV", f"band{b + 1}_treatment",
+                 f"band{b + 1}_trustworthy"]
+        blocks += [pb.energies_eV[:, b] - bs.energy_zero_eV, pb.error_estimate_eV[:, b] * 1e3,
+                   pb.treatment[:, b], pb.trustworthy[:, b]]
+    return header, cols, np.column_stack(blocks)
+
+
 def band_structure_table(bs: BandStructure) -> tuple[list[str], list[str], np.ndarray]:
     """Header lines, column names and rows of the bands CSV (energies from the energy zero)."""
     p = bs.path
     d = p.k_frac.shape[1]
     axes = "xyz"[:d]
+    kind = "exact" if bs.energies_eV is not None else "perturbative (exact bands skipped)"
     header = [
-        f"bandpert {__version__} bands: {bs.material.name}",
+        f"bandpert {__version__} bands ({kind}): {bs.material.name}",
         f"energies in eV relative to the {bs.energy_zero_kind} "
         f"(add {bs.energy_zero_eV:.6f} eV for the model's absolute energies); "
         "wave vectors in 1/Angstrom (Cartesian, 2*pi included) and as reciprocal fractions",
