@@ -66,7 +66,8 @@ COMMAND = typer.main.get_command(cli.app)
 #: The options each command documents (kept by hand so that a lost option is noticed).
 OPTIONS = {
     "bands": ["--out", "--k-points", "--bands", "--cutoff-eV", "--format", "--json", "--emin",
-              "--emax", "--help"],
+              "--emax", "--order", "--threshold", "--tolerance-meV", "--radius-points",
+              "--no-exact", "--exact-only", "--help"],
     "check": ["--cutoff-eV", "--help"],
 }
 
@@ -109,7 +110,7 @@ def test_bands_writes_image_csv_and_json(chain_run):
     out_dir, out, _ = chain_run
     names = sorted(p.name for p in out_dir.iterdir())
     assert names == ["cosine-chain-bands.csv", "cosine-chain-bands.json",
-                     "cosine-chain-bands.png"]
+                     "cosine-chain-bands.png", "cosine-chain-perturbative.csv"]
     assert (out_dir / "cosine-chain-bands.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert "cosine-chain-bands.json" in out
     assert no_dot_files(out_dir)
@@ -137,6 +138,20 @@ def test_bands_json_layout(chain_run):
     assert res["energy_zero_kind"] == "absolute" and res["energy_zero_eV"] == 0.0
     assert res["basis_size"] == doc["settings"]["basis_size"]
     assert doc["settings"]["bands"] == 6
+    pert = res["perturbative"]
+    for key in ("order", "coupling_threshold", "tolerance_eV", "energies_eV", "treatment",
+                "treatment_names", "error_estimate_eV", "max_coupling_ratio", "group_size",
+                "trustworthy", "trustworthy_fraction", "threshold_used", "convergence_radius",
+                "comparison"):
+        assert key in pert, key
+    assert np.array(pert["energies_eV"]).shape == e.shape
+    assert pert["treatment_names"] == ["non-degenerate", "subspace"]
+    assert set(np.unique(pert["treatment"])) <= {0, 1}
+    radius = pert["convergence_radius"]
+    assert len(radius["radius"]) == len(radius["k_indices"]) == len(radius["lambda_inside"])
+    cmp = pert["comparison"]
+    assert np.allclose(np.array(cmp["abs_error_eV"]),
+                       np.abs(np.array(pert["energies_eV"]) - e), atol=1e-12)
 
 
 def test_bands_json_matches_mathieu_characteristic_values(chain_run):
