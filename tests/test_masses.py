@@ -1,0 +1,176 @@
+"""Effective masses by second-order k·p (sum over states) against exact bands and handbooks."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+import spglib
+from conftest import bundled, make_material
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from bandpert.bands import compute_band_structure, exact_energies
+from bandpert.masses import (
+    C,
+    band_masses,
+    conductivity_mass,
+    degenerate_set,
+    density_of_states_mass,
+    edge_point,
+    effective_density_of_states_cm3,
+    eigenstates,
+    finite_difference_inverse_mass,
+    inverse_mass_tensor,
+    star_size,
+)
+from bandpert.planewave import build_model
+
+
+def _rotations(material):
+    names = sorted({a.species for a in material.atoms})
+    cell = (material.vectors_A, [a.position_frac for a in material.atoms],
+            [names.index(a.species) for a in material.atoms])
+    return spglib.get_symmetry_dataset(cell).rotations
+
+
+@pytest.fixture(scope="module")
+def silicon_edges():
+    material = bundled("silicon")
+    bs = compute_band_structure(material, n_k=120)
+    rot = _rotations(material)
+    k_c = edge_point(bs.model, bs.path.k_cart_invA, bs.edges.conduction_min_index, 4, False)
+    k_v = edge_point(bs.model, bs.path.k_cart_invA, bs.edges.valence_max_index, 3, True)
+    return (bs, band_masses(bs.model, k_c, 4, rot, label="conduction minimum"),
+            band_masses(bs.model, k_v, 3, rot, label="valence maximum"))
+
+
+@settings(max_examples=15, deadline=None)
+@given(st.lists(st.floats(-0.45, 0.45), min_size=3, max_size=3))
+def test_free_electrons_have_the_free_mass(k_frac):
+    # V = 0: E = ħ²|k+G|²/2m0, so m* = m0 exactly at any non-degenerate k (common practice,
+    # no source).
+    material = make_material({"type": "fcc", "a_A": 4.0},
+                             [{"species": "X", "position": [0.0, 0.0, 0.0]}], {"form": "empty"})
+    model = build_model(material, 60.0)
+    k = np.array(k_frac) @ model.reciprocal_invA
+    states = eigenstates(model, k)
+    if degenerate_set(states, 0).size > 1:
+        return
+    assert np.allclose(inverse_mass_tensor(states, 0), np.eye(3), atol=1e-10)
+
+
+def test_sum_over_states_is_the_exact_curvature_of_the_finite_basis_band(silicon_edges):
+    # With every basis state kept, second-order k·p is the exact second derivative of the
+    # finite-basis band (Kittel, Quantum Theory of Solids, 1963, ch. 9): the finite difference
+    # agrees to about 1e-5 relative.
+    _, cond, _ = silicon_edges
+    assert cond.relative_difference < 1e-5
+    model = build_model(bundled("silicon"), 150.0)
+    k = np.array([0.31, 0.12, 0.2])
+    states = eigenstates(model, k)
+    for band in (0, 1, 2):
+        sos = inverse_mass_tensor(states, band)
+        fd = finite_difference_inverse_mass(model, k, band)
+        assert np.abs(sos - fd).max() / np.abs(fd).max() < 1e-5
+
+
+def test_convergence_with_the_number_of_states_kept(silicon_edges):
+    _, cond, _ = silicon_edges
+    masses = cond.convergence_masses
+    assert np.allclose(masses[-1], np.sort(cond.tensor.principal_masses))
+    err = np.abs(masses - masses[-1]).max(axis=1)
+    assert err[0] > 1e-3  # a short sum is visibly off ...
+    assert np.all(np.diff(err[-4:]) <= 1e-12) or err[-2] < 1e-4  # ... and it converges
+
+
+def test_silicon_conduction_valley_position_and_masses(silicon_edges):
+    # Conduction minimum near 0.85 of Γ–X; m_l ≈ 0.92–0.98, m_t ≈ 0.19 (Sze, Physics of
+    # Semiconductor Devices, 2nd ed. 1981, App. G; from memory): within 15 %.
+    bs, cond, _ = silicon_edges
+    x = np.array(bs.path.points_frac["X"])
+    frac = np.linalg.norm(cond.k_frac) / np.linalg.norm(x)
+    assert np.allclose(np.cross(cond.k_frac, x), 0.0, atol=1e-6)
+    assert 0.8 <= frac <= 0.9
+    m = np.sort(cond.tensor.principal_masses)
+    m_t, m_l = m[0], m[2]
+    assert m[0] == pytest.approx(m[1], rel=1e-6)  # transverse degenerate (C4v valley)
+    assert 0.92 * 0.85 <= m_l <= 0.98 * 1.15
+    assert m_t == pytest.approx(0.19, rel=0.15)
+    # the longitudinal axis is the valley's Γ–X direction
+    axis = cond.tensor.principal_axes[:, np.argmax(cond.tensor.principal_masses)]
+    k_dir = cond.k_cart_invA / np.linalg.norm(cond.k_cart_invA)
+    assert abs(abs(axis @ k_dir) - 1.0) < 1e-6
+
+
+def test_silicon_valley_counting_dos_and_conductivity_masses(silicon_edges):
+    # Six Δ valleys: m_dos = 6^{2/3}(m_l m_t²)^{1/3} ≈ 1.08 and m_c = 3/(1/m_l + 2/m_t) ≈ 0.26
+    # from the handbook masses (Sze 1981, §1.4 and App. G; from memory): within 15 %.
+    _, cond, _ = silicon_edges
+    assert cond.valleys == 6
+    m = np.sort(cond.tensor.principal_masses)
+    assert cond.dos_mass == pytest.approx(6 ** (2 / 3) * (m[2] * m[0] ** 2) ** (1 / 3))
+    assert cond.conductivity_mass == pytest.approx(3 / (1 / m[2] + 2 / m[0]))
+    assert cond.dos_mass == pytest.approx(1.08, rel=0.15)
+    assert cond.conductivity_mass == pytest.approx(0.26, rel=0.15)
+
+
+def test_germanium_has_four_l_valleys():
+    # Ge conduction minimum at L, four valleys (Sze 1981, Fig. 1.10; common practice).
+    material = bundled("germanium")
+    bs = compute_band_structure(material, n_k=80)
+    k = edge_point(bs.model, bs.path.k_cart_invA, bs.edges.conduction_min_index, 4, False)
+    res = band_masses(bs.model, k, 4, _rotations(material))
+    assert np.allclose(res.k_frac, 0.5, atol=1e-6)
+    assert res.valleys == 4
+
+
+def test_star_sizes_in_fcc():
+    # Stars of k in the fcc zone: L gives 4 valleys, X gives 3, a general Δ point 6
+    # (Ashcroft & Mermin 1976, ch. 8 and Fig. 8.10; common practice).
+    rot = _rotations(bundled("silicon"))
+    assert star_size(np.array([0.5, 0.5, 0.5]), rot) == 4
+    assert star_size(np.array([0.5, 0.0, 0.5]), rot) == 3
+    assert star_size(np.array([0.4, 0.0, 0.4]), rot) == 6
+
+
+def test_valence_triplet_dkk_parameters_match_the_exact_bands(silicon_edges):
+    # The spinless Γ25' triplet: along [100] the curvatures are {L, M, M}, along [111]
+    # {(L+2M+2N)/3, (L+2M−N)/3 twice} (Dresselhaus, Kip & Kittel, Phys. Rev. 98, 368 (1955)).
+    # Checked against finite differences of the exact bands along each direction.
+    bs, _, val = silicon_edges
+    assert list(val.degenerate_bands) == [1, 2, 3]
+    big_l, big_m, big_n = val.edge.dkk_LMN
+    model = bs.model
+    h = 0.004
+    for name, expected in (("[100]", [big_l, big_m, big_m]),
+                           ("[111]", [(big_l + 2 * big_m + 2 * big_n) / 3,
+                                      (big_l + 2 * big_m - big_n) / 3,
+                                      (big_l + 2 * big_m - big_n) / 3])):
+        u = {"[100]": np.array([1.0, 0, 0]), "[111]": np.ones(3) / np.sqrt(3)}[name]
+        e = exact_energies(model, np.array([0 * u, h * u, 2 * h * u]), 4)[:, 1:4]
+        # E(q) = E0 + C c q² + O(q⁴): Richardson on h and 2h removes the q⁴ term
+        c_h = (e[1] - e[0]) / (C * h**2)
+        c_2h = (e[2] - e[0]) / (C * (2 * h) ** 2)
+        fd = np.sort((4 * c_h - c_2h) / 3)
+        assert np.allclose(fd, np.sort(expected), rtol=2e-3, atol=2e-3)
+    g1, g2, g3 = val.edge.luttinger
+    assert g1 == pytest.approx(-(big_l + 2 * big_m) / 3)
+    assert g2 == pytest.approx(-(big_l - big_m) / 6)
+    assert g3 == pytest.approx(-big_n / 6)
+    # the spinless 1966 model against the silicon Luttinger parameters γ1 = 4.28, γ2 = 0.34,
+    # γ3 = 1.45 (Lawaetz, Phys. Rev. B 4, 3460 (1971); from memory): same size and ordering
+    assert g1 == pytest.approx(4.28, rel=0.15) and g3 == pytest.approx(1.45, rel=0.15)
+    assert 0.0 < g2 < g3 < g1
+
+
+def test_effective_density_of_states_formula():
+    # N = 2 (m kT/2πħ²)^{3/2} = 2.51e19 (m/m0)^{3/2} (T/300)^{3/2} cm^-3; with m_dos = 1.08 at
+    # 300 K this is silicon's N_c = 2.8e19 cm^-3 (Sze 1981, App. G; from memory).
+    assert effective_density_of_states_cm3(1.0, 300.0) == pytest.approx(2.51e19, rel=0.01)
+    assert effective_density_of_states_cm3(1.08, 300.0) == pytest.approx(2.8e19, rel=0.02)
+
+
+def test_dos_and_conductivity_mass_formulas():
+    # Sze 1981, §1.4: single spherical valley gives back its mass.
+    assert density_of_states_mass(np.array([0.3, 0.3, 0.3]), 1) == pytest.approx(0.3)
+    assert conductivity_mass(np.array([0.3, 0.3, 0.3])) == pytest.approx(0.3)
