@@ -1,0 +1,97 @@
+"""Full-zone k·p: the eigenstates at one k0 as the basis for the whole Brillouin zone.
+
+In the basis of the lowest N eigenstates |n⟩ of H(k0), the plane-wave Hamiltonian at k0 + q is
+
+    H_nm(k0 + q) = E_n(k0) δ_nm + 2C q·π_nm + C q² δ_nm,      C = ħ²/2m0,
+
+with π_nm = p_nm/ħ (see :mod:`bandpert.masses`). Keeping every basis state it is a unitary
+transform of the plane-wave H(k0 + q) and gives the exact bands; truncating to N states is the
+full-zone k·p method of Cardona & Pollak, Phys. Rev. 142, 530 (1966).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .bands import exact_energies
+from .errors import InputError
+from .masses import C, eigenstates
+from .planewave import PlaneWaveModel
+
+
+def kp_basis_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis: int,
+                      k_cart_invA: np.ndarray, n_bands: int) -> np.ndarray:
+    """Bands at ``k_cart_invA`` from the ``n_basis`` lowest eigenstates at ``k0`` (eV).
+
+    Parameters
+    ----------
+    model : PlaneWaveModel
+    k0_cart_invA : numpy.ndarray
+        (d,) the expansion point (e.g. Γ).
+    n_basis : int
+        Eigenstates of H(k0) kept as the basis.
+    k_cart_invA : numpy.ndarray
+        (n_k, d) where the bands are wanted.
+    n_bands : int
+        Bands returned (at most ``n_basis``).
+
+    Returns
+    -------
+    numpy.ndarray
+        (n_k, n_bands), ascending at each k.
+    """
+    if not 1 <= n_bands <= n_basis <= model.size:
+        raise InputError(f"expected 1 ≤ bands ({n_bands}) ≤ basis states ({n_basis}) ≤ plane "
+                         f"waves ({model.size})", key="basis")
+    states = eigenstates(model, k0_cart_invA, n_basis)
+    pi = states.momentum_invA  # (d, N, N)
+    q = np.atleast_2d(k_cart_invA) - np.asarray(k0_cart_invA, dtype=float)
+    out = np.empty((len(q), n_bands))
+    step = max(1, 4_000_000 // n_basis**2)
+    for s in range(0, len(q), step):
+        qs = q[s:s + step]
+        h = 2.0 * C * np.einsum("ki,inm->knm", qs, pi)
+        diag = states.energies_eV[None, :] + C * np.einsum("ki,ki->k", qs, qs)[:, None]
+        idx = np.arange(n_basis)
+        h[:, idx, idx] += diag
+        out[s:s + step] = np.linalg.eigvalsh(h)[:, :n_bands]
+    return out
+
+
+@dataclass(frozen=True)
+class KpConvergence:
+    """Full-zone k·p bands against the exact ones as the basis grows.
+
+    Attributes
+    ----------
+    basis_sizes : numpy.ndarray
+        (n_s,) numbers of k0 eigenstates kept.
+    max_error_eV : numpy.ndarray
+        (n_s,) largest |E_kp − E_exact| over the path and the bands.
+    rms_error_eV : numpy.ndarray
+        (n_s,) root-mean-square error.
+    energies_eV : numpy.ndarray
+        (n_s, n_k, n_bands) the k·p bands.
+    """
+
+    basis_sizes: np.ndarray
+    max_error_eV: np.ndarray
+    rms_error_eV: np.ndarray
+    energies_eV: np.ndarray
+
+
+def kp_convergence(model: PlaneWaveModel, k0_cart_invA: np.ndarray, k_cart_invA: np.ndarray,
+                   n_bands: int, basis_sizes: tuple[int, ...] = (8, 15, 30, 60, 120),
+                   exact_eV: np.ndarray | None = None) -> KpConvergence:
+    """Convergence of full-zone k·p bands with the number of basis states (the whole plane-wave
+    basis is always added last, where the method is exact)."""
+    sizes = np.array(sorted({s for s in basis_sizes if n_bands <= s < model.size}
+                            | {model.size}))
+    exact = exact_energies(model, k_cart_invA, n_bands) if exact_eV is None else exact_eV
+    bands = np.array([kp_basis_energies(model, k0_cart_invA, s, k_cart_invA, n_bands)
+                      for s in sizes])
+    err = np.abs(bands - exact[None])
+    return KpConvergence(basis_sizes=sizes, max_error_eV=err.max(axis=(1, 2)),
+                         rms_error_eV=np.sqrt((err**2).mean(axis=(1, 2))), energies_eV=bands)
