@@ -626,6 +626,37 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
                     cutoff_eV=cutoff, valence_electrons=electrons, n_bands=n_bands, path=path)
 
 
+def read_toml_document(path: str | Path, what: str = "a material TOML file") -> dict[str, Any]:
+    """Read a UTF-8 TOML file into a dictionary, every failure as one :class:`InputError`.
+
+    Parameters
+    ----------
+    path : str or pathlib.Path
+    what : str
+        What the file should be, for the messages (e.g. "a material TOML file").
+    """
+    path = Path(path)
+    try:
+        data = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"file not found; expected {what}", str(path)) from None
+    except IsADirectoryError:
+        raise InputError(f"is a folder; expected {what}", str(path)) from None
+    except OSError as exc:
+        raise InputError(f"cannot be read ({exc.strerror or exc.__class__.__name__}); expected "
+                         f"{what} that can be read", str(path)) from None
+    try:
+        text = data.decode("utf-8-sig")  # a leading byte-order mark is harmless
+    except UnicodeDecodeError as exc:
+        line = data[:exc.start].count(b"\n") + 1
+        raise InputError(f"is not UTF-8 text (invalid byte 0x{data[exc.start]:02x} on line "
+                         f"{line}); expected {what} in UTF-8", str(path)) from None
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"not valid TOML ({exc})", str(path)) from None
+
+
 def load_material(path: str | Path) -> Material:
     """Read and validate a material file.
 
@@ -643,24 +674,4 @@ def load_material(path: str | Path) -> Material:
     InputError
         If the file cannot be read, is not TOML, or fails validation.
     """
-    path = Path(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError("file not found; expected a material TOML file", str(path)) from None
-    except IsADirectoryError:
-        raise InputError("is a folder; expected a material TOML file", str(path)) from None
-    except OSError as exc:
-        raise InputError(f"cannot be read ({exc.strerror or exc.__class__.__name__}); expected a "
-                         "readable material TOML file", str(path)) from None
-    try:
-        text = data.decode("utf-8-sig")  # a leading byte-order mark is harmless
-    except UnicodeDecodeError as exc:
-        line = data[:exc.start].count(b"\n") + 1
-        raise InputError(f"is not UTF-8 text (invalid byte 0x{data[exc.start]:02x} on line "
-                         f"{line}); expected a UTF-8 TOML file", str(path)) from None
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML ({exc})", str(path)) from None
-    return parse_material(doc, str(path))
+    return parse_material(read_toml_document(path), str(path))

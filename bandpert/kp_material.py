@@ -1,0 +1,241 @@
+"""k·p parameter files: TOML in, a validated, frozen :class:`KPMaterial` out.
+
+A k·p file holds the band parameters of a cubic crystal at Γ for the models of
+:mod:`bandpert.kp`. It is validated like a material file (:mod:`bandpert.material`): unknown keys
+are refused, types are checked, non-physical values are refused, and every problem is one
+:class:`~bandpert.errors.InputError` naming the file and the dotted key.
+
+Schema
+------
+Units are in the key names: energies in eV (``_eV``), lengths in Å (``_A``), masses in m0
+(``_m0``); F and the γ are dimensionless. ::
+
+    name = "Gallium arsenide"                    # required, non-empty
+    source = "I. Vurgaftman et al., ..."         # required, non-empty: where every value is from
+    note = "..."                                 # optional free text
+    models = ["two-band", "six-band", "eight-band"]   # optional; default: every model the
+                                                      # parameters below allow
+
+    [lattice]                                    # required
+    structure = "zincblende"                     # required: "zincblende" or "diamond"
+    a_A = 5.65325                                # required, > 0: cubic lattice constant
+
+    [parameters]                                 # required; each key optional by itself
+    Eg_eV = 1.519                                # > 0: gap Γ6 − Γ8 (inverted gaps not supported)
+    Delta_so_eV = 0.341                          # > 0: spin–orbit splitting Γ8 − Γ7
+    Ep_eV = 28.8                                 # ≥ 0: Kane energy 2 m0 P²/ħ²
+    F = -1.94                                    # Kane's remote-band parameter (conduction band)
+    gamma1 = 6.98                                # Luttinger parameters (not the modified ones);
+    gamma2 = 2.06                                # gamma1 > 2 max(|gamma2|, |gamma3|) so both
+    gamma3 = 2.93                                # hole bands curve downward in every direction
+
+    [reference]                                  # optional: tabulated masses to compare with
+    m_e_m0 = 0.067                               # > 0: conduction-band mass
+    m_so_m0 = 0.172                              # > 0: split-off mass
+
+Models and the parameters they need (:data:`bandpert.kp.REQUIRED_PARAMETERS`): ``six-band``:
+Delta_so_eV, gamma1–3; ``eight-band`` and ``two-band``: all seven. A model listed in ``models``
+whose parameters are missing is refused (naming the missing key); without ``models`` the file
+supports every model its parameters complete, and at least one must be complete. For the
+two- and eight-band models the conduction band must curve upward,
+m0/m_e = (1 + 2F) + (Ep/3)(2/Eg + 1/(Eg + Δso)) > 0 (else ``parameters.F`` is named).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from .errors import InputError
+from .kp import (
+    MODEL_NAMES,
+    REQUIRED_PARAMETERS,
+    KPModel,
+    KPParameters,
+    conduction_inverse_mass,
+    make_model,
+)
+from .material import _kind, _Reader, read_toml_document
+
+#: Crystal structures a k·p file may name (the models have no inversion-asymmetry terms, so
+#: both take the same Hamiltonians).
+STRUCTURES: tuple[str, ...] = ("zincblende", "diamond")
+
+#: Keys of ``[parameters]``, all numbers.
+PARAMETER_KEYS: tuple[str, ...] = ("Eg_eV", "Delta_so_eV", "Ep_eV", "F", "gamma1", "gamma2",
+                                   "gamma3")
+
+#: Keys of ``[reference]``, all positive masses in m0.
+REFERENCE_KEYS: tuple[str, ...] = ("m_e_m0", "m_so_m0")
+
+
+@dataclass(frozen=True)
+class KPMaterial:
+    """A validated k·p parameter file.
+
+    Attributes
+    ----------
+    name, source, note : str
+    file : str
+        The file it was read from ("" when built in code).
+    structure : str
+        One of :data:`STRUCTURES`.
+    a_A : float
+        Cubic lattice constant, Å.
+    parameters : KPParameters
+    models : tuple of str
+        The models the file supports, in the order of :data:`bandpert.kp.MODEL_NAMES`.
+    reference_masses_m0 : dict
+        Tabulated masses from the file's ``[reference]`` table (keys of :data:`REFERENCE_KEYS`).
+    """
+
+    name: str
+    source: str
+    note: str
+    file: str
+    structure: str
+    a_A: float
+    parameters: KPParameters
+    models: tuple[str, ...]
+    reference_masses_m0: dict[str, float] = field(default_factory=dict)
+
+    def model(self, name: str | None = None, **options: Any) -> KPModel:
+        """Build one of the file's models (default: the largest it supports).
+
+        ``options`` go to the builder (``remote=`` for the two-band model).
+
+        Raises
+        ------
+        InputError
+            If the model is unknown or not among the file's ``models`` (key ``models``).
+        """
+        if name is None:
+            name = self.models[-1]
+        if name not in MODEL_NAMES:
+            raise InputError(f"unknown k·p model '{name}'; expected one of "
+                             f"{', '.join(MODEL_NAMES)}", self.file, "models")
+        if name not in self.models:
+            raise InputError(f"the {name} model is not supported by this file (it supports "
+                             f"{', '.join(self.models)}); expected one of those, or add its "
+                             "parameters", self.file, "models")
+        return make_model(name, self.parameters, lattice_constant_A=self.a_A, **options)
+
+
+def _read_models(r: _Reader) -> tuple[str, ...] | None:
+    raw = r.raw("models", required=False)
+    if raw is None:
+        return None
+    if not isinstance(raw, list) or not raw:
+        got = "an empty array" if isinstance(raw, list) else _kind(raw)
+        raise r.fail("models", f"expected a non-empty array of model names "
+                               f"({', '.join(MODEL_NAMES)}), got {got}")
+    for value in raw:
+        if not isinstance(value, str):
+            raise r.fail("models", f"expected model names as strings, got {_kind(value)}")
+        if value not in MODEL_NAMES:
+            raise r.fail("models", f"'{value}' is not one of: {', '.join(MODEL_NAMES)}")
+    if len(set(raw)) != len(raw):
+        twice = next(v for v in raw if raw.count(v) > 1)
+        raise r.fail("models", f"'{twice}' is listed twice; expected each model once")
+    return tuple(m for m in MODEL_NAMES if m in raw)
+
+
+def _read_parameters(r: _Reader) -> KPParameters:
+    values: dict[str, float | None] = {}
+    for key in PARAMETER_KEYS:
+        values[key] = r.number(key, required=False, positive=key in ("Eg_eV", "Delta_so_eV"))
+    r.finish()
+    if values["Ep_eV"] is not None and values["Ep_eV"] < 0:
+        raise r.fail("Ep_eV", f"must not be negative (it is 2m0P²/ħ²), got {values['Ep_eV']:g}")
+    g1, g2, g3 = values["gamma1"], values["gamma2"], values["gamma3"]
+    if None not in (g1, g2, g3):
+        worst = "gamma2" if abs(g2) >= abs(g3) else "gamma3"
+        bound = 2.0 * max(abs(g2), abs(g3))
+        if not g1 > bound:
+            raise r.fail(worst, f"gamma1 = {g1:g} must exceed 2·max(|gamma2|, |gamma3|) = "
+                                f"{bound:g} so that heavy holes curve downward in every "
+                                "direction (Luttinger 1956); expected Luttinger parameters, "
+                                "not modified ones")
+    return KPParameters(**values)
+
+
+def _check_models(r: _Reader, params: KPParameters, listed: tuple[str, ...] | None
+                  ) -> tuple[str, ...]:
+    if listed is not None:
+        for model in listed:
+            gone = params.missing(model)
+            if gone:
+                raise r.fail(gone[0], f"missing; the {model} model listed in models needs it")
+        models = listed
+    else:
+        models = tuple(m for m in MODEL_NAMES if params.supports(m))
+        if not models:
+            six = ", ".join(REQUIRED_PARAMETERS["six-band"])
+            raise r.fail("", f"do not complete any k·p model: the six-band model needs {six}; "
+                             "the two- and eight-band models also need Eg_eV, Ep_eV and F")
+    if "eight-band" in models or "two-band" in models:
+        inv = conduction_inverse_mass(params.Eg_eV, params.Delta_so_eV, params.Ep_eV, params.F)
+        if not inv > 0:
+            raise r.fail("F", f"gives m0/m_e = (1 + 2F) + (Ep/3)(2/Eg + 1/(Eg + Delta_so)) = "
+                              f"{inv:.4g}, not positive; expected an F that leaves the "
+                              "conduction band curving upward")
+    return models
+
+
+def parse_kp_material(doc: dict[str, Any], source: str = "") -> KPMaterial:
+    """Validate a parsed k·p document (the TOML tables) into a :class:`KPMaterial`.
+
+    Parameters
+    ----------
+    doc : dict
+        The parsed TOML document (schema in the module docstring).
+    source : str
+        Name of the file, used in error messages.
+
+    Raises
+    ------
+    InputError
+        On any missing, unknown, mistyped or non-physical value.
+    """
+    if not isinstance(doc, dict):
+        raise InputError(f"expected a document of keys and tables, got {_kind(doc)}", source)
+    r = _Reader(doc, source)
+    name = r.string("name")
+    if not name.strip():
+        raise r.fail("name", "must not be empty; expected the material's name")
+    src = r.string("source")
+    if not src.strip():
+        raise r.fail("source", "must not be empty; expected where the parameters come from")
+    note = r.string("note", required=False)
+    listed = _read_models(r)
+    lat = r.sub("lattice")
+    structure = lat.string("structure", choices=STRUCTURES)
+    a = lat.number("a_A", positive=True)
+    lat.finish()
+    par = r.sub("parameters")
+    params = _read_parameters(par)
+    models = _check_models(par, params, listed)
+    reference: dict[str, float] = {}
+    ref = r.sub("reference", required=False)
+    if ref is not None:
+        for key in REFERENCE_KEYS:
+            value = ref.number(key, required=False, positive=True)
+            if value is not None:
+                reference[key] = value
+        ref.finish()
+    r.finish()
+    return KPMaterial(name=name, source=src, note=note, file=source, structure=structure, a_A=a,
+                      parameters=params, models=models, reference_masses_m0=reference)
+
+
+def load_kp_material(path: str | Path) -> KPMaterial:
+    """Read and validate a k·p parameter file (schema in the module docstring).
+
+    Raises
+    ------
+    InputError
+        If the file cannot be read, is not UTF-8 TOML, or fails validation.
+    """
+    doc = read_toml_document(path, "a k·p parameter TOML file")
+    return parse_kp_material(doc, str(path))
