@@ -200,3 +200,124 @@ def _wrap(text: str, width: int = 150) -> str:
     import textwrap
 
     return "\n".join(textwrap.wrap(text, width))
+
+
+FIRST_ORDER_COLOUR = "#e07a1f"
+SECOND_ORDER_COLOUR = "#2a9d8f"
+EXACT_GAP_COLOUR = "#b23a48"
+
+
+def annotate_gaps(ax: Axes, report, energy_zero_eV: float = 0.0, *, crossings: bool = False,
+                  label_fraction: float = 0.01) -> None:
+    """Mark predicted against exact gaps at the examined points of a band plot.
+
+    For every splitting of a free-electron degeneracy that is open in the exact levels
+    (:class:`bandpert.gaps.GapReport`; degenerate perturbation theory, Ashcroft & Mermin,
+    *Solid State Physics*, 1976, ch. 9): a bar at the point spanning the exact gap, and short
+    ticks with a thin connector beside it for the first-order (left) and second-order Löwdin
+    (right) levels bounding the same gap. Exact gaps larger than ``label_fraction`` of the
+    energy axis are labelled ``exact (2nd order)`` in eV, skipping a label that would overlap
+    one already placed at the same point. Crossings between labelled points are drawn thinner
+    and unlabelled.
+
+    Parameters
+    ----------
+    ax : matplotlib.axes.Axes
+        A band plot whose x axis is the path distance (Å⁻¹) of the same path.
+    report : bandpert.gaps.GapReport
+    energy_zero_eV : float
+        Subtracted from the (absolute) energies of the report, as in the band plot.
+    crossings : bool
+        Also mark the crossings (off by default: in a strong potential the free-electron
+        crossings lie far from the exact bands and the marks crowd the figure).
+    label_fraction : float
+        Smallest exact gap labelled, as a fraction of the energy axis.
+    """
+    from .gaps import KIND_CROSSING
+
+    x_lo, x_hi = ax.get_xlim()
+    y_lo, y_hi = ax.get_ylim()
+    dx = 0.012 * (x_hi - x_lo)
+    placed: dict[float, list[float]] = {}
+    for p in report.points:
+        crossing = p.kind == KIND_CROSSING
+        if crossing and not crossings:
+            continue
+        scale = 0.6 if crossing else 1.0
+        for x in p.path_distance_invA:
+            # keep the ticks inside the axes at the ends of the path
+            left, right = x - dx, x + dx
+            if left < x_lo:
+                left, right = x + dx, x + 2 * dx
+            elif right > x_hi:
+                left, right = x - 2 * dx, x - dx
+            for g in p.groups:
+                for j in np.flatnonzero(g.open_gaps):
+                    ex = g.exact_eV[j:j + 2] - energy_zero_eV
+                    ax.plot([x, x], ex, color=EXACT_GAP_COLOUR, lw=2.4 * scale, alpha=0.75,
+                            solid_capstyle="butt", zorder=6)
+                    for xs, lev, colour in ((left, g.first_order_eV, FIRST_ORDER_COLOUR),
+                                            (right, g.second_order_eV, SECOND_ORDER_COLOUR)):
+                        e = lev[j:j + 2] - energy_zero_eV
+                        ax.plot([xs, xs], e, color=colour, lw=0.7 * scale, zorder=6)
+                        ax.plot([xs, xs], e, ls="none", marker="_", ms=6 * scale, mew=1.2,
+                                color=colour, zorder=6)
+                    gap = ex[1] - ex[0]
+                    taken = placed.setdefault(round(float(x), 9), [])
+                    if not crossing and gap > label_fraction * (y_hi - y_lo) \
+                            and y_lo < ex.mean() < y_hi \
+                            and all(abs(ex.mean() - y) > 0.03 * (y_hi - y_lo) for y in taken):
+                        taken.append(ex.mean())
+                        pred = g.second_order_eV[j + 1] - g.second_order_eV[j]
+                        room = right + 8 * dx < x_hi
+                        ax.text(right + 0.6 * dx if room else left - 0.6 * dx, ex.mean(),
+                                f"{gap:.2f} ({pred:.2f})", fontsize=5.5,
+                                color=EXACT_GAP_COLOUR, va="center",
+                                ha="left" if room else "right", zorder=7,
+                                bbox={"boxstyle": "round,pad=0.1", "fc": "white", "ec": "none",
+                                      "alpha": 0.7})
+    ax.set_xlim(x_lo, x_hi)
+    ax.set_ylim(y_lo, y_hi)
+
+
+def gap_figure(bs: BandStructure, report,
+               energy_window_eV: tuple[float, float] | None = None, *,
+               crossings: bool = False) -> Figure:
+    """Exact bands with the gaps at free-electron degeneracies, predicted beside exact.
+
+    The band plot of :func:`band_figure` (exact bands only) with :func:`annotate_gaps`: bars
+    for the exact gaps, first-order ticks on the left and second-order (Löwdin) ticks on the
+    right of each examined point, and a legend.
+
+    Parameters
+    ----------
+    bs : BandStructure
+        Exact bands along the same path and model as ``report``.
+    report : bandpert.gaps.GapReport
+    energy_window_eV : (float, float), optional
+        Limits of the energy axis (relative energies).
+    crossings : bool
+        Also mark the crossings between labelled points.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+    """
+    from matplotlib.lines import Line2D
+
+    fig = band_figure(bs, energy_window_eV)
+    ax = fig.axes[0]
+    annotate_gaps(ax, report, bs.energy_zero_eV, crossings=crossings)
+    handles = [
+        Line2D([], [], color=EXACT_COLOUR, lw=1.3, label="exact bands"),
+        Line2D([], [], color=EXACT_GAP_COLOUR, lw=2.4, alpha=0.75,
+               label="exact gap at a degeneracy"),
+        Line2D([], [], color=FIRST_ORDER_COLOUR, marker="_", ms=6, mew=1.2, lw=0.7,
+               label="first order (V block)"),
+        Line2D([], [], color=SECOND_ORDER_COLOUR, marker="_", ms=6, mew=1.2, lw=0.7,
+               label="second order (Löwdin)"),
+    ]
+    ax.legend(handles=handles, fontsize=6, loc="best", framealpha=0.9,
+              title="labels: exact (second-order) gap, eV", title_fontsize=6)
+    ax.set_title(f"{bs.material.name}: gaps at free-electron degeneracies", fontsize=10)
+    return fig

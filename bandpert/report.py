@@ -141,3 +141,165 @@ def band_structure_table(bs: BandStructure) -> tuple[list[str], list[str], np.nd
     rows = np.column_stack([np.arange(len(p.k_frac)), p.distance_invA, p.k_cart_invA, p.k_frac,
                             bs.relative_energies_eV])
     return header, cols, rows
+
+
+def _vector_label(g_cart_invA: np.ndarray, miller: np.ndarray, a_A: float) -> str:
+    """G as ``(h,k,l)`` in units of 2π/a when integral (cubic, square, chain), else by Miller."""
+    u = np.asarray(g_cart_invA, dtype=float) / (2.0 * np.pi / a_A)
+    if np.allclose(u, np.round(u), atol=1e-9):
+        return "(" + ",".join(str(int(x)) for x in np.round(u)) + ")"
+    return "m(" + ",".join(str(int(x)) for x in miller) + ")"
+
+
+def _group_results(group, a_A: float) -> dict[str, Any]:
+    return {
+        "first_index": group.first_index,
+        "degeneracy": group.degeneracy,
+        "free_electron_energy_eV": group.free_electron_eV,
+        "miller": group.miller,
+        "g_cart_invA": group.g_cart_invA,
+        "first_order_eV": group.first_order_eV,
+        "second_order_eV": group.second_order_eV,
+        "exact_eV": group.exact_eV,
+        "exact_weight": group.exact_weight,
+        "poor_match": group.poor_match,
+        "first_order_gaps_eV": group.first_order_gaps_eV,
+        "second_order_gaps_eV": group.second_order_gaps_eV,
+        "exact_gaps_eV": group.exact_gaps_eV,
+        "first_order_error_eV": group.first_order_error_eV,
+        "second_order_error_eV": group.second_order_error_eV,
+        "gap_opens_at": list(group.gap_opens_at),
+        "status": group.status,
+        "exact_multiplets": list(group.exact_multiplets),
+        "uncoupled": group.uncoupled,
+        "uncoupled_reason": group.uncoupled_reason,
+        "couplings": [
+            {"delta_miller": m, "delta_g_cart_invA": g,
+             "delta_g_label": _vector_label(g, m, a_A), "shell_g2": s,
+             "value_eV": [float(v.real), float(v.imag)], "abs_eV": float(abs(v)), "reason": r}
+            for m, g, s, v, r in zip(group.coupling_miller, group.coupling_g_cart_invA,
+                                     group.coupling_shell_g2, group.coupling_eV,
+                                     group.coupling_reason, strict=True)
+        ],
+    }
+
+
+def gap_results(report, bs: BandStructure | None = None) -> dict[str, Any]:
+    """The ``results`` of ``bandpert gaps`` (keys documented in the README).
+
+    ``report`` is a :class:`bandpert.gaps.GapReport`; with ``bs`` (the band structure drawn
+    beside it) its energy zero is stated too. Energies are absolute (the model's zero).
+    """
+    a = report.material.a_A
+    points = []
+    for p in report.points:
+        points.append({
+            "label": p.label,
+            "kind": p.kind,
+            "k_frac": p.k_frac,
+            "k_cart_invA": p.k_cart_invA,
+            "path_distance_invA": p.path_distance_invA,
+            "segment": None if p.segment is None else {
+                "from": p.segment[0], "to": p.segment[1], "fraction": p.segment_fraction},
+            "free_electron_levels": {"energies_eV": p.level_energies_eV,
+                                     "degeneracies": p.level_degeneracies,
+                                     "first_indices": p.level_first_indices},
+            "groups": [_group_results(g, a) for g in p.groups],
+        })
+    return {
+        "matched": "exact levels by sorted position: a group at free-electron positions "
+                   "i..i+g-1 takes the exact eigenvalues i..i+g-1 of H(k)",
+        "basis": "centred on each k: hbar^2|k+G|^2/2m0 <= cutoff",
+        "n_bands": report.n_bands,
+        "degeneracy_tolerance_eV": report.degeneracy_tolerance_eV,
+        "closed_tolerance_eV": report.closed_tolerance_eV,
+        "crossings": report.crossings,
+        "energy_zero_eV": None if bs is None else bs.energy_zero_eV,
+        "energy_zero_kind": None if bs is None else bs.energy_zero_kind,
+        "points": points,
+    }
+
+
+def _gap_value(x: float) -> str:
+    """A splitting in eV: three decimals, or two significant figures below 0.5 meV."""
+    if x != 0.0 and abs(x) < 5e-4:
+        return f"{x:.1e}"
+    return f"{round(float(x), 3) + 0.0:.3f}"  # + 0.0 turns -0.000 into 0.000
+
+
+def _gap_list(values: np.ndarray) -> str:
+    return "\n".join(_gap_value(x) for x in values) if len(values) else "—"
+
+
+def _coupling_summary(group, a_A: float) -> str:
+    """Distinct couplings of a group by shell: ``(1,1,1) 0.244`` or ``(2,0,0) 0 SF``."""
+    from .gaps import REASON_COUPLED, REASON_TAGS
+
+    seen: dict[tuple, str] = {}
+    for m, g, s, v, r in zip(group.coupling_miller, group.coupling_g_cart_invA,
+                             group.coupling_shell_g2, group.coupling_eV, group.coupling_reason,
+                             strict=True):
+        key = (round(float(s), 6), round(float(abs(v)), 4), r)
+        if key not in seen:
+            label = _vector_label(g, m, a_A)
+            seen[key] = (f"{label} {abs(v):.3f}" if r == REASON_COUPLED
+                         else f"{label} 0 {REASON_TAGS.get(r, r)}")
+    return "\n".join(seen[k] for k in sorted(seen))
+
+
+def gap_table(report) -> tuple[list[str], list[list[str]], list[str]]:
+    """Columns, rows (strings) and footnotes of the terminal table of ``bandpert gaps``.
+
+    One row per degenerate group. The gap columns list, for every splitting that is open in the
+    exact levels, the first-order, second-order and exact splitting (eV) at the same position
+    in the group and the second-order error; ``exact levels`` gives the exact multiplets and
+    ``opens at`` the lowest order that opens every open splitting.
+    """
+    from .gaps import POOR_MATCH_WEIGHT, REASON_TAGS
+
+    cols = ["point", "E0 (eV)", "g", "V(G−G′) (eV)", "1st", "2nd", "exact", "2nd−exact",
+            "exact levels", "opens at"]
+    rows: list[list[str]] = []
+    doubtful = False
+    for p in report.points:
+        label = p.label
+        if p.kind == "crossing":
+            label = f"{p.segment[0]}→{p.segment[1]} {p.segment_fraction:.3f}"
+        if not p.groups:
+            rows.append([label, "—", "1", "", "", "", "", "", "", "no degeneracy"])
+            continue
+        for i, g in enumerate(p.groups):
+            o = g.open_gaps
+            if g.status == "closed":
+                cells = ["—", "—", "closed", "—"]
+                opens = "closed"
+            else:
+                cells = [_gap_list(g.first_order_gaps_eV[o]), _gap_list(g.second_order_gaps_eV[o]),
+                        _gap_list(g.exact_gaps_eV[o]),
+                        _gap_list(g.second_order_gaps_eV[o] - g.exact_gaps_eV[o])]
+                opens = g.status.removeprefix("opens at ")
+            if g.uncoupled:
+                opens += " (uncoupled)"
+            levels = "+".join(str(x) for x in g.exact_multiplets)
+            if g.poor_match:
+                levels += " ?"
+                doubtful = True
+            rows.append([label if i == 0 else "", f"{g.free_electron_eV:.3f}", str(g.degeneracy),
+                         _coupling_summary(g, report.material.a_A), *cells, levels, opens])
+    groups = [g for p in report.points for g in p.groups]
+    used = {r for g in groups for r in g.coupling_reason}
+    notes = []
+    if used & set(REASON_TAGS):
+        notes.append("V(G−G′) = 0 because: " + "; ".join(
+            f"{t}: {r}" for r, t in REASON_TAGS.items() if r in used))
+    if any(g.uncoupled for g in groups):
+        notes.append("uncoupled: V(G−G′) = 0 for every pair of the group, so nothing opens at "
+                     "first order")
+    if any(g.status == "closed" for g in groups):
+        notes.append(f"closed: every exact splitting below {report.closed_tolerance_eV * 1e6:g} "
+                     "µeV")
+    if doubtful:
+        notes.append(f"?: a matched exact state has less than {POOR_MATCH_WEIGHT:g} of its "
+                     "weight on the group's plane waves (the match by sorted position is "
+                     "doubtful)")
+    return cols, rows, notes

@@ -69,6 +69,8 @@ OPTIONS = {
               "--emax", "--order", "--threshold", "--tolerance-meV", "--radius-points",
               "--no-exact", "--exact-only", "--help"],
     "check": ["--cutoff-eV", "--help"],
+    "gaps": ["--json", "--point", "--crossings", "--bands", "--cutoff-eV", "--out", "--k-points",
+             "--format", "--help"],
 }
 
 
