@@ -1,0 +1,133 @@
+"""k·p parameters implied by a plane-wave model, and the k·p parameter file that carries them.
+
+From the eigenstates at Γ (:mod:`bandpert.masses`):
+
+- Eg = E(s-like conduction state) − E(valence top), the s-like state being the lowest
+  non-degenerate conduction state at Γ that couples to the valence triplet through p;
+- Ep = 2|⟨S|p_x|X⟩|²/m0 = 4C Σ_j |π^x_{c v_j}|² (the sum over the triplet makes it
+  independent of the basis the degenerate eigenvectors come in), C = ħ²/2m0;
+- γ1, γ2, γ3 from the Dresselhaus–Kip–Kittel parameters of the triplet
+  (γ1 = −(L + 2M)/3, γ2 = −(L − M)/6, γ3 = −N/6; CONVENTIONS.md);
+- F from the conduction mass by the sum over states, m0/m_e = (1 + 2F) + (Ep/3)(2/Eg +
+  1/(Eg + Δso)) (Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001));
+- Δso = 0: the local pseudopotential has no spin–orbit coupling.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .errors import InputError
+from .kp import KPParameters
+from .masses import C, degenerate_edge, degenerate_set, eigenstates, inverse_mass_tensor
+from .material import Material
+from .planewave import PlaneWaveModel
+
+#: A conduction state couples to the valence triplet when Σ|π|² exceeds this (Å⁻²).
+COUPLING_FLOOR_INVA2 = 1e-6
+
+
+@dataclass(frozen=True)
+class ExtractedParameters:
+    """k·p parameters of a plane-wave model at Γ and where they come from.
+
+    Attributes
+    ----------
+    parameters : KPParameters
+    conduction_band : int
+        0-based index of the s-like conduction state used.
+    valence_bands : numpy.ndarray
+        The valence triplet.
+    conduction_mass_m0 : float
+        Its mass by the sum over states.
+    isotropy : float
+        Largest relative spread of Ep between x, y and z (0 for a cubic crystal).
+    """
+
+    parameters: KPParameters
+    conduction_band: int
+    valence_bands: np.ndarray
+    conduction_mass_m0: float
+    isotropy: float
+
+
+def extract_kp_parameters(material: Material, model: PlaneWaveModel) -> ExtractedParameters:
+    """Kane and Luttinger parameters implied by a plane-wave model (module docstring).
+
+    Raises
+    ------
+    InputError
+        If the material has no electron count, is not 3D, or its valence top at Γ is not a
+        threefold level.
+    """
+    if material.dimension != 3 or material.valence_electrons is None:
+        raise InputError("k·p parameters need a 3D crystal with electrons.valence",
+                         material.file, "electrons.valence")
+    states = eigenstates(model, np.zeros(3))
+    top = material.valence_electrons // 2 - 1
+    triplet = degenerate_set(states, top)
+    if triplet.size != 3:
+        raise InputError(f"the valence top at Γ is {triplet.size}-fold, expected the threefold "
+                         "p-like level of a cubic semiconductor", material.file, "electrons")
+    pi = states.momentum_invA  # (3, n, n)
+    coupling = np.sum(np.abs(pi[:, :, triplet]) ** 2, axis=(0, 2))
+    conduction = None
+    for c in range(triplet.max() + 1, len(states.energies_eV)):
+        if degenerate_set(states, c).size == 1 and coupling[c] > COUPLING_FLOOR_INVA2:
+            conduction = c
+            break
+    if conduction is None:
+        raise InputError("no s-like conduction state at Γ couples to the valence top",
+                         material.file, "potential")
+    per_axis = 4.0 * C * np.sum(np.abs(pi[:, conduction, triplet]) ** 2, axis=1)
+    ep = float(per_axis.mean())
+    eg = float(states.energies_eV[conduction] - states.energies_eV[top])
+    m_inv = inverse_mass_tensor(states, conduction)
+    inv_me = float(np.trace(m_inv) / 3.0)
+    f = 0.5 * (inv_me - ep / eg - 1.0)
+    g1, g2, g3 = degenerate_edge(states, top).luttinger
+    params = KPParameters(Eg_eV=eg, Delta_so_eV=0.0, Ep_eV=ep, F=float(f), gamma1=g1,
+                          gamma2=g2, gamma3=g3)
+    return ExtractedParameters(parameters=params, conduction_band=conduction,
+                               valence_bands=triplet, conduction_mass_m0=1.0 / inv_me,
+                               isotropy=float(np.ptp(per_axis) / ep))
+
+
+def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
+    """A k·p parameter file (schema of :mod:`bandpert.kp_material`) for the extracted values."""
+    p = extracted.parameters
+    structure = "diamond" if len({a.species for a in material.atoms}) == 1 else "zincblende"
+
+    def q(text: str) -> str:
+        return '"' + text.replace("\\", "\\\\").replace('"', '\\"') + '"'
+
+    title = material.name + ", k·p parameters implied by the plane-wave model"
+    origin = (f"bandpert, extracted at Γ from {material.file or 'a material'}; the plane-wave "
+              f"parameters come from: {material.source}")
+    lines = [
+        f"name = {q(title)}",
+        f"source = {q(origin)}",
+        'note = "Delta_so_eV = 0: the local pseudopotential has no spin-orbit coupling. '
+        'Model estimates, not measured values."',
+        'models = ["two-band", "six-band", "eight-band"]',
+        "",
+        "[lattice]",
+        f'structure = "{structure}"',
+        f"a_A = {material.a_A:.10g}",
+        "",
+        "[parameters]",
+        f"Eg_eV = {p.Eg_eV:.10g}",
+        f"Delta_so_eV = {p.Delta_so_eV:.10g}",
+        f"Ep_eV = {p.Ep_eV:.10g}",
+        f"F = {p.F:.10g}",
+        f"gamma1 = {p.gamma1:.10g}",
+        f"gamma2 = {p.gamma2:.10g}",
+        f"gamma3 = {p.gamma3:.10g}",
+        "",
+        "[reference]",
+        f"m_e_m0 = {extracted.conduction_mass_m0:.10g}",
+        "",
+    ]
+    return "\n".join(lines)

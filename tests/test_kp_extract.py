@@ -1,0 +1,73 @@
+"""Closing the loop: k·p parameters taken from a plane-wave model reproduce its bands near Γ."""
+
+from __future__ import annotations
+
+import tomllib
+
+import numpy as np
+import pytest
+from conftest import bundled
+
+from bandpert.bands import converged_cutoff, exact_energies
+from bandpert.kp import unit_vector
+from bandpert.kp_extract import extract_kp_parameters, kp_material_text
+from bandpert.kp_material import parse_kp_material
+from bandpert.planewave import build_model
+
+
+@pytest.fixture(scope="module", params=["gallium-arsenide", "silicon"])
+def extracted(request):
+    material = bundled(request.param)
+    model = build_model(material, converged_cutoff(material, 8))
+    ex = extract_kp_parameters(material, model)
+    kp = parse_kp_material(tomllib.loads(kp_material_text(material, ex)), "<extracted>")
+    return material, model, ex, kp
+
+
+def test_extracted_file_reads_back_with_the_same_parameters(extracted):
+    _, _, ex, kp = extracted
+    for key, value in ex.parameters.as_dict().items():
+        assert getattr(kp.parameters, key) == pytest.approx(value, rel=1e-9, abs=1e-12)
+    # cubic symmetry: the Kane energy is the same along x, y and z (common practice, no source)
+    assert ex.isotropy < 1e-8
+
+
+@pytest.mark.parametrize("direction", ["100", "110", "111"])
+def test_eight_band_model_reproduces_the_plane_wave_valence_bands(extracted, direction):
+    # The k·p parameters the model implies reproduce its exact valence bands near Γ within 1 %
+    # for k ≤ 0.02·2π/a (second-order k·p is exact to O(k²); Luttinger, Phys. Rev. 102, 1030
+    # (1956); the plane-wave bands are the reference).
+    material, model, ex, kp = extracted
+    eight = kp.model("eight-band")
+    top = exact_energies(model, np.zeros((1, 3)), 4)[0, 3]
+    u = unit_vector(direction)
+    for frac in (0.005, 0.01, 0.02):
+        k = frac * 2 * np.pi / material.a_A * u
+        pw = exact_energies(model, k[None], 4)[0, 1:4] - top
+        kp_valence = np.sort(eight.energies_eV(k[None])[0])[:6:2]  # Kramers pairs
+        assert np.allclose(kp_valence, np.sort(pw), rtol=0.01, atol=1e-7)
+
+
+def test_conduction_mass_of_the_eight_band_model_matches_the_plane_wave_mass(extracted):
+    # Internal consistency: F is chosen so that m0/m_e = (1 + 2F) + Ep/Eg (Δso = 0;
+    # Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001)) equals the plane-wave
+    # sum-over-states mass; the eight-band conduction curvature must then agree.
+    from bandpert.kp import masses_at_gamma
+
+    _, _, ex, kp = extracted
+    masses = masses_at_gamma(kp.model("eight-band"), "001")
+    e = masses.energies_eV
+    conduction = int(np.argmax(e))
+    assert masses.mass_m0[conduction] == pytest.approx(ex.conduction_mass_m0, rel=1e-6)
+
+
+def test_gallium_arsenide_model_values():
+    # The 1966 local model gives m_e ≈ 0.07 against 0.067 measured and Ep ≈ 18 eV against the
+    # 28.8 eV of Vurgaftman et al. 2001 (from memory): a local pseudopotential underestimates
+    # the momentum matrix element; the test pins the model's values, not the measured ones.
+    material = bundled("gallium-arsenide")
+    model = build_model(material, converged_cutoff(material, 8))
+    ex = extract_kp_parameters(material, model)
+    assert ex.conduction_mass_m0 == pytest.approx(0.067, rel=0.15)
+    assert 15.0 < ex.parameters.Ep_eV < 25.0
+    assert ex.parameters.Eg_eV == pytest.approx(1.42, abs=0.05)
