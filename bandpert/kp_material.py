@@ -22,7 +22,7 @@ Units are in the key names: energies in eV (``_eV``), lengths in Å (``_A``), ma
 
     [parameters]                                 # required; each key optional by itself
     Eg_eV = 1.519                                # > 0: gap Γ6 − Γ8 (inverted gaps not supported)
-    Delta_so_eV = 0.341                          # > 0: spin–orbit splitting Γ8 − Γ7
+    Delta_so_eV = 0.341                          # ≥ 0: spin–orbit splitting Γ8 − Γ7
     Ep_eV = 28.8                                 # ≥ 0: Kane energy 2 m0 P²/ħ²
     F = -1.94                                    # Kane's remote-band parameter (conduction band)
     gamma1 = 6.98                                # Luttinger parameters (not the modified ones);
@@ -144,8 +144,11 @@ def _read_models(r: _Reader) -> tuple[str, ...] | None:
 def _read_parameters(r: _Reader) -> KPParameters:
     values: dict[str, float | None] = {}
     for key in PARAMETER_KEYS:
-        values[key] = r.number(key, required=False, positive=key in ("Eg_eV", "Delta_so_eV"))
+        values[key] = r.number(key, required=False, positive=key == "Eg_eV")
     r.finish()
+    if values["Delta_so_eV"] is not None and values["Delta_so_eV"] < 0:
+        raise r.fail("Delta_so_eV", "must not be negative (0 means no spin–orbit coupling), got "
+                                    f"{values['Delta_so_eV']:g}")
     if values["Ep_eV"] is not None and values["Ep_eV"] < 0:
         raise r.fail("Ep_eV", f"must not be negative (it is 2m0P²/ħ²), got {values['Ep_eV']:g}")
     g1, g2, g3 = values["gamma1"], values["gamma2"], values["gamma3"]

@@ -496,7 +496,7 @@ CASES = [
     ("gap-zero", _put("parameters", "Eg_eV", 0.0), "parameters.Eg_eV"),
     ("gap-negative", _put("parameters", "Eg_eV", -0.3), "parameters.Eg_eV"),
     ("gap-infinite", _put("parameters", "Eg_eV", math.inf), "parameters.Eg_eV"),
-    ("delta-zero", _put("parameters", "Delta_so_eV", 0.0), "parameters.Delta_so_eV"),
+    ("delta-negative", _put("parameters", "Delta_so_eV", -0.1), "parameters.Delta_so_eV"),
     ("ep-negative", _put("parameters", "Ep_eV", -28.8), "parameters.Ep_eV"),
     ("ep-nan", _put("parameters", "Ep_eV", math.nan), "parameters.Ep_eV"),
     ("f-boolean", _put("parameters", "F", True), "parameters.F"),
