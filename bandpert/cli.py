@@ -335,6 +335,236 @@ def gaps(
     out.print(f"wrote {image}, {json_path}")
 
 
+@app.command()
+def masses(
+    file: MaterialFile,
+    point: Annotated[str | None, typer.Option("--point", help="Where: a path label (G/Gamma for Γ) "
+                                              "or fractional coordinates '0.5,0,0.5'. Default: "
+                                              "the conduction minimum and valence maximum, "
+                                              "refined in 3D.", show_default=False)] = None,
+    band: Annotated[int | None, typer.Option("--band", help="Band number (1 = lowest) at --point; "
+                                             "default: the lowest empty band.",
+                                             show_default=False)] = None,
+    temperature_K: Annotated[float, typer.Option("--temperature", help="Temperature (K) of the "
+                                                 "effective densities of states N_c, N_v.")]
+    = 300.0,
+    cutoff_eV: Annotated[float | None, typer.Option("--cutoff-eV", help="Plane-wave cutoff in eV "
+                                                    "(default: the file's, else converged).",
+                                                    show_default=False)] = None,
+    json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
+                                                   "results (default: OUT/<name>-masses.json).",
+                                                   show_default=False)] = None,
+    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the JSON.")] = Path("plots"),
+    kp_file: Annotated[Path | None, typer.Option("--write-kp", help="Also write the k·p parameter "
+                                                 "file (Eg, Ep, F, γ1–γ3) this model implies.",
+                                                 show_default=False)] = None,
+) -> None:
+    """Effective masses by second-order k·p, with the finite-difference cross-check.
+
+    For each band edge: the inverse-mass tensor, principal masses and axes, the finite-difference
+    tensor of the exact band and their relative difference, the convergence of the sum over
+    states, the valley count, density-of-states and conductivity masses and N_c / N_v. At a
+    degenerate edge (the valence top at Γ): the Löwdin k·p Hamiltonian, the Dresselhaus–Kip–Kittel
+    L, M, N, the Luttinger γ1, γ2, γ3 and the masses along [100], [110] and [111].
+    """
+    from .gaps import resolve_points
+    from .io import atomic_path, write_json
+    from .kp_extract import extract_kp_parameters, kp_material_text
+    from .lattice import point_group_rotations
+    from .masses import band_masses, edge_masses
+    from .report import document, masses_results
+
+    if cutoff_eV is not None and not cutoff_eV > 0:
+        raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
+    if band is not None and band < 1:
+        raise InputError(f"must be at least 1, got {band}", key="--band")
+    material = load_material(file)
+    with progress_bar("diagonalising") as progress:
+        bs = compute_band_structure(material, n_k=120, cutoff_eV=cutoff_eV, progress=progress)
+    if point is None and band is None:
+        entries = edge_masses(bs, temperature_K)
+        locations = [describe_position(bs.path, bs.edges.conduction_min_index) + " (refined)",
+                     describe_position(bs.path, bs.edges.valence_max_index) + " (refined)"]
+    else:
+        label, k_frac, _ = resolve_points(material, [point or "Γ"])[0]
+        n_el = material.valence_electrons
+        b = band - 1 if band is not None else (n_el // 2 if n_el else 0)
+        entry = band_masses(bs.model, k_frac @ bs.model.reciprocal_invA, b,
+                            point_group_rotations(material), temperature_K,
+                            f"band {b + 1} at {label}")
+        entries, locations = [entry], [label]
+    kp_params = kp_text = None
+    if material.dimension == 3 and material.valence_electrons:
+        try:
+            extracted = extract_kp_parameters(material, bs.model)
+        except InputError:
+            extracted = None
+        if extracted is not None:
+            kp_params = {**extracted.parameters.as_dict(),
+                         "conduction_band": extracted.conduction_band + 1,
+                         "conduction_mass_m0": extracted.conduction_mass_m0}
+            kp_text = kp_material_text(material, extracted)
+    if kp_file is not None and kp_text is None:
+        raise InputError("this model has no threefold valence top at Γ with an s-like "
+                         "conduction state, so it implies no Kane parameters", str(file),
+                         "--write-kp")
+    settings = {"cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
+                "temperature_K": temperature_K, "point": point, "band": band}
+    doc = document("masses", material, settings,
+                   masses_results(entries, bs.energy_zero_eV, locations, kp_params))
+    json_path = json_path or out_dir / f"{file.stem}-masses.json"
+    write_json(json_path, doc)
+    written = [json_path]
+    if kp_file is not None:
+        with atomic_path(kp_file) as tmp:
+            tmp.write_text(kp_text, encoding="utf-8")
+        written.append(kp_file)
+    for entry, location in zip(entries, locations, strict=True):
+        _masses_table(entry, location, bs.energy_zero_eV)
+    if kp_params is not None:
+        out.print("k·p parameters implied at Γ (Δso = 0): "
+                  + ", ".join(f"{k} = {v:.4g}" for k, v in extracted.parameters.as_dict().items()
+                              if k != "Delta_so_eV"))
+    out.print("wrote " + ", ".join(str(w) for w in written))
+
+
+def _masses_table(m, location: str, zero_eV: float) -> None:
+    table = Table(title=f"{m.label}: {location}", show_header=False, title_justify="left")
+    table.add_column(style="bold")
+    table.add_column()
+    table.add_row("k (fractional)", _vec(m.k_frac))
+    table.add_row("energy", f"{m.energy_eV - zero_eV:.4f} eV from the zero; band(s) "
+                  + ", ".join(str(b + 1) for b in m.degenerate_bands))
+    if m.tensor is not None:
+        t = m.tensor
+        kinds = ["electron-like" if s > 0 else "hole-like" for s in t.curvature_sign]
+        for i in range(len(t.principal_masses)):
+            table.add_row(f"principal mass {i + 1}", f"{t.principal_masses[i]:.4f} m0 "
+                          f"({kinds[i]}) along {_vec(t.principal_axes[:, i])}")
+        table.add_row("finite-difference check", f"relative difference {m.relative_difference:.1e}")
+        conv = ", ".join(f"{n}: {np.max(row):.4f}" for n, row in
+                         zip(m.convergence_counts, m.convergence_masses, strict=True))
+        table.add_row("largest mass vs states kept", conv)
+        if m.valleys is not None:
+            table.add_row("valleys", str(m.valleys))
+        if m.dos_mass is not None:
+            table.add_row("density-of-states mass", f"{m.dos_mass:.4f} m0")
+            table.add_row("conductivity mass", f"{m.conductivity_mass:.4f} m0")
+            table.add_row(f"effective DOS at {m.temperature_K:g} K", f"{m.effective_dos_cm3:.3e} "
+                          "cm⁻³")
+    if m.edge is not None:
+        e = m.edge
+        if e.dkk_LMN is not None:
+            big_l, big_m, big_n = e.dkk_LMN
+            table.add_row("DKK L, M, N (ħ²/2m0)", f"{big_l:.3f}, {big_m:.3f}, {big_n:.3f}")
+            g1, g2, g3 = e.luttinger
+            table.add_row("Luttinger γ1, γ2, γ3", f"{g1:.3f}, {g2:.3f}, {g3:.3f} (spinless "
+                          "triplet; Γ8 hole formulas need spin–orbit)")
+        for name, curv in e.direction_curvatures.items():
+            masses = ", ".join(f"{1 / abs(c):.4f}" for c in curv)
+            table.add_row(f"masses along {name}", f"{masses} m0 (bands of the set)")
+        if m.dos_mass is not None:
+            table.add_row("density-of-states mass", f"{m.dos_mass:.4f} m0 (all bands of the set)")
+            table.add_row(f"effective DOS at {m.temperature_K:g} K",
+                          f"{m.effective_dos_cm3:.3e} cm⁻³")
+    out.print(table)
+
+
+@app.command()
+def kp(
+    file: Annotated[Path, typer.Argument(help="k·p parameter file (TOML).", show_default=False)],
+    model_name: Annotated[str | None, typer.Option("--model", help="two-band, six-band or "
+                                                   "eight-band (default: every model the file "
+                                                   "supports).", show_default=False)] = None,
+    compare: Annotated[Path | None, typer.Option("--compare", help="A plane-wave material file "
+                                                 "whose exact bands are drawn beside the k·p "
+                                                 "ones.", show_default=False)] = None,
+    k_max: Annotated[float, typer.Option("--k-max", help="Extent of the lines from Γ, in units "
+                                         "of 2π/a.")] = 0.1,
+    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the plot and JSON.")]
+    = Path("plots"),
+    image_format: Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
+    = ImageFormat.png,
+    json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
+                                                   "results (default: OUT/<name>-kp.json).",
+                                                   show_default=False)] = None,
+) -> None:
+    """k·p models at Γ from a parameter file: band-edge masses along [001], [110] and [111],
+    nonparabolicity, and bands near Γ (beside a plane-wave model's exact bands with --compare).
+    """
+    from .bands import exact_energies
+    from .io import write_json, write_with
+    from .kp import MODEL_NAMES, bands_along, masses_at_gamma, nonparabolicity, unit_vector
+    from .kp_material import load_kp_material
+    from .plotting import kp_figure
+    from .report import document
+
+    if not 0.0 < k_max <= 0.5:
+        raise InputError(f"expected 0 < --k-max ≤ 0.5 (a fraction of 2π/a), got {k_max}",
+                         key="--k-max")
+    if model_name is not None and model_name not in MODEL_NAMES:
+        raise InputError(f"'{model_name}' is not one of {', '.join(MODEL_NAMES)}", key="--model")
+    kpm = load_kp_material(file)
+    names = [model_name] if model_name else list(kpm.models)
+    directions = {"[001]": "001", "[110]": "110", "[111]": "111"}
+    results: dict = {"models": {}, "reference_masses_m0": kpm.reference_masses_m0,
+                     "parameters": kpm.parameters.as_dict(),
+                     "energy_zero": "valence-band top at Γ"}
+    plotted: dict = {}
+    for name in names:
+        model = kpm.model(name)
+        masses = {label: masses_at_gamma(model, d).as_dict() for label, d in directions.items()}
+        entry = {"masses_m0": masses, "energies_at_gamma_eV": model.gamma_energies_eV}
+        if name in ("two-band", "eight-band"):
+            npb = nonparabolicity(model, "001")
+            entry["nonparabolicity"] = {"direction": "[001]", "alpha_per_eV": npb.alpha_per_eV,
+                                        "edge_mass_m0": npb.edge_mass_m0}
+        results["models"][name] = entry
+        plotted[name] = {label: bands_along(model, d, k_max_frac=k_max, n_k=121)
+                         for label, d in directions.items()}
+    exact = None
+    if compare is not None:
+        material = load_material(compare)
+        bs = compute_band_structure(material, n_k=20)
+        if bs.edges is None:
+            raise InputError("--compare needs a semiconductor (a gap and electrons.valence)",
+                             str(compare), "electrons")
+        exact = {}
+        t = np.linspace(0.0, k_max, 61)
+        for label, d in directions.items():
+            k = t[:, None] * unit_vector(d) * 2 * np.pi / material.a_A
+            e = exact_energies(bs.model, k, bs.n_bands) - bs.edges.valence_max_eV
+            exact[label] = (t, e)
+        results["compared_with"] = {"file": str(compare), "name": material.name}
+    settings = {"models": names, "k_max_frac": k_max}
+    doc = document("kp", kpm, settings, results)
+    fig = kp_figure(kpm.name, kpm.source, plotted, exact,
+                    "" if compare is None else f"{Path(compare).stem} (plane-wave, exact)")
+    image = out_dir / f"{file.stem}-kp.{image_format.value}"
+    json_path = json_path or out_dir / f"{file.stem}-kp.json"
+    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=200))
+    write_json(json_path, doc)
+    table = Table(title=f"{kpm.name}: masses at Γ (m0)", title_justify="left")
+    table.add_column("model")
+    table.add_column("band")
+    for label in directions:
+        table.add_column(label, justify="right")
+    for name, entry in results["models"].items():
+        for band_name in entry["masses_m0"]["[001]"]:
+            table.add_row(name, band_name, *(f"{entry['masses_m0'][d][band_name]:.4f}"
+                                             for d in directions))
+    out.print(table)
+    if kpm.parameters.Delta_so_eV == 0:
+        out.print("Delta_so_eV = 0: Γ8 and Γ7 coincide, so the heavy/light/split-off names only "
+                  "label the sorted curvatures of the threefold (spinless) valence top")
+    for name, entry in results["models"].items():
+        if "nonparabolicity" in entry:
+            npb = entry["nonparabolicity"]
+            out.print(f"{name}: conduction nonparabolicity α = {npb['alpha_per_eV']:.3f} /eV "
+                      f"along [001] (edge mass {npb['edge_mass_m0']:.4f} m0)")
+    out.print(f"wrote {image}, {json_path}")
+
+
 def _vec(v) -> str:
     return "(" + ", ".join(f"{x:.4f}" for x in np.asarray(v, dtype=float)) + ")"
 

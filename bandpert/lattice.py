@@ -232,3 +232,15 @@ def describe_position(path: KPath, index: int) -> str:
     d = path.distance_invA
     frac = (d[index] - d[i0]) / (d[i1] - d[i0])
     return f"{frac:.2f} of {start}→{end}"
+
+
+def point_group_rotations(material: Material, symprec: float = 1e-5) -> np.ndarray | None:
+    """Rotations of the crystal's space group (spglib, fractional direct coordinates), 3D only."""
+    if material.dimension != 3:
+        return None
+    import spglib
+
+    cell = (material.vectors_A, [a.position_frac for a in material.atoms],
+            _species_numbers(material))
+    data = spglib.get_symmetry_dataset(cell, symprec=symprec)
+    return None if data is None else np.asarray(data.rotations)

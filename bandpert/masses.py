@@ -555,3 +555,32 @@ def edge_point(model: PlaneWaveModel, k_path_cart_invA: np.ndarray, path_index: 
     if np.linalg.norm(refined - k) > limit or gain < EXTREMUM_GAIN_EV:
         return k
     return refined
+
+
+def edge_masses(bs, temperature_K: float = 300.0) -> list[BandMasses]:
+    """Masses at the conduction minimum and the valence maximum of a semiconductor.
+
+    The extrema found along the path are refined in the full k-space (:func:`edge_point`)
+    before the masses are taken.
+
+    Parameters
+    ----------
+    bs : bandpert.bands.BandStructure
+        Exact bands of a semiconductor (``bs.edges`` not None).
+    temperature_K : float
+        For N_c and N_v.
+    """
+    from .lattice import point_group_rotations
+
+    if bs.edges is None or bs.energies_eV is None:
+        raise InputError("no band gap on the path (a metal, or no electrons.valence): give "
+                         "the point and the band", bs.material.file, "--point")
+    rot = point_group_rotations(bs.material)
+    n_val = bs.material.valence_electrons // 2
+    out = []
+    for label, index, band, maximum in (
+            ("conduction minimum", bs.edges.conduction_min_index, n_val, False),
+            ("valence maximum", bs.edges.valence_max_index, n_val - 1, True)):
+        k = edge_point(bs.model, bs.path.k_cart_invA, index, band, maximum)
+        out.append(band_masses(bs.model, k, band, rot, temperature_K, label))
+    return out

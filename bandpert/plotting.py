@@ -321,3 +321,59 @@ def gap_figure(bs: BandStructure, report,
               title="labels: exact (second-order) gap, eV", title_fontsize=6)
     ax.set_title(f"{bs.material.name}: gaps at free-electron degeneracies", fontsize=10)
     return fig
+
+
+KP_STYLES = {"two-band": ("#9c6ade", ":"), "six-band": ("#e07a1f", "--"),
+             "eight-band": ("#2a9d8f", "-")}
+
+
+def kp_figure(title: str, source: str, bands_by_model: dict, exact: dict | None = None,
+              exact_label: str = "") -> Figure:
+    """k·p bands near Γ along several directions, one panel per direction.
+
+    Parameters
+    ----------
+    title, source : str
+        Figure title and the parameters' source (printed beneath).
+    bands_by_model : dict
+        Model name → {direction label → :class:`bandpert.kp.DirectionalBands`}.
+    exact : dict, optional
+        Direction label → (k in units of 2π/a, (n_k, n) energies from the valence top) of a
+        plane-wave model, drawn as dots beside the k·p lines.
+    exact_label : str
+        Legend text of the exact bands.
+    """
+    directions = list(next(iter(bands_by_model.values())))
+    fig, axes = plt.subplots(1, len(directions), figsize=(3.0 * len(directions) + 0.6, 4.6),
+                             sharey=True, constrained_layout=True)
+    axes = np.atleast_1d(axes)
+    for ax, name in zip(axes, directions, strict=True):
+        for model, per_dir in bands_by_model.items():
+            colour, style = KP_STYLES.get(model, ("0.3", "-"))
+            db = per_dir[name]
+            x = db.k_frac if db.k_frac is not None else db.k_invA
+            lines = ax.plot(x, db.energies_eV, color=colour, ls=style, lw=1.2)
+            lines[0].set_label(model)
+            for line in lines[1:]:
+                line.set_label("_nolegend_")
+        if exact is not None and name in exact:
+            kx, e = exact[name]
+            step = max(1, len(kx) // 25)
+            pts = ax.plot(kx[::step], e[::step], "o", ms=2.6, color=EXACT_COLOUR)
+            pts[0].set_label(exact_label or "plane-wave (exact)")
+            for p in pts[1:]:
+                p.set_label("_nolegend_")
+        ax.axhline(0.0, color="0.6", lw=0.6, ls="--", zorder=0)
+        ax.set_title(f"Γ → {name}", fontsize=9)
+        ax.set_xlabel("k (2π/a)")
+        ax.set_xlim(0, None)
+    all_kp = np.concatenate([db.energies_eV.ravel() for per_dir in bands_by_model.values()
+                             for db in per_dir.values()])
+    span = all_kp.max() - all_kp.min()
+    axes[0].set_ylim(all_kp.min() - 0.08 * span, all_kp.max() + 0.08 * span)
+    axes[0].set_ylabel("Energy − valence-band top (eV)")
+    axes[-1].legend(fontsize=7, loc="best")
+    fig.suptitle(title, fontsize=10)
+    fig.text(0.01, 0.002, _wrap(f"Parameters: {source}"), fontsize=6, color="0.35", va="bottom")
+    fig.get_layout_engine().set(rect=(0, 0.05, 1, 0.95))
+    return fig

@@ -63,7 +63,7 @@ def band_structure_results(bs: BandStructure) -> dict[str, Any]:
 
 
 def _finite_or_none(a: np.ndarray) -> list:
-    """Nested lists with +inf (a terminating series) written as null."""
+    """Nested lists with ±inf (a terminating series, a flat direction) written as null."""
     return [[None if not np.isfinite(x) else float(x) for x in row] for row in np.atleast_2d(a)]
 
 
@@ -303,3 +303,61 @@ def gap_table(report) -> tuple[list[str], list[list[str]], list[str]]:
                      "weight on the group's plane waves (the match by sorted position is "
                      "doubtful)")
     return cols, rows, notes
+
+
+def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any]:
+    entry: dict[str, Any] = {
+        "label": m.label,
+        "band": m.band + 1,
+        "location": location,
+        "k_frac": m.k_frac,
+        "k_cart_invA": m.k_cart_invA,
+        "energy_eV": m.energy_eV,
+        "energy_from_zero_eV": m.energy_eV - energy_zero_eV,
+        "degenerate_bands": (m.degenerate_bands + 1).tolist(),
+        "valleys": m.valleys,
+        "dos_mass_m0": m.dos_mass,
+        "conductivity_mass_m0": m.conductivity_mass,
+        "effective_dos_cm3": m.effective_dos_cm3,
+        "temperature_K": m.temperature_K,
+        "sum_over_states": None,
+        "finite_difference": None,
+        "convergence": None,
+        "degenerate_edge": None,
+    }
+    if m.tensor is not None:
+        entry["sum_over_states"] = {
+            "inverse_mass_tensor": m.tensor.inverse_mass,
+            "principal_masses_m0": _finite_or_none(m.tensor.principal_masses)[0],
+            "principal_axes": m.tensor.principal_axes.T,
+            "curvature_sign": m.tensor.curvature_sign,
+        }
+        entry["finite_difference"] = {"inverse_mass_tensor": m.finite_difference,
+                                      "relative_difference": m.relative_difference}
+        entry["convergence"] = {"states_kept": m.convergence_counts,
+                                "principal_masses_m0": m.convergence_masses}
+    if m.edge is not None:
+        e = m.edge
+        entry["degenerate_edge"] = {
+            "bands": (e.bands + 1).tolist(),
+            "dkk_L": None if e.dkk_LMN is None else e.dkk_LMN[0],
+            "dkk_M": None if e.dkk_LMN is None else e.dkk_LMN[1],
+            "dkk_N": None if e.dkk_LMN is None else e.dkk_LMN[2],
+            "luttinger_gamma": None if e.luttinger is None else list(e.luttinger),
+            "direction_inverse_masses": {k: v for k, v in e.direction_curvatures.items()},
+            "direction_masses_m0": {k: _finite_or_none(1.0 / np.abs(v))[0] for k, v in
+                                    e.direction_curvatures.items()},
+            "band_dos_masses_m0": m.band_dos_masses,
+        }
+    return entry
+
+
+def masses_results(entries, energy_zero_eV: float, locations: list[str],
+                   kp_parameters: dict[str, Any] | None) -> dict[str, Any]:
+    """The ``results`` of ``bandpert masses`` (keys documented in the README)."""
+    return {
+        "energy_zero_eV": energy_zero_eV,
+        "masses": [_band_masses_entry(m, energy_zero_eV, loc)
+                   for m, loc in zip(entries, locations, strict=True)],
+        "kp_parameters": kp_parameters,
+    }

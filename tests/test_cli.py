@@ -71,6 +71,9 @@ OPTIONS = {
     "check": ["--cutoff-eV", "--help"],
     "gaps": ["--json", "--point", "--crossings", "--bands", "--cutoff-eV", "--out", "--k-points",
              "--format", "--help"],
+    "masses": ["--point", "--band", "--temperature", "--cutoff-eV", "--json", "--out",
+               "--write-kp", "--help"],
+    "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--help"],
 }
 
 
@@ -324,3 +327,48 @@ def test_check_3d_material():
     # Crystallography, Vol. A, 1983)
     assert "227" in out
     assert "plane waves at cutoff" in out
+
+
+# ---------------------------------------------------------------------------------------------
+# masses and kp
+# ---------------------------------------------------------------------------------------------
+
+MATERIALS_DIR = CHAIN.parent
+
+
+def test_masses_and_kp_close_the_loop(tmp_path):
+    # masses on the zincblende model writes its JSON and the k·p file it implies; kp reads that
+    # file back and draws the k·p bands beside the plane-wave ones (internal consistency).
+    gaas = MATERIALS_DIR / "gallium-arsenide.toml"
+    kp_file = tmp_path / "implied-kp.toml"
+    code, out, err = run(["masses", str(gaas), "--out", str(tmp_path), "--write-kp",
+                          str(kp_file)])
+    assert code == 0, err
+    doc = json.loads((tmp_path / "gallium-arsenide-masses.json").read_text(encoding="utf-8"))
+    assert doc["command"] == "masses"
+    entries = doc["results"]["masses"]
+    assert [e["label"] for e in entries] == ["conduction minimum", "valence maximum"]
+    cond, val = entries
+    assert cond["sum_over_states"]["principal_masses_m0"][0] == pytest.approx(0.072, rel=0.05)
+    assert cond["finite_difference"]["relative_difference"] < 1e-5
+    assert val["degenerate_bands"] == [2, 3, 4]
+    assert len(val["degenerate_edge"]["luttinger_gamma"]) == 3
+    assert doc["results"]["kp_parameters"]["Delta_so_eV"] == 0.0
+    code, out, err = run(["kp", str(kp_file), "--compare", str(gaas), "--out", str(tmp_path)])
+    assert code == 0, err
+    kp_doc = json.loads((tmp_path / "implied-kp-kp.json").read_text(encoding="utf-8"))
+    assert set(kp_doc["results"]["models"]) == {"two-band", "six-band", "eight-band"}
+    assert (tmp_path / "implied-kp-kp.png").exists()
+    assert no_dot_files(tmp_path)
+
+
+def test_masses_of_a_metal_need_a_point(tmp_path):
+    code, _, err = run(["masses", str(MATERIALS_DIR / "aluminium.toml"), "--out",
+                        str(tmp_path)])
+    assert_user_error(code, err, "--point")
+
+
+def test_kp_rejects_a_bad_model_name(tmp_path):
+    code, _, err = run(["kp", str(MATERIALS_DIR / "gallium-arsenide-kp.toml"), "--model",
+                        "nine-band", "--out", str(tmp_path)])
+    assert_user_error(code, err, "--model")
