@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import matplotlib
+import matplotlib.ticker
 
 matplotlib.use("Agg")
 
@@ -376,4 +377,42 @@ def kp_figure(title: str, source: str, bands_by_model: dict, exact: dict | None 
     fig.suptitle(title, fontsize=10)
     fig.text(0.01, 0.002, _wrap(f"Parameters: {source}"), fontsize=6, color="0.35", va="bottom")
     fig.get_layout_engine().set(rect=(0, 0.05, 1, 0.95))
+    return fig
+
+
+def fullzone_figure(bs: BandStructure, convergence, shown_index: int | None = None) -> Figure:
+    """Full-zone k·p bands beside the exact ones, and their convergence with the basis.
+
+    Parameters
+    ----------
+    bs : BandStructure
+        Exact bands along the path.
+    convergence : bandpert.fullzone.KpConvergence
+    shown_index : int, optional
+        Which basis size to draw in the band panel (default: the largest truncated one).
+    """
+    fig, (ax, ax_c) = plt.subplots(1, 2, figsize=(9.6, 4.4), constrained_layout=True,
+                                   gridspec_kw={"width_ratios": [2.2, 1]})
+    _draw_bands_panel(ax, bs, None)
+    sizes = convergence.basis_sizes
+    i = shown_index if shown_index is not None else max(0, len(sizes) - 2)
+    x = bs.path.distance_invA
+    e = convergence.energies_eV[i] - bs.energy_zero_eV
+    lines = ax.plot(x, e, ls="--", lw=1.0, color=NONDEGENERATE_COLOUR)
+    lines[0].set_label(f"full-zone k·p, {sizes[i]} Γ states")
+    for line in lines[1:]:
+        line.set_label("_nolegend_")
+    ax.legend(fontsize=7, loc="upper right")
+    ax.set_xlabel("Wave vector along the path")
+    err = np.maximum(convergence.max_error_eV * 1e3, 1e-9)
+    rms = np.maximum(convergence.rms_error_eV * 1e3, 1e-9)
+    ax_c.loglog(sizes, err, "o-", color=SUBSPACE_COLOUR, label="largest error")
+    ax_c.loglog(sizes, rms, "s--", color="0.4", label="rms error")
+    ax_c.set_xticks(sizes, [str(n) for n in sizes])
+    ax_c.xaxis.set_minor_locator(matplotlib.ticker.NullLocator())
+    ax_c.set_xlabel("Γ states in the k·p basis")
+    ax_c.set_ylabel("error along the path (meV)")
+    ax_c.set_title("convergence", fontsize=9)
+    ax_c.legend(fontsize=7)
+    _footer(fig, bs)
     return fig

@@ -74,6 +74,7 @@ OPTIONS = {
     "masses": ["--point", "--band", "--temperature", "--cutoff-eV", "--json", "--out",
                "--write-kp", "--help"],
     "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--help"],
+    "fullzone": ["--basis", "--k-points", "--bands", "--out", "--format", "--json", "--help"],
 }
 
 
