@@ -35,7 +35,7 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
                   help="Crystal bands by exact diagonalisation and by perturbation theory. "
                        "Add --debug anywhere on the line to see the traceback of an internal "
                        "error.")
-out = Console()
+out = Console() if sys.stdout.isatty() else Console(width=160)  # files and pipes: no wrap
 err = Console(stderr=True)
 
 

@@ -221,7 +221,10 @@ def gap_results(report, bs: BandStructure | None = None) -> dict[str, Any]:
 
 
 def _gap_value(x: float) -> str:
-    """A splitting in eV: three decimals, or two significant figures below 0.5 meV."""
+    """A splitting in eV: three decimals, or two significant figures below 0.5 meV; rounding
+    noise below 1e-9 eV reads 0."""
+    if abs(x) < 1e-9:
+        x = 0.0
     if x != 0.0 and abs(x) < 5e-4:
         return f"{x:.1e}"
     return f"{round(float(x), 3) + 0.0:.3f}"  # + 0.0 turns -0.000 into 0.000
