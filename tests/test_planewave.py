@@ -187,3 +187,13 @@ def test_potential_matrix_is_built_from_differences(silicon):
     i, j = 3, 11
     assert model.potential_eV[i, j] == pytest.approx(
         complex(fourier_coefficients(silicon, m[i] - m[j])).real, abs=1e-12)
+
+
+def test_a_basis_too_large_for_memory_is_refused_with_its_size(silicon):
+    # 2000 eV in silicon would need some 10^4 plane waves: refused before any matrix is built,
+    # with the matrix size in the message (project requirement; common practice, no source).
+    from bandpert.errors import InputError
+
+    with pytest.raises(InputError, match=r"GiB") as info:
+        build_model(silicon, 2000.0)
+    assert info.value.key == "basis.cutoff_eV"
