@@ -82,6 +82,11 @@ DEFAULT_COUPLING_THRESHOLD: float = 0.1
 #: Default cap on the levels held by the groups of one row (see ``perturbative_levels``).
 DEFAULT_MAX_SUBSPACE: int = 48
 
+#: Numbers per (rows × targets × levels) array the batched driver holds at once. Smaller chunks
+#: stay in cache: on the benchmark machine 2.5e5 is 10-20 % faster than 2e6 (aluminium and
+#: silicon, 200 k-points), and memory stops growing with the number of rows beyond it.
+DRIVER_CHUNK_NUMBERS: int = 250_000
+
 #: Thresholds tried, in order, when the groups of a row outgrow ``max_subspace``.
 THRESHOLD_LADDER_STEPS: tuple[float, ...] = (0.25, 0.45)
 
@@ -144,6 +149,43 @@ def _safe_ratio(num: NDArray, den: NDArray, skip: NDArray) -> FloatArray:
     out = np.zeros(np.broadcast_shapes(num.shape, den.shape), dtype=float)
     np.divide(num, den, out=out, where=~skip)
     return out
+
+
+def _links(
+    d: NDArray, vrow: NDArray, tol: float, thr: float, want_dinv: bool = True
+) -> tuple[FloatArray, FloatArray, NDArray[np.bool_], FloatArray | None]:
+    """Direct links of a batch of levels from their energy differences and couplings.
+
+    ``d[..., m] = e_s - e_m`` and ``vrow[..., m]`` the coupling of level s to m. Returns
+    ``|d|``, the direct ratios ``r1 = |V_sm| / |d|`` (0 where degenerate), the mask
+    ``skip`` of levels linked directly (degenerate or ``r1 > thr``) and, with ``want_dinv``,
+    the reduced resolvent ``1/d`` with 0 on ``skip``. The same numbers as
+    :func:`_safe_ratio` / :func:`_safe_reciprocal`, in fewer passes over the arrays.
+    """
+    absd = np.abs(d)
+    deg = absd <= tol
+    r1 = np.abs(vrow)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        np.divide(r1, absd, out=r1)
+        r1[deg] = 0.0
+        skip = r1 > thr
+        skip |= deg
+        dinv = None
+        if want_dinv:
+            dinv = np.divide(1.0, d)
+            dinv[skip] = 0.0
+    return absd, r1, skip, dinv
+
+
+def _indirect_join(vpsi1: NDArray, absd: FloatArray, skip: NDArray[np.bool_],
+                   thr: float) -> NDArray[np.bool_]:
+    """``skip`` plus the levels whose second-order ratio ``|(V ψ¹)_m| / |d_m|`` exceeds thr."""
+    x = np.abs(vpsi1)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        np.divide(x, absd, out=x)  # 0/0 and x/0 only where skip is already set
+    join = x > thr
+    join |= skip
+    return join
 
 
 def _overlap(x: NDArray, y: NDArray) -> FloatArray:
@@ -318,6 +360,7 @@ def _rs_core(
     matvec: Matvec,
     max_order: int,
     vpsi1: NDArray | None = None,
+    psi1: NDArray | None = None,
 ) -> FloatArray:
     r"""Energy corrections E^(1..max_order) for a batch of levels (E^(0) entry left 0).
 
@@ -328,7 +371,8 @@ def _rs_core(
         E^(2k)   = <ψ^(k-1)|V|ψ^(k)> - Σ_{i=1..k} Σ_{j=1..k-1} E^(2k-i-j) <ψ^(i)|ψ^(j)>
         E^(2k+1) = <ψ^(k)|V|ψ^(k)>   - Σ_{i=1..k} Σ_{j=1..k}   E^(2k+1-i-j) <ψ^(i)|ψ^(j)>
 
-    so that ``m`` products with ``V`` give the energy through order ``2m + 2``.
+    so that ``m`` products with ``V`` give the energy through order ``2m + 2``. ``vpsi1`` and
+    ``psi1`` optionally supply V|ψ^(1)> and |ψ^(1)> when the caller has them already.
     """
     shape = dinv.shape[:-1]
     out = np.zeros((max_order + 1, *shape))
@@ -347,9 +391,10 @@ def _rs_core(
         acc = vpsi[k - 1]
         for j in range(1, k):
             acc = acc - out[j][..., None] * psi[k - j]
-        psik = dinv * acc
+        psik = psi1 if (k == 1 and psi1 is not None) else dinv * acc
         psi.append(psik)
-        for i in range(1, k + 1):
+        # <ψ^(k)|ψ^(k)> enters only E^(2k+1)
+        for i in range(1, k + 1 if 2 * k + 1 <= max_order else k):
             gram[(i, k)] = _overlap(psi[i], psik)
         energy = _overlap(vpsi[k - 1], psik)
         for i in range(1, k + 1):
@@ -539,21 +584,18 @@ def _link_pairs(
     ``indirect``, the first-order state a = ψ¹ (P, n) over the unlinked levels and c = V a.
     """
     d = e2[rows, levels][:, None] - e2[rows]
-    absd = np.abs(d)
-    deg = absd <= tol
     vr = vv[levels] if vv.ndim == 2 else vv[rows, levels]  # V_sm
-    r1 = _safe_ratio(np.abs(vr), absd, deg)
-    direct = r1 > thr
-    join = deg | direct
+    absd, r1, skip, dinv = _links(d, vr, tol, thr, want_dinv=indirect)
     a = c = None
     if indirect:
-        skip = deg | direct
-        a = _safe_reciprocal(d, skip) * np.conj(vr)  # a_m = V_ms / (e_s - e_m)
+        a = dinv * np.conj(vr)  # a_m = V_ms / (e_s - e_m)
         if vv.ndim == 2:
             c = a @ vv.T  # (V a)_m: second-order coupling s -> m
         else:
             c = np.einsum("pmn,pn->pm", vv[rows], a)
-        join |= _safe_ratio(np.abs(c), absd, skip) > thr
+        join = _indirect_join(c, absd, skip, thr)
+    else:
+        join = skip
     join[np.arange(levels.size), levels] = False
     return join, r1, a, c
 
@@ -866,15 +908,16 @@ def _heff_batch(
     in_a = np.zeros((n_g, n), dtype=bool)
     np.put_along_axis(in_a, members, True, axis=1)
     dtype = np.result_type(vv.dtype, float)
+    complex_ = np.iscomplexobj(vv)
     if vv.ndim == 2:
-        vrow = vv[members]  # (G, g, n): V_am
+        vab = vv[members]  # (G, g, n): V_am (a fresh copy)
     else:
-        vrow = np.take_along_axis(vv, members[:, :, None], axis=1)
-    vaa = np.take_along_axis(vrow, members[:, None, :], axis=2)
-    outside = np.broadcast_to(in_a[:, None, :], vrow.shape)
-    vab = np.where(outside, 0.0, vrow)  # V_AB, zero on A columns
-    dinv = _safe_reciprocal(ea[:, :, None] - eg[:, None, :], outside)  # 1/(e_a - e_l)
-    ratio = (np.abs(vab) * np.abs(dinv)).max(axis=(1, 2))
+        vab = np.take_along_axis(vv, members[:, :, None], axis=1)
+    vaa = np.take_along_axis(vab, members[:, None, :], axis=2)
+    # V_AB: zero the A columns in place (only G g² entries)
+    np.put_along_axis(vab, np.broadcast_to(members[:, None, :], (n_g, g, g)), 0.0, axis=2)
+    # 1/(e_a - e_l), 0 on the A columns: an infinite denominator there gives an exact 0
+    dinv = np.divide(1.0, ea[:, :, None] - np.where(in_a, -np.inf, eg)[:, None, :])
     vab_t = np.swapaxes(vab, 1, 2)  # conj of V_BA
 
     def xt_times_vt(xt: NDArray) -> NDArray:  # (V X)^T for X^T = xt
@@ -887,9 +930,10 @@ def _heff_batch(
     if max_order >= 1:
         hb[1] = vaa
     xt: list[NDArray] = [np.zeros((n_g, g, n), dtype=dtype)]
+    ratio = np.zeros(n_g)
     for p in range(1, max_order):
         if p == 1:
-            rhs = np.conj(vab)
+            rhs = np.conj(vab) if complex_ else vab
         elif p == 2 and vx1t is not None:
             rhs = vx1t
         else:
@@ -897,37 +941,54 @@ def _heff_batch(
         for j in range(1, p):
             rhs = rhs - np.swapaxes(hb[p - j], 1, 2) @ xt[j]
         xt.append(rhs * dinv)
+        if p == 1:  # |V_la| / |e_a - e_l| over the levels outside: the entries of X^(1)
+            ratio = np.abs(xt[1]).max(axis=(1, 2))
         hb[p + 1] = np.swapaxes(xt[p] @ vab_t, 1, 2)
+    if max_order < 2:
+        ratio = (np.abs(vab) * np.abs(dinv)).max(axis=(1, 2))
     if g == 1:
         return hb, ratio  # 1x1: the Bloch form is the Rayleigh–Schrödinger series
     eye = np.broadcast_to(np.eye(g, dtype=dtype), (n_g, g, g))
-    # metric S^(p) = sum_{i+j=p; i,j>=1} X^(i)† X^(j)
+
+    def dagger(x: NDArray) -> NDArray:
+        return np.conj(np.swapaxes(x, -1, -2))
+
+    def paired(terms: Callable[[int], NDArray], p: int) -> NDArray:
+        """Σ_{i=1..p-1} M_i with M_{p-i} = M_i†: the pairs once, plus the middle term."""
+        acc = np.zeros((n_g, g, g), dtype=dtype)
+        for i in range(1, (p + 1) // 2):
+            m = terms(i)
+            acc += m + dagger(m)
+        if p % 2 == 0:
+            acc += terms(p // 2)
+        return acc
+
+    # metric S^(p) = sum_{i+j=p; i,j>=1} X^(i)† X^(j)  (Hermitian: the (i, j), (j, i) pairs)
     s = np.zeros_like(hb)
     s[0] = eye
     for p in range(2, max_order + 1):
-        for i in range(1, p):
-            s[p] += np.conj(xt[i]) @ np.swapaxes(xt[p - i], 1, 2)
+        s[p] = paired(lambda i, p=p: np.conj(xt[i]) @ np.swapaxes(xt[p - i], 1, 2), p)
     # T = S^(1/2): 2 T^(p) = S^(p) - sum_{j=1..p-1} T^(j) T^(p-j);  U = T^(-1)
+    # (T^(0) = U^(0) = 1: products with them are copies)
     t = np.zeros_like(hb)
     u = np.zeros_like(hb)
     t[0] = eye
     u[0] = eye
     for p in range(1, max_order + 1):
-        acc = s[p].copy()
+        t[p] = 0.5 * (s[p] - paired(lambda j, p=p: t[j] @ t[p - j], p))
+        acc = -t[p]
         for j in range(1, p):
-            acc -= t[j] @ t[p - j]
-        t[p] = 0.5 * acc
-        acc = np.zeros((n_g, g, g), dtype=dtype)
-        for j in range(1, p + 1):
             acc -= t[j] @ u[p - j]
         u[p] = acc
     th = np.zeros_like(hb)
     for p in range(max_order + 1):
-        for i in range(p + 1):
+        th[p] = hb[p]
+        for i in range(1, p + 1):
             th[p] += t[i] @ hb[p - i]
     h = np.zeros_like(hb)
     for p in range(max_order + 1):
-        for i in range(p + 1):
+        h[p] = th[p]
+        for i in range(p):
             h[p] += th[i] @ u[p - i]
     return 0.5 * (h + np.conj(np.swapaxes(h, 2, 3))), ratio
 
@@ -1139,7 +1200,7 @@ def perturbative_levels(
         disables the cap.
     chunk_size : int, optional
         Rows processed at once (memory ~ chunk * (n_levels + buffer) * n numbers; default
-        keeps it near 2e6).
+        keeps it near :data:`DRIVER_CHUNK_NUMBERS`).
 
     Returns
     -------
@@ -1165,7 +1226,7 @@ def perturbative_levels(
     gsize = np.empty((n_k, n_levels), dtype=np.intp)
     origin = np.empty((n_k, n_levels), dtype=np.intp)
     outs = (energies, treatment, ratio, error, gsize, origin)
-    chunk = chunk_size or max(1, 2_000_000 // (n_t * n))
+    chunk = chunk_size or max(1, DRIVER_CHUNK_NUMBERS // (n_t * n))
     ladder = threshold_ladder(coupling_threshold) if max_subspace else [coupling_threshold]
     used = np.empty(n_k)
 
@@ -1235,6 +1296,27 @@ def threshold_ladder(coupling_threshold: float) -> list[float]:
     return [coupling_threshold] + [t for t in THRESHOLD_LADDER_STEPS if t > coupling_threshold]
 
 
+def _gather(
+    stores: list[NDArray], offsets: list[int], idx: NDArray[np.intp],
+    columns: NDArray[np.intp] | None = None,
+) -> NDArray:
+    """Rows ``idx`` of the row-wise concatenation of ``stores`` (``offsets`` their starts),
+    without building the concatenation; with ``columns`` (broadcast against ``idx[..., None]``)
+    only those entries of each row."""
+    shape = idx.shape + ((columns.shape[-1],) if columns is not None else stores[0].shape[1:])
+    out = np.empty(shape, dtype=np.result_type(*stores))
+    cols = None if columns is None else np.broadcast_to(columns, shape)
+    for store, lo, hi in zip(stores, offsets[:-1], offsets[1:], strict=True):
+        sel = (idx >= lo) & (idx < hi)
+        if not sel.any():
+            continue
+        if cols is None:
+            out[sel] = store[idx[sel] - lo]
+        else:
+            out[sel] = store[(idx[sel] - lo)[:, None], cols[sel]]
+    return out
+
+
 def _driver_chunk(
     ec: FloatArray,
     vv: NDArray,
@@ -1253,23 +1335,16 @@ def _driver_chunk(
     targets = np.argsort(ec, axis=1, kind="stable")[:, :n_t]
     et = np.take_along_axis(ec, targets, axis=1)
     d = et[..., None] - ec[:, None, :]
-    absd = np.abs(d)
-    deg = absd <= tol
     vcol, vt = _columns(vv, targets)  # vcol[k, t, m] = V_mt
-    r1 = _safe_ratio(np.abs(vcol), absd, deg)
-    direct = r1 > thr
-    skip = deg | direct
-    dinv = _safe_reciprocal(d, skip)
+    absd, r1, skip, dinv = _links(d, vcol, tol, thr)
     top = max(order + 2, 4) if estimate_error else order
     need_vpsi1 = indirect or top >= 3
     psi1 = dinv * vcol
     vpsi1 = psi1 @ vt if need_vpsi1 else None
-    join = deg | direct
-    if indirect:
-        join |= _safe_ratio(np.abs(vpsi1), absd, skip) > thr
+    join = _indirect_join(vpsi1, absd, skip, thr) if indirect else skip.copy()
     np.put_along_axis(join, targets[..., None], False, axis=2)
     vdiag = np.real(np.take_along_axis(vcol, targets[..., None], axis=2)[..., 0])
-    coeffs = _rs_core(dinv, vcol, vdiag, lambda x: x @ vt, top, vpsi1=vpsi1)
+    coeffs = _rs_core(dinv, vcol, vdiag, lambda x: x @ vt, top, vpsi1=vpsi1, psi1=psi1)
     e_nd = et + coeffs[1 : order + 1].sum(axis=0)
     if estimate_error:
         err_nd = _difference_estimate(
@@ -1293,14 +1368,12 @@ def _driver_chunk(
         source[rows, targets.ravel()] = np.arange(c * n_t)
         psi_store = [psi1.reshape(c * n_t, n)]
         vpsi_store = [vpsi1.reshape(c * n_t, n)]
-        count = c * n_t
+        offsets = [0, c * n_t]
         for fr, fm, a_new, c_new in steps:
-            source[fr, fm] = count + np.arange(fr.size)
-            count += fr.size
+            source[fr, fm] = offsets[-1] + np.arange(fr.size)
+            offsets.append(offsets[-1] + fr.size)
             psi_store.append(a_new)
             vpsi_store.append(c_new)
-        psi_all = np.concatenate(psi_store)
-        vpsi_all = np.concatenate(vpsi_store)
     flat = np.flatnonzero(lab.ravel() >= 0)  # members, row-major
     m_row, m_lev = flat // n, flat % n
     gkey = m_row * n + lab.ravel()[flat]
@@ -1319,7 +1392,8 @@ def _driver_chunk(
     lev_sorted, row_sorted = m_lev[srt], m_row[srt]
     for g in np.unique(counts[counts > 1]):
         sel = starts[counts == g]
-        step = max(1, 2_000_000 // (n * g))
+        # X (top orders of g × n) and the six (top + 1)-term series of g × g per group
+        step = max(1, 2_000_000 // (g * (n + 6 * (top + 1) * g)))
         for b0 in range(0, sel.size, step):
             st = sel[b0 : b0 + step]
             members = lev_sorted[st[:, None] + np.arange(g)]
@@ -1330,15 +1404,18 @@ def _driver_chunk(
                 # ψ¹ of member a skipped only levels linked to a (all inside the group), so
                 # V X¹ = V ψ¹ - Σ_{l in group} ψ¹_l V e_l
                 idx = source[grow[:, None], members]
-                inside = np.take_along_axis(psi_all[idx], members[:, None, :], axis=2)
+                inside = _gather(psi_store, offsets, idx, members[:, None, :])
                 vrows = vg.T[members] if vg.ndim == 2 else np.take_along_axis(
                     np.swapaxes(vg, 1, 2), members[:, :, None], axis=1)
-                vx1t = vpsi_all[idx] - inside @ vrows
+                vx1t = _gather(vpsi_store, offsets, idx)
+                vx1t -= inside @ vrows
             series, outside = _heff_batch(ec[grow], vg, members, top, vx1t=vx1t)
             w = np.linalg.eigvalsh(series[: order + 1].sum(axis=0))
             if estimate_error:
-                norms = np.abs(np.linalg.eigvalsh(series[1:])).max(axis=-1)  # (top, G)
-                norms = np.concatenate([np.zeros((1, st.size)), norms])
+                # spectral norms t_j of the orders the estimate reads (q, q + 2, p + 2)
+                used = sorted({max(order, 2), max(order, 2) + 2, order + 2})
+                norms = np.zeros((top + 1, st.size))
+                norms[used] = np.abs(np.linalg.eigvalsh(series[used])).max(axis=-1)
                 w_next = np.linalg.eigvalsh(series[: order + 3].sum(axis=0))
                 est = _difference_estimate(np.abs(w_next - w), norms[order + 2][:, None],
                                            _tail_ratio(norms, order)[:, None]).ravel()
