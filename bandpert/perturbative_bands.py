@@ -23,7 +23,7 @@ from .perturbation import (
     level_convergence_radius,
     perturbative_levels,
 )
-from .planewave import PlaneWaveModel
+from .planewave import PlaneWaveModel, single_blas_thread
 
 #: Default perturbation order.
 DEFAULT_ORDER = 2
@@ -33,6 +33,9 @@ DEFAULT_TOLERANCE_EV = 0.005
 
 #: Default number of k-points at which the convergence radius is computed.
 DEFAULT_RADIUS_POINTS = 25
+
+#: k-points handed to the perturbative driver at once (memory does not grow with the path).
+K_BLOCK = 256
 
 #: Orders of the series used for the convergence radius.
 RADIUS_ORDERS = 30
@@ -173,22 +176,35 @@ def perturbative_bands(model: PlaneWaveModel, k_cart_invA: np.ndarray, n_bands: 
         raise InputError(f"{n_bands} bands asked for but the basis holds only {model.size} "
                          "plane waves; expected fewer bands or a larger cutoff", key="bands")
     k = np.atleast_2d(k_cart_invA)
-    e0 = model.kinetic_eV(k)
     v = model.potential_eV
-    levels = perturbative_levels(e0, v, n_bands, lam=s.lam, order=s.order,
-                                 coupling_threshold=s.coupling_threshold)
     sample = radius_sample(len(k), np.array([] if label_indices is None else label_indices),
                            s.radius_points)
     radius = np.empty((len(sample), n_bands))
-    for row, ik in enumerate(sample):
-        radius[row] = _radii_at(e0[ik], v * s.lam, levels.treatment[ik], levels.origin[ik],
-                                s.coupling_threshold)
+    fields = ("energies", "treatment", "max_coupling_ratio", "error_estimate", "group_size",
+              "origin", "threshold")
+    out: dict[str, np.ndarray] = {}
+    with single_blas_thread():
+        # blocks of k-points: the kinetic diagonal (n_k × n) never exists for the whole path
+        for start in range(0, len(k), K_BLOCK):
+            stop = min(len(k), start + K_BLOCK)
+            part = perturbative_levels(model.kinetic_eV(k[start:stop]), v, n_bands, lam=s.lam,
+                                       order=s.order, coupling_threshold=s.coupling_threshold)
+            for name in fields:
+                value = np.asarray(getattr(part, name))
+                if name not in out:
+                    out[name] = np.empty((len(k), *value.shape[1:]), dtype=value.dtype)
+                out[name][start:stop] = value
+        for row, ik in enumerate(sample):
+            # the groups of the series actually used: regroup at the threshold used at this k
+            radius[row] = _radii_at(model.kinetic_eV(k[ik])[0], v * s.lam,
+                                    out["treatment"][ik], out["origin"][ik],
+                                    float(out["threshold"][ik]))
     return PerturbativeBands(
-        energies_eV=levels.energies, treatment=levels.treatment,
-        error_estimate_eV=levels.error_estimate, max_coupling_ratio=levels.max_coupling_ratio,
-        group_size=levels.group_size,
-        trustworthy=trust_mask(levels.error_estimate, levels.max_coupling_ratio, s),
-        threshold_used=np.asarray(levels.threshold), radius_k_indices=sample,
+        energies_eV=out["energies"], treatment=out["treatment"],
+        error_estimate_eV=out["error_estimate"], max_coupling_ratio=out["max_coupling_ratio"],
+        group_size=out["group_size"],
+        trustworthy=trust_mask(out["error_estimate"], out["max_coupling_ratio"], s),
+        threshold_used=out["threshold"], radius_k_indices=sample,
         convergence_radius=radius, settings=s)
 
 
@@ -200,14 +216,13 @@ def _radii_at(e0: np.ndarray, v: np.ndarray, treatment: np.ndarray, origin: np.n
         labels = group_levels(e0, v, coupling_threshold=threshold,
                               targets=np.unique(origin))
     out = np.empty(len(origin))
+    # a group's series does not depend on which member it is asked for: one per group
     done: dict[tuple[int, int], float] = {}
     for i, (tr, o) in enumerate(zip(treatment, origin, strict=True)):
-        key = (int(tr), int(o))
+        subspace = tr != TREATMENT_NONDEGENERATE
+        key = (int(tr), int(labels[o]) if subspace else int(o))
         if key not in done:
-            if tr == TREATMENT_NONDEGENERATE:
-                sub = None
-            else:
-                sub = np.flatnonzero(labels == labels[o])
+            sub = np.flatnonzero(labels == labels[o]) if subspace else None
             done[key] = level_convergence_radius(e0, v, int(o), RADIUS_ORDERS, subspace=sub)
         out[i] = done[key]
     return out
