@@ -196,6 +196,36 @@ def converged_cutoff(material: Material, n_bands: int,
                      "smoother potential or an explicit basis.cutoff_eV", material.file, "basis")
 
 
+def warn_if_unconverged(material: Material, cutoff_eV: float, n_bands: int,
+                        tolerance_eV: float = CONVERGENCE_TOLERANCE_EV) -> float:
+    """Warn (:class:`~bandpert.errors.ModelWarning`) when a given cutoff is not converged.
+
+    The bands at the labelled points and segment midpoints are compared with those at 1.5 ×
+    the cutoff (or the next cutoff that adds plane waves, if that one adds none); the largest
+    change (eV) is returned.
+    """
+    import warnings
+
+    from .errors import ModelWarning
+
+    low = build_model(material, cutoff_eV)
+    factor = 1.5
+    high = build_model(material, factor * cutoff_eV)
+    while high.size == low.size and factor < 10:  # a raise that adds nothing proves nothing
+        factor *= 1.15
+        high = build_model(material, factor * cutoff_eV)
+    nb = min(n_bands, low.size)
+    k = _probe_points(material)
+    change = float(np.abs(exact_energies(low, k, nb) - exact_energies(high, k, nb)).max())
+    if change >= tolerance_eV:
+        warnings.warn(f"the bands move by {1e3 * change:.1f} meV when the cutoff of "
+                      f"{cutoff_eV:.4g} eV is raised {factor:.2f}-fold: the basis is not "
+                      "converged to "
+                      f"{1e3 * tolerance_eV:g} meV (raise the cutoff, or leave it out for a "
+                      "converged default)", ModelWarning, stacklevel=3)
+    return change
+
+
 def uniform_mesh(material: Material, n_per_axis: int) -> tuple[np.ndarray, np.ndarray]:
     """Γ-centred uniform k-mesh reduced by symmetry (spglib) in 3D, full in 1D/2D.
 
@@ -414,7 +444,11 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
                          "bands were asked for", key="--no-exact")
     nb = default_bands(material) if n_bands is None else n_bands
-    cutoff = cutoff_eV or material.cutoff_eV or converged_cutoff(material, nb)
+    cutoff = cutoff_eV or material.cutoff_eV
+    if cutoff is None:
+        cutoff = converged_cutoff(material, nb)
+    else:
+        warn_if_unconverged(material, cutoff, nb)
     model = build_model(material, cutoff)
     points, legs = standard_path(material)
     path = sample_path(model.reciprocal_invA, points, legs, n_k)
@@ -422,6 +456,16 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     pert = None
     if perturbation is not None:
         pert = perturbative_bands(model, path.k_cart_invA, nb, perturbation, path.label_indices)
+        outside = pert.convergence_radius <= perturbation.lam
+        if outside.any():
+            import warnings
+
+            from .errors import ModelWarning
+
+            warnings.warn(f"λ = {perturbation.lam:g} lies outside the convergence radius of the "
+                          f"perturbation series on {100 * outside.mean():.0f} % of the sampled "
+                          "(band, k) points: there the low-order result is not a convergent "
+                          "expansion (see the validity map)", ModelWarning, stacklevel=2)
 
     def mesh_energies(k_cart: np.ndarray, n: int) -> np.ndarray:
         n = min(n, model.size)

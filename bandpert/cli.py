@@ -647,8 +647,23 @@ def main(argv: list[str] | None = None) -> None:
     if debug:
         args.remove("--debug")
     command = typer.main.get_command(app)
+    import warnings
+
+    from .errors import ModelWarning
+
+    held: list[str] = []  # model warnings, printed only if the command succeeds
+
+    def show(message, category, filename, lineno, file=None, line=None) -> None:
+        if issubclass(category, ModelWarning):
+            held.append(f"bandpert: warning: {message}")
+        else:
+            sys.stderr.write(warnings.formatwarning(message, category, filename, lineno, line))
+
+    warnings.showwarning = show
     try:
         code = command.main(args=args, prog_name="bandpert", standalone_mode=False)
+        for text in dict.fromkeys(held):
+            print(text, file=sys.stderr)
     except typer.Exit as exc:
         code = exc.exit_code
     except ClickException as exc:

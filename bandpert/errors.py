@@ -32,3 +32,8 @@ class InputError(ValueError):
         head = ": ".join(parts)
         text = f"{head}: {self.problem}" if head else self.problem
         return " ".join(text.split())
+
+
+class ModelWarning(UserWarning):
+    """A result that is computed but should be read with care (an unconverged basis, a series
+    outside its radius of convergence). The CLI prints it as one ``bandpert: warning:`` line."""

@@ -128,3 +128,19 @@ def test_batched_and_lapack_paths_agree(silicon):
     finally:
         bands.BATCH_BELOW = old
     assert np.allclose(e1, e2, atol=1e-9)
+
+
+def test_an_unconverged_cutoff_is_warned_about(silicon):
+    # The project's convergence criterion (bands move < 5 meV at 1.5 × the cutoff; common
+    # practice, no source): 60 eV is far from it for silicon, the default cutoff meets it.
+    from bandpert.bands import warn_if_unconverged
+    from bandpert.errors import ModelWarning
+
+    with pytest.warns(ModelWarning, match="not converged"):
+        change = warn_if_unconverged(silicon, 60.0, 8)
+    assert change > 0.05
+    import warnings
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ModelWarning)
+        assert warn_if_unconverged(silicon, 197.7, 8) < 0.005

@@ -373,3 +373,14 @@ def test_kp_rejects_a_bad_model_name(tmp_path):
     code, _, err = run(["kp", str(MATERIALS_DIR / "gallium-arsenide-kp.toml"), "--model",
                         "nine-band", "--out", str(tmp_path)])
     assert_user_error(code, err, "--model")
+
+
+def test_warnings_are_one_line_each_and_the_run_succeeds(tmp_path):
+    code, _, err = run(["bands", str(MATERIALS_DIR / "square-demo.toml"), "--out", str(tmp_path),
+                        "--cutoff-eV", "15", "--bands", "3", "--k-points", "20",
+                        "--radius-points", "0"])
+    assert code == 0
+    lines = err.splitlines()
+    assert lines and all(line.startswith("bandpert: warning:") for line in lines)
+    assert any("not converged" in line for line in lines)
+    assert "Traceback" not in err
