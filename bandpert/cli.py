@@ -47,6 +47,8 @@ class ImageFormat(StrEnum):
 
 MaterialFile = Annotated[Path, typer.Argument(help="Material description file (TOML).",
                                               show_default=False)]
+OutDir = Annotated[Path, typer.Option("--out", help="Folder for the plot and JSON.")]
+FormatOption = Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
 
 
 @contextmanager
@@ -82,8 +84,7 @@ def bands(
     cutoff_eV: Annotated[float | None, typer.Option("--cutoff-eV", help="Plane-wave kinetic-energy"
                                                     " cutoff in eV (default: the file's, else a "
                                                     "converged one).", show_default=False)] = None,
-    image_format: Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
-    = ImageFormat.png,
+    image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
                                                    "results (default: OUT/<name>-bands.json).",
                                                    show_default=False)] = None,
@@ -273,8 +274,7 @@ def gaps(
     out_dir: Annotated[Path, typer.Option("--out", help="Folder for the figure and the JSON.")]
     = Path("plots"),
     k_points: Annotated[int, typer.Option("--k-points", help="k-points of the band plot.")] = 200,
-    image_format: Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
-    = ImageFormat.png,
+    image_format: FormatOption = ImageFormat.png,
 ) -> None:
     """Gaps at free-electron degeneracies: degenerate perturbation theory against exact levels.
 
@@ -481,10 +481,8 @@ def kp(
                                                  "ones.", show_default=False)] = None,
     k_max: Annotated[float, typer.Option("--k-max", help="Extent of the lines from Γ, in units "
                                          "of 2π/a.")] = 0.1,
-    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the plot and JSON.")]
-    = Path("plots"),
-    image_format: Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
-    = ImageFormat.png,
+    out_dir: OutDir = Path("plots"),
+    image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
                                                    "results (default: OUT/<name>-kp.json).",
                                                    show_default=False)] = None,
@@ -576,10 +574,8 @@ def fullzone(
     n_bands: Annotated[int | None, typer.Option("--bands", help="Bands compared (default: the "
                                                 "file's basis.bands, else occupied + 4).",
                                                 show_default=False)] = None,
-    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the plot and JSON.")]
-    = Path("plots"),
-    image_format: Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
-    = ImageFormat.png,
+    out_dir: OutDir = Path("plots"),
+    image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
                                                    "results (default: OUT/<name>-fullzone.json).",
                                                    show_default=False)] = None,

@@ -56,7 +56,7 @@ from .kp import (
     conduction_inverse_mass,
     make_model,
 )
-from .material import _kind, _Reader, read_toml_document
+from .material import _kind, _Reader, read_header, read_toml_document
 
 #: Crystal structures a k·p file may name (the models have no inversion-asymmetry terms, so
 #: both take the same Hamiltonians).
@@ -201,16 +201,7 @@ def parse_kp_material(doc: dict[str, Any], source: str = "") -> KPMaterial:
     InputError
         On any missing, unknown, mistyped or non-physical value.
     """
-    if not isinstance(doc, dict):
-        raise InputError(f"expected a document of keys and tables, got {_kind(doc)}", source)
-    r = _Reader(doc, source)
-    name = r.string("name")
-    if not name.strip():
-        raise r.fail("name", "must not be empty; expected the material's name")
-    src = r.string("source")
-    if not src.strip():
-        raise r.fail("source", "must not be empty; expected where the parameters come from")
-    note = r.string("note", required=False)
+    r, name, src, note = read_header(doc, source)
     listed = _read_models(r)
     lat = r.sub("lattice")
     structure = lat.string("structure", choices=STRUCTURES)

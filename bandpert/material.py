@@ -567,6 +567,23 @@ def _read_path(r: _Reader, dim: int) -> CustomPath:
     return CustomPath(points, tuple(legs))
 
 
+def read_header(doc: Any, source: str) -> tuple[_Reader, str, str, str]:
+    """Start reading a document: check it is a table and read ``name``, ``source``, ``note``.
+
+    Returns the reader (for the remaining keys) and the three strings.
+    """
+    if not isinstance(doc, dict):
+        raise InputError(f"expected a document of keys and tables, got {_kind(doc)}", source)
+    r = _Reader(doc, source)
+    name = r.string("name")
+    if not name.strip():
+        raise r.fail("name", "must not be empty; expected the material's name")
+    src = r.string("source")
+    if not src.strip():
+        raise r.fail("source", "must not be empty; expected where the parameters come from")
+    return r, name, src, r.string("note", required=False)
+
+
 def parse_material(doc: dict[str, Any], source: str = "") -> Material:
     """Validate a parsed material document (the TOML tables) into a :class:`Material`.
 
@@ -586,16 +603,7 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
     InputError
         On any missing, unknown, mistyped or non-physical value.
     """
-    if not isinstance(doc, dict):
-        raise InputError(f"expected a document of keys and tables, got {_kind(doc)}", source)
-    r = _Reader(doc, source)
-    name = r.string("name")
-    if not name.strip():
-        raise r.fail("name", "must not be empty; expected the material's name")
-    src = r.string("source")
-    if not src.strip():
-        raise r.fail("source", "must not be empty; expected where the parameters come from")
-    note = r.string("note", required=False)
+    r, name, src, note = read_header(doc, source)
     lat = r.sub("lattice")
     kind, dim, vectors, a = _read_lattice(lat)
     atoms = _read_atoms(r.raw("atoms"), source, dim, vectors)
