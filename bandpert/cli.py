@@ -652,7 +652,7 @@ def main(argv: list[str] | None = None) -> None:
     def show(message, category, filename, lineno, file=None, line=None) -> None:
         if issubclass(category, ModelWarning):
             held.append(f"bandpert: warning: {message}")
-        else:
+        elif debug:  # library housekeeping (e.g. deprecations in dependencies) only on request
             sys.stderr.write(warnings.formatwarning(message, category, filename, lineno, line))
 
     warnings.showwarning = show
