@@ -82,7 +82,7 @@ def test_silicon_default_basis_size():
 
 def test_free_electron_fermi_energy_of_aluminium():
     # Free electrons with n = 3 electrons per atom in fcc a = 4.05 Å: E_F = ħ²(3π²n)^{2/3}/2m,
-    # 11.7 eV (Ashcroft & Mermin, Solid State Physics (1976), Table 2.1).
+    # 11.7 eV (source: Ashcroft & Mermin, Solid State Physics (1976), Table 2.1).
     a = 4.05
     material = make_material({"type": "fcc", "a_A": a},
                              [{"species": "Al", "position": [0.0, 0.0, 0.0]}], {"form": "empty"},

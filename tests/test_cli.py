@@ -324,7 +324,7 @@ def test_check_3d_material():
     code, out, err = run(["check", str(MATERIALS / "silicon.toml")])
     assert code == 0, err
     assert "fcc (3D), a = 5.43 Å" in out
-    # the diamond structure has space group Fd-3m, No. 227 (International Tables for
+    # the diamond structure has space group Fd-3m, No. 227 (source: International Tables for
     # Crystallography, Vol. A, 1983)
     assert "227" in out
     assert "plane waves at cutoff" in out

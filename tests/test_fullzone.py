@@ -17,7 +17,8 @@ def silicon():
 
 def test_full_basis_is_exact(silicon):
     # With every eigenstate of H(Γ) kept the k·p Hamiltonian is a unitary transform of the
-    # plane-wave H(k) (Cardona & Pollak, Phys. Rev. 142, 530 (1966), eq. 2), so the bands agree
+    # plane-wave H(k) (source: Cardona & Pollak, Phys. Rev. 142, 530 (1966), eq. 2), so the bands
+    # agree
     # with exact diagonalisation to rounding.
     e = kp_basis_energies(silicon.model, np.zeros(3), silicon.model.size,
                           silicon.path.k_cart_invA, 8)
@@ -25,7 +26,7 @@ def test_full_basis_is_exact(silicon):
 
 
 def test_bands_converge_as_the_basis_grows(silicon):
-    # Convergence curve of the full-zone method (Cardona & Pollak 1966): errors fall as more
+    # Convergence curve of the full-zone method (source: Cardona & Pollak 1966): errors fall as more
     # Γ states are kept; at Γ itself every truncation is exact.
     c = kp_convergence(silicon.model, np.zeros(3), silicon.path.k_cart_invA, 8,
                        basis_sizes=(15, 30, 60, 120), exact_eV=silicon.energies_eV)

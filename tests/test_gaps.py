@@ -62,7 +62,8 @@ def point_named(report, label):
 @pytest.mark.parametrize("q", [0.02, 0.05, 0.1, 0.2, 0.43, 1.0])
 def test_cosine_first_gap_against_mathieu(q):
     # First gap, at the zone boundary X (k = π/a, period-2a solutions): E_R (a1 − b1)
-    # (Abramowitz & Stegun, Handbook of Mathematical Functions, 1964, ch. 20, eq. 20.1.1 for the
+    # (source: Abramowitz & Stegun, Handbook of Mathematical Functions, 1964, ch. 20, eq. 20.1.1
+    # for the
     # equation; scipy.special.mathieu_a/mathieu_b for the values).
     report = gap_analysis(cosine_chain(q), n_bands=4, crossings=False)
     g = group_at(point_named(report, "X"), 0)
@@ -72,7 +73,8 @@ def test_cosine_first_gap_against_mathieu(q):
     # the 2|V_G| rule: first order gives exactly 2 V1 (Ashcroft & Mermin, Solid State Physics,
     # 1976, ch. 9, gap at a single Bragg plane; from memory) ...
     assert g.first_order_gaps_eV[0] == pytest.approx(2 * q * E_R, rel=1e-12)
-    # ... and the exact gap approaches it as a1 − b1 = 2q − q³/32 + O(q⁵) (Abramowitz & Stegun
+    # ... and the exact gap approaches it as a1 − b1 = 2q − q³/32 + O(q⁵) (source: Abramowitz &
+    # Stegun
     # 1964, eq. 20.2.25: a1 = 1 + q − q²/8 − q³/64 …, b1 = 1 − q − q²/8 + q³/64 …)
     if q <= 0.2:
         assert (g.exact_gaps_eV[0] - g.first_order_gaps_eV[0]) / E_R == pytest.approx(
@@ -280,7 +282,8 @@ def cubic_miller(material, cubic):
 
 
 def test_structure_factor_zero_against_beyond_range():
-    # Diamond: V(G) = V_S cos(G·τ), τ = a(1,1,1)/8 (Cohen & Bergstresser 1966, eq. 2): a form
+    # Diamond: V(G) = V_S cos(G·τ), τ = a(1,1,1)/8 (source: Cohen & Bergstresser 1966, eq. 2): a
+    # form
     # factor listed on the (200) shell is still killed by cos(π/2) = 0 ("structure factor
     # zero"); (222) likewise (cos(3π/2)); (400) has cos(π) = −1 but no form factor that far out.
     diamond = make_material({"type": "fcc", "a_A": 5.43},

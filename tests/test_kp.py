@@ -148,7 +148,7 @@ def test_hole_masses_along_001_and_111(material, name, direction, gamma):
     model = material.model(name)
     fd = masses_at_gamma(model, direction, "finite-difference")
     exact = masses_at_gamma(model, direction)
-    # Luttinger 1956: m0/m_hh,lh = γ1 ∓ 2γ2 along [001], γ1 ∓ 2γ3 along [111]; in the eight-
+    # Source: Luttinger 1956: m0/m_hh,lh = γ1 ∓ 2γ2 along [001], γ1 ∓ 2γ3 along [111]; in the eight-
     # band model the light hole's Ep/Eg share plus the modified γ' must add up to the same
     assert fd.of("heavy hole") == pytest.approx(1 / (p.gamma1 - 2 * g), rel=FD_RTOL)
     assert fd.of("light hole") == pytest.approx(1 / (p.gamma1 + 2 * g), rel=FD_RTOL)
@@ -163,7 +163,7 @@ def test_eight_band_gaas_heavy_hole_warping():
     p = GAAS.parameters
     model = GAAS.model("eight-band")
     g1, g2, g3 = p.gamma1, p.gamma2, p.gamma3
-    # Luttinger 1956 (warping): [100] γ1 − 2γ2, [110] γ1 − √(γ2² + 3γ3²), [111] γ1 − 2γ3
+    # Source: Luttinger 1956 (warping): [100] γ1 − 2γ2, [110] γ1 − √(γ2² + 3γ3²), [111] γ1 − 2γ3
     expected = {"100": g1 - 2 * g2, "110": g1 - math.sqrt(g2**2 + 3 * g3**2), "111": g1 - 2 * g3}
     for direction, inverse in expected.items():
         fd = masses_at_gamma(model, direction, "finite-difference")
@@ -192,7 +192,7 @@ def test_hole_masses_in_any_direction_follow_luttinger(direction):
         six = masses_at_gamma(material.model("six-band"), direction)
         eight = masses_at_gamma(material.model("eight-band"), direction)
         for result in (six, eight):
-            # Luttinger 1956, eigenvalues of the 4×4 Γ8 Hamiltonian in any direction
+            # Source: Luttinger 1956, eigenvalues of the 4×4 Γ8 Hamiltonian in any direction
             assert result.of("heavy hole") == pytest.approx(1 / hh, rel=1e-9)
             assert result.of("light hole") == pytest.approx(1 / lh, rel=1e-9)
         # eliminating Γ6 from the eight-band model gives back the six-band Γ8 block at order
@@ -348,7 +348,7 @@ def test_two_band_closed_form(material, remote):
 def test_two_band_masses(material):
     p = material.parameters
     masses = masses_at_gamma(material.model("two-band"), "111", "finite-difference")
-    # built to carry the eight-band (Vurgaftman 2001) conduction mass and the spherical
+    # built to carry the eight-band (source: Vurgaftman 2001) conduction mass and the spherical
     # Luttinger light-hole mass 1/(γ1 + 2γ̄), γ̄ = (2γ2 + 3γ3)/5 (Lipari & Baldereschi 1970)
     assert 1 / masses.of("conduction") == pytest.approx(
         conduction_inverse_mass(p.Eg_eV, p.Delta_so_eV, p.Ep_eV, p.F), rel=FD_RTOL)

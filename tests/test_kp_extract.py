@@ -50,7 +50,7 @@ def test_eight_band_model_reproduces_the_plane_wave_valence_bands(extracted, dir
 
 def test_conduction_mass_of_the_eight_band_model_matches_the_plane_wave_mass(extracted):
     # Internal consistency: F is chosen so that m0/m_e = (1 + 2F) + Ep/Eg (Δso = 0;
-    # Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001)) equals the plane-wave
+    # source: Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001)) equals the plane-wave
     # sum-over-states mass; the eight-band conduction curvature must then agree.
     from bandpert.kp import masses_at_gamma
 

@@ -19,7 +19,8 @@ def _distances(lattice: dict) -> dict[str, float]:
     return {label: float(np.linalg.norm(np.array(p) @ b)) for label, p in points.items()}
 
 
-# Setyawan & Curtarolo, Comput. Mater. Sci. 49, 299 (2010), Tables 3, 4 and 8 (coordinates of
+# Source: Setyawan & Curtarolo, Comput. Mater. Sci. 49, 299 (2010), Tables 3, 4 and 8 (coordinates
+# of
 # the high-symmetry points); the distances follow from them.
 @pytest.mark.parametrize("lattice,label,expected", [
     ({"type": "fcc", "a_A": A}, "X", 2 * np.pi / A),
@@ -38,7 +39,7 @@ def test_high_symmetry_distances(lattice, label, expected):
 
 
 def test_reciprocal_vectors_are_dual():
-    # a_i · b_j = 2π δ_ij (Ashcroft & Mermin, Solid State Physics (1976), eq. 5.4).
+    # a_i · b_j = 2π δ_ij (source: Ashcroft & Mermin, Solid State Physics (1976), eq. 5.4).
     a = bundled("silicon").vectors_A
     assert np.allclose(a @ reciprocal_vectors(a).T, 2 * np.pi * np.eye(3))
 

@@ -61,7 +61,8 @@ def test_free_electrons_have_the_free_mass(k_frac):
 
 def test_sum_over_states_is_the_exact_curvature_of_the_finite_basis_band(silicon_edges):
     # With every basis state kept, second-order k·p is the exact second derivative of the
-    # finite-basis band (Kittel, Quantum Theory of Solids, 1963, ch. 9): the finite difference
+    # finite-basis band (source: Kittel, Quantum Theory of Solids, 1963, ch. 9): the finite
+    # difference
     # agrees to about 1e-5 relative.
     _, cond, _ = silicon_edges
     assert cond.relative_difference < 1e-5
@@ -135,7 +136,8 @@ def test_star_sizes_in_fcc():
 
 def test_valence_triplet_dkk_parameters_match_the_exact_bands(silicon_edges):
     # The spinless Γ25' triplet: along [100] the curvatures are {L, M, M}, along [111]
-    # {(L+2M+2N)/3, (L+2M−N)/3 twice} (Dresselhaus, Kip & Kittel, Phys. Rev. 98, 368 (1955)).
+    # {(L+2M+2N)/3, (L+2M−N)/3 twice} (source: Dresselhaus, Kip & Kittel, Phys. Rev. 98, 368
+    # (1955)).
     # Checked against finite differences of the exact bands along each direction.
     bs, _, val = silicon_edges
     assert list(val.degenerate_bands) == [1, 2, 3]
@@ -171,6 +173,6 @@ def test_effective_density_of_states_formula():
 
 
 def test_dos_and_conductivity_mass_formulas():
-    # Sze 1981, §1.4: single spherical valley gives back its mass.
+    # Source: Sze 1981, §1.4: single spherical valley gives back its mass.
     assert density_of_states_mass(np.array([0.3, 0.3, 0.3]), 1) == pytest.approx(0.3)
     assert conductivity_mass(np.array([0.3, 0.3, 0.3])) == pytest.approx(0.3)

@@ -578,7 +578,7 @@ C = 7.1
 
 def test_fcc_vectors_and_volume():
     # fcc primitive vectors a/2 (ŷ+ẑ), a/2 (ẑ+x̂), a/2 (x̂+ŷ) and cell volume a³/4
-    # (Ashcroft & Mermin, Solid State Physics (1976), ch. 4)
+    # (source: Ashcroft & Mermin, Solid State Physics (1976), ch. 4)
     v = lattice_vectors("fcc", A)
     assert np.allclose(v, A / 2 * np.array([[0, 1, 1], [1, 0, 1], [1, 1, 0]]))
     assert np.linalg.det(v) == pytest.approx(A**3 / 4)
@@ -587,7 +587,7 @@ def test_fcc_vectors_and_volume():
 
 def test_bcc_vectors_and_volume():
     # bcc symmetric primitive vectors a/2 (ŷ+ẑ−x̂), a/2 (ẑ+x̂−ŷ), a/2 (x̂+ŷ−ẑ) and cell volume
-    # a³/2 (Ashcroft & Mermin, Solid State Physics (1976), ch. 4)
+    # a³/2 (source: Ashcroft & Mermin, Solid State Physics (1976), ch. 4)
     v = lattice_vectors("bcc", A)
     assert np.allclose(v, A / 2 * np.array([[-1, 1, 1], [1, -1, 1], [1, 1, -1]]))
     assert np.linalg.det(v) == pytest.approx(A**3 / 2)

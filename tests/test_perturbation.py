@@ -189,7 +189,8 @@ def test_two_level_series_and_radius(coupling):
     def exact(lam):  # lower eigenvalue of [[0, λv],[λv*, Δ]]: Δ/2 - sqrt(Δ²/4 + λ²|v|²)
         return delta / 2 - np.sqrt(delta**2 / 4 + lam**2 * abs(coupling) ** 2)
 
-    # Exceptional points at λ = ±iΔ/(2|v|), where the square root vanishes (Kato 1966, ch. II;
+    # Exceptional points at λ = ±iΔ/(2|v|), where the square root vanishes (source: Kato 1966, ch.
+    # II;
     # closed form of the two-level problem).
     radius = delta / (2 * abs(coupling))
     lam_in = 0.8 * radius
@@ -246,7 +247,7 @@ def test_mathieu_a0_series_coefficients():
 
 def test_mathieu_zone_boundary_pair():
     # b1 = 1 - q - q²/8 + q³/64 - ..., a1 = 1 + q - q²/8 - q³/64 - ...
-    # (Abramowitz & Stegun 1964, eq. 20.2.25)
+    # (source: Abramowitz & Stegun 1964, eq. 20.2.25)
     e0, v, m = mathieu(1.0, 12)
     pair = np.flatnonzero((m == 0) | (m == -1))  # both at (2m+1)² = 1
     terms = pt.effective_hamiltonian_series(e0, v, pair, 3)
@@ -261,13 +262,13 @@ def test_mathieu_zone_boundary_pair():
         b1, a1 = pt.subspace_levels(e0, v, pair, lam=q, order=3)
         assert b1 == pytest.approx(scipy.special.mathieu_b(1, q), abs=0.01 * q**4)
         assert a1 == pytest.approx(scipy.special.mathieu_a(1, q), abs=0.01 * q**4)
-        # b1 = 1 - q - q²/8 + q³/64 - q⁴/1536 (A&S 1964, eq. 20.2.25; the q⁴ term from
+        # b1 = 1 - q - q²/8 + q³/64 - q⁴/1536 (source: A&S 1964, eq. 20.2.25; the q⁴ term from
         # memory): the order-3 result must miss a q⁴ term
         assert abs(b1 - scipy.special.mathieu_b(1, q)) > 1e-4 * q**4
 
 
 def test_mathieu_second_gap_opens_at_second_order():
-    # b2 = 4 - q²/12 + ..., a2 = 4 + 5q²/12 - ... (Abramowitz & Stegun 1964, eq. 20.2.25):
+    # b2 = 4 - q²/12 + ..., a2 = 4 + 5q²/12 - ... (source: Abramowitz & Stegun 1964, eq. 20.2.25):
     # the states m = ±1 (both at 4) are not coupled directly, so first order gives no gap.
     e0, v, m = mathieu(0.0, 12)
     pair = np.flatnonzero(np.abs(m) == 1)
@@ -333,7 +334,7 @@ def _slope(lams, errs):
 
 
 def test_error_scaling_random_nondegenerate():
-    # the order-p error is O(λ^(p+1)) (Kato 1966: the series is analytic at λ = 0);
+    # the order-p error is O(λ^(p+1)) (source: Kato 1966: the series is analytic at λ = 0);
     # internal consistency against exact diagonalisation
     rng = np.random.default_rng(7)
     n = 8
@@ -352,7 +353,7 @@ def test_error_scaling_random_nondegenerate():
 
 def test_error_scaling_cosine_a0():
     # a0: odd orders vanish, so the error after order p is O(q^j) with j the first non-zero
-    # order above p: p = 1 -> 2, p = 2 -> 4, p = 3 -> 4 (A&S 1964, eq. 20.2.25 series)
+    # order above p: p = 1 -> 2, p = 2 -> 4, p = 3 -> 4 (source: A&S 1964, eq. 20.2.25 series)
     e0, v, _ = mathieu(0.0, 12)
     lams = np.array([0.02, 0.04, 0.08])
     for p, expected in ((1, 2), (2, 4), (3, 4)):
@@ -367,7 +368,7 @@ def test_error_scaling_cosine_a0():
 @pytest.mark.parametrize("group", [(3.0, 3.0, 3.0), (3.0, 3.3, 3.6)])
 def test_error_scaling_subspace(order, group):
     # (quasi-)degenerate group {2, 3, 4}: eigenvalues of the order-p effective Hamiltonian
-    # differ from the exact ones by O(λ^(p+1)) (Winkler 2003, App. B); internal consistency
+    # differ from the exact ones by O(λ^(p+1)) (source: Winkler 2003, App. B); internal consistency
     rng = np.random.default_rng(8)
     n = 10
     e0 = np.array([0.0, 1.0, *group, 5.0, 6.0, 7.5, 8.0, 9.0])

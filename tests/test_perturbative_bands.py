@@ -55,7 +55,8 @@ def test_coupling_ratio_alone_would_pass_wrong_points(aluminium):
 
 
 def test_switch_to_subspace_at_zone_boundary_crossings(aluminium):
-    # At X and L the free-electron levels k and k - G are degenerate (Ashcroft & Mermin 1976,
+    # At X and L the free-electron levels k and k - G are degenerate (source: Ashcroft & Mermin
+    # 1976,
     # ch. 9): the treatment there must be the subspace one, and the error stays bounded.
     bs = aluminium
     for label in ("X", "L"):
@@ -80,7 +81,7 @@ def test_silicon_validity_map_marks_the_failure(silicon_pert):
 
 @pytest.mark.parametrize("q", [0.05, 0.2])
 def test_cosine_chain_band_edges_within_the_error_estimate(q):
-    # Exact band edges E_R a_r(q), E_R b_r(q): Abramowitz & Stegun (1964), ch. 20, through
+    # Source: Exact band edges E_R a_r(q), E_R b_r(q): Abramowitz & Stegun (1964), ch. 20, through
     # scipy.special.mathieu_a / mathieu_b.
     a = 4.0
     e_r = HBAR2_OVER_2M0_EV_A2 * (np.pi / a) ** 2
@@ -120,7 +121,7 @@ def test_cosine_chain_convergence_radius_at_zone_centre():
 
 def test_weak_potential_limit_is_exact_to_the_order():
     # λ → 0: the perturbative bands approach the exact ones faster than λ² at second order
-    # (Rayleigh–Schrödinger error O(λ³); Sakurai & Napolitano 2011, §5.1).
+    # (Rayleigh–Schrödinger error O(λ³); source: Sakurai & Napolitano 2011, §5.1).
     material = bundled("aluminium")
     model = build_model(material, 120.0)
     k = np.random.default_rng(3).uniform(-0.4, 0.4, size=(6, 3)) @ model.reciprocal_invA

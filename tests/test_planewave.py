@@ -101,7 +101,8 @@ def test_empty_lattice_equals_free_electron_energies(k_frac):
 
 
 def test_symmetric_form_factor_on_111_shell_by_hand(silicon):
-    # Cohen & Bergstresser, Phys. Rev. 141, 789 (1966): V(G) = V_S(|G|²) cos(G·τ), τ = a(1,1,1)/8.
+    # Source: Cohen & Bergstresser, Phys. Rev. 141, 789 (1966): V(G) = V_S(|G|²) cos(G·τ), τ =
+    # a(1,1,1)/8.
     # For G = (2π/a)(1,1,1): G·τ = 3π/4, so V = V_S(3) cos(3π/4) = -0.21 Ry × (-1/√2).
     b = np.linalg.inv(silicon.vectors_A).T * 2 * np.pi
     miller = np.rint(np.linalg.solve(b.T, np.array([1.0, 1.0, 1.0]) * 2 * np.pi / silicon.a_A))
@@ -121,7 +122,7 @@ def _per_species_twin(material, values: dict[str, list[float]]):
 @pytest.mark.parametrize("name", ["silicon", "gallium-arsenide"])
 def test_per_species_form_factors_combine_with_one_half(name):
     # The factor 1/N_atoms in V(G) = (1/N) Σ_j v_j e^{-iG·τ_j} makes V_S = (v1 + v2)/2 and
-    # V_A = (v2 - v1)/2: Cohen & Bergstresser, Phys. Rev. 141, 789 (1966), eq. 2 and 3.
+    # V_A = (v2 - v1)/2 (source: Cohen & Bergstresser, Phys. Rev. 141, 789 (1966), eq. 2, 3).
     material = bundled(name)
     pot = material.potential
     vs, va = np.array(pot.symmetric_eV), np.array(pot.antisymmetric_eV)
