@@ -662,6 +662,8 @@ def main(argv: list[str] | None = None) -> None:
             print(text, file=sys.stderr)
     except typer.Exit as exc:
         code = exc.exit_code
+        if code == 130:  # click turns Ctrl-C into exit status 130
+            print("bandpert: interrupted; no partial output was left", file=sys.stderr)
     except ClickException as exc:
         exc.show()
         code = 2 if isinstance(exc, UsageError) else exc.exit_code

@@ -384,3 +384,29 @@ def test_warnings_are_one_line_each_and_the_run_succeeds(tmp_path):
     assert lines and all(line.startswith("bandpert: warning:") for line in lines)
     assert any("not converged" in line for line in lines)
     assert "Traceback" not in err
+
+
+def test_ctrl_c_ends_cleanly_without_partial_output(monkeypatch, tmp_path):
+    # Ctrl-C during the computation: exit status 130, one line, no traceback, nothing written
+    # (common practice, no source).
+    def interrupted(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr(cli, "compute_band_structure", interrupted)
+    out_dir = tmp_path / "out"
+    code, _, err = run(["bands", str(CHAIN), "--out", str(out_dir)])
+    assert code == 130
+    assert len(err.splitlines()) == 1 and "interrupted" in err
+    assert "Traceback" not in err
+    assert not out_dir.exists() or not any(out_dir.iterdir())
+
+
+def test_no_input_is_ever_executed():
+    # The loaders parse TOML only: no eval, exec or pickle anywhere in the package (common
+    # practice, no source).
+    import pathlib
+
+    package = pathlib.Path(cli.__file__).parent
+    text = "\n".join(p.read_text(encoding="utf-8") for p in package.glob("*.py"))
+    for word in ("eval(", "exec(", "pickle", "yaml.load"):
+        assert word not in text, word
