@@ -658,12 +658,13 @@ def main(argv: list[str] | None = None) -> None:
     warnings.showwarning = show
     try:
         code = command.main(args=args, prog_name="bandpert", standalone_mode=False)
-        for text in dict.fromkeys(held):
-            print(text, file=sys.stderr)
+        if code == 130:  # click returns 130 for Ctrl-C
+            print("bandpert: interrupted; no partial output was left", file=sys.stderr)
+        else:
+            for text in dict.fromkeys(held):
+                print(text, file=sys.stderr)
     except typer.Exit as exc:
         code = exc.exit_code
-        if code == 130:  # click turns Ctrl-C into exit status 130
-            print("bandpert: interrupted; no partial output was left", file=sys.stderr)
     except ClickException as exc:
         exc.show()
         code = 2 if isinstance(exc, UsageError) else exc.exit_code
