@@ -49,6 +49,15 @@ MaterialFile = Annotated[Path, typer.Argument(help="Material description file (T
                                               show_default=False)]
 OutDir = Annotated[Path, typer.Option("--out", help="Folder for the plot and JSON.")]
 FormatOption = Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
+CutoffOption = Annotated[float | None, typer.Option(
+    "--cutoff-eV", help="Plane-wave kinetic-energy cutoff in eV (default: the file's, else a "
+    "converged one).", show_default=False)]
+
+
+def json_option(command: str) -> object:
+    """The ``--json PATH`` option of a command, its default named in the help."""
+    return typer.Option("--json", help="Where to write the JSON results (default: "
+                        f"OUT/<name>-{command}.json).", show_default=False)
 
 
 @contextmanager
@@ -81,13 +90,9 @@ def bands(
     n_bands: Annotated[int | None, typer.Option("--bands", help="Number of bands (default: the "
                                                 "file's basis.bands, else occupied + 4).",
                                                 show_default=False)] = None,
-    cutoff_eV: Annotated[float | None, typer.Option("--cutoff-eV", help="Plane-wave kinetic-energy"
-                                                    " cutoff in eV (default: the file's, else a "
-                                                    "converged one).", show_default=False)] = None,
+    cutoff_eV: CutoffOption = None,
     image_format: FormatOption = ImageFormat.png,
-    json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
-                                                   "results (default: OUT/<name>-bands.json).",
-                                                   show_default=False)] = None,
+    json_path: Annotated[Path | None, json_option("bands")] = None,
     e_min: Annotated[float | None, typer.Option("--emin", help="Lower energy limit of the plot "
                                                 "(eV from the energy zero).",
                                                 show_default=False)] = None,
@@ -249,9 +254,7 @@ def check(
 @app.command()
 def gaps(
     file: MaterialFile,
-    json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
-                                                   "results (default: OUT/<name>-gaps.json).",
-                                                   show_default=False)] = None,
+    json_path: Annotated[Path | None, json_option("gaps")] = None,
     point: Annotated[list[str] | None, typer.Option("--point", metavar="<label|coords>",
                                                     help="A point to examine: a "
                                                     "label of the path (G/Gamma for Γ) or "
@@ -268,9 +271,7 @@ def gaps(
                                                 "among this many lowest levels (default: the "
                                                 "file's basis.bands, else occupied + 4).",
                                                 show_default=False)] = None,
-    cutoff_eV: Annotated[float | None, typer.Option("--cutoff-eV", help="Plane-wave kinetic-energy"
-                                                    " cutoff in eV (default: the file's, else a "
-                                                    "converged one).", show_default=False)] = None,
+    cutoff_eV: CutoffOption = None,
     out_dir: Annotated[Path, typer.Option("--out", help="Folder for the figure and the JSON.")]
     = Path("plots"),
     k_points: Annotated[int, typer.Option("--k-points", help="k-points of the band plot.")] = 200,
@@ -348,12 +349,8 @@ def masses(
     temperature_K: Annotated[float, typer.Option("--temperature", help="Temperature (K) of the "
                                                  "effective densities of states N_c, N_v.")]
     = 300.0,
-    cutoff_eV: Annotated[float | None, typer.Option("--cutoff-eV", help="Plane-wave cutoff in eV "
-                                                    "(default: the file's, else converged).",
-                                                    show_default=False)] = None,
-    json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
-                                                   "results (default: OUT/<name>-masses.json).",
-                                                   show_default=False)] = None,
+    cutoff_eV: CutoffOption = None,
+    json_path: Annotated[Path | None, json_option("masses")] = None,
     out_dir: Annotated[Path, typer.Option("--out", help="Folder for the JSON.")] = Path("plots"),
     kp_file: Annotated[Path | None, typer.Option("--write-kp", help="Also write the k·p parameter "
                                                  "file (Eg, Ep, F, γ1–γ3) this model implies.",
@@ -483,9 +480,7 @@ def kp(
                                          "of 2π/a.")] = 0.1,
     out_dir: OutDir = Path("plots"),
     image_format: FormatOption = ImageFormat.png,
-    json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
-                                                   "results (default: OUT/<name>-kp.json).",
-                                                   show_default=False)] = None,
+    json_path: Annotated[Path | None, json_option("kp")] = None,
 ) -> None:
     """k·p models at Γ from a parameter file: band-edge masses along [001], [110] and [111],
     nonparabolicity, and bands near Γ (beside a plane-wave model's exact bands with --compare).
@@ -576,9 +571,7 @@ def fullzone(
                                                 show_default=False)] = None,
     out_dir: OutDir = Path("plots"),
     image_format: FormatOption = ImageFormat.png,
-    json_path: Annotated[Path | None, typer.Option("--json", help="Where to write the JSON "
-                                                   "results (default: OUT/<name>-fullzone.json).",
-                                                   show_default=False)] = None,
+    json_path: Annotated[Path | None, json_option("fullzone")] = None,
 ) -> None:
     """Full-zone k·p: bands along the whole path from the Γ eigenstates, against exact bands,
     and their convergence with the number of states kept (Cardona & Pollak 1966)."""
