@@ -413,7 +413,8 @@ def energy_reference(material: Material, path_energies_eV: np.ndarray,
 def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | None = None,
                            cutoff_eV: float | None = None, fermi_mesh: int | None = None,
                            progress: Progress | None = None, exact: bool = True,
-                           perturbation: PerturbationSettings | None = None) -> BandStructure:
+                           perturbation: PerturbationSettings | None = None,
+                           check_cutoff: bool = True) -> BandStructure:
     """Material → bands along its standard (or custom) path: exact and/or perturbative.
 
     Parameters
@@ -433,6 +434,9 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         Diagonalise H(k) exactly (default). Without it the perturbative bands set the zero.
     perturbation : PerturbationSettings, optional
         Also compute perturbative bands (H0 = kinetic energy, V = crystal potential).
+    check_cutoff : bool
+        With a given cutoff, warn when it is not converged (:func:`warn_if_unconverged`,
+        default). A sweep checks once at its reference point and switches it off per point.
 
     Returns
     -------
@@ -447,7 +451,7 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     cutoff = cutoff_eV or material.cutoff_eV
     if cutoff is None:
         cutoff = converged_cutoff(material, nb)
-    else:
+    elif check_cutoff:
         warn_if_unconverged(material, cutoff, nb)
     model = build_model(material, cutoff)
     points, legs = standard_path(material)

@@ -615,6 +615,166 @@ def fullzone(
     out.print(f"wrote {image}, {json_path}")
 
 
+class EngineKind(StrEnum):
+    local = "local"
+    serial = "serial"
+
+
+EngineOption = Annotated[EngineKind, typer.Option(
+    "--engine", help="local: a Dask cluster of worker processes on this machine, started and "
+    "stopped by the command; serial: this process only, no Dask.")]
+WorkersOption = Annotated[int | None, typer.Option(
+    "--workers", help="Worker processes of the local cluster (default: one per core).",
+    show_default=False)]
+SchedulerOption = Annotated[str | None, typer.Option(
+    "--scheduler", metavar="ADDRESS", help="Run on an existing Dask scheduler instead, e.g. "
+    "tcp://10.0.0.5:8786 (its workers need bandpert installed).", show_default=False)]
+
+
+def _engine(kind: EngineKind, workers: int | None, scheduler: str | None):
+    from .execution import Engine
+
+    _check_count(workers, "--workers", 1)
+    if scheduler:
+        if kind == EngineKind.serial:
+            raise InputError("--scheduler and --engine serial contradict each other; give one",
+                             key="--scheduler")
+        return Engine("scheduler", address=scheduler)
+    return Engine(kind.value, workers=workers)
+
+
+@app.command()
+def sweep(
+    file: MaterialFile,
+    vary: Annotated[list[str], typer.Option(
+        "--vary", metavar="KEY=START:STOP:COUNT", help="A key of the material file and its "
+        "range, e.g. lattice.a_A=5.3:5.6:31 or potential.symmetric[0]=-0.25:-0.19:13; also "
+        "strain.xx|yy|zz|xy|xz|yz|hydrostatic and alloy.x (with --alloy-end). Repeat to vary "
+        "several keys (all combinations).", show_default=False)],
+    quantity: Annotated[list[str] | None, typer.Option(
+        "--quantity", help="What to compute at each point: edges (band-edge energies, "
+        "positions, gaps), gaps (at the labelled points), masses (band-edge masses). "
+        "Repeatable; default edges and gaps.", show_default=False)] = None,
+    point: Annotated[list[str] | None, typer.Option(
+        "--point", help="Label of the path for the gaps (G/Gamma for Γ); repeatable; default "
+        "every label of the path.", show_default=False)] = None,
+    between: Annotated[int | None, typer.Option(
+        "--between", metavar="N", help="Gaps at the points are between bands N and N+1 "
+        "(1-based; default: the highest occupied band).", show_default=False)] = None,
+    form_factors: Annotated[str, typer.Option(
+        "--form-factors", help="tabulated: keep the file's form factors fixed on their |G|² "
+        "shells; continuous: fit a v(q) to them (Friedel-Hybertsen-Schlüter form, 1/Ω "
+        "scaling) that follows the lattice (needed for strain).")] = "tabulated",
+    basis: Annotated[str, typer.Option(
+        "--basis", help="scaled: cutoff × (Ω_ref/Ω)^(2/d), the same plane waves under a "
+        "uniform change of the lattice constant; fixed: the same cutoff in eV.")] = "scaled",
+    alloy_end: Annotated[Path | None, typer.Option(
+        "--alloy-end", help="Material file of the x = 1 end of an alloy.x sweep "
+        "(virtual-crystal approximation).", show_default=False)] = None,
+    k_points: Annotated[int, typer.Option("--k-points", help="k-points along the path at "
+                                          "each parameter point.")] = 60,
+    n_bands: Annotated[int | None, typer.Option("--bands", help="Bands computed (default: the "
+                                                "file's basis.bands, else occupied + 4).",
+                                                show_default=False)] = None,
+    cutoff_eV: CutoffOption = None,
+    temperature: Annotated[float, typer.Option("--temperature", help="Temperature (K) for the "
+                                               "effective densities of states.")] = 300.0,
+    engine: EngineOption = EngineKind.local,
+    workers: WorkersOption = None,
+    scheduler: SchedulerOption = None,
+    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the plot, CSV and JSON.")]
+    = Path("plots"),
+    image_format: FormatOption = ImageFormat.png,
+    json_path: Annotated[Path | None, json_option("sweep")] = None,
+) -> None:
+    """Sweep keys of a material file over ranges; tabulate and plot gaps, band edges and masses.
+
+    Every point is validated like a file; a failed point is reported with its parameters and
+    the others are kept (exit status 3 when any point failed). Runs on a local Dask cluster by
+    default, on an existing scheduler with --scheduler, or in this process with --engine serial.
+    """
+    from .io import write_json, write_table, write_with
+    from .material import read_toml_document
+    from .plotting import sweep_figure
+    from .report import document, sweep_results, sweep_table
+    from .sweep import parse_axis, prepare, run_sweep
+
+    axes = tuple(parse_axis(v) for v in vary)
+    _check_count(k_points, "--k-points", 2)
+    _check_count(n_bands, "--bands", 2)
+    _check_count(between, "--between", 1)
+    if cutoff_eV is not None and not cutoff_eV > 0:
+        raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
+    if not temperature > 0:
+        raise InputError(f"expected a positive temperature in K, got {temperature}",
+                         key="--temperature")
+    run_on = _engine(engine, workers, scheduler)
+    doc = read_toml_document(file)
+    end = None if alloy_end is None else read_toml_document(alloy_end)
+    if end is not None:
+        load_material(alloy_end)  # the other end must be a valid file on its own
+    spec, reference, note = prepare(
+        doc, str(file), axes, quantities=tuple(quantity or ("edges", "gaps")),
+        points=tuple(point) if point else None, n_k=k_points, n_bands=n_bands,
+        cutoff_eV=cutoff_eV, lower_band=between, form_factors=form_factors, basis=basis,
+        alloy_end=end, alloy_source=str(alloy_end or ""), temperature_K=temperature)
+    err.print(f"bandpert: {int(np.prod([len(a.values) for a in spec.axes]))} points on {run_on.describe()}; "
+              f"{note}", highlight=False)
+    with progress_bar("sweeping") as progress:
+        result = run_sweep(spec, run_on, progress, note)
+    settings = {"varied": [a.key for a in spec.axes], "quantities": list(spec.quantities),
+                "points": list(spec.points), "between_bands": [spec.lower_band,
+                                                               spec.lower_band + 1],
+                "k_points": spec.n_k, "bands": spec.n_bands,
+                "reference_cutoff_eV": spec.reference_cutoff_eV, "basis_rule": spec.basis,
+                "form_factors": form_factors, "alloy_end": str(alloy_end or ""),
+                "temperature_K": temperature, "engine": result.engine}
+    stem = file.stem
+    image = out_dir / f"{stem}-sweep.{image_format.value}"
+    csv_path = out_dir / f"{stem}-sweep.csv"
+    json_path = json_path or out_dir / f"{stem}-sweep.json"
+    fig = sweep_figure(result)
+    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=160))
+    write_table(csv_path, *sweep_table(result))
+    write_json(json_path, document("sweep", reference, settings, sweep_results(result)))
+    _sweep_summary(result)
+    out.print(f"wrote {image}, {csv_path}, {json_path}")
+    if result.failures:
+        for f in result.failures[:10]:
+            values = ", ".join(f"{a.key} = {v:g}" for a, v in zip(spec.axes, f.values,
+                                                                   strict=True))
+            err.print(f"bandpert: failed point {values}: {f.error}", highlight=False,
+                      markup=False)
+        if len(result.failures) > 10:
+            err.print(f"bandpert: … and {len(result.failures) - 10} more failed points (all in "
+                      "the JSON)", highlight=False)
+        raise typer.Exit(3)
+
+
+def _sweep_summary(result) -> None:
+    table = Table(title=f"sweep of {', '.join(a.key for a in result.spec.axes)}",
+                  title_justify="left")
+    table.add_column("quantity")
+    table.add_column("unit")
+    table.add_column("first", justify="right")
+    table.add_column("last", justify="right")
+    table.add_column("min", justify="right")
+    table.add_column("max", justify="right")
+    from .report import column_unit
+
+    for name, v in result.columns.items():
+        if name.startswith(("lower_", "upper_")) or name.endswith("_frac"):
+            continue
+        ok = np.isfinite(v)
+        if not ok.any():
+            continue
+        good = v[ok]
+        table.add_row(name, column_unit(name), f"{good[0]:.5g}", f"{good[-1]:.5g}",
+                      f"{good.min():.5g}", f"{good.max():.5g}")
+    out.print(table)
+    out.print(f"{result.n_points} points, {len(result.failures)} failed; ran on {result.engine}")
+
+
 def _vec(v) -> str:
     return "(" + ", ".join(f"{x:.4f}" for x in np.asarray(v, dtype=float)) + ")"
 

@@ -79,8 +79,21 @@ def write_csv(path: str | Path, header_lines: list[str], columns: list[str],
     rows = np.asarray(rows, dtype=float)
     if not np.all(np.isfinite(rows)):
         raise ValueError("a non-finite number reached an output")
-    lines = [f"# {h}" for h in header_lines] + [",".join(columns)]
-    lines += [",".join(f"{x:.10g}" for x in row) for row in rows]
+    write_table(path, header_lines, columns, [[f"{x:.10g}" for x in row] for row in rows])
+
+
+def write_table(path: str | Path, header_lines: list[str], columns: list[str],
+                rows: list[list[str]]) -> None:
+    """Write a CSV table of already formatted cells atomically (empty cell = no value).
+
+    Cells holding a comma or a quote are quoted (RFC 4180).
+    """
+    def cell(text: str) -> str:
+        return f'"{text.replace(chr(34), 2 * chr(34))}"' if any(c in text for c in ',"\n') \
+            else text
+
+    lines = [f"# {h}" for h in header_lines] + [",".join(cell(c) for c in columns)]
+    lines += [",".join(cell(c) for c in row) for row in rows]
     with atomic_path(path) as tmp:
         tmp.write_text("\n".join(lines) + "\n", encoding="utf-8")
 

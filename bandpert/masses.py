@@ -468,7 +468,7 @@ class BandMasses:
 
 def band_masses(model: PlaneWaveModel, k_cart_invA: np.ndarray, band: int,
                 rotations: np.ndarray | None = None, temperature_K: float = 300.0,
-                label: str = "") -> BandMasses:
+                label: str = "", cross_check: bool = True) -> BandMasses:
     """Masses of ``band`` at ``k_cart_invA``: sum over states (or Löwdin for a degenerate set),
     the finite-difference cross-check, valley count, density-of-states and conductivity masses
     and the effective density of states.
@@ -486,6 +486,9 @@ def band_masses(model: PlaneWaveModel, k_cart_invA: np.ndarray, band: int,
         For N_c / N_v.
     label : str
         Description carried into the result.
+    cross_check : bool
+        Also compute the finite-difference tensor and the convergence with the states kept
+        (default). Sweeps switch it off: the tensor itself is unchanged.
     """
     if not temperature_K > 0:
         raise InputError(f"expected a positive temperature, got {temperature_K}",
@@ -505,16 +508,17 @@ def band_masses(model: PlaneWaveModel, k_cart_invA: np.ndarray, band: int,
                   valleys=valleys, temperature_K=temperature_K)
     if group.size == 1:
         inv = inverse_mass_tensor(states, band)
-        fd = finite_difference_inverse_mass(model, k, band)
         tensor = principal(inv)
-        counts, conv = sum_convergence(states, band)
+        fd = finite_difference_inverse_mass(model, k, band) if cross_check else None
+        counts, conv = sum_convergence(states, band) if cross_check else (None, None)
         dos = cond = n_eff = None
         if k.size == 3:
             dos = density_of_states_mass(tensor.principal_masses, valleys or 1)
             cond = conductivity_mass(tensor.principal_masses)
             n_eff = effective_density_of_states_cm3(dos, temperature_K)
         return BandMasses(**common, tensor=tensor, finite_difference=fd,
-                          relative_difference=float(np.abs(inv - fd).max() / np.abs(fd).max()),
+                          relative_difference=None if fd is None else
+                          float(np.abs(inv - fd).max() / np.abs(fd).max()),
                           convergence_counts=counts, convergence_masses=conv, dos_mass=dos,
                           conductivity_mass=cond, effective_dos_cm3=n_eff, edge=None,
                           band_dos_masses=None)
@@ -557,7 +561,7 @@ def edge_point(model: PlaneWaveModel, k_path_cart_invA: np.ndarray, path_index: 
     return refined
 
 
-def edge_masses(bs, temperature_K: float = 300.0) -> list[BandMasses]:
+def edge_masses(bs, temperature_K: float = 300.0, cross_check: bool = True) -> list[BandMasses]:
     """Masses at the conduction minimum and the valence maximum of a semiconductor.
 
     The extrema found along the path are refined in the full k-space (:func:`edge_point`)
@@ -569,6 +573,8 @@ def edge_masses(bs, temperature_K: float = 300.0) -> list[BandMasses]:
         Exact bands of a semiconductor (``bs.edges`` not None).
     temperature_K : float
         For N_c and N_v.
+    cross_check : bool
+        Passed to :func:`band_masses`.
     """
     from .lattice import point_group_rotations
 
@@ -582,5 +588,5 @@ def edge_masses(bs, temperature_K: float = 300.0) -> list[BandMasses]:
             ("conduction minimum", bs.edges.conduction_min_index, n_val, False),
             ("valence maximum", bs.edges.valence_max_index, n_val - 1, True)):
         k = edge_point(bs.model, bs.path.k_cart_invA, index, band, maximum)
-        out.append(band_masses(bs.model, k, band, rot, temperature_K, label))
+        out.append(band_masses(bs.model, k, band, rot, temperature_K, label, cross_check))
     return out

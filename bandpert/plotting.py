@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 import matplotlib
 import matplotlib.ticker
 
@@ -416,3 +418,72 @@ def fullzone_figure(bs: BandStructure, convergence, shown_index: int | None = No
     ax_c.legend(fontsize=7)
     _footer(fig, bs)
     return fig
+
+
+#: Panels of the sweep figure: title, y label, and which columns go in (by name pattern).
+SWEEP_PANELS = (
+    ("gaps", "gap (eV)", lambda n: n == "gap_eV" or n == "direct_gap_eV"
+     or (n.startswith("gap_") and n.endswith("_eV"))),
+    ("band edges", "energy (eV, absolute)", lambda n: n in ("valence_max_eV",
+                                                            "conduction_min_eV")),
+    ("levels at the points", "energy (eV, absolute)",
+     lambda n: n.startswith(("lower_", "upper_")) and n.endswith("_eV")),
+    ("edge positions", "k (reciprocal fractions)", lambda n: n.endswith("_frac")),
+    ("conduction-band masses", "mass (m0)", lambda n: re.fullmatch(r"conduction_m\d", n)
+     or n in ("conduction_dos_mass", "conduction_conductivity_mass")),
+    ("valence-band masses", "mass (m0)", lambda n: re.fullmatch(r"valence_m\d", n)
+     or n in ("valence_dos_mass", "valence_conductivity_mass")),
+    ("valence Luttinger parameters", "γ", lambda n: n.startswith("valence_gamma")),
+    ("basis", "plane waves", lambda n: n == "basis_size"),
+)
+
+
+def sweep_figure(result) -> Figure:
+    """Each swept quantity against the first varied parameter, one panel per kind.
+
+    With several varied keys, each quantity has one line per combination of the other keys
+    (lighter for later combinations). Failed points leave gaps in the lines and a red cross
+    on the parameter axis.
+    """
+    spec = result.spec
+    x = result.values[:, 0]
+    others = result.values[:, 1:]
+    combos = np.unique(others, axis=0) if others.shape[1] else np.zeros((1, 0))
+    panels = [(t, y, [n for n in result.columns if rule(n)]) for t, y, rule in SWEEP_PANELS]
+    panels = [p for p in panels if p[2]]
+    n_col = 2 if len(panels) > 1 else 1
+    n_row = -(-len(panels) // n_col)
+    fig, axes = plt.subplots(n_row, n_col, figsize=(5.2 * n_col, 3.1 * n_row), squeeze=False)
+    failed = np.array([f.values[0] for f in result.failures]) if result.failures else None
+    cycle = plt.rcParams["axes.prop_cycle"].by_key()["color"]
+    for ax, (title, ylabel, names) in zip(axes.flat, panels, strict=False):
+        for j, name in enumerate(names):
+            for c, combo in enumerate(combos):
+                sel = np.all(others == combo, axis=1) if len(combo) else np.ones(len(x), bool)
+                ax.plot(x[sel], result.columns[name][sel], "-o", ms=2.5, lw=1.2,
+                        color=cycle[j % len(cycle)], alpha=1.0 / (1 + 0.6 * c),
+                        label=_sweep_label(name) if c == 0 else "_nolegend_")
+        if failed is not None:
+            ax.plot(failed, np.full(len(failed), ax.get_ylim()[0]), "x", color=UNTRUSTED_COLOUR,
+                    ms=6, clip_on=False, label="failed point")
+        ax.set_title(title, fontsize=10, loc="left")
+        ax.set_ylabel(ylabel)
+        ax.set_xlabel(spec.axes[0].key)
+        ax.grid(alpha=0.3, lw=0.5)
+        ax.legend(fontsize=7, ncol=2 if len(names) > 4 else 1, frameon=False)
+    for ax in list(axes.flat)[len(panels):]:
+        ax.set_visible(False)
+    vca = " (virtual-crystal approximation)" if any(a.kind == "alloy" for a in spec.axes) else ""
+    more = ("; one line per value of " + ", ".join(a.key for a in spec.axes[1:])
+            if len(spec.axes) > 1 else "")
+    fig.suptitle(f"{spec.source}: sweep of {spec.axes[0].key}{vca}", fontsize=11)
+    fig.text(0.01, 0.005, _wrap(result.form_factor_note + more + f". {result.n_points} points, "
+                                f"{len(result.failures)} failed."), fontsize=7, va="bottom")
+    fig.tight_layout(rect=(0, 0.04, 1, 0.97))
+    return fig
+
+
+def _sweep_label(name: str) -> str:
+    for suffix in ("_eV", "_frac"):
+        name = name.removesuffix(suffix)
+    return name.replace("_", " ")

@@ -364,3 +364,61 @@ def masses_results(entries, energy_zero_eV: float, locations: list[str],
                    for m, loc in zip(entries, locations, strict=True)],
         "kp_parameters": kp_parameters,
     }
+
+
+def column_unit(name: str) -> str:
+    """The unit of a sweep column, read off its name (README, "bandpert sweep")."""
+    if name.endswith("_eV"):
+        return "eV"
+    if name.endswith("_frac"):
+        return "fractions of the reciprocal vectors"
+    if name.endswith("_valleys"):
+        return "count"
+    if "_gamma" in name:
+        return "dimensionless (Luttinger)"
+    if "_m" in name or name.endswith("_mass"):
+        return "m0"
+    if name == "basis_size":
+        return "plane waves"
+    return ""
+
+
+def sweep_results(result) -> dict[str, Any]:
+    """The ``results`` of ``bandpert sweep`` (keys documented in the README)."""
+    spec = result.spec
+    keys = [a.key for a in spec.axes]
+    numeric = {k: _finite_or_none(v)[0] for k, v in result.columns.items()}
+    return {
+        "parameters": [{"key": a.key, "values": a.values} for a in spec.axes],
+        "points": result.n_points,
+        "values": result.values,
+        "columns": numeric,
+        "units": {k: column_unit(k) for k in result.columns},
+        "text": result.text,
+        "failures": [{"values": dict(zip(keys, f.values, strict=True)), "error": f.error,
+                      "input_error": f.user_error} for f in result.failures],
+        "form_factors": result.form_factor_note,
+        "virtual_crystal": any(a.kind == "alloy" for a in spec.axes),
+        "energy_reference": "absolute: the model's own zero (V(G = 0) = 0 unless the file "
+                            "gives it)",
+    }
+
+
+def sweep_table(result) -> tuple[list[str], list[str], list[list[str]]]:
+    """Header lines, column names and formatted rows of the sweep CSV (empty = no value)."""
+    spec = result.spec
+    names = list(result.columns)
+    units = "; ".join(f"{n} [{column_unit(n)}]" for n in names if column_unit(n))
+    header = [f"bandpert {__version__} sweep: {spec.source}",
+              f"varied: {', '.join(a.key for a in spec.axes)}; {result.form_factor_note}",
+              f"energies absolute (the model's zero), eV; units: {units}",
+              f"{len(result.failures)} of {result.n_points} points failed (empty cells)"]
+    cols = [a.key for a in spec.axes] + names + list(result.text)
+    rows = []
+    for i in range(result.n_points):
+        row = [f"{x:.10g}" for x in result.values[i]]
+        row += ["" if not np.isfinite(result.columns[n][i]) else f"{result.columns[n][i]:.10g}"
+                for n in names]
+        row += [result.text[t][i] for t in result.text]
+        rows.append(row)
+    return header, cols, rows

@@ -1,0 +1,246 @@
+"""Where the work of a sweep or a dense k-mesh runs: in this process, or on dask.distributed.
+
+The library hands this module a plain function and a list of work items (one parameter point, or
+one block of k-points); the module groups items into tasks, runs them, and returns one
+:class:`Outcome` per item, in the order given, whatever ran where:
+
+- ``Engine(kind="serial")``: in this process, no Dask;
+- ``Engine(kind="local", workers=n)`` (the default): a :class:`distributed.LocalCluster` of ``n``
+  worker processes on 127.0.0.1, one thread each, started and stopped here;
+- ``Engine(kind="scheduler", address="tcp://host:8786")``: an existing Dask scheduler.
+
+A failing item is caught where it runs and comes back as an :class:`Outcome` holding the error
+text and the item, so one bad parameter point never loses the others; a task lost as a whole (a
+worker killed, say) marks every item in it as failed with the reason.
+
+Reproducibility: every task runs its linear algebra on one BLAS thread
+(:func:`bandpert.planewave.single_blas_thread` inside the solvers, and the worker environment
+sets OPENBLAS/OMP/MKL thread counts to 1), so a result does not depend on how many processes ran
+it; tests hold serial and distributed results equal to 1e-10 eV.
+"""
+
+from __future__ import annotations
+
+import os
+import traceback
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
+from dataclasses import dataclass
+from typing import Any
+
+from .errors import InputError
+
+Progress = Callable[[int, int], None]
+
+#: Aim for at least this many tasks per worker, so a slow task does not leave a worker idle.
+TASKS_PER_WORKER = 4
+
+#: Environment of local worker processes: one thread per BLAS/OpenMP pool.
+SINGLE_THREAD_ENV = {"OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1",
+                     "MKL_NUM_THREADS": "1"}
+
+ENGINE_KINDS = ("serial", "local", "scheduler")
+
+
+@dataclass(frozen=True)
+class Engine:
+    """How to run a batch of work items.
+
+    Attributes
+    ----------
+    kind : str
+        "serial", "local" (a local Dask cluster started for the run) or "scheduler".
+    workers : int or None
+        Worker processes of a local cluster (default: the machine's cores).
+    address : str or None
+        Scheduler address for ``kind="scheduler"`` (e.g. ``tcp://10.0.0.5:8786``).
+    """
+
+    kind: str = "local"
+    workers: int | None = None
+    address: str | None = None
+
+    def __post_init__(self) -> None:
+        if self.kind not in ENGINE_KINDS:
+            raise InputError(f"unknown engine '{self.kind}'; expected one of "
+                             f"{', '.join(ENGINE_KINDS)}", key="--engine")
+        if self.kind == "scheduler" and not self.address:
+            raise InputError("a scheduler engine needs an address such as tcp://host:8786",
+                             key="--scheduler")
+        if self.workers is not None and self.workers < 1:
+            raise InputError(f"must be at least 1, got {self.workers}", key="--workers")
+
+    def describe(self) -> str:
+        """One line for the terminal and the JSON settings."""
+        if self.kind == "serial":
+            return "serial (this process)"
+        if self.kind == "scheduler":
+            return f"Dask scheduler at {self.address}"
+        return f"local Dask cluster, {self.local_workers()} worker processes"
+
+    def local_workers(self) -> int:
+        """Worker processes a local cluster gets."""
+        return self.workers or max(1, os.cpu_count() or 1)
+
+
+@dataclass(frozen=True)
+class Outcome:
+    """The result of one work item, or why it failed.
+
+    Attributes
+    ----------
+    item : Any
+        The work item as given.
+    value : Any
+        The function's return value (None when it failed).
+    error : str or None
+        One line: the exception's type and message. None on success.
+    user_error : bool
+        True when the failure was an :class:`~bandpert.errors.InputError` (bad parameters),
+        False for anything else (a bug, or a lost worker).
+    """
+
+    item: Any
+    value: Any = None
+    error: str | None = None
+    user_error: bool = False
+
+    @property
+    def ok(self) -> bool:
+        """True when the item succeeded."""
+        return self.error is None
+
+
+def guarded(function: Callable[[Any], Any], item: Any) -> Outcome:
+    """Run ``function(item)`` and return an :class:`Outcome`; no exception escapes."""
+    try:
+        return Outcome(item=item, value=function(item))
+    except InputError as exc:
+        return Outcome(item=item, error=str(exc), user_error=True)
+    except Exception as exc:  # noqa: BLE001 - reported per item, the rest goes on
+        last = traceback.extract_tb(exc.__traceback__)[-1] if exc.__traceback__ else None
+        where = f" ({os.path.basename(last.filename)}:{last.lineno})" if last else ""
+        return Outcome(item=item, error=f"{type(exc).__name__}: {exc}{where}")
+
+
+def run_block(function: Callable[[Any], Any], items: Sequence[Any]) -> list[Outcome]:
+    """One task: the items of a block, each guarded. Module-level, so workers can import it."""
+    return [guarded(function, item) for item in items]
+
+
+def blocks(n_items: int, n_workers: int, block_size: int | None = None) -> list[slice]:
+    """Split ``n_items`` into contiguous blocks: at least :data:`TASKS_PER_WORKER` per worker.
+
+    Parameters
+    ----------
+    n_items : int
+    n_workers : int
+    block_size : int, optional
+        Items per block; by default ``ceil(n_items / (TASKS_PER_WORKER · n_workers))``.
+    """
+    if n_items == 0:
+        return []
+    size = block_size or max(1, -(-n_items // (TASKS_PER_WORKER * max(1, n_workers))))
+    return [slice(i, min(n_items, i + size)) for i in range(0, n_items, size)]
+
+
+@contextmanager
+def dask_client(engine: Engine) -> Iterator[Any]:
+    """A :class:`distributed.Client` for the engine; a local cluster is closed on exit."""
+    import logging
+
+    try:
+        from distributed import Client, LocalCluster
+    except ImportError as exc:  # pragma: no cover - dask is a dependency
+        raise InputError("dask.distributed is not installed; install bandpert's dependencies "
+                         "or use --engine serial", key="--engine") from exc
+    if engine.kind == "scheduler":
+        try:
+            client = Client(engine.address, timeout="10s")
+        except (OSError, TimeoutError, ValueError) as exc:
+            raise InputError(f"cannot reach a Dask scheduler at {engine.address} ({exc}); "
+                             "expected the address of a running scheduler",
+                             key="--scheduler") from None
+        try:
+            yield client
+        finally:
+            client.close()
+        return
+    saved = {k: os.environ.get(k) for k in SINGLE_THREAD_ENV}
+    os.environ.update(SINGLE_THREAD_ENV)  # inherited by the spawned worker processes
+    try:
+        cluster = LocalCluster(n_workers=engine.local_workers(), threads_per_worker=1,
+                               processes=True, host="127.0.0.1", dashboard_address=None,
+                               silence_logs=logging.ERROR)
+    finally:
+        for k, v in saved.items():
+            if v is None:
+                os.environ.pop(k, None)
+            else:
+                os.environ[k] = v
+    try:
+        client = Client(cluster)
+        try:
+            yield client
+        finally:
+            client.close()
+    finally:
+        cluster.close()
+
+
+def run(function: Callable[[Any], Any], items: Sequence[Any], engine: Engine = Engine("serial"),
+        progress: Progress | None = None, block_size: int | None = None) -> list[Outcome]:
+    """Run ``function`` on every item and return the outcomes in the order of ``items``.
+
+    Parameters
+    ----------
+    function : callable
+        A module-level function (workers import it by name) taking one item.
+    items : sequence
+        Picklable work items.
+    engine : Engine
+        Where to run (default: serially in this process).
+    progress : callable, optional
+        ``progress(done, total)`` in items, called as tasks finish.
+    block_size : int, optional
+        Items per task (default: see :func:`blocks`).
+
+    Returns
+    -------
+    list of Outcome
+    """
+    items = list(items)
+    total = len(items)
+    if engine.kind == "serial":
+        outcomes = []
+        for i, item in enumerate(items):
+            outcomes.append(guarded(function, item))
+            if progress:
+                progress(i + 1, total)
+        return outcomes
+    with dask_client(engine) as client:
+        n_workers = max(1, len(client.scheduler_info().get("workers", {})) or
+                        engine.local_workers())
+        parts = blocks(total, n_workers, block_size)
+        return _gather(client, function, items, parts, progress)
+
+
+def _gather(client: Any, function: Callable[[Any], Any], items: list, parts: list[slice],
+            progress: Progress | None) -> list[Outcome]:
+    from distributed import as_completed
+
+    futures = {client.submit(run_block, function, items[s], pure=False): s for s in parts}
+    results: list[Outcome | None] = [None] * len(items)
+    done = 0
+    for future in as_completed(futures):
+        s = futures[future]
+        try:
+            block = future.result()
+        except Exception as exc:  # noqa: BLE001 - a lost task fails its items, not the run
+            block = [Outcome(item=item, error=f"task lost: {type(exc).__name__}: {exc}")
+                     for item in items[s]]
+        results[s] = block
+        done += s.stop - s.start
+        if progress:
+            progress(done, len(items))
+    return results  # type: ignore[return-value]
