@@ -718,8 +718,8 @@ def sweep(
         points=tuple(point) if point else None, n_k=k_points, n_bands=n_bands,
         cutoff_eV=cutoff_eV, lower_band=between, form_factors=form_factors, basis=basis,
         alloy_end=end, alloy_source=str(alloy_end or ""), temperature_K=temperature)
-    err.print(f"bandpert: {int(np.prod([len(a.values) for a in spec.axes]))} points on {run_on.describe()}; "
-              f"{note}", highlight=False)
+    n_points = int(np.prod([len(a.values) for a in spec.axes]))
+    err.print(f"bandpert: {n_points} points on {run_on.describe()}; {note}", highlight=False)
     with progress_bar("sweeping") as progress:
         result = run_sweep(spec, run_on, progress, note)
     settings = {"varied": [a.key for a in spec.axes], "quantities": list(spec.quantities),
@@ -773,6 +773,86 @@ def _sweep_summary(result) -> None:
                       f"{good.min():.5g}", f"{good.max():.5g}")
     out.print(table)
     out.print(f"{result.n_points} points, {len(result.failures)} failed; ran on {result.engine}")
+
+
+@app.command()
+def dos(
+    file: MaterialFile,
+    mesh: Annotated[int, typer.Option("--mesh", help="Points per reciprocal axis of the "
+                                      "Γ-centred mesh (symmetry-reduced in 3D).")] = 16,
+    method: Annotated[str, typer.Option("--method", help="tetrahedron (linear tetrahedra, "
+                                        "Blöchl-Jepsen-Andersen 1994) or gaussian.")]
+    = "tetrahedron",
+    smearing_eV: Annotated[float, typer.Option("--smearing-eV", help="Gaussian width (with "
+                                               "--method gaussian).")] = 0.05,
+    step_meV: Annotated[float, typer.Option("--step-meV", help="Spacing of the energy grid.")]
+    = 10.0,
+    n_bands: Annotated[int | None, typer.Option("--bands", help="Bands computed (default: the "
+                                                "file's basis.bands, else occupied + 4).",
+                                                show_default=False)] = None,
+    cutoff_eV: CutoffOption = None,
+    engine: EngineOption = EngineKind.local,
+    workers: WorkersOption = None,
+    scheduler: SchedulerOption = None,
+    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the plot, CSV and JSON.")]
+    = Path("plots"),
+    image_format: FormatOption = ImageFormat.png,
+    json_path: Annotated[Path | None, json_option("dos")] = None,
+) -> None:
+    """Density of states on a dense k-mesh and the Fermi level from the electron count.
+
+    The exact bands are computed on the irreducible points of the mesh, spread over a local
+    Dask cluster (default), an existing scheduler (--scheduler) or this process (--engine
+    serial); the result does not depend on which.
+    """
+    from .io import write_csv, write_json, write_with
+    from .meshjob import compute_dos
+    from .plotting import dos_figure
+    from .report import document, dos_results, dos_table
+
+    _check_count(mesh, "--mesh", 2)
+    _check_count(n_bands, "--bands", 1)
+    if cutoff_eV is not None and not cutoff_eV > 0:
+        raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
+    if not smearing_eV > 0:
+        raise InputError(f"must be positive, got {smearing_eV}", key="--smearing-eV")
+    run_on = _engine(engine, workers, scheduler)
+    material = load_material(file)
+    with progress_bar("diagonalising on the mesh") as progress:
+        result = compute_dos(material, mesh, method=method, smearing_eV=smearing_eV,
+                             n_bands=n_bands, cutoff_eV=cutoff_eV,
+                             energy_step_eV=step_meV * 1e-3, engine=run_on, progress=progress)
+    settings = {"mesh": mesh, "method": method,
+                "smearing_eV": smearing_eV if method == "gaussian" else None,
+                "step_eV": step_meV * 1e-3, "bands": int(result.energies_eV.shape[1]),
+                "cutoff_eV": result.cutoff_eV, "basis_size": result.basis_size,
+                "engine": result.engine}
+    stem = file.stem
+    image = out_dir / f"{stem}-dos.{image_format.value}"
+    csv_path = out_dir / f"{stem}-dos.csv"
+    json_path = json_path or out_dir / f"{stem}-dos.json"
+    fig = dos_figure(result)
+    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=200))
+    write_csv(csv_path, *dos_table(result))
+    write_json(json_path, document("dos", material, settings, dos_results(result)))
+    table = Table(title=f"{material.name}: density of states", show_header=False,
+                  title_justify="left")
+    table.add_column(style="bold")
+    table.add_column()
+    table.add_row("mesh", f"{mesh} per axis: {result.mesh.n_full} points, "
+                  f"{len(result.mesh.k_frac)} irreducible")
+    table.add_row("basis", f"{result.basis_size} plane waves, cutoff {result.cutoff_eV:.2f} eV")
+    table.add_row("method", method + (f", σ = {smearing_eV:g} eV" if method == "gaussian"
+                                      else ""))
+    if result.fermi_level_eV is not None:
+        note = " (mid-gap)" if result.gap_eV is not None else ""
+        table.add_row("Fermi level", f"{result.fermi_level_eV:.4f} eV (absolute){note}")
+    if result.gap_eV is not None:
+        table.add_row("gap on the mesh", f"{result.gap_eV:.3f} eV")
+    table.add_row("complete below", f"{result.complete_below_eV:.3f} eV (absolute)")
+    table.add_row("ran on", result.engine)
+    out.print(table)
+    out.print(f"wrote {image}, {csv_path}, {json_path}")
 
 
 def _vec(v) -> str:

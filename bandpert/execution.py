@@ -111,6 +111,10 @@ class Outcome:
         return self.error is None
 
 
+#: Run in this process, no Dask.
+SERIAL = Engine("serial")
+
+
 def guarded(function: Callable[[Any], Any], item: Any) -> Outcome:
     """Run ``function(item)`` and return an :class:`Outcome`; no exception escapes."""
     try:
@@ -188,7 +192,7 @@ def dask_client(engine: Engine) -> Iterator[Any]:
         cluster.close()
 
 
-def run(function: Callable[[Any], Any], items: Sequence[Any], engine: Engine = Engine("serial"),
+def run(function: Callable[[Any], Any], items: Sequence[Any], engine: Engine = SERIAL,
         progress: Progress | None = None, block_size: int | None = None) -> list[Outcome]:
     """Run ``function`` on every item and return the outcomes in the order of ``items``.
 

@@ -487,3 +487,39 @@ def _sweep_label(name: str) -> str:
     for suffix in ("_eV", "_frac"):
         name = name.removesuffix(suffix)
     return name.replace("_", " ")
+
+
+def dos_figure(result) -> Figure:
+    """Density of states (filled below the Fermi level) and its integral, energies from the zero.
+    """
+    d = result.dos
+    e = d.energies_eV - result.energy_zero_eV
+    fig, (ax, ax2) = plt.subplots(2, 1, figsize=(6.4, 5.6), sharex=True,
+                                  gridspec_kw={"height_ratios": [2.2, 1]})
+    ax.plot(e, d.dos_per_eV, color=EXACT_COLOUR, lw=1.1)
+    if result.fermi_level_eV is not None:
+        ef = result.fermi_level_eV - result.energy_zero_eV
+        below = e <= ef
+        ax.fill_between(e[below], 0, d.dos_per_eV[below], color=EXACT_COLOUR, alpha=0.18, lw=0)
+        for a in (ax, ax2):
+            a.axvline(ef, color=UNTRUSTED_COLOUR, lw=0.9, ls="--")
+        ax.annotate(f"E_F = {result.fermi_level_eV:.3f} eV", (ef, ax.get_ylim()[1] * 0.92),
+                    xytext=(4, 0), textcoords="offset points", fontsize=8,
+                    color=UNTRUSTED_COLOUR)
+    ax.set_ylabel("states / eV / cell")
+    ax.set_ylim(bottom=0)
+    ax2.plot(e, d.integrated, color=SUBSPACE_COLOUR, lw=1.1)
+    ax2.set_ylabel("electrons / cell")
+    ax2.set_xlabel(f"energy (eV) from the {result.energy_zero_kind}")
+    for a in (ax, ax2):
+        a.grid(alpha=0.3, lw=0.5)
+    how = d.method + ("" if d.smearing_eV is None else f", σ = {d.smearing_eV:g} eV")
+    mesh = "×".join(str(n) for n in result.mesh.shape)
+    ax.set_title(f"{result.material.name}\n{how}, mesh {mesh} "
+                 f"({len(result.mesh.k_frac)} irreducible points)", fontsize=10)
+    fig.text(0.01, 0.005, _wrap(f"{result.basis_size} plane waves; the DOS is complete below "
+                                f"{result.complete_below_eV - result.energy_zero_eV:.2f} eV "
+                                "(the bottom of the highest band computed)."), fontsize=7,
+             va="bottom")
+    fig.tight_layout(rect=(0, 0.03, 1, 1))
+    return fig

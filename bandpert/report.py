@@ -422,3 +422,40 @@ def sweep_table(result) -> tuple[list[str], list[str], list[list[str]]]:
         row += [result.text[t][i] for t in result.text]
         rows.append(row)
     return header, cols, rows
+
+
+def dos_results(result) -> dict[str, Any]:
+    """The ``results`` of ``bandpert dos`` (keys documented in the README)."""
+    d = result.dos
+    return {
+        "energy_zero_eV": result.energy_zero_eV,
+        "energy_zero_kind": result.energy_zero_kind,
+        "fermi_level_eV": result.fermi_level_eV,
+        "valence_max_eV": result.valence_max_eV,
+        "conduction_min_eV": result.conduction_min_eV,
+        "gap_eV": result.gap_eV,
+        "complete_below_eV": result.complete_below_eV,
+        "mesh": {"shape": list(result.mesh.shape), "full_points": result.mesh.n_full,
+                 "irreducible_points": len(result.mesh.k_frac)},
+        "method": d.method,
+        "smearing_eV": d.smearing_eV,
+        "energies_eV": d.energies_eV,
+        "dos_per_eV": d.dos_per_eV,
+        "integrated_electrons": d.integrated,
+    }
+
+
+def dos_table(result) -> tuple[list[str], list[str], np.ndarray]:
+    """Header lines, column names and rows of the DOS CSV."""
+    d = result.dos
+    how = d.method + ("" if d.smearing_eV is None else f", sigma = {d.smearing_eV:g} eV")
+    header = [f"bandpert {__version__} density of states ({how}): {result.material.name}",
+              f"mesh {'x'.join(str(n) for n in result.mesh.shape)} "
+              f"({len(result.mesh.k_frac)} irreducible points); energies in eV, absolute and "
+              f"relative to the {result.energy_zero_kind} ({result.energy_zero_eV:.6f} eV)",
+              "dos in states per eV per primitive cell, both spins; integrated in electrons per "
+              "cell"]
+    cols = ["energy_eV", "energy_relative_eV", "dos_per_eV", "integrated_electrons"]
+    rows = np.column_stack([d.energies_eV, d.energies_eV - result.energy_zero_eV, d.dos_per_eV,
+                            d.integrated])
+    return header, cols, rows

@@ -46,7 +46,7 @@ import numpy as np
 
 from .bands import BandStructure, compute_band_structure, converged_cutoff, default_bands
 from .errors import InputError
-from .execution import Engine, Outcome, Progress, run
+from .execution import SERIAL, Engine, Outcome, Progress, run
 from .lattice import describe_position, point_group_rotations, standard_path
 from .material import Material, parse_material
 
@@ -609,7 +609,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     return spec, reference, form_factor_note(reference, spec.axes, form_factors)
 
 
-def run_sweep(spec: SweepSpec, engine: Engine = Engine("serial"), progress: Progress | None = None,
+def run_sweep(spec: SweepSpec, engine: Engine = SERIAL, progress: Progress | None = None,
               note: str = "") -> SweepResult:
     """Evaluate every parameter point on the engine and gather the table.
 

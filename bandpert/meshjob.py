@@ -1,0 +1,189 @@
+"""Dense k-mesh jobs: exact bands on the irreducible wedge of a uniform mesh, spread over workers,
+then the density of states and the Fermi level (:mod:`bandpert.dos`).
+
+The irreducible points (spglib's irreducible reciprocal mesh in 3D) are cut into contiguous blocks;
+each block is one task that builds the plane-wave model and diagonalises its k-points
+(:func:`bandpert.bands.exact_energies`, one BLAS thread). The blocks come back in order, so the
+energies, and hence the DOS, do not depend on how many workers ran them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .bands import converged_cutoff, default_bands, exact_energies, warn_if_unconverged
+from .dos import (
+    DensityOfStates,
+    KMesh,
+    fermi_level_from_count,
+    gaussian_dos,
+    reciprocal_mesh,
+    tetrahedron_dos,
+)
+from .errors import InputError
+from .execution import SERIAL, Engine, Progress, run
+from .material import Material
+from .planewave import build_model
+
+DOS_METHODS = ("tetrahedron", "gaussian")
+
+#: k-points per task when the engine is distributed (about 0.1–0.3 s of work at ~250 plane waves).
+K_BLOCK = 64
+
+
+def mesh_block(task: tuple[Material, float, np.ndarray, int]) -> np.ndarray:
+    """One task: exact energies (n_k, n_bands) of a block of Cartesian k-points (Å⁻¹)."""
+    material, cutoff_eV, k_cart_invA, n_bands = task
+    return exact_energies(build_model(material, cutoff_eV), k_cart_invA, n_bands)
+
+
+def mesh_energies(material: Material, mesh: KMesh, cutoff_eV: float, n_bands: int,
+                  engine: Engine = SERIAL, progress: Progress | None = None,
+                  block_size: int = K_BLOCK) -> np.ndarray:
+    """Exact band energies on the irreducible points of a mesh, (n_irr, n_bands), in eV.
+
+    Raises
+    ------
+    RuntimeError
+        If a block failed: a density of states with missing k-points would be wrong, so no
+        partial result is returned (the message names the block and the reason).
+    """
+    k = mesh.k_cart_invA
+    starts = range(0, len(k), block_size)
+    tasks = [(material, cutoff_eV, k[s:s + block_size], n_bands) for s in starts]
+    outcomes = run(mesh_block, tasks, engine, progress=None if progress is None else
+                   (lambda done, total: progress(min(len(k), done * block_size), len(k))),
+                   block_size=1)
+    for s, outcome in zip(starts, outcomes, strict=True):
+        if not outcome.ok:
+            if outcome.user_error:
+                raise InputError(outcome.error)
+            raise RuntimeError(f"k-points {s}–{min(len(k), s + block_size) - 1} of the mesh "
+                               f"failed: {outcome.error}")
+    return np.concatenate([o.value for o in outcomes], axis=0)
+
+
+@dataclass(frozen=True)
+class DosResult:
+    """The density of states of a material on a uniform mesh.
+
+    Attributes
+    ----------
+    material : Material
+    mesh : KMesh
+    cutoff_eV : float
+    basis_size : int
+    energies_eV : numpy.ndarray
+        (n_irr, n_bands) absolute energies on ``mesh.k_frac``.
+    dos : DensityOfStates
+        Absolute energy grid; states per eV per cell, both spins.
+    complete_below_eV : float
+        The lowest energy of the highest computed band: above it bands are missing, so the
+        energy grid stops there.
+    fermi_level_eV : float or None
+        From the electron count (None without ``electrons.valence``); mid-gap for an insulator.
+    valence_max_eV, conduction_min_eV : float or None
+        Band edges on the mesh when the occupied bands lie wholly below the empty ones.
+    energy_zero_eV : float
+    energy_zero_kind : str
+        "valence-band maximum", "Fermi level" or "absolute".
+    engine : str
+    """
+
+    material: Material
+    mesh: KMesh
+    cutoff_eV: float
+    basis_size: int
+    energies_eV: np.ndarray
+    dos: DensityOfStates
+    complete_below_eV: float
+    fermi_level_eV: float | None
+    valence_max_eV: float | None
+    conduction_min_eV: float | None
+    energy_zero_eV: float
+    energy_zero_kind: str
+    engine: str
+
+    @property
+    def gap_eV(self) -> float | None:
+        """Gap on the mesh (None for a metal)."""
+        if self.valence_max_eV is None:
+            return None
+        return self.conduction_min_eV - self.valence_max_eV
+
+
+def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
+                method: str = "tetrahedron", smearing_eV: float = 0.05,
+                n_bands: int | None = None, cutoff_eV: float | None = None,
+                energy_step_eV: float = 0.01, engine: Engine = SERIAL,
+                progress: Progress | None = None) -> DosResult:
+    """Density of states and Fermi level of a plane-wave model on a Γ-centred mesh.
+
+    Parameters
+    ----------
+    material : Material
+    n_per_axis : int or tuple of int
+        Mesh points per reciprocal axis.
+    method : str
+        "tetrahedron" (linear tetrahedra; Blöchl, Jepsen & Andersen, Phys. Rev. B 49, 16223
+        (1994)) or "gaussian" (broadening ``smearing_eV``).
+    smearing_eV : float
+        Gaussian width (``method="gaussian"``; also the fallback width nowhere else).
+    n_bands : int, optional
+        Bands computed (default :func:`~bandpert.bands.default_bands`).
+    cutoff_eV : float, optional
+        Plane-wave cutoff (default: the file's, else converged).
+    energy_step_eV : float
+        Spacing of the energy grid.
+    engine : Engine
+        Where the diagonalisations run (:mod:`bandpert.execution`).
+    progress : callable, optional
+        ``progress(done, total)`` in k-points.
+
+    Returns
+    -------
+    DosResult
+    """
+    if method not in DOS_METHODS:
+        raise InputError(f"unknown method '{method}'; expected {', '.join(DOS_METHODS)}",
+                         material.file, "--method")
+    if not energy_step_eV > 0:
+        raise InputError(f"must be positive, got {energy_step_eV}", material.file,
+                         "--step-meV")
+    nb = n_bands or default_bands(material)
+    cutoff = cutoff_eV or material.cutoff_eV
+    if cutoff is None:
+        cutoff = converged_cutoff(material, nb)
+    else:
+        warn_if_unconverged(material, cutoff, nb)
+    model = build_model(material, cutoff)  # fails here, once, on a bad basis
+    if nb > model.size:
+        raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
+                         "waves", material.file, "--bands")
+    mesh = reciprocal_mesh(material, n_per_axis)
+    energies = mesh_energies(material, mesh, cutoff, nb, engine, progress)
+    top = float(energies[:, -1].min())
+    lo = float(energies.min()) - 0.5
+    grid = np.arange(lo, top + 0.5 * energy_step_eV, energy_step_eV)
+    if method == "tetrahedron":
+        dos = tetrahedron_dos(mesh, energies, grid)
+    else:
+        dos = gaussian_dos(energies, mesh.weights, grid, smearing_eV)
+    n_el = material.valence_electrons
+    e_f = vbm = cbm = None
+    zero, kind = 0.0, "absolute"
+    if n_el is not None:
+        e_f = fermi_level_from_count(mesh, energies, n_el, method=method,
+                                     smearing_eV=smearing_eV)
+        zero, kind = e_f, "Fermi level"
+        m = n_el // 2
+        if n_el % 2 == 0 and 0 < m < nb and energies[:, m].min() > energies[:, m - 1].max():
+            vbm, cbm = float(energies[:, m - 1].max()), float(energies[:, m].min())
+            zero, kind = vbm, "valence-band maximum"
+    return DosResult(material=material, mesh=mesh, cutoff_eV=float(cutoff),
+                     basis_size=model.size, energies_eV=energies, dos=dos,
+                     complete_below_eV=top, fermi_level_eV=e_f, valence_max_eV=vbm,
+                     conduction_min_eV=cbm, energy_zero_eV=float(zero), energy_zero_kind=kind,
+                     engine=engine.describe())
