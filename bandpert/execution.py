@@ -41,6 +41,9 @@ SINGLE_THREAD_ENV = {"OPENBLAS_NUM_THREADS": "1", "OMP_NUM_THREADS": "1",
 
 ENGINE_KINDS = ("serial", "local", "scheduler")
 
+#: How long to wait for an existing scheduler to answer.
+CONNECT_TIMEOUT = "10s"
+
 
 @dataclass(frozen=True)
 class Engine:
@@ -160,7 +163,7 @@ def dask_client(engine: Engine) -> Iterator[Any]:
                          "or use --engine serial", key="--engine") from exc
     if engine.kind == "scheduler":
         try:
-            client = Client(engine.address, timeout="10s")
+            client = Client(engine.address, timeout=CONNECT_TIMEOUT)
         except (OSError, TimeoutError, ValueError) as exc:
             raise InputError(f"cannot reach a Dask scheduler at {engine.address} ({exc}); "
                              "expected the address of a running scheduler",
@@ -174,8 +177,8 @@ def dask_client(engine: Engine) -> Iterator[Any]:
     os.environ.update(SINGLE_THREAD_ENV)  # inherited by the spawned worker processes
     try:
         cluster = LocalCluster(n_workers=engine.local_workers(), threads_per_worker=1,
-                               processes=True, host="127.0.0.1", dashboard_address=None,
-                               silence_logs=logging.ERROR)
+                               processes=True, host="127.0.0.1", dashboard_address="127.0.0.1:0",
+                               worker_dashboard_address="127.0.0.1:0", silence_logs=logging.ERROR)
     finally:
         for k, v in saved.items():
             if v is None:

@@ -549,6 +549,13 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                          "--alloy-end")
     doc = copy.deepcopy(document)
     reference = parse_material(doc, source)
+    if alloy_end is not None:
+        if form_factors == "continuous":
+            raise InputError("alloy.x interpolates the two files' own form factors (virtual "
+                             "crystal); expected --form-factors tabulated with --alloy-end",
+                             source, "--form-factors")
+        alloy_end = copy.deepcopy(alloy_end)
+        parse_material(alloy_end, alloy_source)  # each end must be valid on its own
     if form_factors == "continuous":
         from .formfactor import continuous_document
 
@@ -559,6 +566,8 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
         doc["path"] = {"points": {k: list(v) for k, v in pts.items()},
                        "legs": [list(leg) for leg in legs]}
         reference = parse_material(doc, source)
+    if alloy_end is not None and "path" not in alloy_end:
+        alloy_end["path"] = copy.deepcopy(doc["path"])
     strained = any(a.kind == "strain" for a in axes)
     if strained and reference.potential.form in ("symmetric-antisymmetric", "per-species"):
         raise InputError("strain splits the |G|² shells, where tabulated form factors do not "

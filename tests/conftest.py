@@ -26,3 +26,27 @@ def bundled(name: str) -> Material:
 @pytest.fixture(scope="session")
 def silicon() -> Material:
     return bundled("silicon")
+
+
+@pytest.fixture(scope="session")
+def dask_scheduler():
+    """A Dask cluster of two worker processes on 127.0.0.1; yields its scheduler address.
+
+    The tests hand the address to the tool as an existing scheduler would be handed
+    (``Engine(kind="scheduler")``), so the connect path is exercised too.
+    """
+    import logging
+    import os
+
+    from distributed import LocalCluster
+
+    from bandpert.execution import SINGLE_THREAD_ENV
+
+    os.environ.update(SINGLE_THREAD_ENV)
+    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
+                           dashboard_address="127.0.0.1:0", worker_dashboard_address="127.0.0.1:0",
+                           silence_logs=logging.ERROR)
+    try:
+        yield cluster.scheduler_address
+    finally:
+        cluster.close()

@@ -75,6 +75,11 @@ OPTIONS = {
                "--write-kp", "--help"],
     "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--help"],
     "fullzone": ["--basis", "--k-points", "--bands", "--out", "--format", "--json", "--help"],
+    "sweep": ["--vary", "--quantity", "--point", "--between", "--form-factors", "--basis",
+              "--alloy-end", "--k-points", "--bands", "--cutoff-eV", "--temperature", "--engine",
+              "--workers", "--scheduler", "--out", "--format", "--json", "--help"],
+    "dos": ["--mesh", "--method", "--smearing-eV", "--step-meV", "--bands", "--cutoff-eV",
+            "--engine", "--workers", "--scheduler", "--out", "--format", "--json", "--help"],
 }
 
 

@@ -1,0 +1,315 @@
+"""Parameter sweeps: keys and ranges, smooth gaps, agreement with single runs and across engines,
+failed points, strain and the virtual-crystal alloy."""
+
+from __future__ import annotations
+
+import copy
+
+import numpy as np
+import pytest
+from conftest import MATERIALS
+
+from bandpert.bands import compute_band_structure, exact_energies
+from bandpert.errors import InputError
+from bandpert.execution import Engine
+from bandpert.material import parse_material, read_toml_document
+from bandpert.planewave import build_model
+from bandpert.sweep import (
+    SweepAxis,
+    get_value,
+    parameter_grid,
+    parse_axis,
+    point_cutoff,
+    point_document,
+    prepare,
+    run_sweep,
+    set_value,
+    virtual_crystal,
+)
+
+SILICON = str(MATERIALS / "silicon.toml")
+GERMANIUM = str(MATERIALS / "germanium.toml")
+
+
+@pytest.fixture(scope="module")
+def si_doc():
+    return read_toml_document(SILICON)
+
+
+@pytest.fixture(scope="module")
+def si_lattice_sweep(si_doc):
+    """Silicon's lattice constant over ±2 % in 9 steps, edges and gaps at Γ, X, L (serial)."""
+    axes = (parse_axis("lattice.a_A=5.32:5.54:9"),)
+    spec, _, note = prepare(si_doc, SILICON, axes, ("edges", "gaps"), ("Γ", "X", "L"), n_k=40)
+    return run_sweep(spec, Engine("serial"), note=note)
+
+
+# --- keys and ranges ------------------------------------------------------------------------
+
+def test_parse_axis_reads_key_and_range():
+    a = parse_axis("potential.symmetric[0]=-0.25:-0.19:4")
+    assert a.key == "potential.symmetric[0]" and a.kind == "document"
+    assert np.allclose(a.values, [-0.25, -0.23, -0.21, -0.19])
+    assert parse_axis("strain.xy=0:0.01:3").kind == "strain"
+    assert parse_axis("alloy.x=0:1:5").kind == "alloy"
+    assert np.allclose(parse_axis("lattice.a_A=5.4:9:1").values, [5.4])
+
+
+@pytest.mark.parametrize("spec, fragment", [
+    ("lattice.a_A", "no '='"),
+    ("lattice.a_A=5.4:5.5", "KEY=START:STOP:COUNT"),
+    ("lattice.a_A=a:5.5:3", "must be numbers"),
+    ("lattice.a_A=5.4:5.5:0", "at least 1"),
+    ("lattice.a_A=5.4:inf:3", "finite"),
+    ("strain.zx=0:0.01:3", "strain component"),
+    ("alloy.y=0:1:3", "alloy.x"),
+    ("lattice..a=1:2:3", "not a document key"),
+])
+def test_parse_axis_refuses_malformed_ranges(spec, fragment):
+    with pytest.raises(InputError) as exc:
+        parse_axis(spec)
+    assert fragment in str(exc.value) and exc.value.key == "--vary"
+
+
+def test_get_and_set_values_by_dotted_key(si_doc):
+    doc = copy.deepcopy(si_doc)
+    assert get_value(doc, "potential.symmetric[2]") == pytest.approx(0.08)
+    set_value(doc, "potential.symmetric[2]", 0.1)
+    assert doc["potential"]["symmetric"] == [-0.21, 0.04, 0.1]
+    assert si_doc["potential"]["symmetric"][2] == pytest.approx(0.08)  # the original untouched
+    for key, fragment in (("lattice.b_A", "has no key 'b_A'"),
+                          ("potential.symmetric[7]", "no entry [7]"),
+                          ("lattice.type", "not a number")):
+        with pytest.raises(InputError) as exc:
+            set_value(doc, key, 1.0, "f.toml")
+        assert fragment in str(exc.value) and exc.value.key == key
+
+
+def test_parameter_grid_is_the_product_last_axis_fastest():
+    axes = (SweepAxis("a", np.array([1.0, 2.0])), SweepAxis("b", np.array([10.0, 20.0, 30.0])))
+    grid = parameter_grid(axes)
+    assert grid.shape == (6, 2)
+    assert grid[:3, 0].tolist() == [1.0] * 3 and grid[:3, 1].tolist() == [10.0, 20.0, 30.0]
+
+
+# --- silicon's lattice constant ---------------------------------------------------------------
+
+def test_scaled_cutoff_keeps_the_same_plane_waves(si_lattice_sweep):
+    # Under a uniform change of a, |G|² ∝ a⁻², so E_cut ∝ a⁻² keeps every Miller index
+    # (common practice, no source); the basis never jumps across the sweep.
+    c = si_lattice_sweep.columns
+    assert np.all(c["basis_size"] == c["basis_size"][0])
+    a = si_lattice_sweep.values[:, 0]
+    assert np.allclose(c["cutoff_eV"] * a**2, c["cutoff_eV"][0] * a[0] ** 2, rtol=1e-12)
+
+
+def test_lattice_sweep_moves_the_gaps_smoothly(si_lattice_sweep):
+    # Check named in the sweep issue: the gaps move smoothly with the lattice constant. With the
+    # same plane waves at every point the levels are analytic in a: the second differences
+    # are far below the first differences (a kink or a basis jump would show as a spike).
+    r = si_lattice_sweep
+    assert not r.failures
+    for name in ("gap_Γ_eV", "gap_X_eV", "gap_L_eV", "gap_eV", "direct_gap_eV"):
+        g = r.columns[name]
+        first, second = np.diff(g), np.diff(g, 2)
+        assert np.all(np.sign(first) == np.sign(first[0])), name  # monotonic over ±2 %
+        assert np.abs(second).max() < 0.1 * np.abs(first).min(), name
+
+
+def test_lattice_sweep_reproduces_single_runs(si_doc, si_lattice_sweep):
+    # Check named in the sweep issue: a sweep point equals a single run of the same file with
+    # that lattice constant (and the cutoff the sweep reports), to 1e-10 eV.
+    r = si_lattice_sweep
+    for i in (0, 4, 8):
+        doc = copy.deepcopy(si_doc)
+        doc["lattice"]["a_A"] = float(r.values[i, 0])
+        material = parse_material(doc, SILICON)
+        bs = compute_band_structure(material, n_k=40, cutoff_eV=float(r.columns["cutoff_eV"][i]))
+        single = {lab: bs.energies_eV[idx] for idx, lab in zip(bs.path.label_indices,
+                                                                bs.path.labels, strict=True)}
+        for label in ("Γ", "X", "L"):
+            e = single[label]
+            assert abs(r.columns[f"lower_{label}_eV"][i] - e[3]) < 1e-10
+            assert abs(r.columns[f"gap_{label}_eV"][i] - (e[4] - e[3])) < 1e-10
+        assert abs(r.columns["valence_max_eV"][i] - bs.edges.valence_max_eV) < 1e-10
+        # the refined conduction minimum lies at or below the best path point
+        assert r.columns["conduction_min_eV"][i] <= bs.edges.conduction_min_eV + 1e-12
+        k = [r.columns[f"conduction_min_k{j}_frac"][i] for j in (1, 2, 3)]
+        e_min = exact_energies(bs.model, np.array(k) @ bs.model.reciprocal_invA, 5)[0, 4]
+        assert abs(e_min - r.columns["conduction_min_eV"][i]) < 1e-10
+
+
+def test_silicon_conduction_minimum_stays_on_delta(si_lattice_sweep):
+    # Silicon's conduction minimum lies on Γ–X near 0.85 of the way (Sze, Physics of
+    # Semiconductor Devices, 2nd ed. 1981, ch. 1; from memory); the sweep keeps it there.
+    r = si_lattice_sweep
+    k1, k2, k3 = (r.columns[f"conduction_min_k{j}_frac"] for j in (1, 2, 3))
+    # Γ→X in the fcc reciprocal fractions is (s/2, 0, s/2): X = (1/2, 0, 1/2)
+    s = k1 + k3
+    assert np.allclose(k2, 0, atol=1e-6) and np.allclose(k1, k3, atol=1e-6)
+    assert np.all((s > 0.8) & (s < 0.9))
+    assert all(t.startswith("0.8") and t.endswith("(refined)")
+               for t in r.text["conduction_min_at"])
+
+
+def test_serial_and_distributed_sweeps_agree(si_doc, dask_scheduler):
+    # The sweep issue: results independent of how they ran, to 1e-10 eV.
+    axes = (parse_axis("lattice.a_A=5.38:5.48:3"),)
+    spec, _, _ = prepare(si_doc, SILICON, axes, ("edges", "gaps", "masses"), ("Γ", "X"), n_k=30)
+    serial = run_sweep(spec, Engine("serial"))
+    spread = run_sweep(spec, Engine("scheduler", address=dask_scheduler))
+    assert not serial.failures and not spread.failures
+    assert set(serial.columns) == set(spread.columns)
+    for name, v in serial.columns.items():
+        assert np.allclose(v, spread.columns[name], rtol=0, atol=1e-10), name
+    assert serial.text == spread.text
+    assert "scheduler" in spread.engine
+
+
+def test_masses_follow_the_lattice(si_doc):
+    # Silicon's conduction valleys: 6 equivalent ⟨100⟩ valleys with m_l ≈ 0.92–0.98 and
+    # m_t ≈ 0.19 m0 (Sze 1981, App. G; from memory); this model gives 0.873 / 0.184 at 5.43 Å.
+    axes = (parse_axis("lattice.a_A=5.43:5.43:1"),)
+    spec, _, _ = prepare(si_doc, SILICON, axes, ("masses",), n_k=40)
+    r = run_sweep(spec)
+    c = r.columns
+    assert c["conduction_valleys"][0] == 6
+    assert c["conduction_m1"][0] == pytest.approx(c["conduction_m2"][0], rel=1e-6)
+    assert 0.17 < c["conduction_m1"][0] < 0.20 and 0.8 < c["conduction_m3"][0] < 1.0
+    # the valence top at Γ is threefold: Luttinger parameters instead of a tensor
+    assert c["valence_gamma1"][0] == pytest.approx(4.47, abs=0.02)
+
+
+# --- failures -------------------------------------------------------------------------------
+
+def test_a_failed_point_is_reported_with_its_parameters_and_the_rest_kept(si_doc):
+    axes = (parse_axis("lattice.a_A=5.40:5.45:3"),)
+    spec, _, _ = prepare(si_doc, SILICON, axes, ("gaps",), ("Γ",), n_k=20)
+    bad = SweepAxis("lattice.a_A", np.array([5.40, -1.0, 5.45]))
+    spec = type(spec)(**{**spec.__dict__, "axes": (bad,)})
+    r = run_sweep(spec)
+    assert len(r.failures) == 1
+    f = r.failures[0]
+    assert f.values == (-1.0,) and f.user_error and "lattice.a_A" in f.error
+    g = r.columns["gap_Γ_eV"]
+    assert np.isfinite(g[[0, 2]]).all() and np.isnan(g[1])
+
+
+def test_edges_fail_per_point_where_the_gap_closes(si_doc):
+    # Silicon compressed by 10 % has no gap in this model (0.22 eV left at 5.2 Å): that point
+    # fails with the reason, the other one is kept.
+    spec, _, _ = prepare(si_doc, SILICON, (parse_axis("lattice.a_A=5.43:4.9:2"),), ("edges",),
+                         n_k=30)
+    r = run_sweep(spec)
+    assert [f.values for f in r.failures] == [(4.9,)]
+    assert "semiconductor" in r.failures[0].error
+    assert np.isfinite(r.columns["gap_eV"][0])
+
+
+@pytest.mark.parametrize("kwargs, key", [
+    ({"axes": ()}, "--vary"),
+    ({"quantities": ("bands",)}, "--quantity"),
+    ({"form_factors": "smooth"}, "--form-factors"),
+    ({"basis": "free"}, "--basis"),
+    ({"points": ("Q",)}, "--point"),
+    ({"lower_band": 9}, "--between"),
+    ({"axes": (SweepAxis("alloy.x", np.array([0.0, 1.0])),)}, "--alloy-end"),
+    ({"axes": (SweepAxis("strain.xx", np.array([0.0, 0.01])),)}, "--form-factors"),
+    ({"axes": (SweepAxis("lattice.a_A", np.array([5.43, -2.0])),)}, "lattice.a_A"),
+])
+def test_prepare_refuses_bad_sweeps_before_any_work(si_doc, kwargs, key):
+    args = {"axes": (parse_axis("lattice.a_A=5.4:5.5:2"),)} | kwargs
+    with pytest.raises(InputError) as exc:
+        prepare(si_doc, SILICON, **args)
+    assert exc.value.key == key
+
+
+def test_tabulated_form_factors_are_said_to_stay_fixed(si_doc):
+    _, _, note = prepare(si_doc, SILICON, (parse_axis("lattice.a_A=5.4:5.5:2"),))
+    assert "kept fixed" in note and "continuous" in note
+    _, _, note = prepare(si_doc, SILICON, (parse_axis("potential.symmetric[0]=-0.2:-0.22:2"),))
+    assert "as given" in note
+
+
+# --- strain ---------------------------------------------------------------------------------
+
+def test_strain_deforms_the_vectors_and_keeps_the_labels(si_doc):
+    spec, reference, _ = prepare(si_doc, SILICON, (parse_axis("lattice.a_A=5.43:5.43:1"),))
+    spec = type(spec)(**{**spec.__dict__, "axes": (SweepAxis("strain.zz", np.array([0.01])),)})
+    doc = point_document(spec, (0.01,))
+    v = np.array(doc["lattice"]["vectors_A"])
+    assert np.allclose(v[:, :2], reference.vectors_A[:, :2])
+    assert np.allclose(v[:, 2], 1.01 * reference.vectors_A[:, 2])
+    assert doc["lattice"]["a_A"] == reference.a_A
+    assert set(doc["path"]["points"]) >= {"Γ", "X", "L"}
+
+
+def test_hydrostatic_strain_equals_the_lattice_constant_change(si_doc):
+    # With the shells tied to a (tabulated form factors stay valid only if a_A follows), the
+    # strained vectors of a hydrostatic strain equal the fcc vectors at a(1 + ε).
+    spec, reference, _ = prepare(si_doc, SILICON, (parse_axis("lattice.a_A=5.43:5.43:1"),))
+    spec = type(spec)(**{**spec.__dict__,
+                         "axes": (SweepAxis("strain.hydrostatic", np.array([0.02])),)})
+    v = np.array(point_document(spec, (0.02,))["lattice"]["vectors_A"])
+    assert np.allclose(v, 1.02 * reference.vectors_A, atol=1e-12)
+    strained = parse_material(point_document(spec, (0.02,)), SILICON)
+    assert point_cutoff(spec, strained) == pytest.approx(spec.reference_cutoff_eV / 1.02**2)
+
+
+# --- virtual crystal --------------------------------------------------------------------------
+
+def test_virtual_crystal_ends_are_the_two_files():
+    # The virtual-crystal approximation interpolates every parameter linearly (Nordheim 1931;
+    # Vegard's law for the lattice constant; from memory): x = 0 and x = 1 are the two files.
+    si, ge = read_toml_document(SILICON), read_toml_document(GERMANIUM)
+    for x, doc in ((0.0, si), (1.0, ge)):
+        mix = virtual_crystal(si, ge, x, SILICON, GERMANIUM)
+        assert mix["lattice"]["a_A"] == pytest.approx(doc["lattice"]["a_A"])
+        assert np.allclose(mix["potential"]["symmetric"], doc["potential"]["symmetric"])
+        assert "virtual crystal" in mix["name"]
+    half = virtual_crystal(si, ge, 0.5, SILICON, GERMANIUM)
+    assert half["lattice"]["a_A"] == pytest.approx((5.43 + 5.66) / 2)
+    assert half["atoms"][0]["species"] == "Si"
+
+
+def test_sige_alloy_sweep_moves_the_minimum_from_delta_to_l():
+    # Si(1-x)Ge(x): the conduction minimum changes from the Δ (X-like) valleys to L near
+    # x ≈ 0.85 (R. Braunstein, A. R. Moore and F. Herman, Phys. Rev. 109, 695 (1958); from
+    # memory). The virtual crystal of the two Cohen–Bergstresser models puts the change between
+    # x = 0.90 and 0.95 (measured on a 21-point sweep); the test holds it within (0.8, 1].
+    si, ge = read_toml_document(SILICON), read_toml_document(GERMANIUM)
+    spec, _, note = prepare(si, SILICON, (parse_axis("alloy.x=0:1:11"),), ("edges",), n_k=40,
+                            alloy_end=ge, alloy_source=GERMANIUM)
+    r = run_sweep(spec)
+    assert not r.failures
+    at_l = np.array([w == "L" for w in r.text["conduction_min_at"]])
+    first_l = r.values[np.argmax(at_l), 0]
+    assert at_l.any() and np.all(at_l[np.argmax(at_l):])  # one change, Δ then L
+    assert 0.8 < first_l <= 1.0
+    assert all("Γ→X" in w for w in np.array(r.text["conduction_min_at"])[~at_l])
+    gap = r.columns["gap_eV"]
+    assert gap[0] == pytest.approx(0.82, abs=0.02)  # this model's Si gap (see silicon.toml)
+    assert gap[-1] == pytest.approx(0.95, abs=0.03)  # and its Ge gap (see germanium.toml)
+    # the Δ gap rises linearly with x, the L gap falls: the kink marks the change
+    assert np.argmax(gap) == np.argmax(at_l) - 1 or np.argmax(gap) == np.argmax(at_l)
+
+
+def test_alloy_ends_must_match_in_structure():
+    si = read_toml_document(SILICON)
+    ga = read_toml_document(str(MATERIALS / "gallium-arsenide.toml"))
+    with pytest.raises(InputError) as exc:
+        virtual_crystal(si, ga, 0.5, SILICON, "gaas.toml")
+    assert exc.value.key in ("potential", "potential.shells")
+    other = copy.deepcopy(si)
+    other["electrons"]["valence"] = 6
+    with pytest.raises(InputError) as exc:
+        virtual_crystal(si, other, 0.5, SILICON, "x.toml")
+    assert exc.value.key == "electrons.valence"
+
+
+def test_model_at_each_point_uses_the_reported_cutoff(si_doc, si_lattice_sweep):
+    r = si_lattice_sweep
+    doc = copy.deepcopy(si_doc)
+    doc["lattice"]["a_A"] = float(r.values[-1, 0])
+    m = build_model(parse_material(doc, SILICON), float(r.columns["cutoff_eV"][-1]))
+    assert m.size == r.columns["basis_size"][-1]
