@@ -295,6 +295,21 @@ def _simplex_corners(mesh: KMesh) -> np.ndarray:
     return flat[:, paths].reshape(-1, d + 1)
 
 
+#: Sorted corner energies closer than this (eV) are made equal: a degenerate pair then takes
+#: the exact degenerate formulas instead of dividing by a difference near 0 (which could
+#: overflow for differences of, say, 1e-300 eV).
+DEGENERATE_CORNERS_EV = 1e-12
+
+
+def _snap_degenerate(e: np.ndarray) -> np.ndarray:
+    """Sorted corners (..., m) with near-equal neighbours set equal (cumulatively)."""
+    e = np.array(e, dtype=float, copy=True)
+    for j in range(1, e.shape[-1]):
+        close = e[..., j] - e[..., j - 1] < DEGENERATE_CORNERS_EV
+        e[..., j] = np.where(close, e[..., j - 1], e[..., j])
+    return e
+
+
 def simplex_occupation(corners_eV: np.ndarray,
                        energy_eV: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Fraction of a linear simplex below ε and its density per unit energy.
@@ -328,7 +343,7 @@ def simplex_occupation(corners_eV: np.ndarray,
     density : numpy.ndarray
         d(fraction)/dε in eV⁻¹.
     """
-    e = np.sort(np.asarray(corners_eV, dtype=float), axis=-1)
+    e = _snap_degenerate(np.sort(np.asarray(corners_eV, dtype=float), axis=-1))
     x = np.asarray(energy_eV, dtype=float)
     e, x = np.broadcast_arrays(e, x[..., None])
     x = x[..., 0]
@@ -447,6 +462,7 @@ def _accumulate(corners_eV: np.ndarray, grid_eV: np.ndarray) -> tuple[np.ndarray
     fraction_sum, density_sum : numpy.ndarray
         (n_E,) each, unweighted sums over the M simplices.
     """
+    corners_eV = _snap_degenerate(corners_eV)
     n_e = len(grid_eV)
     start = np.searchsorted(grid_eV, corners_eV[:, 0], side="left")
     stop = np.searchsorted(grid_eV, corners_eV[:, -1], side="left")
