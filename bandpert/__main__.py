@@ -2,4 +2,5 @@
 
 from .cli import main
 
-main()
+if __name__ == "__main__":  # worker processes of a local Dask cluster import this module too
+    main()

@@ -195,7 +195,42 @@ def dask_client(engine: Engine) -> Iterator[Any]:
         cluster.close()
 
 
-def run(function: Callable[[Any], Any], items: Sequence[Any], engine: Engine = SERIAL,
+class Runner:
+    """An engine held open: several batches share one cluster (see :func:`session`)."""
+
+    def __init__(self, engine: Engine, client: Any = None):
+        self.engine = engine
+        self.client = client
+
+    def map(self, function: Callable[[Any], Any], items: Sequence[Any],
+            progress: Progress | None = None, block_size: int | None = None) -> list[Outcome]:
+        """Run ``function`` on every item; the outcomes in the order of ``items``."""
+        items = list(items)
+        total = len(items)
+        if self.client is None:
+            outcomes = []
+            for i, item in enumerate(items):
+                outcomes.append(guarded(function, item))
+                if progress:
+                    progress(i + 1, total)
+            return outcomes
+        n_workers = max(1, len(self.client.scheduler_info().get("workers", {})) or
+                        self.engine.local_workers())
+        parts = blocks(total, n_workers, block_size)
+        return _gather(self.client, function, items, parts, progress)
+
+
+@contextmanager
+def session(engine: Engine = SERIAL) -> Iterator[Runner]:
+    """Open the engine once (a local cluster is started here and stopped on exit)."""
+    if engine.kind == "serial":
+        yield Runner(engine)
+        return
+    with dask_client(engine) as client:
+        yield Runner(engine, client)
+
+
+def run(function: Callable[[Any], Any], items: Sequence[Any], engine: Engine | Runner = SERIAL,
         progress: Progress | None = None, block_size: int | None = None) -> list[Outcome]:
     """Run ``function`` on every item and return the outcomes in the order of ``items``.
 
@@ -205,8 +240,9 @@ def run(function: Callable[[Any], Any], items: Sequence[Any], engine: Engine = S
         A module-level function (workers import it by name) taking one item.
     items : sequence
         Picklable work items.
-    engine : Engine
-        Where to run (default: serially in this process).
+    engine : Engine or Runner
+        Where to run (default: serially in this process); a :class:`Runner` from
+        :func:`session` reuses an open cluster.
     progress : callable, optional
         ``progress(done, total)`` in items, called as tasks finish.
     block_size : int, optional
@@ -216,20 +252,10 @@ def run(function: Callable[[Any], Any], items: Sequence[Any], engine: Engine = S
     -------
     list of Outcome
     """
-    items = list(items)
-    total = len(items)
-    if engine.kind == "serial":
-        outcomes = []
-        for i, item in enumerate(items):
-            outcomes.append(guarded(function, item))
-            if progress:
-                progress(i + 1, total)
-        return outcomes
-    with dask_client(engine) as client:
-        n_workers = max(1, len(client.scheduler_info().get("workers", {})) or
-                        engine.local_workers())
-        parts = blocks(total, n_workers, block_size)
-        return _gather(client, function, items, parts, progress)
+    if isinstance(engine, Runner):
+        return engine.map(function, items, progress, block_size)
+    with session(engine) as runner:
+        return runner.map(function, items, progress, block_size)
 
 
 def _gather(client: Any, function: Callable[[Any], Any], items: list, parts: list[slice],

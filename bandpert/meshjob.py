@@ -23,7 +23,7 @@ from .dos import (
     tetrahedron_dos,
 )
 from .errors import InputError
-from .execution import SERIAL, Engine, Progress, run
+from .execution import SERIAL, Engine, Progress, Runner, run, session
 from .material import Material
 from .planewave import build_model
 
@@ -40,7 +40,7 @@ def mesh_block(task: tuple[Material, float, np.ndarray, int]) -> np.ndarray:
 
 
 def mesh_energies(material: Material, mesh: KMesh, cutoff_eV: float, n_bands: int,
-                  engine: Engine = SERIAL, progress: Progress | None = None,
+                  engine: Engine | Runner = SERIAL, progress: Progress | None = None,
                   block_size: int = K_BLOCK) -> np.ndarray:
     """Exact band energies on the irreducible points of a mesh, (n_irr, n_bands), in eV.
 
@@ -63,6 +63,42 @@ def mesh_energies(material: Material, mesh: KMesh, cutoff_eV: float, n_bands: in
             raise RuntimeError(f"k-points {s}–{min(len(k), s + block_size) - 1} of the mesh "
                                f"failed: {outcome.error}")
     return np.concatenate([o.value for o in outcomes], axis=0)
+
+
+def dos_band_block(task: tuple[KMesh, np.ndarray, np.ndarray, str, float]
+                   ) -> tuple[np.ndarray, np.ndarray]:
+    """One task: (DOS, integrated count) of a group of bands on the energy grid."""
+    mesh, energies_eV, grid_eV, method, smearing_eV = task
+    if method == "tetrahedron":
+        d = tetrahedron_dos(mesh, energies_eV, grid_eV)
+    else:
+        d = gaussian_dos(energies_eV, mesh.weights, grid_eV, smearing_eV)
+    return d.dos_per_eV, d.integrated
+
+
+def band_resolved_dos(mesh: KMesh, energies_eV: np.ndarray, grid_eV: np.ndarray, method: str,
+                      smearing_eV: float, engine: Engine | Runner = SERIAL
+                      ) -> DensityOfStates:
+    """The DOS as a sum over bands, one band per task on the engine.
+
+    The DOS and the count are sums over bands (both integration methods treat each band on
+    its own), so each band is integrated where the engine puts it and the parts are added in
+    band order: the same numbers whatever ran them.
+    """
+    tasks = [(mesh, energies_eV[:, b:b + 1], grid_eV, method, smearing_eV)
+             for b in range(energies_eV.shape[1])]
+    outcomes = run(dos_band_block, tasks, engine, block_size=1)
+    dos = np.zeros(len(grid_eV))
+    count = np.zeros(len(grid_eV))
+    for b, outcome in enumerate(outcomes):
+        if not outcome.ok:
+            if outcome.user_error:
+                raise InputError(outcome.error)
+            raise RuntimeError(f"the DOS of band {b + 1} failed: {outcome.error}")
+        dos += outcome.value[0]
+        count += outcome.value[1]
+    return DensityOfStates(grid_eV, dos, count, method,
+                           smearing_eV if method == "gaussian" else None)
 
 
 @dataclass(frozen=True)
@@ -163,14 +199,12 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
         raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
                          "waves", material.file, "--bands")
     mesh = reciprocal_mesh(material, n_per_axis)
-    energies = mesh_energies(material, mesh, cutoff, nb, engine, progress)
-    top = float(energies[:, -1].min())
-    lo = float(energies.min()) - 0.5
-    grid = np.arange(lo, top + 0.5 * energy_step_eV, energy_step_eV)
-    if method == "tetrahedron":
-        dos = tetrahedron_dos(mesh, energies, grid)
-    else:
-        dos = gaussian_dos(energies, mesh.weights, grid, smearing_eV)
+    with session(engine) as runner:  # one cluster for the bands and the DOS
+        energies = mesh_energies(material, mesh, cutoff, nb, runner, progress)
+        top = float(energies[:, -1].min())
+        lo = float(energies.min()) - 0.5
+        grid = np.arange(lo, top + 0.5 * energy_step_eV, energy_step_eV)
+        dos = band_resolved_dos(mesh, energies, grid, method, smearing_eV, runner)
     n_el = material.valence_electrons
     e_f = vbm = cbm = None
     zero, kind = 0.0, "absolute"

@@ -157,11 +157,66 @@ def machine() -> dict:
             "bandpert": bandpert.__version__}
 
 
+def dask_speedup(reps: int, say: Callable[..., None]) -> tuple[dict, list[tuple[str, str, str]]]:
+    """Sweep and DOS jobs on one worker against two, side by side on two running clusters.
+
+    Both clusters stay up for the whole section (an idle worker costs no CPU), so the figure is
+    the work on the cluster, without the start-up of the worker processes (about 1–3 s, paid
+    once per command). A serial run in this process is timed beside them for reference.
+    """
+    import logging
+
+    from distributed import LocalCluster
+
+    from bandpert.execution import SINGLE_THREAD_ENV, Engine
+    from bandpert.material import read_toml_document
+    from bandpert.meshjob import compute_dos
+    from bandpert.sweep import parse_axis, prepare, run_sweep
+
+    os.environ.update(SINGLE_THREAD_ENV)
+    doc = read_toml_document(ROOT / "materials" / "silicon.toml")
+    spec, _, _ = prepare(doc, "silicon.toml", (parse_axis("lattice.a_A=5.30:5.56:24"),),
+                         ("edges", "gaps"), n_k=60)
+    aluminium = load_material(ROOT / "materials" / "aluminium.toml")
+    clusters = {n: LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
+                                host="127.0.0.1", dashboard_address="127.0.0.1:0",
+                                worker_dashboard_address="127.0.0.1:0",
+                                silence_logs=logging.ERROR) for n in (1, 2)}
+    results: dict = {}
+    rows = []
+    try:
+        engines = {n: Engine("scheduler", address=c.scheduler_address)
+                   for n, c in clusters.items()}
+        jobs = {"sweep": (lambda e: run_sweep(spec, e),
+                          "silicon lattice-constant sweep, 24 points, edges + gaps, 60 k"),
+                "dos": (lambda e: compute_dos(aluminium, 24, n_bands=6, energy_step_eV=0.05,
+                                              engine=e),
+                        "aluminium DOS, 24³ mesh (413 irreducible k), 6 bands")}
+        for name, (job, what) in jobs.items():
+            say(f"dask: {name}, 1 worker vs 2")
+            pair = side_by_side(lambda j=job: j(engines[1]), lambda j=job: j(engines[2]), reps)
+            serial = median_time(lambda j=job: j(Engine("serial")), max(1, reps // 2))
+            results[f"dask_{name}"] = {"what": what, "one_worker_s": pair["a_s"],
+                                       "two_workers_s": pair["b_s"],
+                                       "speedup_2_vs_1": pair["ratio"], "serial_s": serial,
+                                       "reps": reps}
+            rows.append((f"Dask speed-up, 2 workers / 1 worker: {what}",
+                         f"{pair['ratio']:.2f}x",
+                         f"1 worker {pair['a_s']:.2f} s, 2 workers {pair['b_s']:.2f} s, "
+                         f"serial in-process {serial:.2f} s"))
+    finally:
+        for c in clusters.values():
+            c.close()
+    return results, rows
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--json", default=str(ROOT / "plots" / "benchmark.json"),
                         help="where to write the JSON (default plots/benchmark.json)")
     parser.add_argument("--reps", type=int, default=7, help="repetitions per pair (default 7)")
+    parser.add_argument("--only-dask", action="store_true",
+                        help="run only the Dask section (prints the table, writes no JSON)")
     args = parser.parse_args(argv)
     reps = args.reps
     started = time.perf_counter()
@@ -170,6 +225,12 @@ def main(argv: list[str] | None = None) -> int:
 
     def say(*a):
         print(*a, file=sys.stderr, flush=True)
+
+    if args.only_dask:
+        _, dask_rows = dask_speedup(reps, say)
+        for what, figure, detail in dask_rows:
+            print(f"| {what} | {figure} | {detail} |")
+        return 0
 
     threads_default = max((lib["num_threads"] for lib in threadpool_info()
                             if lib.get("user_api") == "blas"), default=1)
@@ -350,6 +411,11 @@ def main(argv: list[str] | None = None) -> int:
                  f"exact / perturbative, MiB: {peaks}; outputs at {mem[-1]['k_points']} k: "
                  f"{mem[-1]['exact_output_bytes'] / mib:.2f} / "
                  f"{mem[-1]['perturbative_output_bytes'] / mib:.2f} MiB"))
+
+    # -- Dask: the same jobs on one worker and on two
+    dask_results, dask_rows = dask_speedup(reps, say)
+    results.update(dask_results)
+    rows.extend(dask_rows)
 
     # -- targets
     si, al = results["perturbative_vs_exact_silicon"], results["perturbative_vs_exact_aluminium"]
