@@ -689,6 +689,9 @@ def sweep(
 ) -> None:
     """Sweep keys of a material file over ranges; tabulate and plot gaps, band edges and masses.
 
+    A k·p parameter file works too: its keys are swept and the masses at Γ of each of its models
+    are tabulated along [001], [110] and [111].
+
     Every point is validated like a file; a failed point is reported with its parameters and
     the others are kept (exit status 3 when any point failed). Runs on a local Dask cluster by
     default, on an existing scheduler with --scheduler, or in this process with --engine serial.
@@ -711,8 +714,6 @@ def sweep(
     run_on = _engine(engine, workers, scheduler)
     doc = read_toml_document(file)
     end = None if alloy_end is None else read_toml_document(alloy_end)
-    if end is not None:
-        load_material(alloy_end)  # the other end must be a valid file on its own
     spec, reference, note = prepare(
         doc, str(file), axes, quantities=tuple(quantity or ("edges", "gaps")),
         points=tuple(point) if point else None, n_k=k_points, n_bands=n_bands,

@@ -435,6 +435,9 @@ SWEEP_PANELS = (
      or n in ("valence_dos_mass", "valence_conductivity_mass")),
     ("valence Luttinger parameters", "γ", lambda n: n.startswith("valence_gamma")),
     ("basis", "plane waves", lambda n: n == "basis_size"),
+    ("two-band k·p masses at Γ", "mass (m0)", lambda n: n.startswith("two_band_")),
+    ("six-band k·p masses at Γ", "mass (m0)", lambda n: n.startswith("six_band_")),
+    ("eight-band k·p masses at Γ", "mass (m0)", lambda n: n.startswith("eight_band_")),
 )
 
 
@@ -484,7 +487,9 @@ def sweep_figure(result) -> Figure:
 
 
 def _sweep_label(name: str) -> str:
-    for suffix in ("_eV", "_frac"):
+    for prefix in ("two_band_", "six_band_", "eight_band_"):
+        name = name.removeprefix(prefix)
+    for suffix in ("_eV", "_frac", "_m0"):
         name = name.removesuffix(suffix)
     return name.replace("_", " ")
 

@@ -246,6 +246,8 @@ def virtual_crystal(doc_a: dict[str, Any], doc_b: dict[str, Any], x: float, sour
 def _rename_species(doc_a: dict[str, Any], doc_b: dict[str, Any], source_b: str) -> dict:
     b = copy.deepcopy(doc_b)
     atoms_a, atoms_b = doc_a.get("atoms"), b.get("atoms")
+    if atoms_a is None and atoms_b is None:  # k·p parameter files have no atoms
+        return b
     if not (isinstance(atoms_a, list) and isinstance(atoms_b, list)) or len(atoms_a) != len(
             atoms_b):
         raise InputError("expected the same number of atoms in both alloy ends", source_b,
@@ -293,6 +295,9 @@ class SweepSpec:
         The x = 1 document of an ``alloy.x`` sweep.
     alloy_source : str
     temperature_K : float
+    kind : str
+        "plane-wave" (a material file) or "k·p" (a k·p parameter file: the masses at Γ of each
+        of its models).
     """
 
     document: dict[str, Any]
@@ -309,6 +314,16 @@ class SweepSpec:
     alloy_end: dict[str, Any] | None = None
     alloy_source: str = ""
     temperature_K: float = 300.0
+    kind: str = "plane-wave"
+
+
+def is_kp_document(document: dict[str, Any]) -> bool:
+    """True for a k·p parameter file (a ``[parameters]`` table and no ``[potential]``)."""
+    return "parameters" in document and "potential" not in document
+
+
+#: Directions along which a k·p sweep reports the Γ masses.
+KP_DIRECTIONS = ("001", "110", "111")
 
 
 def point_document(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, Any]:
@@ -361,6 +376,8 @@ def evaluate_point(task: tuple[SweepSpec, tuple[float, ...]]) -> dict[str, float
     ``valence_m{1,2,3}`` or ``valence_gamma{1,2,3}`` (degenerate top), ``valence_dos_mass``.
     """
     spec, values = task
+    if spec.kind == "k·p":
+        return _kp_point(spec, values)
     material = point_material(spec, values)
     cutoff = point_cutoff(spec, material)
     bs = compute_band_structure(material, n_k=spec.n_k, n_bands=spec.n_bands, cutoff_eV=cutoff,
@@ -370,6 +387,22 @@ def evaluate_point(task: tuple[SweepSpec, tuple[float, ...]]) -> dict[str, float
         row.update(_gaps_at_points(bs, spec.points, spec.lower_band))
     if "edges" in spec.quantities or "masses" in spec.quantities:
         row.update(_edges_and_masses(bs, spec))
+    return row
+
+
+def _kp_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, float | str]:
+    """A k·p file at one parameter point: Γ energies and masses of each model along
+    [001], [110], [111] (columns ``<model>_<band>_<direction>_m0``, spaces as ``_``)."""
+    from .kp import masses_at_gamma
+    from .kp_material import parse_kp_material
+
+    kpm = parse_kp_material(point_document(spec, values), spec.source)
+    row: dict[str, float | str] = {}
+    for name in kpm.models:
+        model = kpm.model(name)
+        for direction in KP_DIRECTIONS:
+            for band, mass in masses_at_gamma(model, direction).as_dict().items():
+                row[f"{name}_{band}_{direction}_m0".replace(" ", "_").replace("-", "_")] = mass
     return row
 
 
@@ -548,6 +581,8 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
         raise InputError("alloy.x needs the second end of the alloy (--alloy-end FILE)", source,
                          "--alloy-end")
     doc = copy.deepcopy(document)
+    if is_kp_document(doc):
+        return _prepare_kp(doc, source, tuple(axes), alloy_end, alloy_source, form_factors)
     reference = parse_material(doc, source)
     if alloy_end is not None:
         if form_factors == "continuous":
@@ -616,6 +651,33 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
 
         build_model(m, point_cutoff(spec, m))  # a range leaving the basis limit fails here
     return spec, reference, form_factor_note(reference, spec.axes, form_factors)
+
+
+def _prepare_kp(doc: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
+                alloy_end: dict[str, Any] | None, alloy_source: str, form_factors: str):
+    """:func:`prepare` for a k·p parameter file: masses at Γ of each model, nothing else."""
+    from .kp_material import parse_kp_material
+
+    if any(a.kind == "strain" for a in axes):
+        raise InputError("a k·p parameter file has no lattice vectors to strain (its deformation "
+                         "potentials are not modelled); expected keys of its [parameters]",
+                         source, "--vary")
+    if form_factors != "tabulated":
+        raise InputError("a k·p parameter file has no form factors", source, "--form-factors")
+    reference = parse_kp_material(doc, source)
+    if alloy_end is not None:
+        alloy_end = copy.deepcopy(alloy_end)
+        parse_kp_material(alloy_end, alloy_source)
+    spec = SweepSpec(document=doc, source=source, axes=axes, quantities=("masses",), points=(),
+                     n_k=0, n_bands=0, lower_band=0, reference_cutoff_eV=0.0,
+                     reference_volume=reference.a_A**3, alloy_end=alloy_end,
+                     alloy_source=alloy_source, kind="k·p")
+    grid = parameter_grid(axes)
+    for values in (grid[0], grid[-1]):
+        parse_kp_material(point_document(spec, tuple(values)), source)
+    note = ("k·p parameters as given at every point (masses at Γ of the file's models along "
+            "[001], [110], [111])")
+    return spec, reference, note
 
 
 def run_sweep(spec: SweepSpec, engine: Engine = SERIAL, progress: Progress | None = None,

@@ -313,3 +313,35 @@ def test_model_at_each_point_uses_the_reported_cutoff(si_doc, si_lattice_sweep):
     doc["lattice"]["a_A"] = float(r.values[-1, 0])
     m = build_model(parse_material(doc, SILICON), float(r.columns["cutoff_eV"][-1]))
     assert m.size == r.columns["basis_size"][-1]
+
+
+# --- k·p parameter files ----------------------------------------------------------------------
+
+def test_kp_sweep_of_the_kane_energy_follows_the_kane_mass_formula():
+    # Eight-band conduction mass at Γ: m0/m* = 1 + 2F + (Ep/3) [2/Eg + 1/(Eg + Δso)]
+    # (Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001), eq. 2.15; from memory).
+    path = str(MATERIALS / "gallium-arsenide-kp.toml")
+    doc = read_toml_document(path)
+    spec, reference, note = prepare(doc, path, (parse_axis("parameters.Ep_eV=20:30:6"),))
+    assert spec.kind == "k·p" and "k·p parameters" in note
+    r = run_sweep(spec)
+    assert not r.failures
+    p = doc["parameters"]
+    ep = r.values[:, 0]
+    kane = 1 + 2 * p["F"] + ep / 3 * (2 / p["Eg_eV"] + 1 / (p["Eg_eV"] + p["Delta_so_eV"]))
+    for d in ("001", "110", "111"):  # the Γ6 conduction band is isotropic
+        assert np.allclose(1 / r.columns[f"eight_band_conduction_{d}_m0"], kane, rtol=1e-9)
+    # the heavy hole does not couple to the conduction band: Ep leaves it alone
+    hh = r.columns["eight_band_heavy_hole_001_m0"]
+    assert np.allclose(hh, hh[0], rtol=1e-12)
+    # at the file's Ep = 28.8 eV the table gives m_e = 0.067 (same source, from memory)
+    spec1, _, _ = prepare(doc, path, (parse_axis("parameters.Ep_eV=28.8:28.8:1"),))
+    m = run_sweep(spec1).columns["eight_band_conduction_001_m0"][0]
+    assert m == pytest.approx(0.067, abs=0.0005)
+
+
+def test_kp_sweep_refuses_strain():
+    path = str(MATERIALS / "gallium-arsenide-kp.toml")
+    with pytest.raises(InputError) as exc:
+        prepare(read_toml_document(path), path, (parse_axis("strain.xx=0:0.01:2"),))
+    assert exc.value.key == "--vary"
