@@ -5,7 +5,8 @@ The schema is documented in the README ("Material files"). Every problem is repo
 expected. Unknown keys are refused so that a misspelt key never silently does nothing.
 
 Conventions (see CONVENTIONS.md): lengths in Å, energies converted once to eV here; form-factor
-shells |G|² are given in units of (2π/a)², with ``a`` the lattice constant ``lattice.a_A``.
+shells |G|² are given in units of (2π/a)², with ``a`` the lattice constant ``lattice.a_A``; the
+"continuous" form takes wave vectors in Å⁻¹ (see :mod:`bandpert.formfactor`).
 """
 
 from __future__ import annotations
@@ -40,7 +41,16 @@ LATTICE_TYPES: dict[str, tuple[int, tuple[str, ...]]] = {
 }
 
 #: Forms of the crystal potential.
-POTENTIAL_FORMS = ("empty", "symmetric-antisymmetric", "per-species", "fourier")
+POTENTIAL_FORMS = ("empty", "symmetric-antisymmetric", "per-species", "fourier", "continuous")
+
+#: Parameters of one species in the "continuous" form, in file order (a1 in the file's energy
+#: unit, a2 in Å⁻², a3 dimensionless, a4 in Å²).
+CONTINUOUS_PARAMETERS = ("a1", "a2_invA2", "a3", "a4_A2")
+
+#: Key of the reference atomic volume Ω0 of the "continuous" form, by lattice dimension
+#: (the cell's length, area or volume per atom).
+REFERENCE_MEASURE_KEYS = {1: "reference_length_A", 2: "reference_area_A2",
+                          3: "reference_volume_A3"}
 
 #: Labels accepted on input for Γ.
 GAMMA_ALIASES = {"G": "Γ", "Gamma": "Γ", "GAMMA": "Γ", "Γ": "Γ"}
@@ -90,6 +100,16 @@ class Potential:
         Miller indices of explicit Fourier coefficients ("fourier" form).
     fourier_eV : tuple of complex
         V(G) for each Miller index, completed so that V(−G) = V(G)*.
+    continuous : dict
+        "continuous" form: species → (a1 in eV, a2 in Å⁻², a3, a4 in Å²) of
+        v(q) = a1 (q² − a2) / (a3 exp(a4 q²) − 1)
+        (:func:`bandpert.formfactor.continuous_form_factor`).
+    reference_volume_A : float or None
+        "continuous" form: Ω0, the cell measure per atom at which the parameters hold, in Å³
+        (Å² for a 2D lattice, Å for a 1D lattice).
+    taper_invA : tuple of float or None
+        "continuous" form: (q1, q2) in Å⁻¹ of the smooth switch from 1 to 0 multiplying v, or None
+        for no taper.
     file_unit : str
         The energy unit the file used ("eV" or "Ry").
     """
@@ -102,6 +122,9 @@ class Potential:
     species_eV: dict[str, tuple[float, ...]] = field(default_factory=dict)
     miller: tuple[tuple[int, ...], ...] = ()
     fourier_eV: tuple[complex, ...] = ()
+    continuous: dict[str, tuple[float, float, float, float]] = field(default_factory=dict)
+    reference_volume_A: float | None = None
+    taper_invA: tuple[float, float] | None = None
 
 
 @dataclass(frozen=True)
@@ -489,6 +512,8 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
         keys = sorted(coeffs)
         return Potential(form=form, file_unit=unit, miller=tuple(keys),
                          fourier_eV=tuple(coeffs[k] for k in keys))
+    if form == "continuous":
+        return _read_continuous(r, atoms, dim, unit, to_ev)
     shells = _number_list(r.raw("shells"), r, "shells")
     if not shells:
         raise r.fail("shells", "expected at least one |G|² shell")
@@ -524,6 +549,57 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
     species_r.finish()
     r.finish()
     return Potential(form=form, file_unit=unit, shells_g2=shells, species_eV=values)
+
+
+def _read_continuous(r: _Reader, atoms: tuple[Atom, ...], dim: int, unit: str,
+                     to_ev: float) -> Potential:
+    """The "continuous" form: per-species parameters of v(q), Ω0 and an optional taper.
+
+    v(q) = a1 (q² − a2) / (a3 exp(a4 q²) − 1) (Friedel, Hybertsen & Schlüter, Phys. Rev. B 39,
+    7974 (1989); the form from memory). Its denominator is positive for every q ≥ 0 exactly when
+    a3 > 1 and a4 ≥ 0 (it grows from a3 − 1 with q² when a4 > 0); a4 > 0 is required as well so
+    that v decays at large q. For a3 ≤ 1 the denominator vanishes at q² = −ln(a3)/a4 or is
+    negative everywhere, which either makes v infinite or makes it grow like q².
+    """
+    measure_key = REFERENCE_MEASURE_KEYS[dim]
+    omega0 = r.number(measure_key, positive=True)
+    taper = r.raw("taper_invA", required=False)
+    if taper is not None:
+        taper = _number_list(taper, r, "taper_invA", length=2)
+        if taper[0] < 0:
+            raise r.fail("taper_invA", f"q1 = {taper[0]:g} Å⁻¹ is negative; expected "
+                                       "0 <= q1 < q2 (Å⁻¹)")
+        if taper[0] >= taper[1]:
+            raise r.fail("taper_invA", f"q1 = {taper[0]:g} Å⁻¹ is not below q2 = {taper[1]:g} "
+                                       "Å⁻¹; expected [q1, q2] with 0 <= q1 < q2 (the weight "
+                                       "falls from 1 at q1 to 0 at q2)")
+    species_r = r.sub("species")
+    params: dict[str, tuple[float, float, float, float]] = {}
+    for name in sorted({a.species for a in atoms}):
+        if not species_r.has(name):
+            raise species_r.fail(name, f"missing parameters for species '{name}' (atoms list it); "
+                                       "expected a table with keys "
+                                       f"{', '.join(CONTINUOUS_PARAMETERS)}")
+        s = species_r.sub(name)
+        a1 = _to_ev(s.number("a1"), to_ev, s, "a1").real
+        a2 = s.number("a2_invA2")
+        a3 = s.number("a3")
+        a4 = s.number("a4_A2")
+        if a4 <= 0:
+            raise s.fail("a4_A2", f"must be positive, got {a4:g}; expected a4 > 0 (Å²) so that "
+                                  "v(q) decays like exp(-a4 q²) at large q")
+        if a3 <= 1:
+            where = ("vanishes at q = "
+                     f"{math.sqrt(-math.log(a3) / a4):.4g} Å⁻¹" if 0 < a3 < 1 else
+                     "vanishes at q = 0" if a3 == 1 else "is negative for every q")
+            raise s.fail("a3", f"{a3:g} makes the denominator a3·exp(a4 q²) − 1 of v(q), which "
+                               f"{where}; expected a3 > 1 (denominator positive for all q >= 0)")
+        s.finish()
+        params[name] = (a1, a2, a3, a4)
+    species_r.finish()
+    r.finish()
+    return Potential(form="continuous", file_unit=unit, continuous=params,
+                     reference_volume_A=omega0, taper_invA=taper)
 
 
 def _read_path(r: _Reader, dim: int) -> CustomPath:

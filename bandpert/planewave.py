@@ -20,6 +20,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .errors import InputError
+from .formfactor import continuous_fourier_coefficients
 from .lattice import reciprocal_vectors
 from .material import Material
 from .units import HBAR2_OVER_2M0_EV_A2
@@ -120,9 +121,14 @@ def fourier_coefficients(material: Material, miller: np.ndarray) -> np.ndarray:
       c the bond centre and τ = r_1 − c (for the diamond and zincblende structures with the origin
       at the bond centre, c = 0 and τ = a(1,1,1)/8; Cohen & Bergstresser, Phys. Rev. 141, 789
       (1966), eq. 2);
-    - explicit Fourier coefficients by Miller index; 0 elsewhere.
+    - explicit Fourier coefficients by Miller index; 0 elsewhere;
+    - continuous: V(G) = (Ω0/Ω_atom) w(|G|) (1/N) Σ_j v_j(|G|) exp(−iG·r_j), V(0) = 0, with
+      v_j(q) = a1 (q² − a2) / (a3 exp(a4 q²) − 1) (Friedel, Hybertsen & Schlüter, Phys. Rev. B
+      39, 7974 (1989); :func:`bandpert.formfactor.continuous_fourier_coefficients`), on any
+      lattice.
 
-    Form factors are defined on the listed |G|² shells (units (2π/a)²) and are zero off them.
+    Tabulated form factors are defined on the listed |G|² shells (units (2π/a)²) and are zero
+    off them.
 
     Parameters
     ----------
@@ -144,6 +150,8 @@ def fourier_coefficients(material: Material, miller: np.ndarray) -> np.ndarray:
         return _lookup_fourier(np.array(pot.miller), np.array(pot.fourier_eV), miller)
     b = reciprocal_vectors(material.vectors_A)
     g = miller @ b
+    if pot.form == "continuous":
+        return continuous_fourier_coefficients(material, g, np.all(miller == 0, axis=-1))
     g2 = np.einsum("...i,...i->...", g, g) / (2.0 * np.pi / material.a_A) ** 2
     shells = np.array(pot.shells_g2)
     match = np.abs(g2[..., None] - shells) <= SHELL_TOLERANCE * np.maximum(shells, 1.0)
@@ -185,6 +193,8 @@ def _lookup_fourier(keys: np.ndarray, values: np.ndarray, miller: np.ndarray) ->
 
 def check_shells_exist(material: Material, basis: PlaneWaveBasis) -> None:
     """Refuse form-factor shells that no reciprocal-lattice vector of the basis reaches.
+
+    Only the tabulated forms have shells; the other forms (empty, fourier, continuous) pass.
 
     Raises
     ------

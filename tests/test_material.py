@@ -72,6 +72,11 @@ PER_SPECIES = {"form": "per-species", "unit": "Ry", "shells": [3, 4, 8, 11],
 FOURIER = {"form": "fourier", "unit": "eV",
            "coefficients": [{"miller": [1, 0, 0], "value": -0.5},
                             {"miller": [0, 1, 1], "value": [0.2, 0.1]}]}
+#: The continuous form v(q) = a1 (q² − a2)/(a3 exp(a4 q²) − 1) (Friedel, Hybertsen & Schlüter,
+#: Phys. Rev. B 39, 7974 (1989); form from memory) with bandpert's fit to silicon, rounded.
+CONTINUOUS = {"form": "continuous", "unit": "eV", "reference_volume_A3": 20.0,
+              "taper_invA": [3.88, 3.97],
+              "species": {"Si": {"a1": 11.48, "a2_invA2": 8.80, "a3": 13.16, "a4_A2": 0.107}}}
 OBLIQUE = {"type": "oblique", "a_A": 3.0, "b_A": 3.5, "gamma_deg": 75.0}
 ATOMS_2D = [{"species": "X", "position": [0.0, 0.0]}]
 
@@ -124,6 +129,7 @@ def test_valid_variants_load():
                         {"species": "Ga", "position": [0.125, 0.125, 0.125]},
                         {"species": "As", "position": [-0.125, -0.125, -0.125]}]},
                     {"potential": FOURIER},
+                    {"potential": CONTINUOUS},
                     {"lattice": OBLIQUE, "atoms": ATOMS_2D, "path": None,
                      "potential": {"form": "empty"}}):
         doc = copy.deepcopy(VALID)
@@ -344,6 +350,21 @@ CASES = [
     ("duplicate-shell", put("potential", "shells", [3, 3, 11]), "potential.shells"),
     ("nearly-duplicate-shell", put("potential", "shells", [3, 3.0000000001, 11]),
      "potential.shells"),
+    ("continuous-species-table-missing", both(put("potential", CONTINUOUS),
+                                              drop("potential", "species")),
+     "potential.species"),
+    ("continuous-a4-negative", both(put("potential", CONTINUOUS),
+                                    put("potential", "species", "Si", "a4_A2", -0.1)),
+     "potential.species.Si.a4_A2"),
+    ("continuous-zero-denominator", both(put("potential", CONTINUOUS),
+                                         put("potential", "species", "Si", "a3", 0.5)),
+     "potential.species.Si.a3"),
+    ("continuous-taper-reversed", both(put("potential", CONTINUOUS),
+                                       put("potential", "taper_invA", [4.0, 3.0])),
+     "potential.taper_invA"),
+    ("continuous-unknown-key", both(put("potential", CONTINUOUS),
+                                    put("potential", "species", "Si", "a5", 1.0)),
+     "potential.species.Si.a5"),
     ("unknown-unit", put("potential", "unit", "meV"), "potential.unit"),
     ("unit-wrong-case", put("potential", "unit", "ry"), "potential.unit"),
     # --- custom path
@@ -634,7 +655,8 @@ SCHEMA_KEYS = ["name", "source", "note", "lattice", "type", "a_A", "b_A", "c_A",
                "vectors_A", "atoms", "species", "position", "potential", "form", "unit",
                "shells", "symmetric", "antisymmetric", "coefficients", "miller", "value",
                "basis", "cutoff_eV", "cutoff_Ry", "bands", "electrons", "valence", "path",
-               "points", "legs", "G", "X", "Si"]
+               "points", "legs", "G", "X", "Si", "reference_volume_A3", "reference_area_A2",
+               "taper_invA", "a1", "a2_invA2", "a3", "a4_A2"]
 SCHEMA_STRINGS = (list(LATTICE_TYPES) + list(POTENTIAL_FORMS) + list(ENERGY_UNITS_TO_EV)
                   + ["Si", "G", "Gamma", "X", "L", ""])
 
@@ -681,6 +703,8 @@ def _valid_like(variant: int) -> dict:
         doc["atoms"] = copy.deepcopy(GAAS_ATOMS)
     elif variant == 2:
         doc["potential"] = copy.deepcopy(FOURIER)
+    elif variant == 4:
+        doc["potential"] = copy.deepcopy(CONTINUOUS)
     elif variant == 3:
         doc["lattice"] = copy.deepcopy(OBLIQUE)
         doc["atoms"] = copy.deepcopy(ATOMS_2D)
@@ -693,7 +717,7 @@ def _valid_like(variant: int) -> dict:
 @settings(max_examples=200, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(st.data())
 def test_fuzz_mutated_valid_documents(data):
-    doc = _valid_like(data.draw(st.integers(0, 3), label="variant"))
+    doc = _valid_like(data.draw(st.integers(0, 4), label="variant"))
     for _ in range(data.draw(st.integers(1, 3), label="mutations")):
         locations = list(_paths(doc))
         if not locations:
