@@ -866,6 +866,11 @@ def _describe_potential(material: Material) -> str:
         return "empty lattice (V = 0)"
     if p.form == "fourier":
         return f"{len(p.fourier_eV)} Fourier coefficients (±G completed), file unit {p.file_unit}"
+    if p.form == "continuous":
+        taper = ("" if p.taper_invA is None else
+                 f", taper {p.taper_invA[0]:.4g}–{p.taper_invA[1]:.4g} Å⁻¹")
+        return (f"continuous v(q) for {', '.join(p.continuous)} (Friedel–Hybertsen–Schlüter "
+                f"form), Ω0 = {p.reference_volume_A:.4g}{taper}, file unit {p.file_unit}")
     return (f"{p.form} form factors on |G|² = {', '.join(f'{s:g}' for s in p.shells_g2)} "
             f"(2π/a)², file unit {p.file_unit}")
 

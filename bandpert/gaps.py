@@ -108,6 +108,7 @@ REASON_NO_FORM_FACTOR = "no form factor on that shell"
 REASON_NO_COEFFICIENT = "no Fourier coefficient for that G"
 REASON_EMPTY = "no potential (empty lattice)"
 REASON_CANCEL = "contributions cancel"
+REASON_FORM_FACTOR_ZERO = "form factor zero at that |G|"
 
 #: Short tags of the reasons, for tables.
 REASON_TAGS: dict[str, str] = {
@@ -117,6 +118,7 @@ REASON_TAGS: dict[str, str] = {
     REASON_NO_COEFFICIENT: "no V(G)",
     REASON_EMPTY: "empty",
     REASON_CANCEL: "cancel",
+    REASON_FORM_FACTOR_ZERO: "v(q)=0",
 }
 
 OPENS_FIRST = "first order"
@@ -581,8 +583,10 @@ def coupling_reasons(material: Material, miller: np.ndarray, values_eV: np.ndarr
         beyond = g2 > reach * (1 + SHELL_TOLERANCE)
         return tuple(REASON_COUPLED if c else REASON_RANGE if x else REASON_NO_COEFFICIENT
                      for c, x in zip(coupled, beyond, strict=True))
-    shells = np.array(pot.shells_g2, dtype=float)
     positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
+    if pot.form == "continuous":
+        return _continuous_reasons(material, g, positions, coupled, zero_eV)
+    shells = np.array(pot.shells_g2, dtype=float)
     if pot.form == "symmetric-antisymmetric":
         centre = positions.mean(axis=0)
         tau = positions[0] - centre
@@ -620,6 +624,43 @@ def coupling_reasons(material: Material, miller: np.ndarray, values_eV: np.ndarr
             out.append(REASON_RANGE)
         elif not on_live[i]:
             out.append(REASON_NO_FORM_FACTOR)
+        else:
+            out.append(REASON_CANCEL)
+    return tuple(out)
+
+
+def _continuous_reasons(material: Material, g: np.ndarray, positions: np.ndarray,
+                        coupled: np.ndarray, zero_eV: float) -> tuple[str, ...]:
+    """:func:`coupling_reasons` for the continuous form v_s(|G|) (:mod:`bandpert.formfactor`).
+
+    Rule 3 ("beyond the potential's range") applies from the upper end of the taper on; rule 4
+    becomes "form factor zero at that |G|" (every v_s vanishes there, e.g. at q² = a2).
+    """
+    from .formfactor import continuous_form_factor
+
+    pot = material.potential
+    q = np.linalg.norm(g, axis=1)
+    species = list(dict.fromkeys(a.species for a in material.atoms))
+    sf_zero = np.ones(len(q), dtype=bool)
+    v_zero = np.ones(len(q), dtype=bool)
+    for s in species:
+        mine = np.array([a.species == s for a in material.atoms])
+        f = np.exp(-1j * (g @ positions[mine].T)).sum(axis=1) / len(positions)
+        v = continuous_form_factor(q, *pot.continuous[s])
+        live = np.abs(v) > zero_eV
+        sf_zero &= ~live | (np.abs(f) < 1e-9)
+        v_zero &= ~live
+    beyond = (q >= pot.taper_invA[1]) if pot.taper_invA else np.zeros(len(q), dtype=bool)
+    out = []
+    for i in range(len(q)):
+        if coupled[i]:
+            out.append(REASON_COUPLED)
+        elif beyond[i]:
+            out.append(REASON_RANGE)
+        elif v_zero[i]:
+            out.append(REASON_FORM_FACTOR_ZERO)
+        elif sf_zero[i]:
+            out.append(REASON_STRUCTURE)
         else:
             out.append(REASON_CANCEL)
     return tuple(out)

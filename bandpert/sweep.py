@@ -49,6 +49,7 @@ from .errors import InputError
 from .execution import SERIAL, Engine, Outcome, Progress, run
 from .lattice import describe_position, point_group_rotations, standard_path
 from .material import Material, parse_material
+from .units import HBAR2_OVER_2M0_EV_A2
 
 QUANTITIES = ("edges", "gaps", "masses")
 FORM_FACTOR_MODES = ("tabulated", "continuous")
@@ -298,6 +299,11 @@ class SweepSpec:
     kind : str
         "plane-wave" (a material file) or "k·p" (a k·p parameter file: the masses at Γ of each
         of its models).
+    reference_rotations : numpy.ndarray or None
+        Point group of the reference crystal (spglib, fractional direct coordinates). A strained
+        cell has lower symmetry, so valleys that were equivalent split and the lowest one may not
+        lie on the path: every band edge found on the path is compared with its images under
+        these rotations before it is refined.
     """
 
     document: dict[str, Any]
@@ -315,6 +321,7 @@ class SweepSpec:
     alloy_source: str = ""
     temperature_K: float = 300.0
     kind: str = "plane-wave"
+    reference_rotations: np.ndarray | None = None
 
 
 def is_kp_document(document: dict[str, Any]) -> bool:
@@ -438,15 +445,19 @@ def _edges_and_masses(bs: BandStructure, spec: SweepSpec) -> dict:
     for name, index, band, maximum in (
             ("valence_max", bs.edges.valence_max_index, n_val - 1, True),
             ("conduction_min", bs.edges.conduction_min_index, n_val, False)):
-        k = edge_point(bs.model, bs.path.k_cart_invA, index, band, maximum)
+        candidates, best = _valley_images(bs, index, band, maximum, spec.reference_rotations)
+        k = edge_point(bs.model, candidates, best, band, maximum)
         found[name] = (k, band)
         energy = float(eigenstates(bs.model, k, band + 1).energies_eV[band])
         k_frac = np.linalg.solve(bs.model.reciprocal_invA.T, k)
         row[f"{name}_eV"] = energy
         for i, x in enumerate(k_frac):
             row[f"{name}_k{i + 1}_frac"] = float(x)
-        moved = not np.allclose(k, bs.path.k_cart_invA[index], atol=1e-9)
-        row[f"{name}_at"] = describe_position(bs.path, index) + (" (refined)" if moved else "")
+        moved = not np.allclose(k, candidates[best], atol=1e-9)
+        where = describe_position(bs.path, index)
+        if best:
+            where = f"image of {where} under the reference symmetry"
+        row[f"{name}_at"] = where + (" (refined)" if moved else "")
     row["gap_eV"] = float(row["conduction_min_eV"]) - float(row["valence_max_eV"])
     row["direct_gap_eV"] = bs.edges.direct_gap_eV
     if "masses" in spec.quantities:
@@ -468,6 +479,30 @@ def _edges_and_masses(bs: BandStructure, spec: SweepSpec) -> dict:
             if m.dos_mass is not None:
                 row[f"{prefix}_dos_mass"] = float(m.dos_mass)
     return row
+
+
+def _valley_images(bs: BandStructure, index: int, band: int, maximum: bool,
+                   rotations: np.ndarray | None) -> tuple[np.ndarray, int]:
+    """The path extremum and its images under the reference point group (and −k).
+
+    Returns the Cartesian candidates (the path point first) and the index of the best one; an
+    image wins only if it is better by more than 1e-9 eV, so an unstrained crystal keeps the
+    point on the path.
+    """
+    from .bands import exact_energies
+
+    k0 = bs.path.k_frac[index]
+    if rotations is None:
+        return bs.path.k_cart_invA[index:index + 1], 0
+    images = np.array([k0 @ np.linalg.inv(r) for r in rotations])
+    images = np.concatenate([[k0], images, -images])
+    images = images[np.unique(np.round(images, 9), axis=0, return_index=True)[1]]
+    images = np.concatenate([[k0], images[~np.all(np.isclose(images, k0, atol=1e-9), axis=1)]])
+    cart = images @ bs.model.reciprocal_invA
+    e = exact_energies(bs.model, cart, band + 1)[:, band]
+    gain = (e - e[0]) if maximum else (e[0] - e)
+    best = int(np.argmax(gain))
+    return cart, (best if gain[best] > 1e-9 else 0)
 
 
 @dataclass(frozen=True)
@@ -519,14 +554,35 @@ def parameter_grid(axes: tuple[SweepAxis, ...]) -> np.ndarray:
         -1, len(axes))
 
 
-def form_factor_note(material: Material, axes: tuple[SweepAxis, ...], mode: str) -> str:
+def faithful_window(tabulated: Material, taper_invA: tuple[float, float]) -> tuple[float, float]:
+    """Scale factors s = a/a_ref for which a fitted continuous model keeps the tabulated shells.
+
+    Under a uniform scaling every |G| goes as 1/s. The listed shells keep the full weight of the
+    taper while |G_last|/s ≤ q1, and the next shell of the lattice stays switched off while
+    |G_next|/s ≥ q2: s ∈ [|G_last|/q1, |G_next|/q2]. Strain moves the shells unevenly, so for
+    strain the window is a guide, not a bound.
+    """
+    unit = 2.0 * np.pi / tabulated.a_A
+    shells = np.array(tabulated.potential.shells_g2, dtype=float)
+    q_last = unit * np.sqrt(shells.max())
+    from .planewave import build_model
+
+    g = build_model(tabulated, 4.0 * HBAR2_OVER_2M0_EV_A2 * q_last**2).basis.g_cart_invA
+    q = np.unique(np.round(np.linalg.norm(g, axis=1), 9))
+    q_next = q[q > q_last * (1 + 1e-9)].min()
+    return float(q_last / taper_invA[0]), float(q_next / taper_invA[1])
+
+
+def form_factor_note(material: Material, axes: tuple[SweepAxis, ...], mode: str,
+                     window: str = "") -> str:
     """One sentence on how the form factors follow the varied lattice."""
     lattice_moves = any(a.kind in ("strain", "alloy") or a.key.startswith("lattice.")
                         for a in axes)
     form = material.potential.form
     if mode == "continuous":
         return ("form factors from a continuous v(q) (Friedel, Hybertsen & Schlüter 1989 form) "
-                "fitted to the file's tabulated values at the reference lattice, scaled by 1/Ω")
+                "fitted to the file's tabulated values at the reference lattice, scaled by 1/Ω"
+                + window)
     if form in ("symmetric-antisymmetric", "per-species") and lattice_moves:
         return ("tabulated form factors kept fixed on the |G|² shells of the reference lattice "
                 "(no 1/Ω scaling, no q-dependence); use --form-factors continuous for a v(q) "
@@ -591,11 +647,17 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                              source, "--form-factors")
         alloy_end = copy.deepcopy(alloy_end)
         parse_material(alloy_end, alloy_source)  # each end must be valid on its own
+    window = ""
     if form_factors == "continuous":
         from .formfactor import continuous_document
 
+        tabulated = reference
         doc = continuous_document(doc, source)
         reference = parse_material(doc, source)
+        lo, hi = faithful_window(tabulated, reference.potential.taper_invA)
+        window = (f"; it equals the tabulated model exactly for a/a_ref in [{lo:.4f}, {hi:.4f}] "
+                  f"(a = {lo * tabulated.a_A:.4g}–{hi * tabulated.a_A:.4g} Å); beyond, the "
+                  "taper changes the weights of the outer shells smoothly")
     if reference.path is None:  # keep the reference labels: a strained cell has lower symmetry
         pts, legs = standard_path(reference)
         doc["path"] = {"points": {k: list(v) for k, v in pts.items()},
@@ -639,8 +701,10 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
             chosen.append(name)
         labels = tuple(dict.fromkeys(chosen))
     cutoff = cutoff_eV or reference.cutoff_eV or converged_cutoff(reference, nb)
+    rotations = point_group_rotations(reference) if strained else None
     spec = SweepSpec(document=doc, source=source, axes=tuple(axes), quantities=tuple(quantities),
                      points=labels, n_k=n_k, n_bands=nb, lower_band=lower_band,
+                     reference_rotations=rotations,
                      reference_cutoff_eV=float(cutoff), reference_volume=reference.volume_A,
                      basis=basis, alloy_end=alloy_end, alloy_source=alloy_source,
                      temperature_K=temperature_K)
@@ -650,7 +714,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
         from .planewave import build_model
 
         build_model(m, point_cutoff(spec, m))  # a range leaving the basis limit fails here
-    return spec, reference, form_factor_note(reference, spec.axes, form_factors)
+    return spec, reference, form_factor_note(reference, spec.axes, form_factors, window)
 
 
 def _prepare_kp(doc: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],

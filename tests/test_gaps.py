@@ -429,3 +429,22 @@ def test_annotation_marks_exact_and_predicted_gaps():
     assert any(np.allclose(y, g.exact_eV - bs.energy_zero_eV) for y in bars)
     assert any(t.get_text() == f"{g.exact_gaps_eV[0]:.2f} ({g.second_order_gaps_eV[0]:.2f})"
                for t in ax.texts)
+
+
+def test_continuous_form_factors_give_the_same_gaps_and_reasons():
+    # The fitted continuous model equals the tabulated one at the reference lattice
+    # (bandpert.formfactor), so the gap analysis must agree: germanium keeps its lowest X pair
+    # degenerate because cos(G·τ) = 0 on |G|² = 4 (Cohen & Bergstresser, Phys. Rev. 141, 789
+    # (1966), eq. 2: the structure factor of the diamond structure).
+    from bandpert.formfactor import continuous_document
+    from bandpert.material import parse_material, read_toml_document
+
+    doc = read_toml_document(MATERIALS / "germanium.toml")
+    tab = gap_analysis(parse_material(doc, "ge"))
+    cont = gap_analysis(parse_material(continuous_document(doc, "ge"), "ge"))
+    for p, q in zip(tab.points, cont.points, strict=True):
+        assert p.label == q.label
+        for g, h in zip(p.groups, q.groups, strict=True):
+            assert g.uncoupled_reason == h.uncoupled_reason
+            assert np.allclose(g.exact_eV, h.exact_eV, atol=1e-9)
+            assert np.allclose(g.first_order_eV, h.first_order_eV, atol=1e-9)
