@@ -35,17 +35,9 @@ def dask_scheduler():
     The tests hand the address to the tool as an existing scheduler would be handed
     (``Engine(kind="scheduler")``), so the connect path is exercised too.
     """
-    import logging
-    import os
+    from bandpert.execution import local_cluster
 
-    from distributed import LocalCluster
-
-    from bandpert.execution import SINGLE_THREAD_ENV
-
-    os.environ.update(SINGLE_THREAD_ENV)
-    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True, host="127.0.0.1",
-                           dashboard_address="127.0.0.1:0", worker_dashboard_address="127.0.0.1:0",
-                           silence_logs=logging.ERROR)
+    cluster = local_cluster(2)
     try:
         yield cluster.scheduler_address
     finally:

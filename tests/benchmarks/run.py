@@ -164,24 +164,18 @@ def dask_speedup(reps: int, say: Callable[..., None]) -> tuple[dict, list[tuple[
     the work on the cluster, without the start-up of the worker processes (about 1–3 s, paid
     once per command). A serial run in this process is timed beside them for reference.
     """
-    import logging
-
-    from distributed import LocalCluster
-
-    from bandpert.execution import SINGLE_THREAD_ENV, Engine
+    from bandpert.execution import Engine, local_cluster
     from bandpert.material import read_toml_document
     from bandpert.meshjob import compute_dos
     from bandpert.sweep import parse_axis, prepare, run_sweep
 
-    os.environ.update(SINGLE_THREAD_ENV)
     doc = read_toml_document(ROOT / "materials" / "silicon.toml")
     spec, _, _ = prepare(doc, "silicon.toml", (parse_axis("lattice.a_A=5.30:5.56:24"),),
                          ("edges", "gaps"), n_k=60)
+    spec_m, _, _ = prepare(doc, "silicon.toml", (parse_axis("lattice.a_A=5.30:5.56:12"),),
+                           ("edges", "masses"), n_k=40)
     aluminium = load_material(ROOT / "materials" / "aluminium.toml")
-    clusters = {n: LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
-                                host="127.0.0.1", dashboard_address="127.0.0.1:0",
-                                worker_dashboard_address="127.0.0.1:0",
-                                silence_logs=logging.ERROR) for n in (1, 2)}
+    clusters = {n: local_cluster(n) for n in (1, 2)}
     results: dict = {}
     rows = []
     try:
@@ -189,6 +183,9 @@ def dask_speedup(reps: int, say: Callable[..., None]) -> tuple[dict, list[tuple[
                    for n, c in clusters.items()}
         jobs = {"sweep": (lambda e: run_sweep(spec, e),
                           "silicon lattice-constant sweep, 24 points, edges + gaps, 60 k"),
+                "sweep_masses": (lambda e: run_sweep(spec_m, e),
+                                 "silicon lattice-constant sweep, 12 points, edges + masses, "
+                                 "40 k"),
                 "dos": (lambda e: compute_dos(aluminium, 24, n_bands=6, energy_step_eV=0.05,
                                               engine=e),
                         "aluminium DOS, 24³ mesh (413 irreducible k), 6 bands")}
