@@ -49,6 +49,10 @@ MaterialFile = Annotated[Path, typer.Argument(help="Material description file (T
                                               show_default=False)]
 OutDir = Annotated[Path, typer.Option("--out", help="Folder for the plot and JSON.")]
 FormatOption = Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
+BandsOption = Annotated[int | None, typer.Option(
+    "--bands", help="Bands computed (default: the file's basis.bands, else occupied + 4).",
+    show_default=False)]
+PlotCsvJsonDir = Annotated[Path, typer.Option("--out", help="Folder for the plot, CSV and JSON.")]
 CutoffOption = Annotated[float | None, typer.Option(
     "--cutoff-eV", help="Plane-wave kinetic-energy cutoff in eV (default: the file's, else a "
     "converged one).", show_default=False)]
@@ -83,8 +87,7 @@ def _check_count(value: int | None, name: str, minimum: int) -> None:
 @app.command()
 def bands(
     file: MaterialFile,
-    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the plot, CSV and JSON.")]
-    = Path("plots"),
+    out_dir: PlotCsvJsonDir = Path("plots"),
     k_points: Annotated[int, typer.Option("--k-points", help="Number of k-points along the path.")]
     = 200,
     n_bands: Annotated[int | None, typer.Option("--bands", help="Number of bands (default: the "
@@ -673,17 +676,14 @@ def sweep(
         "(virtual-crystal approximation).", show_default=False)] = None,
     k_points: Annotated[int, typer.Option("--k-points", help="k-points along the path at "
                                           "each parameter point.")] = 60,
-    n_bands: Annotated[int | None, typer.Option("--bands", help="Bands computed (default: the "
-                                                "file's basis.bands, else occupied + 4).",
-                                                show_default=False)] = None,
+    n_bands: BandsOption = None,
     cutoff_eV: CutoffOption = None,
     temperature: Annotated[float, typer.Option("--temperature", help="Temperature (K) for the "
                                                "effective densities of states.")] = 300.0,
     engine: EngineOption = EngineKind.local,
     workers: WorkersOption = None,
     scheduler: SchedulerOption = None,
-    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the plot, CSV and JSON.")]
-    = Path("plots"),
+    out_dir: PlotCsvJsonDir = Path("plots"),
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("sweep")] = None,
 ) -> None:
@@ -788,15 +788,12 @@ def dos(
                                                "--method gaussian).")] = 0.05,
     step_meV: Annotated[float, typer.Option("--step-meV", help="Spacing of the energy grid.")]
     = 10.0,
-    n_bands: Annotated[int | None, typer.Option("--bands", help="Bands computed (default: the "
-                                                "file's basis.bands, else occupied + 4).",
-                                                show_default=False)] = None,
+    n_bands: BandsOption = None,
     cutoff_eV: CutoffOption = None,
     engine: EngineOption = EngineKind.local,
     workers: WorkersOption = None,
     scheduler: SchedulerOption = None,
-    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the plot, CSV and JSON.")]
-    = Path("plots"),
+    out_dir: PlotCsvJsonDir = Path("plots"),
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("dos")] = None,
 ) -> None:

@@ -614,19 +614,8 @@ def coupling_reasons(material: Material, miller: np.ndarray, values_eV: np.ndarr
     beyond = g2 > reach * (1 + SHELL_TOLERANCE)
     on_live = (np.abs(g2[:, None] - shells[live_shell][None, :])
                <= SHELL_TOLERANCE * np.maximum(shells[live_shell], 1.0)).any(axis=1)
-    out = []
-    for i in range(p):
-        if coupled[i]:
-            out.append(REASON_COUPLED)
-        elif sf_zero[i]:
-            out.append(REASON_STRUCTURE)
-        elif beyond[i]:
-            out.append(REASON_RANGE)
-        elif not on_live[i]:
-            out.append(REASON_NO_FORM_FACTOR)
-        else:
-            out.append(REASON_CANCEL)
-    return tuple(out)
+    return _first_reason(coupled, ((sf_zero, REASON_STRUCTURE), (beyond, REASON_RANGE),
+                                   (~on_live, REASON_NO_FORM_FACTOR)))
 
 
 def _continuous_reasons(material: Material, g: np.ndarray, positions: np.ndarray,
@@ -651,18 +640,17 @@ def _continuous_reasons(material: Material, g: np.ndarray, positions: np.ndarray
         sf_zero &= ~live | (np.abs(f) < 1e-9)
         v_zero &= ~live
     beyond = (q >= pot.taper_invA[1]) if pot.taper_invA else np.zeros(len(q), dtype=bool)
+    return _first_reason(coupled, ((beyond, REASON_RANGE), (v_zero, REASON_FORM_FACTOR_ZERO),
+                                   (sf_zero, REASON_STRUCTURE)))
+
+
+def _first_reason(coupled: np.ndarray, rules: tuple[tuple[np.ndarray, str], ...]
+                  ) -> tuple[str, ...]:
+    """Per G: "coupled", else the first rule whose mask holds, else "contributions cancel"."""
     out = []
-    for i in range(len(q)):
-        if coupled[i]:
-            out.append(REASON_COUPLED)
-        elif beyond[i]:
-            out.append(REASON_RANGE)
-        elif v_zero[i]:
-            out.append(REASON_FORM_FACTOR_ZERO)
-        elif sf_zero[i]:
-            out.append(REASON_STRUCTURE)
-        else:
-            out.append(REASON_CANCEL)
+    for i, c in enumerate(coupled):
+        out.append(REASON_COUPLED if c else next(
+            (reason for mask, reason in rules if mask[i]), REASON_CANCEL))
     return tuple(out)
 
 

@@ -463,7 +463,8 @@ def sweep_figure(result) -> Figure:
         for j, name in enumerate(names):
             for c, combo in enumerate(combos):
                 sel = np.all(others == combo, axis=1) if len(combo) else np.ones(len(x), bool)
-                ax.plot(x[sel], result.columns[name][sel], "-o", ms=2.5, lw=1.2,
+                ax.plot(x[sel], result.columns[name][sel], "-o" if sel.sum() <= 60 else "-",
+                        ms=2.5, lw=1.2,
                         color=cycle[j % len(cycle)], alpha=1.0 / (1 + 0.6 * c),
                         label=_sweep_label(name) if c == 0 else "_nolegend_")
         if failed is not None:
