@@ -509,7 +509,8 @@ def dos_figure(result) -> Figure:
         ax.fill_between(e[below], 0, d.dos_per_eV[below], color=EXACT_COLOUR, alpha=0.18, lw=0)
         for a in (ax, ax2):
             a.axvline(ef, color=UNTRUSTED_COLOUR, lw=0.9, ls="--")
-        ax.annotate(f"E_F = {result.fermi_level_eV:.3f} eV", (ef, ax.get_ylim()[1] * 0.92),
+        ax.annotate(f"E_F = {result.fermi_level_eV:.3f} eV (absolute)",
+                    (ef, ax.get_ylim()[1] * 0.92),
                     xytext=(4, 0), textcoords="offset points", fontsize=8,
                     color=UNTRUSTED_COLOUR)
     ax.set_ylabel("states / eV / cell")
