@@ -79,6 +79,21 @@ def progress_bar(description: str):
         yield update
 
 
+def output_paths(file: Path, out_dir: Path, command: str, image_format: ImageFormat,
+                 json_path: Path | None) -> tuple[Path, Path, Path]:
+    """The image, CSV and JSON paths of a command: ``OUT/<stem>-<command>.<ext>``."""
+    base = out_dir / f"{file.stem}-{command}"
+    return (base.with_name(f"{base.name}.{image_format.value}"),
+            base.with_name(f"{base.name}.csv"), json_path or base.with_name(f"{base.name}.json"))
+
+
+def save_figure(fig, image: Path, image_format: ImageFormat, dpi: int = 200) -> None:
+    """Write a figure atomically in the chosen format."""
+    from .io import write_with
+
+    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=dpi))
+
+
 def _check_count(value: int | None, name: str, minimum: int) -> None:
     if value is not None and value < minimum:
         raise InputError(f"must be at least {minimum}, got {value}", key=name)
@@ -125,7 +140,7 @@ def bands(
     prints a short summary: space group, basis, energy zero, gap and band edges, and how much
     of the path perturbation theory can be trusted on.
     """
-    from .io import write_csv, write_json, write_with
+    from .io import write_csv, write_json
     from .plotting import band_figure
     from .report import band_structure_results, band_structure_table, document, perturbative_table
 
@@ -159,11 +174,9 @@ def bands(
     doc = document("bands", material, settings, band_structure_results(bs))
     header, cols, rows = band_structure_table(bs)
     fig = band_figure(bs, window)
-    image = out_dir / f"{stem}-bands.{image_format.value}"
-    csv_path = out_dir / f"{stem}-bands.csv"
-    json_path = json_path or out_dir / f"{stem}-bands.json"
+    image, csv_path, json_path = output_paths(file, out_dir, "bands", image_format, json_path)
     written = [image, csv_path]
-    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=200))
+    save_figure(fig, image, image_format)
     write_csv(csv_path, header, cols, rows)
     if bs.perturbative is not None:
         pert_csv = out_dir / f"{stem}-perturbative.csv"
@@ -696,7 +709,7 @@ def sweep(
     the others are kept (exit status 3 when any point failed). Runs on a local Dask cluster by
     default, on an existing scheduler with --scheduler, or in this process with --engine serial.
     """
-    from .io import write_json, write_table, write_with
+    from .io import write_json, write_table
     from .material import read_toml_document
     from .plotting import sweep_figure
     from .report import document, sweep_results, sweep_table
@@ -730,12 +743,9 @@ def sweep(
                 "reference_cutoff_eV": spec.reference_cutoff_eV, "basis_rule": spec.basis,
                 "form_factors": form_factors, "alloy_end": str(alloy_end or ""),
                 "temperature_K": temperature, "engine": result.engine}
-    stem = file.stem
-    image = out_dir / f"{stem}-sweep.{image_format.value}"
-    csv_path = out_dir / f"{stem}-sweep.csv"
-    json_path = json_path or out_dir / f"{stem}-sweep.json"
+    image, csv_path, json_path = output_paths(file, out_dir, "sweep", image_format, json_path)
     fig = sweep_figure(result)
-    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=160))
+    save_figure(fig, image, image_format, dpi=160)
     write_table(csv_path, *sweep_table(result))
     write_json(json_path, document("sweep", reference, settings, sweep_results(result)))
     _sweep_summary(result)
@@ -803,7 +813,7 @@ def dos(
     Dask cluster (default), an existing scheduler (--scheduler) or this process (--engine
     serial); the result does not depend on which.
     """
-    from .io import write_csv, write_json, write_with
+    from .io import write_csv, write_json
     from .meshjob import compute_dos
     from .plotting import dos_figure
     from .report import document, dos_results, dos_table
@@ -825,12 +835,9 @@ def dos(
                 "step_eV": step_meV * 1e-3, "bands": int(result.energies_eV.shape[1]),
                 "cutoff_eV": result.cutoff_eV, "basis_size": result.basis_size,
                 "engine": result.engine}
-    stem = file.stem
-    image = out_dir / f"{stem}-dos.{image_format.value}"
-    csv_path = out_dir / f"{stem}-dos.csv"
-    json_path = json_path or out_dir / f"{stem}-dos.json"
+    image, csv_path, json_path = output_paths(file, out_dir, "dos", image_format, json_path)
     fig = dos_figure(result)
-    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=200))
+    save_figure(fig, image, image_format)
     write_csv(csv_path, *dos_table(result))
     write_json(json_path, document("dos", material, settings, dos_results(result)))
     table = Table(title=f"{material.name}: density of states", show_header=False,
