@@ -25,7 +25,7 @@ from .dos import (
 from .errors import InputError
 from .execution import SERIAL, Engine, Progress, Runner, run, session
 from .material import Material
-from .planewave import build_model
+from .planewave import build_model, single_blas_thread
 
 DOS_METHODS = ("tetrahedron", "gaussian")
 
@@ -69,10 +69,11 @@ def dos_band_block(task: tuple[KMesh, np.ndarray, np.ndarray, str, float]
                    ) -> tuple[np.ndarray, np.ndarray]:
     """One task: (DOS, integrated count) of a group of bands on the energy grid."""
     mesh, energies_eV, grid_eV, method, smearing_eV = task
-    if method == "tetrahedron":
-        d = tetrahedron_dos(mesh, energies_eV, grid_eV)
-    else:
-        d = gaussian_dos(energies_eV, mesh.weights, grid_eV, smearing_eV)
+    with single_blas_thread():
+        if method == "tetrahedron":
+            d = tetrahedron_dos(mesh, energies_eV, grid_eV)
+        else:
+            d = gaussian_dos(energies_eV, mesh.weights, grid_eV, smearing_eV)
     return d.dos_per_eV, d.integrated
 
 

@@ -373,8 +373,10 @@ def point_cutoff(spec: SweepSpec, material: Material) -> float:
 def evaluate_point(task: tuple[SweepSpec, tuple[float, ...]]) -> dict[str, float | str]:
     """One parameter point → one row of the sweep table (a flat dict of numbers and text).
 
-    Module-level so that Dask workers import it by name. Keys (all energies absolute, the
-    model's own zero; masses in m0; see the README for the full list): ``cutoff_eV``,
+    Module-level so that Dask workers import it by name; BLAS runs on one thread, so a point
+    gives the same numbers serially and on any worker (energies and refined positions).
+    Keys (all energies absolute, the model's own zero; masses in m0; see the README for the
+    full list): ``cutoff_eV``,
     ``basis_size``; with "gaps" ``lower_<P>_eV``, ``upper_<P>_eV``, ``gap_<P>_eV`` for every
     label P; with "edges" ``valence_max_eV``, ``conduction_min_eV``, ``gap_eV``,
     ``direct_gap_eV``, ``valence_max_k{1,2,3}_frac``, ``conduction_min_k{1,2,3}_frac``,
@@ -382,9 +384,16 @@ def evaluate_point(task: tuple[SweepSpec, tuple[float, ...]]) -> dict[str, float
     ``conduction_valleys``, ``conduction_dos_mass``, ``conduction_conductivity_mass``,
     ``valence_m{1,2,3}`` or ``valence_gamma{1,2,3}`` (degenerate top), ``valence_dos_mass``.
     """
+    from .planewave import single_blas_thread
+
     spec, values = task
-    if spec.kind == "k·p":
-        return _kp_point(spec, values)
+    with single_blas_thread():  # the same arithmetic in this process and in any worker
+        if spec.kind == "k·p":
+            return _kp_point(spec, values)
+        return _plane_wave_point(spec, values)
+
+
+def _plane_wave_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, float | str]:
     material = point_material(spec, values)
     cutoff = point_cutoff(spec, material)
     bs = compute_band_structure(material, n_k=spec.n_k, n_bands=spec.n_bands, cutoff_eV=cutoff,
