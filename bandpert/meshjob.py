@@ -25,7 +25,7 @@ from .dos import (
 from .errors import InputError
 from .execution import SERIAL, Engine, Progress, Runner, run, session
 from .material import Material
-from .planewave import build_model, single_blas_thread
+from .planewave import PlaneWaveModel, build_model, single_blas_thread
 
 DOS_METHODS = ("tetrahedron", "gaussian")
 
@@ -33,10 +33,24 @@ DOS_METHODS = ("tetrahedron", "gaussian")
 K_BLOCK = 64
 
 
+#: The last model built in this process, keyed by what defines it: every block of a mesh needs
+#: the same V, so a worker (or the calling process) builds it once, not once per block.
+_LAST_MODEL: dict[tuple, PlaneWaveModel] = {}
+
+
+def _model_for(material: Material, cutoff_eV: float) -> PlaneWaveModel:
+    key = (material.file, material.name, material.vectors_A.tobytes(), repr(material.atoms),
+           repr(material.potential), float(cutoff_eV))
+    if key not in _LAST_MODEL:
+        _LAST_MODEL.clear()
+        _LAST_MODEL[key] = build_model(material, cutoff_eV)
+    return _LAST_MODEL[key]
+
+
 def mesh_block(task: tuple[Material, float, np.ndarray, int]) -> np.ndarray:
     """One task: exact energies (n_k, n_bands) of a block of Cartesian k-points (Å⁻¹)."""
     material, cutoff_eV, k_cart_invA, n_bands = task
-    return exact_energies(build_model(material, cutoff_eV), k_cart_invA, n_bands)
+    return exact_energies(_model_for(material, cutoff_eV), k_cart_invA, n_bands)
 
 
 def mesh_energies(material: Material, mesh: KMesh, cutoff_eV: float, n_bands: int,
@@ -195,7 +209,7 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
         cutoff = converged_cutoff(material, nb)
     else:
         warn_if_unconverged(material, cutoff, nb)
-    model = build_model(material, cutoff)  # fails here, once, on a bad basis
+    model = _model_for(material, cutoff)  # fails here, once, on a bad basis
     if nb > model.size:
         raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
                          "waves", material.file, "--bands")
