@@ -504,9 +504,10 @@ def _valley_images(bs: BandStructure, index: int, band: int, maximum: bool,
     if rotations is None:
         return bs.path.k_cart_invA[index:index + 1], 0
     images = np.array([k0 @ np.linalg.inv(r) for r in rotations])
-    images = np.concatenate([[k0], images, -images])
+    images = np.concatenate([images, -images])
     images = images[np.unique(np.round(images, 9), axis=0, return_index=True)[1]]
-    images = np.concatenate([[k0], images[~np.all(np.isclose(images, k0, atol=1e-9), axis=1)]])
+    others = images[~np.all(np.isclose(images, k0, atol=1e-9), axis=1)]
+    images = np.concatenate([[k0], others])
     cart = images @ bs.model.reciprocal_invA
     e = exact_energies(bs.model, cart, band + 1)[:, band]
     gain = (e - e[0]) if maximum else (e[0] - e)
