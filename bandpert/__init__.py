@@ -13,10 +13,10 @@ try:
 except PackageNotFoundError:  # running from a source tree that is not installed
     __version__ = "0.1.0"
 
-from .bands import BandStructure, compute_band_structure, exact_energies  # noqa: E402
 from .errors import InputError  # noqa: E402
-from .material import Material, load_material, parse_material  # noqa: E402
-from .planewave import PlaneWaveModel, build_model  # noqa: E402
+from .input.material import Material, load_material, parse_material  # noqa: E402
+from .physics.bands import BandStructure, compute_band_structure, exact_energies  # noqa: E402
+from .planewave.model import PlaneWaveModel, build_model  # noqa: E402
 
 __all__ = [
     "BandStructure",

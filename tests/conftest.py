@@ -6,7 +6,7 @@ from pathlib import Path
 
 import pytest
 
-from bandpert.material import Material, load_material, parse_material
+from bandpert.input.material import Material, load_material, parse_material
 
 MATERIALS = Path(__file__).resolve().parent.parent / "materials"
 
@@ -35,7 +35,7 @@ def dask_scheduler():
     The tests hand the address to the tool as an existing scheduler would be handed
     (``Engine(kind="scheduler")``), so the connect path is exercised too.
     """
-    from bandpert.execution import local_cluster
+    from bandpert.runs.execution import local_cluster
 
     cluster = local_cluster(2)
     try:

@@ -6,9 +6,9 @@ import numpy as np
 import pytest
 from conftest import bundled, make_material
 
-from bandpert.bands import compute_band_structure, exact_energies, fermi_level
-from bandpert.lattice import standard_path
-from bandpert.planewave import build_model
+from bandpert.crystal.lattice import standard_path
+from bandpert.physics.bands import compute_band_structure, exact_energies, fermi_level
+from bandpert.planewave.model import build_model
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 
@@ -116,7 +116,7 @@ def test_band_count_larger_than_basis_is_refused():
 def test_batched_and_lapack_paths_agree(silicon):
     # The two solver paths (batched numpy below BATCH_BELOW, per-k LAPACK subset above) give the
     # same eigenvalues (internal consistency; common practice, no source).
-    import bandpert.bands as bands
+    import bandpert.physics.bands as bands
 
     model = build_model(silicon, 50.0)
     k = np.random.default_rng(1).normal(size=(5, 3))
@@ -133,8 +133,8 @@ def test_batched_and_lapack_paths_agree(silicon):
 def test_an_unconverged_cutoff_is_warned_about(silicon):
     # The project's convergence criterion (bands move < 5 meV at 1.5 × the cutoff; common
     # practice, no source): 60 eV is far from it for silicon, the default cutoff meets it.
-    from bandpert.bands import warn_if_unconverged
     from bandpert.errors import ModelWarning
+    from bandpert.physics.bands import warn_if_unconverged
 
     with pytest.warns(ModelWarning, match="not converged"):
         change = warn_if_unconverged(silicon, 60.0, 8)

@@ -17,9 +17,9 @@ import scipy.special
 import typer
 from rich.console import Console
 
-import bandpert.cli as cli
-from bandpert.material import load_material
-from bandpert.planewave import build_model
+import bandpert.cli.app as cli
+from bandpert.input.material import load_material
+from bandpert.planewave.model import build_model
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 MATERIALS = Path(__file__).resolve().parents[1] / "materials"
@@ -179,7 +179,7 @@ def test_bands_json_matches_mathieu_characteristic_values(chain_run):
     gamma = [scipy.special.mathieu_a(0, q), scipy.special.mathieu_b(2, q),
              scipy.special.mathieu_a(2, q)]
     x = [scipy.special.mathieu_b(1, q), scipy.special.mathieu_a(1, q)]
-    # the default cutoff converges the bands to 5 meV (bandpert.bands.CONVERGENCE_TOLERANCE_EV)
+    # the default cutoff converges the bands to 5 meV (bandpert.physics.bands.CONVERGENCE_TOLERANCE_EV)
     assert e[0, :3] == pytest.approx(e_r * np.array(gamma), abs=5e-3)
     assert e[-1, :2] == pytest.approx(e_r * np.array(x), abs=5e-3)
 
@@ -271,7 +271,7 @@ def test_internal_error_exits_1_with_a_pointer(monkeypatch, tmp_path):
     def broken(*args, **kwargs):
         raise RuntimeError("simulated failure")
 
-    # `bands` calls the name bound in bandpert.cli (imported at module level from .bands)
+    # `bands` calls the name bound in bandpert.cli.app (imported at module level from .bands)
     monkeypatch.setattr(cli, "compute_band_structure", broken)
     out_dir = tmp_path / "out"
     code, out, err = run(["bands", str(CHAIN), "--out", str(out_dir)])

@@ -11,7 +11,7 @@ import scipy.special
 from rich.console import Console
 from test_cli import assert_user_error, no_dot_files, run
 
-import bandpert.cli as cli
+import bandpert.cli.app as cli
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 MATERIALS = Path(__file__).resolve().parents[1] / "materials"

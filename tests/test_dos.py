@@ -11,11 +11,11 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import quad
 
-from bandpert import dos
-from bandpert.bands import exact_energies
+from bandpert.crystal.lattice import point_group_rotations
 from bandpert.errors import InputError
-from bandpert.lattice import point_group_rotations
-from bandpert.planewave import build_model
+from bandpert.physics import dos
+from bandpert.physics.bands import exact_energies
+from bandpert.planewave.model import build_model
 from bandpert.units import HBAR2_OVER_2M0_EV_A2 as C
 
 A_AL = 4.05  # Å, aluminium (source: Ashcroft & Mermin, Solid State Physics (1976), Table 4.3)

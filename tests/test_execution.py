@@ -11,9 +11,9 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from bandpert import execution
 from bandpert.errors import InputError
-from bandpert.execution import Engine, blocks, guarded, run, run_block
+from bandpert.runs import execution
+from bandpert.runs.execution import Engine, blocks, guarded, run, run_block
 
 
 def _square_or_fail(x: int) -> int:
@@ -78,7 +78,7 @@ def test_engine_descriptions():
 def test_existing_scheduler_runs_the_items(dask_scheduler):
     from conftest import bundled
 
-    from bandpert.meshjob import mesh_block
+    from bandpert.runs.mesh_dos import mesh_block
 
     chain = bundled("cosine-chain")
     k = np.linspace(0, 0.5, 12)[:, None] * 2 * np.pi / chain.a_A
@@ -94,7 +94,7 @@ def test_local_cluster_is_started_and_stopped_by_the_tool():
     import psutil
     from conftest import bundled
 
-    from bandpert.meshjob import mesh_block
+    from bandpert.runs.mesh_dos import mesh_block
 
     chain = bundled("cosine-chain")
     k = np.array([[0.0], [0.3]])

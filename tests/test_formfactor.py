@@ -13,9 +13,10 @@ from conftest import MATERIALS, bundled, make_material
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from bandpert.bands import exact_energies
 from bandpert.errors import InputError
-from bandpert.formfactor import (
+from bandpert.input.material import load_material, parse_material
+from bandpert.physics.bands import exact_energies
+from bandpert.planewave.formfactor import (
     ContinuousFit,
     continuous_document,
     continuous_form_factor,
@@ -24,8 +25,7 @@ from bandpert.formfactor import (
     long_wavelength_limit_eV,
     taper_weight,
 )
-from bandpert.material import load_material, parse_material
-from bandpert.planewave import build_model, fourier_coefficients
+from bandpert.planewave.model import build_model, fourier_coefficients
 from bandpert.units import RYDBERG_EV
 
 TABULATED = ["silicon", "germanium", "gallium-arsenide"]

@@ -6,8 +6,8 @@ import numpy as np
 import pytest
 from conftest import bundled
 
-from bandpert.bands import compute_band_structure
-from bandpert.fullzone import kp_basis_energies, kp_convergence
+from bandpert.physics.bands import compute_band_structure
+from bandpert.physics.fullzone import kp_basis_energies, kp_convergence
 
 
 @pytest.fixture(scope="module")

@@ -13,8 +13,9 @@ import scipy.special
 from conftest import MATERIALS, bundled, make_material
 from test_cli import run
 
+from bandpert.crystal.lattice import standard_path
 from bandpert.errors import InputError
-from bandpert.gaps import (
+from bandpert.physics.nfe_gaps import (
     KIND_CROSSING,
     REASON_COUPLED,
     REASON_EMPTY,
@@ -30,8 +31,7 @@ from bandpert.gaps import (
     path_crossings,
     resolve_points,
 )
-from bandpert.lattice import standard_path
-from bandpert.planewave import build_model
+from bandpert.planewave.model import build_model
 from bandpert.units import HBAR2_OVER_2M0_EV_A2, RYDBERG_EV
 
 A_CHAIN = 4.0
@@ -415,8 +415,8 @@ def test_gaps_command_points_and_errors(tmp_path):
 
 
 def test_annotation_marks_exact_and_predicted_gaps():
-    from bandpert.bands import compute_band_structure
-    from bandpert.plotting import EXACT_GAP_COLOUR, gap_figure
+    from bandpert.output.plotting import EXACT_GAP_COLOUR, gap_figure
+    from bandpert.physics.bands import compute_band_structure
 
     m = cosine_chain(0.5)
     bs = compute_band_structure(m, n_k=20, n_bands=4)
@@ -433,11 +433,11 @@ def test_annotation_marks_exact_and_predicted_gaps():
 
 def test_continuous_form_factors_give_the_same_gaps_and_reasons():
     # The fitted continuous model equals the tabulated one at the reference lattice
-    # (bandpert.formfactor), so the gap analysis must agree: germanium keeps its lowest X pair
+    # (bandpert.planewave.formfactor), so the gap analysis must agree: germanium keeps its lowest X pair
     # degenerate because cos(G·τ) = 0 on |G|² = 4 (Cohen & Bergstresser, Phys. Rev. 141, 789
     # (1966), eq. 2: the structure factor of the diamond structure).
-    from bandpert.formfactor import continuous_document
-    from bandpert.material import parse_material, read_toml_document
+    from bandpert.input.material import parse_material, read_toml_document
+    from bandpert.planewave.formfactor import continuous_document
 
     doc = read_toml_document(MATERIALS / "germanium.toml")
     tab = gap_analysis(parse_material(doc, "ge"))

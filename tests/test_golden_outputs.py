@@ -12,10 +12,10 @@ import math
 from pathlib import Path
 
 import pytest
+from golden.cases import CASES, MATERIALS, VOLATILE
 from typer.testing import CliRunner
 
-from bandpert.cli import app
-from golden.cases import CASES, MATERIALS, VOLATILE
+from bandpert.cli.app import app
 
 GOLDEN = Path(__file__).resolve().parent / "golden"
 

@@ -21,9 +21,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from test_material import to_toml
 
-from bandpert import kp
 from bandpert.errors import InputError
-from bandpert.kp import (
+from bandpert.input.kp_file import KPMaterial, load_kp_material, parse_kp_material
+from bandpert.kp import models as kp
+from bandpert.kp.models import (
     KPParameters,
     bands_along,
     conduction_inverse_mass,
@@ -43,7 +44,6 @@ from bandpert.kp import (
     two_band_nonparabolicity,
     unit_vector,
 )
-from bandpert.kp_material import KPMaterial, load_kp_material, parse_kp_material
 from bandpert.units import HBAR2_OVER_2M0_EV_A2 as C
 
 MATERIALS = Path(__file__).resolve().parents[1] / "materials"

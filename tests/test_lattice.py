@@ -6,7 +6,12 @@ import numpy as np
 import pytest
 from conftest import bundled, make_material
 
-from bandpert.lattice import crystal_symmetry, reciprocal_vectors, sample_path, standard_path
+from bandpert.crystal.lattice import (
+    crystal_symmetry,
+    reciprocal_vectors,
+    sample_path,
+    standard_path,
+)
 
 A, C = 4.0, 6.5
 

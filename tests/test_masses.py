@@ -9,8 +9,8 @@ from conftest import bundled, make_material
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from bandpert.bands import compute_band_structure, exact_energies
-from bandpert.masses import (
+from bandpert.physics.bands import compute_band_structure, exact_energies
+from bandpert.physics.masses import (
     C,
     band_masses,
     conductivity_mass,
@@ -23,7 +23,7 @@ from bandpert.masses import (
     inverse_mass_tensor,
     star_size,
 )
-from bandpert.planewave import build_model
+from bandpert.planewave.model import build_model
 
 
 def _rotations(material):

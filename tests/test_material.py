@@ -20,9 +20,9 @@ import scipy.constants
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from bandpert.cli import main
+from bandpert.cli.app import main
 from bandpert.errors import InputError
-from bandpert.material import (
+from bandpert.input.material import (
     LATTICE_TYPES,
     POTENTIAL_FORMS,
     Material,
@@ -466,7 +466,7 @@ def test_non_shell_form_factor_is_refused_at_model_build(tmp_path, capsys):
     Solid State Physics (1976), ch. 5): |G|² = h² + k² + l² with h, k, l all odd or all even gives
     0, 3, 4, 8, 11, 12, ... (common practice, no source for the list). The loader cannot know the
     lattice's shells; the model build refuses it."""
-    from bandpert.planewave import build_model
+    from bandpert.planewave.model import build_model
 
     doc = copy.deepcopy(VALID)
     doc["potential"]["shells"] = [3, 5, 11]

@@ -6,12 +6,12 @@ import numpy as np
 import pytest
 from conftest import bundled, make_material
 
-from bandpert.bands import fermi_level, uniform_mesh
-from bandpert.dos import reciprocal_mesh
+from bandpert.crystal.lattice import reciprocal_vectors
 from bandpert.errors import InputError
-from bandpert.execution import Engine
-from bandpert.lattice import reciprocal_vectors
-from bandpert.meshjob import compute_dos, mesh_energies
+from bandpert.physics.bands import fermi_level, uniform_mesh
+from bandpert.physics.dos import reciprocal_mesh
+from bandpert.runs.execution import Engine
+from bandpert.runs.mesh_dos import compute_dos, mesh_energies
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 
@@ -56,8 +56,8 @@ def test_tetrahedron_and_gaussian_fermi_levels_agree(aluminium, al_dos):
     # σ = 0.05 eV Gaussian still carries a sampling error: the two differ by 53 meV (measured);
     # the tetrahedra converge faster, which is why they are the default.
     k_frac, w = uniform_mesh(aluminium, 14)
-    from bandpert.bands import exact_energies
-    from bandpert.planewave import build_model
+    from bandpert.physics.bands import exact_energies
+    from bandpert.planewave.model import build_model
 
     e = exact_energies(build_model(aluminium, al_dos.cutoff_eV),
                        k_frac @ reciprocal_vectors(aluminium.vectors_A), 6)

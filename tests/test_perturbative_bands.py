@@ -7,10 +7,10 @@ import pytest
 import scipy.special
 from conftest import bundled, make_material
 
-from bandpert.bands import compute_band_structure
-from bandpert.perturbation import TREATMENT_SUBSPACE
-from bandpert.perturbative_bands import PerturbationSettings, compare, perturbative_bands
-from bandpert.planewave import build_model
+from bandpert.perturbation.series import TREATMENT_SUBSPACE
+from bandpert.physics.bands import compute_band_structure
+from bandpert.physics.perturbative_bands import PerturbationSettings, compare, perturbative_bands
+from bandpert.planewave.model import build_model
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 SETTINGS = PerturbationSettings(radius_points=0)
@@ -125,7 +125,7 @@ def test_weak_potential_limit_is_exact_to_the_order():
     material = bundled("aluminium")
     model = build_model(material, 120.0)
     k = np.random.default_rng(3).uniform(-0.4, 0.4, size=(6, 3)) @ model.reciprocal_invA
-    from bandpert.bands import exact_energies
+    from bandpert.physics.bands import exact_energies
 
     errors = []
     for lam in (0.1, 0.05):

@@ -11,8 +11,8 @@ from conftest import bundled, make_material
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from bandpert.bands import exact_energies
-from bandpert.planewave import build_model, fourier_coefficients
+from bandpert.physics.bands import exact_energies
+from bandpert.planewave.model import build_model, fourier_coefficients
 from bandpert.units import HBAR2_OVER_2M0_EV_A2, RYDBERG_EV
 
 
@@ -67,7 +67,7 @@ BCC_LEVELS = {
 
 @pytest.mark.parametrize("lattice,levels", [("fcc", FCC_LEVELS), ("bcc", BCC_LEVELS)])
 def test_empty_lattice_levels_and_degeneracies(lattice, levels):
-    from bandpert.lattice import standard_path
+    from bandpert.crystal.lattice import standard_path
 
     a = 4.0
     material = make_material({"type": lattice, "a_A": a}, [{"species": "X",

@@ -9,12 +9,12 @@ import numpy as np
 import pytest
 from conftest import MATERIALS
 
-from bandpert.bands import compute_band_structure, exact_energies
 from bandpert.errors import InputError
-from bandpert.execution import Engine
-from bandpert.material import parse_material, read_toml_document
-from bandpert.planewave import build_model
-from bandpert.sweep import (
+from bandpert.input.material import parse_material, read_toml_document
+from bandpert.physics.bands import compute_band_structure, exact_energies
+from bandpert.planewave.model import build_model
+from bandpert.runs.execution import Engine
+from bandpert.runs.sweep import (
     SweepAxis,
     get_value,
     parameter_grid,
@@ -406,7 +406,7 @@ def test_uniaxial_deformation_potential_of_the_delta_valleys(si_doc):
     # Ξ_u: E(Δz) − E(Δx) = Ξ_u (ε_zz − ε_xx); measured 8.6 ± 0.4 eV (J.-P. Laude, F. H. Pollak
     # and M. Cardona, Phys. Rev. B 3, 2623 (1971); from memory). The continuous fit to the 1966
     # form factors gives 10.1 eV (measured here): a model estimate within 20 %.
-    from bandpert.formfactor import continuous_document
+    from bandpert.planewave.formfactor import continuous_document
 
     doc = continuous_document(si_doc, SILICON)
     reference = parse_material(doc, SILICON)

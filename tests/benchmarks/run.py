@@ -31,18 +31,18 @@ import scipy.linalg
 from threadpoolctl import threadpool_info, threadpool_limits
 
 import bandpert
-from bandpert import masses
-from bandpert.bands import converged_cutoff, default_bands, exact_energies
+from bandpert.crystal.lattice import sample_path, standard_path
+from bandpert.input.material import load_material
 from bandpert.io import write_json
-from bandpert.lattice import sample_path, standard_path
-from bandpert.material import load_material
-from bandpert.perturbative_bands import (
+from bandpert.physics import masses
+from bandpert.physics.bands import converged_cutoff, default_bands, exact_energies
+from bandpert.physics.perturbative_bands import (
     PerturbationSettings,
     compare,
     perturbative_bands,
     radius_sample,
 )
-from bandpert.planewave import build_model
+from bandpert.planewave.model import build_model
 
 ROOT = Path(__file__).resolve().parents[2]
 N_K = 200
@@ -164,10 +164,10 @@ def dask_speedup(reps: int, say: Callable[..., None]) -> tuple[dict, list[tuple[
     the work on the cluster, without the start-up of the worker processes (about 1–3 s, paid
     once per command). A serial run in this process is timed beside them for reference.
     """
-    from bandpert.execution import Engine, local_cluster
-    from bandpert.material import read_toml_document
-    from bandpert.meshjob import compute_dos
-    from bandpert.sweep import parse_axis, prepare, run_sweep
+    from bandpert.input.material import read_toml_document
+    from bandpert.runs.execution import Engine, local_cluster
+    from bandpert.runs.mesh_dos import compute_dos
+    from bandpert.runs.sweep import parse_axis, prepare, run_sweep
 
     doc = read_toml_document(ROOT / "materials" / "silicon.toml")
     spec, _, _ = prepare(doc, "silicon.toml", (parse_axis("lattice.a_A=5.30:5.56:24"),),

@@ -27,9 +27,9 @@ import numpy as np
 import scipy.optimize
 import scipy.special
 
-from .errors import InputError
-from .lattice import reciprocal_vectors
-from .material import Material
+from ..crystal.lattice import reciprocal_vectors
+from ..errors import InputError
+from ..input.material import Material
 
 #: Electrons per band and k-point (spin degeneracy of the spinless models).
 SPIN_DEGENERACY = 2

@@ -125,7 +125,7 @@ from dataclasses import dataclass, fields
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from .units import HBAR2_OVER_2M0_EV_A2
+from ..units import HBAR2_OVER_2M0_EV_A2
 
 __all__ = [
     "DEFAULT_FD_STEP_INVA",

@@ -10,9 +10,9 @@ from typing import Any
 
 import numpy as np
 
-from . import __version__
-from .bands import BandStructure
-from .material import Material
+from .. import __version__
+from ..input.material import Material
+from ..physics.bands import BandStructure
 
 
 def document(command: str, material: Material, settings: dict[str, Any],
@@ -236,7 +236,7 @@ def _gap_list(values: np.ndarray) -> str:
 
 def _coupling_summary(group, a_A: float) -> str:
     """Distinct couplings of a group by shell: ``(1,1,1) 0.244`` or ``(2,0,0) 0 SF``."""
-    from .gaps import REASON_COUPLED, REASON_TAGS
+    from ..physics.nfe_gaps import REASON_COUPLED, REASON_TAGS
 
     seen: dict[tuple, str] = {}
     for m, g, s, v, r in zip(group.coupling_miller, group.coupling_g_cart_invA,
@@ -258,7 +258,7 @@ def gap_table(report) -> tuple[list[str], list[list[str]], list[str]]:
     in the group and the second-order error; ``exact levels`` gives the exact multiplets and
     ``opens at`` the lowest order that opens every open splitting.
     """
-    from .gaps import POOR_MATCH_WEIGHT, REASON_TAGS
+    from ..physics.nfe_gaps import POOR_MATCH_WEIGHT, REASON_TAGS
 
     cols = ["point", "E0 (eV)", "g", "V(G−G′) (eV)", "1st", "2nd", "exact", "2nd−exact",
             "exact levels", "opens at"]

@@ -19,11 +19,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
-from .formfactor import continuous_fourier_coefficients
-from .lattice import reciprocal_vectors
-from .material import Material
-from .units import HBAR2_OVER_2M0_EV_A2
+from ..crystal.lattice import reciprocal_vectors
+from ..errors import InputError
+from ..input.material import Material
+from ..planewave.formfactor import continuous_fourier_coefficients
+from ..units import HBAR2_OVER_2M0_EV_A2
 
 #: Relative tolerance for matching |G|² to a form-factor shell.
 SHELL_TOLERANCE = 1e-6

@@ -41,12 +41,12 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg
 
-from .bands import converged_cutoff, default_bands
-from .errors import InputError
-from .lattice import reciprocal_vectors, standard_path
-from .material import Material, canonical_label
-from .perturbation import lowdin_effective_hamiltonian
-from .planewave import (
+from ..crystal.lattice import reciprocal_vectors, standard_path
+from ..errors import InputError
+from ..input.material import Material, canonical_label
+from ..perturbation.series import lowdin_effective_hamiltonian
+from ..physics.bands import converged_cutoff, default_bands
+from ..planewave.model import (
     MAX_BASIS,
     SHELL_TOLERANCE,
     PlaneWaveBasis,
@@ -55,7 +55,7 @@ from .planewave import (
     fourier_coefficients,
     plane_wave_basis,
 )
-from .units import HBAR2_OVER_2M0_EV_A2
+from ..units import HBAR2_OVER_2M0_EV_A2
 
 __all__ = [
     "CLOSED_TOLERANCE_EV",
@@ -625,7 +625,7 @@ def _continuous_reasons(material: Material, g: np.ndarray, positions: np.ndarray
     Rule 3 ("beyond the potential's range") applies from the upper end of the taper on; rule 4
     becomes "form factor zero at that |G|" (every v_s vanishes there, e.g. at q² = a2).
     """
-    from .formfactor import continuous_form_factor
+    from ..planewave.formfactor import continuous_form_factor
 
     pot = material.potential
     q = np.linalg.norm(g, axis=1)

@@ -13,8 +13,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
-from .material import Material, canonical_label
+from ..errors import InputError
+from ..input.material import Material, canonical_label
 
 
 def reciprocal_vectors(vectors_A: np.ndarray) -> np.ndarray:

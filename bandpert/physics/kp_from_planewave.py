@@ -19,11 +19,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
-from .kp import KPParameters
-from .masses import C, degenerate_edge, degenerate_set, eigenstates, inverse_mass_tensor
-from .material import Material
-from .planewave import PlaneWaveModel
+from ..errors import InputError
+from ..input.material import Material
+from ..kp.models import KPParameters
+from ..physics.masses import C, degenerate_edge, degenerate_set, eigenstates, inverse_mass_tensor
+from ..planewave.model import PlaneWaveModel
 
 #: A conduction state couples to the valence triplet when Σ|π|² exceeds this (Å⁻²).
 COUPLING_FLOOR_INVA2 = 1e-6

@@ -44,12 +44,12 @@ from typing import Any
 
 import numpy as np
 
-from .bands import BandStructure, compute_band_structure, converged_cutoff, default_bands
-from .errors import InputError
-from .execution import SERIAL, Engine, Outcome, Progress, run
-from .lattice import describe_position, point_group_rotations, standard_path
-from .material import Material, parse_material
-from .units import HBAR2_OVER_2M0_EV_A2
+from ..crystal.lattice import describe_position, point_group_rotations, standard_path
+from ..errors import InputError
+from ..input.material import Material, parse_material
+from ..physics.bands import BandStructure, compute_band_structure, converged_cutoff, default_bands
+from ..runs.execution import SERIAL, Engine, Outcome, Progress, run
+from ..units import HBAR2_OVER_2M0_EV_A2
 
 QUANTITIES = ("edges", "gaps", "masses")
 FORM_FACTOR_MODES = ("tabulated", "continuous")
@@ -384,7 +384,7 @@ def evaluate_point(task: tuple[SweepSpec, tuple[float, ...]]) -> dict[str, float
     ``conduction_valleys``, ``conduction_dos_mass``, ``conduction_conductivity_mass``,
     ``valence_m{1,2,3}`` or ``valence_gamma{1,2,3}`` (degenerate top), ``valence_dos_mass``.
     """
-    from .planewave import single_blas_thread
+    from ..planewave.model import single_blas_thread
 
     spec, values = task
     with single_blas_thread():  # the same arithmetic in this process and in any worker
@@ -409,8 +409,8 @@ def _plane_wave_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, f
 def _kp_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, float | str]:
     """A k·p file at one parameter point: Γ energies and masses of each model along
     [001], [110], [111] (columns ``<model>_<band>_<direction>_m0``, spaces as ``_``)."""
-    from .kp import masses_at_gamma
-    from .kp_material import parse_kp_material
+    from ..input.kp_file import parse_kp_material
+    from ..kp.models import masses_at_gamma
 
     kpm = parse_kp_material(point_document(spec, values), spec.source)
     row: dict[str, float | str] = {}
@@ -442,7 +442,7 @@ def _gaps_at_points(bs: BandStructure, labels: tuple[str, ...], lower_band: int)
 
 
 def _edges_and_masses(bs: BandStructure, spec: SweepSpec) -> dict:
-    from .masses import band_masses, edge_point, eigenstates
+    from ..physics.masses import band_masses, edge_point, eigenstates
 
     if bs.edges is None:
         raise InputError("no gap between the occupied and the empty bands at this point (a "
@@ -498,7 +498,7 @@ def _valley_images(bs: BandStructure, index: int, band: int, maximum: bool,
     image wins only if it is better by more than 1e-9 eV, so an unstrained crystal keeps the
     point on the path.
     """
-    from .bands import exact_energies
+    from ..physics.bands import exact_energies
 
     k0 = bs.path.k_frac[index]
     if rotations is None:
@@ -575,7 +575,7 @@ def faithful_window(tabulated: Material, taper_invA: tuple[float, float]) -> tup
     unit = 2.0 * np.pi / tabulated.a_A
     shells = np.array(tabulated.potential.shells_g2, dtype=float)
     q_last = unit * np.sqrt(shells.max())
-    from .planewave import build_model
+    from ..planewave.model import build_model
 
     g = build_model(tabulated, 4.0 * HBAR2_OVER_2M0_EV_A2 * q_last**2).basis.g_cart_invA
     q = np.unique(np.round(np.linalg.norm(g, axis=1), 9))
@@ -659,7 +659,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
         parse_material(alloy_end, alloy_source)  # each end must be valid on its own
     window = ""
     if form_factors == "continuous":
-        from .formfactor import continuous_document
+        from ..planewave.formfactor import continuous_document
 
         tabulated = reference
         doc = continuous_document(doc, source)
@@ -700,7 +700,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                          source, "electrons.valence")
     labels = tuple(dict.fromkeys(x for leg in reference.path.legs for x in leg))
     if points:
-        from .material import canonical_label
+        from ..input.material import canonical_label
 
         chosen = []
         for p in points:
@@ -721,7 +721,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     grid = parameter_grid(spec.axes)
     for values in (grid[0], grid[-1]):
         m = point_material(spec, tuple(values))
-        from .planewave import build_model
+        from ..planewave.model import build_model
 
         build_model(m, point_cutoff(spec, m))  # a range leaving the basis limit fails here
     return spec, reference, form_factor_note(reference, spec.axes, form_factors, window)
@@ -730,7 +730,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
 def _prepare_kp(doc: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                 alloy_end: dict[str, Any] | None, alloy_source: str, form_factors: str):
     """:func:`prepare` for a k·p parameter file: masses at Γ of each model, nothing else."""
-    from .kp_material import parse_kp_material
+    from ..input.kp_file import parse_kp_material
 
     if any(a.kind == "strain" for a in axes):
         raise InputError("a k·p parameter file has no lattice vectors to strain (its deformation "

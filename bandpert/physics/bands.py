@@ -13,8 +13,7 @@ import numpy as np
 import scipy.linalg
 import scipy.linalg.lapack
 
-from .errors import InputError
-from .lattice import (
+from ..crystal.lattice import (
     KPath,
     Symmetry,
     crystal_symmetry,
@@ -22,17 +21,18 @@ from .lattice import (
     sample_path,
     standard_path,
 )
-from .material import Material
-from .perturbation import perturbative_levels
-from .perturbative_bands import (
+from ..errors import InputError
+from ..input.material import Material
+from ..perturbation.series import perturbative_levels
+from ..physics.perturbative_bands import (
     Comparison,
     PerturbationSettings,
     PerturbativeBands,
     compare,
     perturbative_bands,
 )
-from .planewave import PlaneWaveModel, build_model, single_blas_thread
-from .units import HBAR2_OVER_2M0_EV_A2
+from ..planewave.model import PlaneWaveModel, build_model, single_blas_thread
+from ..units import HBAR2_OVER_2M0_EV_A2
 
 #: Below this basis size the eigenvalues of a block of k-points come from one batched numpy call
 #: (all eigenvalues, divide and conquer); above it, LAPACK's MRRR driver per k-point, only the
@@ -206,7 +206,7 @@ def warn_if_unconverged(material: Material, cutoff_eV: float, n_bands: int,
     """
     import warnings
 
-    from .errors import ModelWarning
+    from ..errors import ModelWarning
 
     low = build_model(material, cutoff_eV)
     factor = 1.5
@@ -464,7 +464,7 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         if outside.any():
             import warnings
 
-            from .errors import ModelWarning
+            from ..errors import ModelWarning
 
             warnings.warn(f"λ = {perturbation.lam:g} lies outside the convergence radius of the "
                           f"perturbation series on {100 * outside.mean():.0f} % of the sampled "

@@ -34,15 +34,15 @@ from typing import Any
 import numpy as np
 from scipy.optimize import least_squares
 
-from .errors import InputError
-from .lattice import reciprocal_vectors
-from .material import (
+from ..crystal.lattice import reciprocal_vectors
+from ..errors import InputError
+from ..input.material import (
     CONTINUOUS_PARAMETERS,
     REFERENCE_MEASURE_KEYS,
     Material,
     parse_material,
 )
-from .units import ENERGY_UNITS_TO_EV, HBAR2_OVER_2M0_EV_A2
+from ..units import ENERGY_UNITS_TO_EV, HBAR2_OVER_2M0_EV_A2
 
 #: Tabulated forms the fit accepts.
 TABULATED_FORMS = ("symmetric-antisymmetric", "per-species")
@@ -301,7 +301,7 @@ class ContinuousFit:
 def _lattice_shells(material: Material, q_max_invA: float
                     ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Non-zero lattice G up to q_max: Miller indices, Cartesian G, and a shell label per G."""
-    from .planewave import plane_wave_basis
+    from ..planewave.model import plane_wave_basis
 
     basis = plane_wave_basis(reciprocal_vectors(material.vectors_A),
                              HBAR2_OVER_2M0_EV_A2 * q_max_invA**2 * (1 + 1e-9))
@@ -370,7 +370,7 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
         For another form, a missing valence, a non-3D lattice, or when no start gives finite
         parameters.
     """
-    from .planewave import check_shells_exist, fourier_coefficients, plane_wave_basis
+    from ..planewave.model import check_shells_exist, fourier_coefficients, plane_wave_basis
 
     pot = material.potential
     if pot.form not in TABULATED_FORMS:

@@ -14,7 +14,7 @@ import numpy as np  # noqa: E402
 from matplotlib.axes import Axes  # noqa: E402
 from matplotlib.figure import Figure  # noqa: E402
 
-from .bands import BandStructure  # noqa: E402
+from ..physics.bands import BandStructure  # noqa: E402
 
 EXACT_COLOUR = "#1f3a5f"
 GAP_COLOUR = "#f2c14e"
@@ -236,7 +236,7 @@ def annotate_gaps(ax: Axes, report, energy_zero_eV: float = 0.0, *, crossings: b
     label_fraction : float
         Smallest exact gap labelled, as a fraction of the energy axis.
     """
-    from .gaps import KIND_CROSSING
+    from ..physics.nfe_gaps import KIND_CROSSING
 
     x_lo, x_hi = ax.get_xlim()
     y_lo, y_hi = ax.get_ylim()

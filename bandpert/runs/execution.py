@@ -28,7 +28,7 @@ from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Any
 
-from .errors import InputError
+from ..errors import InputError
 
 Progress = Callable[[int, int], None]
 

@@ -15,10 +15,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .bands import exact_energies
-from .errors import InputError
-from .masses import C, eigenstates
-from .planewave import PlaneWaveModel
+from ..errors import InputError
+from ..physics.bands import exact_energies
+from ..physics.masses import C, eigenstates
+from ..planewave.model import PlaneWaveModel
 
 
 def kp_basis_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis: int,

@@ -18,13 +18,17 @@ from rich.console import Console
 from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 from rich.table import Table
 
-from .bands import compute_band_structure, converged_cutoff, default_bands
-from .errors import InputError
-from .lattice import crystal_symmetry, describe_position, reciprocal_vectors, standard_path
-from .material import Material, load_material
-from .perturbation import DEFAULT_COUPLING_THRESHOLD
-from .perturbative_bands import DEFAULT_RADIUS_POINTS, DEFAULT_TOLERANCE_EV, PerturbationSettings
-from .planewave import build_model
+from ..crystal.lattice import crystal_symmetry, describe_position, reciprocal_vectors, standard_path
+from ..errors import InputError
+from ..input.material import Material, load_material
+from ..perturbation.series import DEFAULT_COUPLING_THRESHOLD
+from ..physics.bands import compute_band_structure, converged_cutoff, default_bands
+from ..physics.perturbative_bands import (
+    DEFAULT_RADIUS_POINTS,
+    DEFAULT_TOLERANCE_EV,
+    PerturbationSettings,
+)
+from ..planewave.model import build_model
 
 try:  # typer >= 0.26 carries its own copy of click; its exceptions are the ones raised
     from typer._click.exceptions import ClickException, UsageError
@@ -89,7 +93,7 @@ def output_paths(file: Path, out_dir: Path, command: str, image_format: ImageFor
 
 def save_figure(fig, image: Path, image_format: ImageFormat, dpi: int = 200) -> None:
     """Write a figure atomically in the chosen format."""
-    from .io import write_with
+    from ..io import write_with
 
     write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=dpi))
 
@@ -140,9 +144,14 @@ def bands(
     prints a short summary: space group, basis, energy zero, gap and band edges, and how much
     of the path perturbation theory can be trusted on.
     """
-    from .io import write_csv, write_json
-    from .plotting import band_figure
-    from .report import band_structure_results, band_structure_table, document, perturbative_table
+    from ..io import write_csv, write_json
+    from ..output.plotting import band_figure
+    from ..output.report import (
+        band_structure_results,
+        band_structure_table,
+        document,
+        perturbative_table,
+    )
 
     _check_count(k_points, "--k-points", 2)
     _check_count(n_bands, "--bands", 1)
@@ -300,10 +309,10 @@ def gaps(
     ones, with the Fourier coefficients V(G−G′) that couple it and, when a degeneracy stays
     closed, why. Writes the band plot with the gaps marked and the JSON.
     """
-    from .gaps import gap_analysis, resolve_points
-    from .io import write_json, write_with
-    from .plotting import gap_figure
-    from .report import document, gap_results, gap_table
+    from ..io import write_json, write_with
+    from ..output.plotting import gap_figure
+    from ..output.report import document, gap_results, gap_table
+    from ..physics.nfe_gaps import gap_analysis, resolve_points
 
     _check_count(k_points, "--k-points", 2)
     _check_count(n_bands, "--bands", 1)
@@ -380,12 +389,12 @@ def masses(
     degenerate edge (the valence top at Γ): the Löwdin k·p Hamiltonian, the Dresselhaus–Kip–Kittel
     L, M, N, the Luttinger γ1, γ2, γ3 and the masses along [100], [110] and [111].
     """
-    from .gaps import resolve_points
-    from .io import atomic_path, write_json
-    from .kp_extract import extract_kp_parameters, kp_material_text
-    from .lattice import point_group_rotations
-    from .masses import band_masses, edge_masses
-    from .report import document, masses_results
+    from ..crystal.lattice import point_group_rotations
+    from ..io import atomic_path, write_json
+    from ..output.report import document, masses_results
+    from ..physics.kp_from_planewave import extract_kp_parameters, kp_material_text
+    from ..physics.masses import band_masses, edge_masses
+    from ..physics.nfe_gaps import resolve_points
 
     if cutoff_eV is not None and not cutoff_eV > 0:
         raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
@@ -501,12 +510,12 @@ def kp(
     """k·p models at Γ from a parameter file: band-edge masses along [001], [110] and [111],
     nonparabolicity, and bands near Γ (beside a plane-wave model's exact bands with --compare).
     """
-    from .bands import exact_energies
-    from .io import write_json, write_with
-    from .kp import MODEL_NAMES, bands_along, masses_at_gamma, nonparabolicity, unit_vector
-    from .kp_material import load_kp_material
-    from .plotting import kp_figure
-    from .report import document
+    from ..input.kp_file import load_kp_material
+    from ..io import write_json, write_with
+    from ..kp.models import MODEL_NAMES, bands_along, masses_at_gamma, nonparabolicity, unit_vector
+    from ..output.plotting import kp_figure
+    from ..output.report import document
+    from ..physics.bands import exact_energies
 
     if not 0.0 < k_max <= 0.5:
         raise InputError(f"expected 0 < --k-max ≤ 0.5 (a fraction of 2π/a), got {k_max}",
@@ -591,10 +600,10 @@ def fullzone(
 ) -> None:
     """Full-zone k·p: bands along the whole path from the Γ eigenstates, against exact bands,
     and their convergence with the number of states kept (Cardona & Pollak 1966)."""
-    from .fullzone import kp_convergence
-    from .io import write_json, write_with
-    from .plotting import fullzone_figure
-    from .report import document
+    from ..io import write_json, write_with
+    from ..output.plotting import fullzone_figure
+    from ..output.report import document
+    from ..physics.fullzone import kp_convergence
 
     try:
         sizes = tuple(int(x) for x in basis.replace(" ", "").split(",") if x)
@@ -648,7 +657,7 @@ SchedulerOption = Annotated[str | None, typer.Option(
 
 
 def _engine(kind: EngineKind, workers: int | None, scheduler: str | None):
-    from .execution import Engine
+    from ..runs.execution import Engine
 
     _check_count(workers, "--workers", 1)
     if scheduler:
@@ -709,11 +718,11 @@ def sweep(
     the others are kept (exit status 3 when any point failed). Runs on a local Dask cluster by
     default, on an existing scheduler with --scheduler, or in this process with --engine serial.
     """
-    from .io import write_json, write_table
-    from .material import read_toml_document
-    from .plotting import sweep_figure
-    from .report import document, sweep_results, sweep_table
-    from .sweep import parse_axis, prepare, run_sweep
+    from ..input.material import read_toml_document
+    from ..io import write_json, write_table
+    from ..output.plotting import sweep_figure
+    from ..output.report import document, sweep_results, sweep_table
+    from ..runs.sweep import parse_axis, prepare, run_sweep
 
     axes = tuple(parse_axis(v) for v in vary)
     _check_count(k_points, "--k-points", 2)
@@ -771,7 +780,7 @@ def _sweep_summary(result) -> None:
     table.add_column("last", justify="right")
     table.add_column("min", justify="right")
     table.add_column("max", justify="right")
-    from .report import column_unit
+    from ..output.report import column_unit
 
     for name, v in result.columns.items():
         if name.startswith(("lower_", "upper_")) or name.endswith("_frac"):
@@ -813,10 +822,10 @@ def dos(
     Dask cluster (default), an existing scheduler (--scheduler) or this process (--engine
     serial); the result does not depend on which.
     """
-    from .io import write_csv, write_json
-    from .meshjob import compute_dos
-    from .plotting import dos_figure
-    from .report import document, dos_results, dos_table
+    from ..io import write_csv, write_json
+    from ..output.plotting import dos_figure
+    from ..output.report import document, dos_results, dos_table
+    from ..runs.mesh_dos import compute_dos
 
     _check_count(mesh, "--mesh", 2)
     _check_count(n_bands, "--bands", 1)
@@ -888,7 +897,7 @@ def main(argv: list[str] | None = None) -> None:
     command = typer.main.get_command(app)
     import warnings
 
-    from .errors import ModelWarning
+    from ..errors import ModelWarning
 
     held: list[str] = []  # model warnings, printed only if the command succeeds
 

@@ -14,8 +14,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import InputError
-from .perturbation import (
+from ..errors import InputError
+from ..perturbation.series import (
     DEFAULT_COUPLING_THRESHOLD,
     TREATMENT_NAMES,
     TREATMENT_NONDEGENERATE,
@@ -23,7 +23,7 @@ from .perturbation import (
     level_convergence_radius,
     perturbative_levels,
 )
-from .planewave import PlaneWaveModel, single_blas_thread
+from ..planewave.model import PlaneWaveModel, single_blas_thread
 
 #: Default perturbation order.
 DEFAULT_ORDER = 2

@@ -13,8 +13,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .bands import converged_cutoff, default_bands, exact_energies, warn_if_unconverged
-from .dos import (
+from ..errors import InputError
+from ..input.material import Material
+from ..physics.bands import converged_cutoff, default_bands, exact_energies, warn_if_unconverged
+from ..physics.dos import (
     DensityOfStates,
     KMesh,
     fermi_level_from_count,
@@ -22,10 +24,8 @@ from .dos import (
     reciprocal_mesh,
     tetrahedron_dos,
 )
-from .errors import InputError
-from .execution import SERIAL, Engine, Progress, Runner, run, session
-from .material import Material
-from .planewave import PlaneWaveModel, build_model, single_blas_thread
+from ..planewave.model import PlaneWaveModel, build_model, single_blas_thread
+from ..runs.execution import SERIAL, Engine, Progress, Runner, run, session
 
 DOS_METHODS = ("tetrahedron", "gaussian")
 

@@ -27,11 +27,11 @@ import scipy.constants as const
 import scipy.linalg
 import scipy.optimize
 
-from .bands import exact_energies
-from .errors import InputError
-from .perturbation import lowdin_effective_hamiltonian
-from .planewave import PlaneWaveModel
-from .units import BOLTZMANN_EV_PER_K, HBAR2_OVER_2M0_EV_A2
+from ..errors import InputError
+from ..perturbation.series import lowdin_effective_hamiltonian
+from ..physics.bands import exact_energies
+from ..planewave.model import PlaneWaveModel
+from ..units import BOLTZMANN_EV_PER_K, HBAR2_OVER_2M0_EV_A2
 
 C = HBAR2_OVER_2M0_EV_A2
 
@@ -576,7 +576,7 @@ def edge_masses(bs, temperature_K: float = 300.0, cross_check: bool = True) -> l
     cross_check : bool
         Passed to :func:`band_masses`.
     """
-    from .lattice import point_group_rotations
+    from ..crystal.lattice import point_group_rotations
 
     if bs.edges is None or bs.energies_eV is None:
         raise InputError("no band gap on the path (a metal, or no electrons.valence): give "

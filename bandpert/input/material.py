@@ -21,8 +21,8 @@ from typing import Any
 
 import numpy as np
 
-from .errors import InputError
-from .units import ENERGY_UNITS_TO_EV
+from ..errors import InputError
+from ..units import ENERGY_UNITS_TO_EV
 
 #: Lattice types by name, their dimension and the constants they take.
 LATTICE_TYPES: dict[str, tuple[int, tuple[str, ...]]] = {

@@ -47,8 +47,9 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from .errors import InputError
-from .kp import (
+from ..errors import InputError
+from ..input.material import _kind, _Reader, read_header, read_toml_document
+from ..kp.models import (
     MODEL_NAMES,
     REQUIRED_PARAMETERS,
     KPModel,
@@ -56,7 +57,6 @@ from .kp import (
     conduction_inverse_mass,
     make_model,
 )
-from .material import _kind, _Reader, read_header, read_toml_document
 
 #: Crystal structures a k·p file may name (the models have no inversion-asymmetry terms, so
 #: both take the same Hamiltonians).
