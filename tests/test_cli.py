@@ -179,7 +179,8 @@ def test_bands_json_matches_mathieu_characteristic_values(chain_run):
     gamma = [scipy.special.mathieu_a(0, q), scipy.special.mathieu_b(2, q),
              scipy.special.mathieu_a(2, q)]
     x = [scipy.special.mathieu_b(1, q), scipy.special.mathieu_a(1, q)]
-    # the default cutoff converges the bands to 5 meV (bandpert.physics.bands.CONVERGENCE_TOLERANCE_EV)
+    # the default cutoff converges the bands to 5 meV
+    # (bandpert.physics.bands.CONVERGENCE_TOLERANCE_EV)
     assert e[0, :3] == pytest.approx(e_r * np.array(gamma), abs=5e-3)
     assert e[-1, :2] == pytest.approx(e_r * np.array(x), abs=5e-3)
 

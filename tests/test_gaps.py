@@ -433,8 +433,8 @@ def test_annotation_marks_exact_and_predicted_gaps():
 
 def test_continuous_form_factors_give_the_same_gaps_and_reasons():
     # The fitted continuous model equals the tabulated one at the reference lattice
-    # (bandpert.planewave.formfactor), so the gap analysis must agree: germanium keeps its lowest X pair
-    # degenerate because cos(G·τ) = 0 on |G|² = 4 (Cohen & Bergstresser, Phys. Rev. 141, 789
+    # (bandpert.planewave.formfactor), so the gap analysis must agree: germanium keeps its lowest
+    # X pair degenerate because cos(G·τ) = 0 on |G|² = 4 (Cohen & Bergstresser, Phys. Rev. 141, 789
     # (1966), eq. 2: the structure factor of the diamond structure).
     from bandpert.input.material import parse_material, read_toml_document
     from bandpert.planewave.formfactor import continuous_document

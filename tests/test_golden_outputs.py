@@ -32,7 +32,8 @@ def _compare(new, old, where: str, problems: list[str]) -> None:
                 _compare(new[key], old[key], f"{where}.{key}", problems)
     elif isinstance(old, list):
         if not isinstance(new, list) or len(new) != len(old):
-            problems.append(f"{where}: length {len(old)} -> {len(new) if isinstance(new, list) else new}")
+            got = len(new) if isinstance(new, list) else new
+            problems.append(f"{where}: length {len(old)} -> {got}")
             return
         for i, (a, b) in enumerate(zip(new, old, strict=True)):
             _compare(a, b, f"{where}[{i}]", problems)

@@ -93,9 +93,9 @@ def output_paths(file: Path, out_dir: Path, command: str, image_format: ImageFor
 
 def save_figure(fig, image: Path, image_format: ImageFormat, dpi: int = 200) -> None:
     """Write a figure atomically in the chosen format."""
-    from ..io import write_with
+    from ..output.style import save_figure as write_figure
 
-    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=dpi))
+    write_figure(fig, image, image_format.value, dpi)
 
 
 def _check_count(value: int | None, name: str, minimum: int) -> None:
@@ -309,7 +309,7 @@ def gaps(
     ones, with the Fourier coefficients V(G−G′) that couple it and, when a degeneracy stays
     closed, why. Writes the band plot with the gaps marked and the JSON.
     """
-    from ..io import write_json, write_with
+    from ..io import write_json
     from ..output.plotting import gap_figure
     from ..output.report import document, gap_results, gap_table
     from ..physics.nfe_gaps import gap_analysis, resolve_points
@@ -336,7 +336,7 @@ def gaps(
     image = out_dir / f"{stem}-gaps.{image_format.value}"
     json_path = json_path or out_dir / f"{stem}-gaps.json"
     fig = gap_figure(bs, report)
-    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=200))
+    save_figure(fig, image, image_format)
     write_json(json_path, doc)
     from rich import box
 
@@ -511,7 +511,7 @@ def kp(
     nonparabolicity, and bands near Γ (beside a plane-wave model's exact bands with --compare).
     """
     from ..input.kp_file import load_kp_material
-    from ..io import write_json, write_with
+    from ..io import write_json
     from ..kp.models import MODEL_NAMES, bands_along, masses_at_gamma, nonparabolicity, unit_vector
     from ..output.plotting import kp_figure
     from ..output.report import document
@@ -560,7 +560,7 @@ def kp(
                     "" if compare is None else f"{Path(compare).stem} (plane-wave, exact)")
     image = out_dir / f"{file.stem}-kp.{image_format.value}"
     json_path = json_path or out_dir / f"{file.stem}-kp.json"
-    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=200))
+    save_figure(fig, image, image_format)
     write_json(json_path, doc)
     table = Table(title=f"{kpm.name}: masses at Γ (m0)", title_justify="left")
     table.add_column("model")
@@ -600,7 +600,7 @@ def fullzone(
 ) -> None:
     """Full-zone k·p: bands along the whole path from the Γ eigenstates, against exact bands,
     and their convergence with the number of states kept (Cardona & Pollak 1966)."""
-    from ..io import write_json, write_with
+    from ..io import write_json
     from ..output.plotting import fullzone_figure
     from ..output.report import document
     from ..physics.fullzone import kp_convergence
@@ -627,7 +627,7 @@ def fullzone(
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "expansion_point": "Γ"}
-    write_with(image, lambda p: fig.savefig(p, format=image_format.value, dpi=200))
+    save_figure(fig, image, image_format)
     write_json(json_path, document("fullzone", material, settings, results))
     table = Table(title=f"{material.name}: full-zone k·p from Γ", title_justify="left")
     table.add_column("Γ states", justify="right")

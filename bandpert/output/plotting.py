@@ -6,15 +6,11 @@ import re
 
 import matplotlib
 import matplotlib.ticker
+import numpy as np
+from matplotlib.axes import Axes
+from matplotlib.figure import Figure
 
-matplotlib.use("Agg")
-
-import matplotlib.pyplot as plt  # noqa: E402
-import numpy as np  # noqa: E402
-from matplotlib.axes import Axes  # noqa: E402
-from matplotlib.figure import Figure  # noqa: E402
-
-from ..physics.bands import BandStructure  # noqa: E402
+from ..physics.bands import BandStructure
 
 EXACT_COLOUR = "#1f3a5f"
 GAP_COLOUR = "#f2c14e"
@@ -68,7 +64,8 @@ def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None 
     """
     if bs.perturbative is not None:
         return comparison_figure(bs, energy_window_eV)
-    fig, ax = plt.subplots(figsize=(6.4, 4.8), constrained_layout=True)
+    fig = Figure(figsize=(6.4, 4.8), layout="constrained")
+    ax = fig.subplots()
     _draw_bands_panel(ax, bs, energy_window_eV)
     _footer(fig, bs)
     return fig
@@ -139,9 +136,9 @@ def comparison_figure(bs: BandStructure,
     matplotlib.figure.Figure
     """
     pb = bs.perturbative
-    fig, (ax, ax_err, ax_map) = plt.subplots(
-        3, 1, figsize=(6.8, 7.6), sharex=True, constrained_layout=True,
-        gridspec_kw={"height_ratios": [3.2, 1.5, 0.55]})
+    fig = Figure(figsize=(6.8, 7.6), layout="constrained")
+    ax, ax_err, ax_map = fig.subplots(
+        3, 1, sharex=True, gridspec_kw={"height_ratios": [3.2, 1.5, 0.55]})
     _draw_bands_panel(ax, bs, energy_window_eV)
     x = bs.path.distance_invA
     e_pert = pb.energies_eV - bs.energy_zero_eV
@@ -168,7 +165,7 @@ def comparison_figure(bs: BandStructure,
                     label="error estimate" if b == 0 else "_nolegend_")
         if bs.comparison is not None:
             err = np.maximum(bs.comparison.abs_error_eV[:, b] * 1e3, floor)
-            ax_err.plot(x, err, lw=0.9, color=plt.cm.viridis(b / max(n_b - 1, 1)),
+            ax_err.plot(x, err, lw=0.9, color=matplotlib.colormaps["viridis"](b / max(n_b - 1, 1)),
                         label="|perturbative − exact|" if b == 0 else "_nolegend_")
     ax_err.axhline(tol_meV, color=UNTRUSTED_COLOUR, lw=1.0, ls="--",
                    label=f"tolerance {tol_meV:g} meV")
@@ -347,8 +344,8 @@ def kp_figure(title: str, source: str, bands_by_model: dict, exact: dict | None 
         Legend text of the exact bands.
     """
     directions = list(next(iter(bands_by_model.values())))
-    fig, axes = plt.subplots(1, len(directions), figsize=(3.0 * len(directions) + 0.6, 4.6),
-                             sharey=True, constrained_layout=True)
+    fig = Figure(figsize=(3.0 * len(directions) + 0.6, 4.6), layout="constrained")
+    axes = fig.subplots(1, len(directions), sharey=True)
     axes = np.atleast_1d(axes)
     for ax, name in zip(axes, directions, strict=True):
         for model, per_dir in bands_by_model.items():
@@ -393,8 +390,8 @@ def fullzone_figure(bs: BandStructure, convergence, shown_index: int | None = No
     shown_index : int, optional
         Which basis size to draw in the band panel (default: the largest truncated one).
     """
-    fig, (ax, ax_c) = plt.subplots(1, 2, figsize=(9.6, 4.4), constrained_layout=True,
-                                   gridspec_kw={"width_ratios": [2.2, 1]})
+    fig = Figure(figsize=(9.6, 4.4), layout="constrained")
+    ax, ax_c = fig.subplots(1, 2, gridspec_kw={"width_ratios": [2.2, 1]})
     _draw_bands_panel(ax, bs, None)
     sizes = convergence.basis_sizes
     i = shown_index if shown_index is not None else max(0, len(sizes) - 2)
@@ -456,9 +453,10 @@ def sweep_figure(result) -> Figure:
     panels = [p for p in panels if p[2]]
     n_col = 2 if len(panels) > 1 else 1
     n_row = -(-len(panels) // n_col)
-    fig, axes = plt.subplots(n_row, n_col, figsize=(5.2 * n_col, 3.1 * n_row), squeeze=False)
+    fig = Figure(figsize=(5.2 * n_col, 3.1 * n_row))
+    axes = fig.subplots(n_row, n_col, squeeze=False)
     failed = np.array([f.values[0] for f in result.failures]) if result.failures else None
-    cycle = plt.rcParams["axes.prop_cycle"].by_key()["color"]
+    cycle = matplotlib.rcParams["axes.prop_cycle"].by_key()["color"]
     for ax, (title, ylabel, names) in zip(axes.flat, panels, strict=False):
         for j, name in enumerate(names):
             for c, combo in enumerate(combos):
@@ -500,8 +498,8 @@ def dos_figure(result) -> Figure:
     """
     d = result.dos
     e = d.energies_eV - result.energy_zero_eV
-    fig, (ax, ax2) = plt.subplots(2, 1, figsize=(6.4, 5.6), sharex=True,
-                                  gridspec_kw={"height_ratios": [2.2, 1]})
+    fig = Figure(figsize=(6.4, 5.6))
+    ax, ax2 = fig.subplots(2, 1, sharex=True, gridspec_kw={"height_ratios": [2.2, 1]})
     ax.plot(e, d.dos_per_eV, color=EXACT_COLOUR, lw=1.1)
     if result.fermi_level_eV is not None:
         ef = result.fermi_level_eV - result.energy_zero_eV
