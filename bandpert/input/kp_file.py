@@ -48,7 +48,6 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
-from ..input.material import _kind, _Reader, read_header, read_toml_document
 from ..kp.models import (
     MODEL_NAMES,
     REQUIRED_PARAMETERS,
@@ -57,6 +56,7 @@ from ..kp.models import (
     conduction_inverse_mass,
     make_model,
 )
+from .reader import TableReader, describe, read_header, read_toml_document
 
 #: Crystal structures a k·p file may name (the models have no inversion-asymmetry terms, so
 #: both take the same Hamiltonians).
@@ -122,17 +122,17 @@ class KPMaterial:
         return make_model(name, self.parameters, lattice_constant_A=self.a_A, **options)
 
 
-def _read_models(r: _Reader) -> tuple[str, ...] | None:
+def _read_models(r: TableReader) -> tuple[str, ...] | None:
     raw = r.raw("models", required=False)
     if raw is None:
         return None
     if not isinstance(raw, list) or not raw:
-        got = "an empty array" if isinstance(raw, list) else _kind(raw)
+        got = "an empty array" if isinstance(raw, list) else describe(raw)
         raise r.fail("models", f"expected a non-empty array of model names "
                                f"({', '.join(MODEL_NAMES)}), got {got}")
     for value in raw:
         if not isinstance(value, str):
-            raise r.fail("models", f"expected model names as strings, got {_kind(value)}")
+            raise r.fail("models", f"expected model names as strings, got {describe(value)}")
         if value not in MODEL_NAMES:
             raise r.fail("models", f"'{value}' is not one of: {', '.join(MODEL_NAMES)}")
     if len(set(raw)) != len(raw):
@@ -141,7 +141,7 @@ def _read_models(r: _Reader) -> tuple[str, ...] | None:
     return tuple(m for m in MODEL_NAMES if m in raw)
 
 
-def _read_parameters(r: _Reader) -> KPParameters:
+def _read_parameters(r: TableReader) -> KPParameters:
     values: dict[str, float | None] = {}
     for key in PARAMETER_KEYS:
         values[key] = r.number(key, required=False, positive=key == "Eg_eV")
@@ -163,7 +163,7 @@ def _read_parameters(r: _Reader) -> KPParameters:
     return KPParameters(**values)
 
 
-def _check_models(r: _Reader, params: KPParameters, listed: tuple[str, ...] | None
+def _check_models(r: TableReader, params: KPParameters, listed: tuple[str, ...] | None
                   ) -> tuple[str, ...]:
     if listed is not None:
         for model in listed:

@@ -12,9 +12,7 @@ shells |G|² are given in units of (2π/a)², with ``a`` the lattice constant ``
 from __future__ import annotations
 
 import itertools
-import json
 import math
-import tomllib
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -23,6 +21,17 @@ import numpy as np
 
 from ..errors import InputError
 from ..units import ENERGY_UNITS_TO_EV
+from .reader import (
+    TableReader,
+    describe,
+    entries,
+    number,
+    number_list,
+    read_header,
+    read_toml_document,
+    show_complex,
+    show_list,
+)
 
 #: Lattice types by name, their dimension and the constants they take.
 LATTICE_TYPES: dict[str, tuple[int, tuple[str, ...]]] = {
@@ -188,135 +197,16 @@ class Material:
         return float(abs(np.linalg.det(self.vectors_A)))
 
 
-class _Reader:
-    """Walks a parsed TOML table, checking keys and types, naming file and key on error."""
-
-    def __init__(self, table: dict[str, Any], source: str, prefix: str = ""):
-        self.table = table
-        self.source = source
-        self.prefix = prefix
-        self.used: set[str] = set()
-
-    def key(self, name: str) -> str:
-        return f"{self.prefix}{name}"
-
-    def fail(self, name: str, problem: str) -> InputError:
-        return InputError(problem, self.source, self.key(name) if name else self.prefix.rstrip("."))
-
-    def has(self, name: str) -> bool:
-        return name in self.table
-
-    def raw(self, name: str, required: bool = True) -> Any:
-        self.used.add(name)
-        if self.table.get(name) is None:  # TOML has no null; None from code means "absent"
-            if required:
-                raise self.fail(name, "missing; this key is required")
-            return None
-        return self.table[name]
-
-    def string(self, name: str, required: bool = True, default: str = "",
-               choices: tuple[str, ...] | None = None) -> str:
-        value = self.raw(name, required)
-        if value is None:
-            return default
-        if not isinstance(value, str):
-            raise self.fail(name, f"expected a string, got {_kind(value)}")
-        if choices is not None and value not in choices:
-            raise self.fail(name, f"'{value}' is not one of: {', '.join(choices)}")
-        return value
-
-    def number(self, name: str, required: bool = True, positive: bool = False,
-               default: float | None = None) -> float | None:
-        value = self.raw(name, required)
-        if value is None:
-            return default
-        return _number(value, self, name, positive)
-
-    def integer(self, name: str, required: bool = True, minimum: int | None = None) -> int | None:
-        value = self.raw(name, required)
-        if value is None:
-            return None
-        if isinstance(value, bool) or not isinstance(value, int):
-            raise self.fail(name, f"expected an integer, got {_kind(value)}")
-        if minimum is not None and value < minimum:
-            raise self.fail(name, f"must be at least {minimum}, got {value}")
-        return value
-
-    def sub(self, name: str, required: bool = True) -> _Reader | None:
-        value = self.raw(name, required)
-        if value is None:
-            return None
-        if not isinstance(value, dict):
-            raise self.fail(name, f"expected a table, got {_kind(value)}")
-        return _Reader(value, self.source, f"{self.key(name)}.")
-
-    def finish(self) -> None:
-        unknown = sorted(set(self.table) - self.used)
-        if unknown:
-            allowed = ", ".join(sorted(self.used)) or "none"
-            raise self.fail(unknown[0], f"unknown key (allowed here: {allowed})")
-
-
-def _kind(value: Any) -> str:
-    """Describe a value's TOML type for a message, with the value itself when it is short."""
-    kind = {bool: "a boolean", int: "an integer", float: "a number", str: "a string",
-            list: "an array", dict: "a table"}.get(type(value), type(value).__name__)
-    if isinstance(value, (bool, int, float, str)):
-        text = repr(value) if not isinstance(value, bool) else str(value).lower()
-        if len(text) <= 30:
-            kind += f" ({text})"
-    return kind
-
-
-def _entries(n: int) -> str:
-    return f"{n} entry" if n == 1 else f"{n} entries"
-
-
-def _show_list(values: list) -> str:
-    """A short array as TOML would write it (``[true, 1.5]``), cut after 60 characters."""
-    text = json.dumps(values, default=str, ensure_ascii=False)
-    return text if len(text) <= 60 else text[:57] + "..."
-
-
-def _number(value: Any, reader: _Reader, name: str, positive: bool = False) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)):
-        raise reader.fail(name, f"expected a number, got {_kind(value)}")
-    try:
-        value = float(value)
-    except OverflowError:
-        raise reader.fail(name, "expected a finite number, got an integer too large for a "
-                                "float") from None
-    if not math.isfinite(value):
-        raise reader.fail(name, f"expected a finite number, got {value}")
-    if positive and value <= 0:
-        raise reader.fail(name, f"must be positive, got {value:g}")
-    return value
-
-
-def _number_list(value: Any, reader: _Reader, name: str, length: int | None = None,
-                 positive: bool = False) -> tuple[float, ...]:
-    if not isinstance(value, list):
-        raise reader.fail(name, f"expected an array of numbers, got {_kind(value)}")
-    if length is not None and len(value) != length:
-        raise reader.fail(name, f"expected {length} numbers, got {_entries(len(value))}")
-    return tuple(_number(v, reader, name, positive) for v in value)
-
-
-def _to_ev(value: complex, to_ev: float, reader: _Reader, name: str) -> complex:
+def _to_ev(value: complex, to_ev: float, reader: TableReader, name: str) -> complex:
     """Convert an energy to eV, refusing a value that overflows on the way."""
     z = complex(value) * to_ev
     if not (math.isfinite(z.real) and math.isfinite(z.imag)):
-        raise reader.fail(name, f"{_show(complex(value))} is too large to convert to eV; "
+        raise reader.fail(name, f"{show_complex(complex(value))} is too large to convert to eV; "
                                 "expected a finite energy")
     return z
 
 
-def _show(z: complex) -> str:
-    """A complex number for a message: ``1.5`` when real, else ``[re, im]`` as in the file."""
-    return f"{z.real:g}" if z.imag == 0 else f"[{z.real:g}, {z.imag:g}]"
-
-
-def _energies_ev(values: tuple[float, ...], to_ev: float, reader: _Reader,
+def _energies_ev(values: tuple[float, ...], to_ev: float, reader: TableReader,
                  name: str) -> tuple[float, ...]:
     return tuple(_to_ev(v, to_ev, reader, name).real for v in values)
 
@@ -358,17 +248,17 @@ def lattice_vectors(lattice_type: str, a: float, b: float | None = None, c: floa
     return np.array(table[lattice_type](), dtype=float)
 
 
-def _read_lattice(r: _Reader) -> tuple[str, int, np.ndarray, float]:
+def _read_lattice(r: TableReader) -> tuple[str, int, np.ndarray, float]:
     kind = r.string("type", choices=tuple(LATTICE_TYPES))
     dim, keys = LATTICE_TYPES[kind]
     if kind == "vectors":
         raw = r.raw("vectors_A")
         if not isinstance(raw, list) or not raw or len(raw) > 3:
-            got = _entries(len(raw)) if isinstance(raw, list) else _kind(raw)
+            got = entries(len(raw)) if isinstance(raw, list) else describe(raw)
             raise r.fail("vectors_A", "expected 1 to 3 lattice vectors, each an array of numbers, "
                                       f"got {got}")
         dim = len(raw)
-        vectors = np.array([_number_list(v, r, "vectors_A", length=dim) for v in raw])
+        vectors = np.array([number_list(v, r, "vectors_A", length=dim) for v in raw])
         a = r.number("a_A", required=False, positive=True,
                      default=float(np.linalg.norm(vectors[0])))
     else:
@@ -418,18 +308,18 @@ def _shortest_translation(vectors: np.ndarray) -> float:
 
 def _read_atoms(raw: Any, source: str, dim: int, vectors: np.ndarray) -> tuple[Atom, ...]:
     if not isinstance(raw, list) or not raw:
-        got = "an empty array" if isinstance(raw, list) else _kind(raw)
+        got = "an empty array" if isinstance(raw, list) else describe(raw)
         raise InputError("expected at least one [[atoms]] entry with species and position, got "
                          f"{got}", source, "atoms")
     atoms = []
     for i, entry in enumerate(raw):
         if not isinstance(entry, dict):
-            raise InputError(f"expected a table, got {_kind(entry)}", source, f"atoms[{i}]")
-        r = _Reader(entry, source, f"atoms[{i}].")
+            raise InputError(f"expected a table, got {describe(entry)}", source, f"atoms[{i}]")
+        r = TableReader(entry, source, f"atoms[{i}].")
         species = r.string("species")
         if not species.strip():
             raise r.fail("species", "must not be empty")
-        pos = _number_list(r.raw("position"), r, "position", length=dim)
+        pos = number_list(r.raw("position"), r, "position", length=dim)
         if any(abs(x) > MAX_FRACTIONAL_COORDINATE for x in pos):
             raise r.fail("position", f"{list(pos)} is not a fractional position; expected "
                                      "fractions of the lattice vectors (usually between 0 and 1)")
@@ -450,7 +340,7 @@ def _read_atoms(raw: Any, source: str, dim: int, vectors: np.ndarray) -> tuple[A
     return tuple(atoms)
 
 
-def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
+def _read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int) -> Potential:
     form = r.string("form", choices=POTENTIAL_FORMS)
     if form == "empty":
         r.finish()
@@ -467,25 +357,25 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
         for i, entry in enumerate(raw):
             key = f"coefficients[{i}]"
             if not isinstance(entry, dict):
-                raise r.fail(key, f"expected a table, got {_kind(entry)}")
-            e = _Reader(entry, r.source, f"{r.key(key)}.")
+                raise r.fail(key, f"expected a table, got {describe(entry)}")
+            e = TableReader(entry, r.source, f"{r.key(key)}.")
             miller = e.raw("miller")
             if (not isinstance(miller, list) or len(miller) != dim
                     or any(isinstance(m, bool) or not isinstance(m, int) for m in miller)):
-                got = (f"{_entries(len(miller))} {_show_list(miller)}"
-                       if isinstance(miller, list) else _kind(miller))
+                got = (f"{entries(len(miller))} {show_list(miller)}"
+                       if isinstance(miller, list) else describe(miller))
                 raise e.fail("miller", f"expected {dim} integers (a Miller index of this "
                                        f"{dim}D lattice), got {got}")
             if any(abs(m) > MAX_MILLER_INDEX for m in miller):
-                raise e.fail("miller", f"{_show_list(miller)} is far outside any plane-wave "
+                raise e.fail("miller", f"{show_list(miller)} is far outside any plane-wave "
                                        "basis; expected integers of magnitude at most "
                                        f"{MAX_MILLER_INDEX}")
             value = e.raw("value")
             if isinstance(value, list):
-                re_im = _number_list(value, e, "value", length=2)
+                re_im = number_list(value, e, "value", length=2)
                 z = _to_ev(complex(re_im[0], re_im[1]), to_ev, e, "value")
             else:
-                z = _to_ev(_number(value, e, "value"), to_ev, e, "value")
+                z = _to_ev(number(value, e, "value"), to_ev, e, "value")
             e.finish()
             m = tuple(miller)
             if m in coeffs:
@@ -502,10 +392,10 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
                 if abs(coeffs[minus] - z.conjugate()) > 1e-9 * max(1.0, abs(z)):
                     later = max(where[m], where[minus])
                     raise r.fail(f"coefficients[{later}]",
-                                 f"V({list(minus)}) = {_show(coeffs[minus] / to_ev)} is not the "
-                                 f"complex conjugate of V({list(m)}) = {_show(z / to_ev)}; a real "
-                                 "potential needs V(-G) = V(G)* (give one of the two and the "
-                                 "loader completes the other)")
+                                 f"V({list(minus)}) = {show_complex(coeffs[minus] / to_ev)} "
+                                 f"is not the complex conjugate of V({list(m)}) = "
+                                 f"{show_complex(z / to_ev)}; a real potential needs V(-G) = V(G)* "
+                                 "(give one of the two and the loader completes the other)")
             else:
                 coeffs[minus] = z.conjugate()
         r.finish()
@@ -514,7 +404,7 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
                          fourier_eV=tuple(coeffs[k] for k in keys))
     if form == "continuous":
         return _read_continuous(r, atoms, dim, unit, to_ev)
-    shells = _number_list(r.raw("shells"), r, "shells")
+    shells = number_list(r.raw("shells"), r, "shells")
     if not shells:
         raise r.fail("shells", "expected at least one |G|² shell")
     if any(s < 0 for s in shells):
@@ -531,9 +421,9 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
         if len(atoms) != 2:
             raise r.fail("form", "the symmetric-antisymmetric form needs exactly 2 atoms, the "
                                  f"file has {len(atoms)}; use form = \"per-species\"")
-        sym = _number_list(r.raw("symmetric"), r, "symmetric", length=n)
+        sym = number_list(r.raw("symmetric"), r, "symmetric", length=n)
         anti = r.raw("antisymmetric", required=False)
-        anti = (0.0,) * n if anti is None else _number_list(anti, r, "antisymmetric", length=n)
+        anti = (0.0,) * n if anti is None else number_list(anti, r, "antisymmetric", length=n)
         r.finish()
         return Potential(form=form, file_unit=unit, shells_g2=shells,
                          symmetric_eV=_energies_ev(sym, to_ev, r, "symmetric"),
@@ -544,14 +434,14 @@ def _read_potential(r: _Reader, atoms: tuple[Atom, ...], dim: int) -> Potential:
     for name in sorted(needed):
         if not species_r.has(name):
             raise species_r.fail(name, f"missing form factors for species '{name}' (atoms list it)")
-        factors = _number_list(species_r.raw(name), species_r, name, length=n)
+        factors = number_list(species_r.raw(name), species_r, name, length=n)
         values[name] = _energies_ev(factors, to_ev, species_r, name)
     species_r.finish()
     r.finish()
     return Potential(form=form, file_unit=unit, shells_g2=shells, species_eV=values)
 
 
-def _read_continuous(r: _Reader, atoms: tuple[Atom, ...], dim: int, unit: str,
+def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: str,
                      to_ev: float) -> Potential:
     """The "continuous" form: per-species parameters of v(q), Ω0 and an optional taper.
 
@@ -565,7 +455,7 @@ def _read_continuous(r: _Reader, atoms: tuple[Atom, ...], dim: int, unit: str,
     omega0 = r.number(measure_key, positive=True)
     taper = r.raw("taper_invA", required=False)
     if taper is not None:
-        taper = _number_list(taper, r, "taper_invA", length=2)
+        taper = number_list(taper, r, "taper_invA", length=2)
         if taper[0] < 0:
             raise r.fail("taper_invA", f"q1 = {taper[0]:g} Å⁻¹ is negative; expected "
                                        "0 <= q1 < q2 (Å⁻¹)")
@@ -602,7 +492,7 @@ def _read_continuous(r: _Reader, atoms: tuple[Atom, ...], dim: int, unit: str,
                      reference_volume_A=omega0, taper_invA=taper)
 
 
-def _read_path(r: _Reader, dim: int) -> CustomPath:
+def _read_path(r: TableReader, dim: int) -> CustomPath:
     pts_r = r.sub("points")
     points: dict[str, tuple[float, ...]] = {}
     given: dict[str, str] = {}
@@ -614,20 +504,20 @@ def _read_path(r: _Reader, dim: int) -> CustomPath:
         if name in points:
             raise pts_r.fail(label, f"'{label}' and '{given[name]}' both name the point {name}; "
                                     "expected each point once")
-        points[name] = _number_list(pts_r.raw(label), pts_r, label, length=dim)
+        points[name] = number_list(pts_r.raw(label), pts_r, label, length=dim)
         given[name] = label
     pts_r.finish()
     raw = r.raw("legs")
     if not isinstance(raw, list) or not raw:
-        got = "an empty array" if isinstance(raw, list) else _kind(raw)
+        got = "an empty array" if isinstance(raw, list) else describe(raw)
         raise r.fail("legs", "expected an array of legs, each an array of at least two labels, "
                              f"got {got}")
     legs = []
     for i, leg in enumerate(raw):
         key = f"legs[{i}]"
         if not isinstance(leg, list) or len(leg) < 2 or not all(isinstance(x, str) for x in leg):
-            got = (_entries(len(leg)) if isinstance(leg, list) and len(leg) < 2
-                   else _show_list(leg) if isinstance(leg, list) else _kind(leg))
+            got = (entries(len(leg)) if isinstance(leg, list) and len(leg) < 2
+                   else show_list(leg) if isinstance(leg, list) else describe(leg))
             raise r.fail(key, f"expected an array of at least two labels, got {got}")
         leg = [canonical_label(x) for x in leg]
         for label in leg:
@@ -641,23 +531,6 @@ def _read_path(r: _Reader, dim: int) -> CustomPath:
         legs.append(tuple(leg))
     r.finish()
     return CustomPath(points, tuple(legs))
-
-
-def read_header(doc: Any, source: str) -> tuple[_Reader, str, str, str]:
-    """Start reading a document: check it is a table and read ``name``, ``source``, ``note``.
-
-    Returns the reader (for the remaining keys) and the three strings.
-    """
-    if not isinstance(doc, dict):
-        raise InputError(f"expected a document of keys and tables, got {_kind(doc)}", source)
-    r = _Reader(doc, source)
-    name = r.string("name")
-    if not name.strip():
-        raise r.fail("name", "must not be empty; expected the material's name")
-    src = r.string("source")
-    if not src.strip():
-        raise r.fail("source", "must not be empty; expected where the parameters come from")
-    return r, name, src, r.string("note", required=False)
 
 
 def parse_material(doc: dict[str, Any], source: str = "") -> Material:
@@ -708,37 +581,6 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
     return Material(name=name, source=src, note=note, file=source, lattice_type=kind,
                     dimension=dim, vectors_A=vectors, a_A=a, atoms=atoms, potential=pot,
                     cutoff_eV=cutoff, valence_electrons=electrons, n_bands=n_bands, path=path)
-
-
-def read_toml_document(path: str | Path, what: str = "a material TOML file") -> dict[str, Any]:
-    """Read a UTF-8 TOML file into a dictionary, every failure as one :class:`InputError`.
-
-    Parameters
-    ----------
-    path : str or pathlib.Path
-    what : str
-        What the file should be, for the messages (e.g. "a material TOML file").
-    """
-    path = Path(path)
-    try:
-        data = path.read_bytes()
-    except FileNotFoundError:
-        raise InputError(f"file not found; expected {what}", str(path)) from None
-    except IsADirectoryError:
-        raise InputError(f"is a folder; expected {what}", str(path)) from None
-    except OSError as exc:
-        raise InputError(f"cannot be read ({exc.strerror or exc.__class__.__name__}); expected "
-                         f"{what} that can be read", str(path)) from None
-    try:
-        text = data.decode("utf-8-sig")  # a leading byte-order mark is harmless
-    except UnicodeDecodeError as exc:
-        line = data[:exc.start].count(b"\n") + 1
-        raise InputError(f"is not UTF-8 text (invalid byte 0x{data[exc.start]:02x} on line "
-                         f"{line}); expected {what} in UTF-8", str(path)) from None
-    try:
-        return tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        raise InputError(f"not valid TOML ({exc})", str(path)) from None
 
 
 def load_material(path: str | Path) -> Material:
