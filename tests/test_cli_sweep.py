@@ -8,10 +8,9 @@ from pathlib import Path
 import numpy as np
 import pytest
 import scipy.special
-from rich.console import Console
 from test_cli import assert_user_error, no_dot_files, run
 
-import bandpert.cli.app as cli
+import bandpert.cli.options as options
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 MATERIALS = Path(__file__).resolve().parents[1] / "materials"
@@ -22,7 +21,7 @@ V1_RANGE = "potential.coefficients[0].value=0.2:2.0:4"
 
 @pytest.fixture(autouse=True)
 def wide_console(monkeypatch):
-    monkeypatch.setattr(cli, "out", Console(width=200, color_system=None))
+    monkeypatch.setattr(options.out, "width", 200)
 
 
 @pytest.fixture(scope="module")

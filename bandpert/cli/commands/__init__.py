@@ -1,0 +1,1 @@
+"""The commands: each parses its options, calls the library, prints and writes."""

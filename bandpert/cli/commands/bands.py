@@ -1,0 +1,164 @@
+"""``bandpert bands``: bands along the path, exact and perturbative side by side."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.table import Table
+
+from ...crystal.lattice import describe_position
+from ...errors import InputError
+from ...input.material import load_material
+from ...io import write_csv, write_json
+from ...output.plotting import band_figure
+from ...output.report import (
+    band_structure_results,
+    band_structure_table,
+    document,
+    perturbative_table,
+)
+from ...perturbation.series import DEFAULT_COUPLING_THRESHOLD
+from ...physics.bands import compute_band_structure
+from ...physics.perturbative_bands import (
+    DEFAULT_RADIUS_POINTS,
+    DEFAULT_TOLERANCE_EV,
+    PerturbationSettings,
+)
+from ..options import (
+    DEFAULT_OUT,
+    CutoffOption,
+    FormatOption,
+    ImageFormat,
+    MaterialFile,
+    PlotCsvJsonDir,
+    check_count,
+    json_option,
+    out,
+    output_paths,
+    progress_bar,
+    save_figure,
+)
+
+
+def bands(
+    file: MaterialFile,
+    out_dir: PlotCsvJsonDir = DEFAULT_OUT,
+    k_points: Annotated[int, typer.Option("--k-points", help="Number of k-points along the path.")]
+    = 200,
+    n_bands: Annotated[int | None, typer.Option("--bands", help="Number of bands (default: the "
+                                                "file's basis.bands, else occupied + 4).",
+                                                show_default=False)] = None,
+    cutoff_eV: CutoffOption = None,
+    image_format: FormatOption = ImageFormat.png,
+    json_path: Annotated[Path | None, json_option("bands")] = None,
+    e_min: Annotated[float | None, typer.Option("--emin", help="Lower energy limit of the plot "
+                                                "(eV from the energy zero).",
+                                                show_default=False)] = None,
+    e_max: Annotated[float | None, typer.Option("--emax", help="Upper energy limit of the plot "
+                                                "(eV from the energy zero).",
+                                                show_default=False)] = None,
+    order: Annotated[int, typer.Option("--order", help="Perturbation order in λ (1, 2 or 3).")]
+    = 2,
+    threshold: Annotated[float, typer.Option("--threshold", help="Coupling ratio |V_mn|/|E_m−E_n| "
+                                             "above which levels are treated together in a "
+                                             "subspace (Löwdin).")]
+    = DEFAULT_COUPLING_THRESHOLD,
+    tolerance_meV: Annotated[float, typer.Option("--tolerance-meV", help="A point is trustworthy "
+                                                 "when its error estimate is below this.")]
+    = DEFAULT_TOLERANCE_EV * 1e3,
+    radius_points: Annotated[int, typer.Option("--radius-points", help="k-points at which the "
+                                               "convergence radius in λ is computed (0: none).")]
+    = DEFAULT_RADIUS_POINTS,
+    no_exact: Annotated[bool, typer.Option("--no-exact", help="Skip the exact diagonalisation "
+                                           "(perturbative bands only, no comparison).")] = False,
+    exact_only: Annotated[bool, typer.Option("--exact-only", help="Skip the perturbative bands.")]
+    = False,
+) -> None:
+    """Bands along the Brillouin-zone path, exact and perturbative side by side.
+
+    Writes the plot, a CSV of the bands (and one of the perturbative bands) and the JSON, and
+    prints a short summary: space group, basis, energy zero, gap and band edges, and how much
+    of the path perturbation theory can be trusted on.
+    """
+
+    check_count(k_points, "--k-points", 2)
+    check_count(n_bands, "--bands", 1)
+    if cutoff_eV is not None and not cutoff_eV > 0:
+        raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
+    if no_exact and exact_only:
+        raise InputError("--no-exact and --exact-only leave nothing to compute; give one",
+                         key="--no-exact")
+    settings_p = None if exact_only else PerturbationSettings(
+        order=order, coupling_threshold=threshold, tolerance_eV=tolerance_meV * 1e-3,
+        radius_points=radius_points)
+    material = load_material(file)
+    with progress_bar("diagonalising") as progress:
+        bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV,
+                                    progress=progress, exact=not no_exact,
+                                    perturbation=settings_p)
+    stem = file.stem
+    window = None
+    if e_min is not None or e_max is not None:
+        e = bs.relative_energies_eV
+        window = (e.min() - 0.5 if e_min is None else e_min, e.max() + 0.5 if e_max is None
+                  else e_max)
+        if window[0] >= window[1]:
+            raise InputError(f"--emin {window[0]} must be below --emax {window[1]}", key="--emin")
+    settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
+                "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
+                "real_hamiltonian": bs.model.is_real, "exact": not no_exact,
+                "perturbative": not exact_only}
+    doc = document("bands", material, settings, band_structure_results(bs))
+    header, cols, rows = band_structure_table(bs)
+    fig = band_figure(bs, window)
+    image, csv_path, json_path = output_paths(file, out_dir, "bands", image_format, json_path)
+    written = [image, csv_path]
+    save_figure(fig, image, image_format)
+    write_csv(csv_path, header, cols, rows)
+    if bs.perturbative is not None:
+        pert_csv = out_dir / f"{stem}-perturbative.csv"
+        write_csv(pert_csv, *perturbative_table(bs))
+        written.append(pert_csv)
+    write_json(json_path, doc)
+    written.append(json_path)
+    _summary(bs)
+    out.print("wrote " + ", ".join(str(w) for w in written))
+
+
+def _summary(bs) -> None:
+    table = Table(title=bs.material.name, show_header=False, title_justify="left")
+    table.add_column(style="bold")
+    table.add_column()
+    sym = bs.symmetry
+    if sym.number is not None:
+        table.add_row("space group", f"{sym.international} ({sym.number})")
+    table.add_row("basis", f"{bs.model.size} plane waves, cutoff {bs.model.basis.cutoff_eV:.2f} eV")
+    table.add_row("energy zero", f"{bs.energy_zero_kind} = {bs.energy_zero_eV:.4f} eV (absolute)")
+    if bs.edges is not None:
+        g = bs.edges
+        table.add_row("gap", f"{g.gap_eV:.3f} eV")
+        table.add_row("valence maximum", describe_position(bs.path, g.valence_max_index))
+        table.add_row("conduction minimum", describe_position(bs.path, g.conduction_min_index))
+        table.add_row("smallest direct gap", f"{g.direct_gap_eV:.3f} eV at "
+                      f"{describe_position(bs.path, g.direct_gap_index)}")
+    pb = bs.perturbative
+    if pb is not None:
+        s = pb.settings
+        table.add_row(f"perturbative (order {s.order})",
+                      f"trustworthy on {100 * pb.trustworthy.mean():.1f} % of (band, k) points "
+                      f"(estimate < {s.tolerance_eV * 1e3:g} meV); subspace treatment on "
+                      f"{100 * (pb.treatment == 1).mean():.1f} %")
+        if bs.comparison is not None:
+            c = bs.comparison
+            table.add_row("against exact", f"largest error {1e3 * c.abs_error_eV.max():.1f} meV; "
+                          f"on trustworthy points {1e3 * c.max_error_trustworthy_eV:.2f} meV; "
+                          f"estimate ≥ true error on {100 * c.estimate_coverage:.1f} %")
+        if len(pb.radius_k_indices):
+            inside = pb.convergence_radius > s.lam
+            table.add_row("convergence radius", f"λ = {s.lam:g} inside on "
+                          f"{100 * inside.mean():.0f} % of the sampled (band, k) points "
+                          f"(smallest radius {pb.convergence_radius.min():.2f})")
+    out.print(table)
+

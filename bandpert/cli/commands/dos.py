@@ -1,0 +1,106 @@
+"""``bandpert dos``: density of states on a k-mesh and the Fermi level."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.table import Table
+
+from ...errors import InputError
+from ...input.material import load_material
+from ...io import write_csv, write_json
+from ...output.plotting import dos_figure
+from ...output.report import document, dos_results, dos_table
+from ...runs.mesh_dos import compute_dos
+from ..options import (
+    DEFAULT_OUT,
+    BandsOption,
+    CutoffOption,
+    EngineKind,
+    EngineOption,
+    FormatOption,
+    ImageFormat,
+    MaterialFile,
+    PlotCsvJsonDir,
+    SchedulerOption,
+    WorkersOption,
+    check_count,
+    engine_from_options,
+    json_option,
+    out,
+    output_paths,
+    progress_bar,
+    save_figure,
+)
+
+
+def dos(
+    file: MaterialFile,
+    mesh: Annotated[int, typer.Option("--mesh", help="Points per reciprocal axis of the "
+                                      "Γ-centred mesh (symmetry-reduced in 3D).")] = 16,
+    method: Annotated[str, typer.Option("--method", help="tetrahedron (linear tetrahedra, "
+                                        "Blöchl-Jepsen-Andersen 1994) or gaussian.")]
+    = "tetrahedron",
+    smearing_eV: Annotated[float, typer.Option("--smearing-eV", help="Gaussian width (with "
+                                               "--method gaussian).")] = 0.05,
+    step_meV: Annotated[float, typer.Option("--step-meV", help="Spacing of the energy grid.")]
+    = 10.0,
+    n_bands: BandsOption = None,
+    cutoff_eV: CutoffOption = None,
+    engine: EngineOption = EngineKind.local,
+    workers: WorkersOption = None,
+    scheduler: SchedulerOption = None,
+    out_dir: PlotCsvJsonDir = DEFAULT_OUT,
+    image_format: FormatOption = ImageFormat.png,
+    json_path: Annotated[Path | None, json_option("dos")] = None,
+) -> None:
+    """Density of states on a dense k-mesh and the Fermi level from the electron count.
+
+    The exact bands are computed on the irreducible points of the mesh, spread over a local
+    Dask cluster (default), an existing scheduler (--scheduler) or this process (--engine
+    serial); the result does not depend on which.
+    """
+
+    check_count(mesh, "--mesh", 2)
+    check_count(n_bands, "--bands", 1)
+    if cutoff_eV is not None and not cutoff_eV > 0:
+        raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
+    if not smearing_eV > 0:
+        raise InputError(f"must be positive, got {smearing_eV}", key="--smearing-eV")
+    run_on = engine_from_options(engine, workers, scheduler)
+    material = load_material(file)
+    with progress_bar("diagonalising on the mesh") as progress:
+        result = compute_dos(material, mesh, method=method, smearing_eV=smearing_eV,
+                             n_bands=n_bands, cutoff_eV=cutoff_eV,
+                             energy_step_eV=step_meV * 1e-3, engine=run_on, progress=progress)
+    settings = {"mesh": mesh, "method": method,
+                "smearing_eV": smearing_eV if method == "gaussian" else None,
+                "step_eV": step_meV * 1e-3, "bands": int(result.energies_eV.shape[1]),
+                "cutoff_eV": result.cutoff_eV, "basis_size": result.basis_size,
+                "engine": result.engine}
+    image, csv_path, json_path = output_paths(file, out_dir, "dos", image_format, json_path)
+    fig = dos_figure(result)
+    save_figure(fig, image, image_format)
+    write_csv(csv_path, *dos_table(result))
+    write_json(json_path, document("dos", material, settings, dos_results(result)))
+    table = Table(title=f"{material.name}: density of states", show_header=False,
+                  title_justify="left")
+    table.add_column(style="bold")
+    table.add_column()
+    table.add_row("mesh", f"{mesh} per axis: {result.mesh.n_full} points, "
+                  f"{len(result.mesh.k_frac)} irreducible")
+    table.add_row("basis", f"{result.basis_size} plane waves, cutoff {result.cutoff_eV:.2f} eV")
+    table.add_row("method", method + (f", σ = {smearing_eV:g} eV" if method == "gaussian"
+                                      else ""))
+    if result.fermi_level_eV is not None:
+        note = " (mid-gap)" if result.gap_eV is not None else ""
+        table.add_row("Fermi level", f"{result.fermi_level_eV:.4f} eV (absolute){note}")
+    if result.gap_eV is not None:
+        table.add_row("gap on the mesh", f"{result.gap_eV:.3f} eV")
+    table.add_row("complete below", f"{result.complete_below_eV:.3f} eV (absolute)")
+    table.add_row("ran on", result.engine)
+    out.print(table)
+    out.print(f"wrote {image}, {csv_path}, {json_path}")
+

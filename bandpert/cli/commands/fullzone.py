@@ -1,0 +1,82 @@
+"""``bandpert fullzone``: full-zone k·p from the Γ eigenstates against exact bands."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import numpy as np
+import typer
+from rich.table import Table
+
+from ...errors import InputError
+from ...input.material import load_material
+from ...io import write_json
+from ...output.plotting import fullzone_figure
+from ...output.report import document
+from ...physics.bands import compute_band_structure
+from ...physics.fullzone import kp_convergence
+from ..options import (
+    DEFAULT_OUT,
+    FormatOption,
+    ImageFormat,
+    MaterialFile,
+    OutDir,
+    check_count,
+    json_option,
+    out,
+    save_figure,
+)
+
+
+def fullzone(
+    file: MaterialFile,
+    basis: Annotated[str, typer.Option("--basis", help="Numbers of Γ eigenstates to try, "
+                                       "comma-separated (the whole plane-wave basis is added).")]
+    = "15,30,60,120",
+    k_points: Annotated[int, typer.Option("--k-points", help="Number of k-points along the path.")]
+    = 120,
+    n_bands: Annotated[int | None, typer.Option("--bands", help="Bands compared (default: the "
+                                                "file's basis.bands, else occupied + 4).",
+                                                show_default=False)] = None,
+    out_dir: OutDir = DEFAULT_OUT,
+    image_format: FormatOption = ImageFormat.png,
+    json_path: Annotated[Path | None, json_option("fullzone")] = None,
+) -> None:
+    """Full-zone k·p: bands along the whole path from the Γ eigenstates, against exact bands,
+    and their convergence with the number of states kept (Cardona & Pollak 1966)."""
+
+    try:
+        sizes = tuple(int(x) for x in basis.replace(" ", "").split(",") if x)
+    except ValueError:
+        raise InputError(f"'{basis}' is not a comma-separated list of integers",
+                         key="--basis") from None
+    if not sizes or min(sizes) < 1:
+        raise InputError("expected positive numbers of states", key="--basis")
+    check_count(k_points, "--k-points", 2)
+    material = load_material(file)
+    bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands)
+    conv = kp_convergence(bs.model, np.zeros(material.dimension), bs.path.k_cart_invA,
+                          bs.n_bands, sizes, exact_eV=bs.energies_eV)
+    fig = fullzone_figure(bs, conv)
+    image = out_dir / f"{file.stem}-fullzone.{image_format.value}"
+    json_path = json_path or out_dir / f"{file.stem}-fullzone.json"
+    results = {"basis_sizes": conv.basis_sizes, "max_error_eV": conv.max_error_eV,
+               "rms_error_eV": conv.rms_error_eV, "k_frac": bs.path.k_frac,
+               "exact_energies_eV": bs.energies_eV, "kp_energies_eV": conv.energies_eV,
+               "energy_zero_eV": bs.energy_zero_eV}
+    settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
+                "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
+                "expansion_point": "Γ"}
+    save_figure(fig, image, image_format)
+    write_json(json_path, document("fullzone", material, settings, results))
+    table = Table(title=f"{material.name}: full-zone k·p from Γ", title_justify="left")
+    table.add_column("Γ states", justify="right")
+    table.add_column("largest error (meV)", justify="right")
+    table.add_column("rms error (meV)", justify="right")
+    for n, e_max, e_rms in zip(conv.basis_sizes, conv.max_error_eV, conv.rms_error_eV,
+                               strict=True):
+        table.add_row(str(n), f"{1e3 * e_max:.3g}", f"{1e3 * e_rms:.3g}")
+    out.print(table)
+    out.print(f"wrote {image}, {json_path}")
+

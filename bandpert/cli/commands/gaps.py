@@ -1,0 +1,110 @@
+"""``bandpert gaps``: gaps at free-electron degeneracies against exact levels."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich import box
+from rich.table import Table
+
+from ...errors import InputError
+from ...input.material import load_material
+from ...io import write_json
+from ...output.plotting import gap_figure
+from ...output.report import document, gap_results, gap_table
+from ...physics.bands import compute_band_structure
+from ...physics.nfe_gaps import gap_analysis, resolve_points
+from ..options import (
+    DEFAULT_OUT,
+    CutoffOption,
+    FormatOption,
+    ImageFormat,
+    MaterialFile,
+    check_count,
+    json_option,
+    out,
+    progress_bar,
+    save_figure,
+)
+
+
+def gaps(
+    file: MaterialFile,
+    json_path: Annotated[Path | None, json_option("gaps")] = None,
+    point: Annotated[list[str] | None, typer.Option("--point", metavar="<label|coords>",
+                                                    help="A point to examine: a "
+                                                    "label of the path (G/Gamma for Γ) or "
+                                                    "fractional coordinates such as "
+                                                    "'0.5,0,0.5'; repeat for more (default: "
+                                                    "every labelled point of the path).",
+                                                    show_default=False)] = None,
+    crossings: Annotated[bool | None, typer.Option("--crossings/--no-crossings",
+                                                   help="Also examine where free-electron "
+                                                   "bands cross between labelled points "
+                                                   "(default: on, off when --point is given).",
+                                                   show_default=False)] = None,
+    n_bands: Annotated[int | None, typer.Option("--bands", help="Examine the degeneracies "
+                                                "among this many lowest levels (default: the "
+                                                "file's basis.bands, else occupied + 4).",
+                                                show_default=False)] = None,
+    cutoff_eV: CutoffOption = None,
+    out_dir: Annotated[Path, typer.Option("--out", help="Folder for the figure and the JSON.")]
+    = DEFAULT_OUT,
+    k_points: Annotated[int, typer.Option("--k-points", help="k-points of the band plot.")] = 200,
+    image_format: FormatOption = ImageFormat.png,
+) -> None:
+    """Gaps at free-electron degeneracies: degenerate perturbation theory against exact levels.
+
+    At every examined point the plane waves with equal |k+G|² are grouped; for each group the
+    first-order (V block) and second-order (Löwdin) splittings are printed beside the exact
+    ones, with the Fourier coefficients V(G−G′) that couple it and, when a degeneracy stays
+    closed, why. Writes the band plot with the gaps marked and the JSON.
+    """
+
+    check_count(k_points, "--k-points", 2)
+    check_count(n_bands, "--bands", 1)
+    if cutoff_eV is not None and not cutoff_eV > 0:
+        raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
+    material = load_material(file)
+    resolve_points(material, point)  # refuse a bad --point before the diagonalisation
+    search = (not point) if crossings is None else crossings
+    with progress_bar("diagonalising") as progress:
+        bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV,
+                                    progress=progress)
+    report = gap_analysis(material, model=bs.model, n_bands=bs.n_bands, points=point,
+                          crossings=search)
+    settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
+                "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
+                "real_hamiltonian": bs.model.is_real,
+                "points": list(point) if point else "labelled points of the path",
+                "crossings": search}
+    doc = document("gaps", material, settings, gap_results(report, bs))
+    stem = file.stem
+    image = out_dir / f"{stem}-gaps.{image_format.value}"
+    json_path = json_path or out_dir / f"{stem}-gaps.json"
+    fig = gap_figure(bs, report)
+    save_figure(fig, image, image_format)
+    write_json(json_path, doc)
+
+    cols, rows, notes = gap_table(report)
+    table = Table(title=f"{material.name}: free-electron degeneracies and their gaps",
+                  title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
+    for c in cols:
+        numeric = c in ("E0 (eV)", "g", "1st", "2nd", "exact", "2nd−exact")
+        table.add_column(c, overflow="fold", justify="right" if numeric else "left")
+    for r in rows:
+        table.add_row(*r)
+    out.print(table)
+    for note in notes:
+        out.print(note)
+    zero = ("" if bs.energy_zero_kind == "absolute" else
+            f"; the {bs.energy_zero_kind} is at {bs.energy_zero_eV:.4f} eV")
+    out.print(f"energies absolute (the model's zero{zero}); gaps in eV between consecutive "
+              "levels of a group, "
+              "shown where the exact splitting is open; exact levels matched by sorted position; "
+              f"{report.n_bands} lowest levels, {report.basis_size} plane waves at "
+              f"{report.cutoff_eV:.2f} eV")
+    out.print(f"wrote {image}, {json_path}")
+

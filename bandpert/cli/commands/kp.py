@@ -1,0 +1,105 @@
+"""``bandpert kp``: k·p models at Γ from a parameter file."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated
+
+import numpy as np
+import typer
+from rich.table import Table
+
+from ...errors import InputError
+from ...input.kp_file import load_kp_material
+from ...input.material import load_material
+from ...io import write_json
+from ...kp.models import MODEL_NAMES, bands_along, masses_at_gamma, nonparabolicity, unit_vector
+from ...output.plotting import kp_figure
+from ...output.report import document
+from ...physics.bands import compute_band_structure, exact_energies
+from ..options import DEFAULT_OUT, FormatOption, ImageFormat, OutDir, json_option, out, save_figure
+
+
+def kp(
+    file: Annotated[Path, typer.Argument(help="k·p parameter file (TOML).", show_default=False)],
+    model_name: Annotated[str | None, typer.Option("--model", help="two-band, six-band or "
+                                                   "eight-band (default: every model the file "
+                                                   "supports).", show_default=False)] = None,
+    compare: Annotated[Path | None, typer.Option("--compare", help="A plane-wave material file "
+                                                 "whose exact bands are drawn beside the k·p "
+                                                 "ones.", show_default=False)] = None,
+    k_max: Annotated[float, typer.Option("--k-max", help="Extent of the lines from Γ, in units "
+                                         "of 2π/a.")] = 0.1,
+    out_dir: OutDir = DEFAULT_OUT,
+    image_format: FormatOption = ImageFormat.png,
+    json_path: Annotated[Path | None, json_option("kp")] = None,
+) -> None:
+    """k·p models at Γ from a parameter file: band-edge masses along [001], [110] and [111],
+    nonparabolicity, and bands near Γ (beside a plane-wave model's exact bands with --compare).
+    """
+
+    if not 0.0 < k_max <= 0.5:
+        raise InputError(f"expected 0 < --k-max ≤ 0.5 (a fraction of 2π/a), got {k_max}",
+                         key="--k-max")
+    if model_name is not None and model_name not in MODEL_NAMES:
+        raise InputError(f"'{model_name}' is not one of {', '.join(MODEL_NAMES)}", key="--model")
+    kpm = load_kp_material(file)
+    names = [model_name] if model_name else list(kpm.models)
+    directions = {"[001]": "001", "[110]": "110", "[111]": "111"}
+    results: dict = {"models": {}, "reference_masses_m0": kpm.reference_masses_m0,
+                     "parameters": kpm.parameters.as_dict(),
+                     "energy_zero": "valence-band top at Γ"}
+    plotted: dict = {}
+    for name in names:
+        model = kpm.model(name)
+        masses = {label: masses_at_gamma(model, d).as_dict() for label, d in directions.items()}
+        entry = {"masses_m0": masses, "energies_at_gamma_eV": model.gamma_energies_eV}
+        if name in ("two-band", "eight-band"):
+            npb = nonparabolicity(model, "001")
+            entry["nonparabolicity"] = {"direction": "[001]", "alpha_per_eV": npb.alpha_per_eV,
+                                        "edge_mass_m0": npb.edge_mass_m0}
+        results["models"][name] = entry
+        plotted[name] = {label: bands_along(model, d, k_max_frac=k_max, n_k=121)
+                         for label, d in directions.items()}
+    exact = None
+    if compare is not None:
+        material = load_material(compare)
+        bs = compute_band_structure(material, n_k=20)
+        if bs.edges is None:
+            raise InputError("--compare needs a semiconductor (a gap and electrons.valence)",
+                             str(compare), "electrons")
+        exact = {}
+        t = np.linspace(0.0, k_max, 61)
+        for label, d in directions.items():
+            k = t[:, None] * unit_vector(d) * 2 * np.pi / material.a_A
+            e = exact_energies(bs.model, k, bs.n_bands) - bs.edges.valence_max_eV
+            exact[label] = (t, e)
+        results["compared_with"] = {"file": str(compare), "name": material.name}
+    settings = {"models": names, "k_max_frac": k_max}
+    doc = document("kp", kpm, settings, results)
+    fig = kp_figure(kpm.name, kpm.source, plotted, exact,
+                    "" if compare is None else f"{Path(compare).stem} (plane-wave, exact)")
+    image = out_dir / f"{file.stem}-kp.{image_format.value}"
+    json_path = json_path or out_dir / f"{file.stem}-kp.json"
+    save_figure(fig, image, image_format)
+    write_json(json_path, doc)
+    table = Table(title=f"{kpm.name}: masses at Γ (m0)", title_justify="left")
+    table.add_column("model")
+    table.add_column("band")
+    for label in directions:
+        table.add_column(label, justify="right")
+    for name, entry in results["models"].items():
+        for band_name in entry["masses_m0"]["[001]"]:
+            table.add_row(name, band_name, *(f"{entry['masses_m0'][d][band_name]:.4f}"
+                                             for d in directions))
+    out.print(table)
+    if kpm.parameters.Delta_so_eV == 0:
+        out.print("Delta_so_eV = 0: Γ8 and Γ7 coincide, so the heavy/light/split-off names only "
+                  "label the sorted curvatures of the threefold (spinless) valence top")
+    for name, entry in results["models"].items():
+        if "nonparabolicity" in entry:
+            npb = entry["nonparabolicity"]
+            out.print(f"{name}: conduction nonparabolicity α = {npb['alpha_per_eV']:.3f} /eV "
+                      f"along [001] (edge mass {npb['edge_mass_m0']:.4f} m0)")
+    out.print(f"wrote {image}, {json_path}")
+

@@ -1,0 +1,119 @@
+"""Shared pieces of the commands: consoles, option types, progress bar, output paths.
+
+Only the command line knows flags. Library errors name options in library terms
+(``cutoff_eV``); :data:`FLAGS` maps those names to the flags shown to the user.
+"""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Iterator
+from contextlib import contextmanager
+from enum import StrEnum
+from pathlib import Path
+from typing import Annotated
+
+import typer
+from rich.console import Console
+from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
+
+from ..errors import InputError
+from ..output.style import save_figure as write_figure
+from ..runs.execution import Engine
+
+#: Standard output and error of every command (tests swap ``out`` for a wide console).
+out = Console() if sys.stdout.isatty() else Console(width=160)  # files and pipes: no wrap
+err = Console(stderr=True)
+
+
+class ImageFormat(StrEnum):
+    png = "png"
+    svg = "svg"
+    pdf = "pdf"
+
+
+class EngineKind(StrEnum):
+    local = "local"
+    serial = "serial"
+
+
+MaterialFile = Annotated[Path, typer.Argument(help="Material description file (TOML).",
+                                              show_default=False)]
+OutDir = Annotated[Path, typer.Option("--out", help="Folder for the plot and JSON.")]
+FormatOption = Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
+BandsOption = Annotated[int | None, typer.Option(
+    "--bands", help="Bands computed (default: the file's basis.bands, else occupied + 4).",
+    show_default=False)]
+PlotCsvJsonDir = Annotated[Path, typer.Option("--out", help="Folder for the plot, CSV and JSON.")]
+CutoffOption = Annotated[float | None, typer.Option(
+    "--cutoff-eV", help="Plane-wave kinetic-energy cutoff in eV (default: the file's, else a "
+    "converged one).", show_default=False)]
+EngineOption = Annotated[EngineKind, typer.Option(
+    "--engine", help="local: a Dask cluster of worker processes on this machine, started and "
+    "stopped by the command; serial: this process only, no Dask.")]
+WorkersOption = Annotated[int | None, typer.Option(
+    "--workers", help="Worker processes of the local cluster (default: one per core).",
+    show_default=False)]
+SchedulerOption = Annotated[str | None, typer.Option(
+    "--scheduler", metavar="ADDRESS", help="Run on an existing Dask scheduler instead, e.g. "
+    "tcp://10.0.0.5:8786 (its workers need bandpert installed).", show_default=False)]
+
+#: Default output folder of every command that writes.
+DEFAULT_OUT = Path("plots")
+
+
+def json_option(command: str) -> object:
+    """The ``--json PATH`` option of a command, its default named in the help."""
+    return typer.Option("--json", help="Where to write the JSON results (default: "
+                        f"OUT/<name>-{command}.json).", show_default=False)
+
+
+@contextmanager
+def progress_bar(description: str) -> Iterator:
+    """A transient rich progress bar on stderr; yields a ``progress(done, total)`` callback."""
+    bar = Progress(TextColumn("{task.description}"), BarColumn(),
+                   TextColumn("{task.percentage:>3.0f}%"), TimeRemainingColumn(), console=err,
+                   transient=True, disable=not err.is_terminal)
+    with bar:
+        task = bar.add_task(description, total=None)
+
+        def update(done: int, total: int) -> None:
+            bar.update(task, completed=done, total=total)
+
+        yield update
+
+
+def output_paths(file: Path, out_dir: Path, command: str, image_format: ImageFormat,
+                 json_path: Path | None) -> tuple[Path, Path, Path]:
+    """The image, CSV and JSON paths of a command: ``OUT/<stem>-<command>.<ext>``."""
+    base = out_dir / f"{file.stem}-{command}"
+    return (base.with_name(f"{base.name}.{image_format.value}"),
+            base.with_name(f"{base.name}.csv"), json_path or base.with_name(f"{base.name}.json"))
+
+
+def save_figure(fig, image: Path, image_format: ImageFormat, dpi: int = 200) -> None:
+    """Write a figure atomically in the chosen format."""
+    write_figure(fig, image, image_format.value, dpi)
+
+
+def check_count(value: int | None, name: str, minimum: int) -> None:
+    """Refuse a count option below ``minimum`` (``name`` is the flag)."""
+    if value is not None and value < minimum:
+        raise InputError(f"must be at least {minimum}, got {value}", key=name)
+
+
+def check_cutoff(cutoff_eV: float | None) -> None:
+    """Refuse a non-positive ``--cutoff-eV``."""
+    if cutoff_eV is not None and not cutoff_eV > 0:
+        raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
+
+
+def engine_from_options(kind: EngineKind, workers: int | None, scheduler: str | None) -> Engine:
+    """The engine named by ``--engine``, ``--workers`` and ``--scheduler``."""
+    check_count(workers, "--workers", 1)
+    if scheduler:
+        if kind == EngineKind.serial:
+            raise InputError("--scheduler and --engine serial contradict each other; give one",
+                             key="--scheduler")
+        return Engine("scheduler", address=scheduler)
+    return Engine(kind.value, workers=workers)
