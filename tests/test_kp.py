@@ -21,10 +21,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from test_material import to_toml
 
+from bandpert import kp
 from bandpert.errors import InputError
 from bandpert.input.kp_file import KPMaterial, load_kp_material, parse_kp_material
-from bandpert.kp import models as kp
-from bandpert.kp.models import (
+from bandpert.kp import (
     KPParameters,
     bands_along,
     conduction_inverse_mass,

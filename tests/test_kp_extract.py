@@ -9,7 +9,7 @@ import pytest
 from conftest import bundled
 
 from bandpert.input.kp_file import parse_kp_material
-from bandpert.kp.models import unit_vector
+from bandpert.kp import unit_vector
 from bandpert.physics.bands import converged_cutoff, exact_energies
 from bandpert.physics.kp_from_planewave import extract_kp_parameters, kp_material_text
 from bandpert.planewave.model import build_model
@@ -52,7 +52,7 @@ def test_conduction_mass_of_the_eight_band_model_matches_the_plane_wave_mass(ext
     # Internal consistency: F is chosen so that m0/m_e = (1 + 2F) + Ep/Eg (Δso = 0;
     # source: Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001)) equals the plane-wave
     # sum-over-states mass; the eight-band conduction curvature must then agree.
-    from bandpert.kp.models import masses_at_gamma
+    from bandpert.kp import masses_at_gamma
 
     _, _, ex, kp = extracted
     masses = masses_at_gamma(kp.model("eight-band"), "001")

@@ -48,7 +48,7 @@ from pathlib import Path
 from typing import Any
 
 from ..errors import InputError
-from ..kp.models import (
+from ..kp import (
     MODEL_NAMES,
     REQUIRED_PARAMETERS,
     KPModel,

@@ -366,6 +366,41 @@ def masses_results(entries, energy_zero_eV: float, locations: list[str],
     }
 
 
+def kp_results(analysis, exact=None) -> dict[str, Any]:
+    """The ``results`` of ``bandpert kp`` (keys documented in the README).
+
+    ``analysis`` is a :class:`bandpert.kp.KPAnalysis`; ``exact`` an optional
+    :class:`bandpert.physics.kp_from_planewave.ExactLines` with its file name.
+    """
+    models = {}
+    for name, m in analysis.models.items():
+        entry: dict[str, Any] = {"masses_m0": m.masses_m0,
+                                 "energies_at_gamma_eV": m.gamma_energies_eV}
+        if m.nonparabolicity is not None:
+            entry["nonparabolicity"] = {"direction": "[001]",
+                                        "alpha_per_eV": m.nonparabolicity.alpha_per_eV,
+                                        "edge_mass_m0": m.nonparabolicity.edge_mass_m0}
+        models[name] = entry
+    results: dict[str, Any] = {"models": models,
+                               "reference_masses_m0": analysis.reference_masses_m0,
+                               "parameters": analysis.parameters.as_dict(),
+                               "energy_zero": "valence-band top at Γ"}
+    if exact is not None:
+        lines, file = exact
+        results["compared_with"] = {"file": file, "name": lines.name}
+    return results
+
+
+def fullzone_results(result) -> dict[str, Any]:
+    """The ``results`` of ``bandpert fullzone`` (a
+    :class:`bandpert.physics.fullzone.FullZoneResult`; keys documented in the README)."""
+    bs, conv = result.exact, result.convergence
+    return {"basis_sizes": conv.basis_sizes, "max_error_eV": conv.max_error_eV,
+            "rms_error_eV": conv.rms_error_eV, "k_frac": bs.path.k_frac,
+            "exact_energies_eV": bs.energies_eV, "kp_energies_eV": conv.energies_eV,
+            "energy_zero_eV": bs.energy_zero_eV}
+
+
 def column_unit(name: str) -> str:
     """The unit of a sweep column, read off its name (README, "bandpert sweep")."""
     if name.endswith("_eV"):

@@ -4,7 +4,7 @@ In the basis of the lowest N eigenstates |n⟩ of H(k0), the plane-wave Hamilton
 
     H_nm(k0 + q) = E_n(k0) δ_nm + 2C q·π_nm + C q² δ_nm,      C = ħ²/2m0,
 
-with π_nm = p_nm/ħ (see :mod:`bandpert.masses`). Keeping every basis state it is a unitary
+with π_nm = p_nm/ħ (see :mod:`bandpert.physics.masses`). Keeping every basis state it is a unitary
 transform of the plane-wave H(k0 + q) and gives the exact bands; truncating to N states is the
 full-zone k·p method of Cardona & Pollak, Phys. Rev. 142, 530 (1966).
 """
@@ -16,9 +16,11 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from ..physics.bands import exact_energies
-from ..physics.masses import C, eigenstates
+from ..input.material import Material
+from ..physics.bands import BandStructure, compute_band_structure, exact_energies
+from ..physics.masses import eigenstates
 from ..planewave.model import PlaneWaveModel
+from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
 
 def kp_basis_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis: int,
@@ -95,3 +97,45 @@ def kp_convergence(model: PlaneWaveModel, k0_cart_invA: np.ndarray, k_cart_invA:
     err = np.abs(bands - exact[None])
     return KpConvergence(basis_sizes=sizes, max_error_eV=err.max(axis=(1, 2)),
                          rms_error_eV=np.sqrt((err**2).mean(axis=(1, 2))), energies_eV=bands)
+
+
+@dataclass(frozen=True, eq=False)
+class FullZoneResult:
+    """Full-zone k·p from Γ along a material's path, against the exact bands.
+
+    Attributes
+    ----------
+    exact : BandStructure
+        The exact bands along the path (and the plane-wave model, path and energy zero).
+    convergence : KpConvergence
+        The k·p bands for each basis size and their errors.
+    """
+
+    exact: BandStructure
+    convergence: KpConvergence
+
+
+def full_zone_kp(material: Material, basis_sizes: tuple[int, ...], n_k: int = 120,
+                 n_bands: int | None = None) -> FullZoneResult:
+    """Full-zone k·p from the Γ eigenstates along the whole path (Cardona & Pollak 1966).
+
+    Parameters
+    ----------
+    material : Material
+    basis_sizes : tuple of int
+        Numbers of Γ eigenstates to keep (the whole plane-wave basis is added).
+    n_k : int
+        Points along the path.
+    n_bands : int, optional
+        Bands compared (default: the material's).
+
+    Returns
+    -------
+    FullZoneResult
+    """
+    if not basis_sizes or min(basis_sizes) < 1:
+        raise InputError("expected positive numbers of states", key="basis_sizes")
+    bs = compute_band_structure(material, n_k=n_k, n_bands=n_bands)
+    conv = kp_convergence(bs.model, np.zeros(material.dimension), bs.path.k_cart_invA,
+                          bs.n_bands, tuple(basis_sizes), exact_eV=bs.energies_eV)
+    return FullZoneResult(exact=bs, convergence=conv)

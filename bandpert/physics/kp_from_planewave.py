@@ -1,6 +1,6 @@
 """k·p parameters implied by a plane-wave model, and the k·p parameter file that carries them.
 
-From the eigenstates at Γ (:mod:`bandpert.masses`):
+From the eigenstates at Γ (:mod:`bandpert.physics.masses`):
 
 - Eg = E(s-like conduction state) − E(valence top), the s-like state being the lowest
   non-degenerate conduction state at Γ that couples to the valence triplet through p;
@@ -21,9 +21,12 @@ import numpy as np
 
 from ..errors import InputError
 from ..input.material import Material
-from ..kp.models import KPParameters
-from ..physics.masses import C, degenerate_edge, degenerate_set, eigenstates, inverse_mass_tensor
+from ..kp.analysis import CUBIC_DIRECTIONS
+from ..kp.parameters import KPParameters, unit_vector
+from ..physics.bands import compute_band_structure, exact_energies
+from ..physics.masses import degenerate_edge, degenerate_set, eigenstates, inverse_mass_tensor
 from ..planewave.model import PlaneWaveModel
+from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
 #: A conduction state couples to the valence triplet when Σ|π|² exceeds this (Å⁻²).
 COUPLING_FLOOR_INVA2 = 1e-6
@@ -96,7 +99,7 @@ def extract_kp_parameters(material: Material, model: PlaneWaveModel) -> Extracte
 
 
 def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
-    """A k·p parameter file (schema of :mod:`bandpert.kp_material`) for the extracted values."""
+    """A k·p parameter file (schema of :mod:`bandpert.input.kp_file`) for the extracted values."""
     p = extracted.parameters
     structure = "diamond" if len({a.species for a in material.atoms}) == 1 else "zincblende"
 
@@ -131,3 +134,47 @@ def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
         "",
     ]
     return "\n".join(lines)
+
+
+@dataclass(frozen=True, eq=False)
+class ExactLines:
+    """Exact plane-wave bands along lines from Γ, drawn beside a k·p model's.
+
+    Attributes
+    ----------
+    name : str
+        The plane-wave material's name.
+    k_frac : numpy.ndarray
+        (n_k,) distance from Γ in units of 2π/a.
+    energies_eV : dict
+        Direction label → (n_k, n_bands) exact bands, eV from the valence-band maximum (the
+        k·p models' energy zero).
+    """
+
+    name: str
+    k_frac: np.ndarray
+    energies_eV: dict[str, np.ndarray]
+
+
+def exact_lines_from_gamma(material: Material, k_max_frac: float, n_k: int = 61,
+                           directions: dict[str, str] = CUBIC_DIRECTIONS) -> ExactLines:
+    """Exact bands of a plane-wave semiconductor from Γ along ``directions`` (k·p comparison).
+
+    The energy zero is the valence-band maximum found on the material's path (20 points), so
+    the bands share the k·p models' zero.
+
+    Raises
+    ------
+    InputError
+        If the material has no gap (key ``electrons``).
+    """
+    bs = compute_band_structure(material, n_k=20)
+    if bs.edges is None:
+        raise InputError("a comparison with k·p needs a semiconductor (a gap and "
+                         "electrons.valence)", material.file, "electrons")
+    t = np.linspace(0.0, k_max_frac, n_k)
+    energies = {}
+    for label, d in directions.items():
+        k = t[:, None] * unit_vector(d) * 2 * np.pi / material.a_A
+        energies[label] = exact_energies(bs.model, k, bs.n_bands) - bs.edges.valence_max_eV
+    return ExactLines(material.name, t, energies)

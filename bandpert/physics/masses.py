@@ -31,9 +31,8 @@ from ..errors import InputError
 from ..perturbation.series import lowdin_effective_hamiltonian
 from ..physics.bands import exact_energies
 from ..planewave.model import PlaneWaveModel
-from ..units import BOLTZMANN_EV_PER_K, HBAR2_OVER_2M0_EV_A2
-
-C = HBAR2_OVER_2M0_EV_A2
+from ..units import BOLTZMANN_EV_PER_K
+from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
 #: Energies closer than this (eV) count as one degenerate level at k0.
 DEGENERACY_TOL_EV = 1e-5

@@ -410,7 +410,7 @@ def _kp_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, float | s
     """A k·p file at one parameter point: Γ energies and masses of each model along
     [001], [110], [111] (columns ``<model>_<band>_<direction>_m0``, spaces as ``_``)."""
     from ..input.kp_file import parse_kp_material
-    from ..kp.models import masses_at_gamma
+    from ..kp import masses_at_gamma
 
     kpm = parse_kp_material(point_document(spec, values), spec.source)
     row: dict[str, float | str] = {}

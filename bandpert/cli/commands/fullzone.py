@@ -5,7 +5,6 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Annotated
 
-import numpy as np
 import typer
 from rich.table import Table
 
@@ -13,9 +12,8 @@ from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_json
 from ...output.plotting import fullzone_figure
-from ...output.report import document
-from ...physics.bands import compute_band_structure
-from ...physics.fullzone import kp_convergence
+from ...output.report import document, fullzone_results
+from ...physics.fullzone import full_zone_kp
 from ..options import (
     DEFAULT_OUT,
     FormatOption,
@@ -55,21 +53,16 @@ def fullzone(
         raise InputError("expected positive numbers of states", key="--basis")
     check_count(k_points, "--k-points", 2)
     material = load_material(file)
-    bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands)
-    conv = kp_convergence(bs.model, np.zeros(material.dimension), bs.path.k_cart_invA,
-                          bs.n_bands, sizes, exact_eV=bs.energies_eV)
+    result = full_zone_kp(material, sizes, n_k=k_points, n_bands=n_bands)
+    bs, conv = result.exact, result.convergence
     fig = fullzone_figure(bs, conv)
     image = out_dir / f"{file.stem}-fullzone.{image_format.value}"
     json_path = json_path or out_dir / f"{file.stem}-fullzone.json"
-    results = {"basis_sizes": conv.basis_sizes, "max_error_eV": conv.max_error_eV,
-               "rms_error_eV": conv.rms_error_eV, "k_frac": bs.path.k_frac,
-               "exact_energies_eV": bs.energies_eV, "kp_energies_eV": conv.energies_eV,
-               "energy_zero_eV": bs.energy_zero_eV}
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "expansion_point": "Γ"}
     save_figure(fig, image, image_format)
-    write_json(json_path, document("fullzone", material, settings, results))
+    write_json(json_path, document("fullzone", material, settings, fullzone_results(result)))
     table = Table(title=f"{material.name}: full-zone k·p from Γ", title_justify="left")
     table.add_column("Γ states", justify="right")
     table.add_column("largest error (meV)", justify="right")

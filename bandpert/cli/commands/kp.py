@@ -5,7 +5,6 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Annotated
 
-import numpy as np
 import typer
 from rich.table import Table
 
@@ -13,10 +12,10 @@ from ...errors import InputError
 from ...input.kp_file import load_kp_material
 from ...input.material import load_material
 from ...io import write_json
-from ...kp.models import MODEL_NAMES, bands_along, masses_at_gamma, nonparabolicity, unit_vector
+from ...kp import CUBIC_DIRECTIONS, MODEL_NAMES, analyse_kp_material
 from ...output.plotting import kp_figure
-from ...output.report import document
-from ...physics.bands import compute_band_structure, exact_energies
+from ...output.report import document, kp_results
+from ...physics.kp_from_planewave import exact_lines_from_gamma
 from ..options import DEFAULT_OUT, FormatOption, ImageFormat, OutDir, json_option, out, save_figure
 
 
@@ -44,45 +43,19 @@ def kp(
     if model_name is not None and model_name not in MODEL_NAMES:
         raise InputError(f"'{model_name}' is not one of {', '.join(MODEL_NAMES)}", key="--model")
     kpm = load_kp_material(file)
-    names = [model_name] if model_name else list(kpm.models)
-    directions = {"[001]": "001", "[110]": "110", "[111]": "111"}
-    results: dict = {"models": {}, "reference_masses_m0": kpm.reference_masses_m0,
-                     "parameters": kpm.parameters.as_dict(),
-                     "energy_zero": "valence-band top at Γ"}
-    plotted: dict = {}
-    for name in names:
-        model = kpm.model(name)
-        masses = {label: masses_at_gamma(model, d).as_dict() for label, d in directions.items()}
-        entry = {"masses_m0": masses, "energies_at_gamma_eV": model.gamma_energies_eV}
-        if name in ("two-band", "eight-band"):
-            npb = nonparabolicity(model, "001")
-            entry["nonparabolicity"] = {"direction": "[001]", "alpha_per_eV": npb.alpha_per_eV,
-                                        "edge_mass_m0": npb.edge_mass_m0}
-        results["models"][name] = entry
-        plotted[name] = {label: bands_along(model, d, k_max_frac=k_max, n_k=121)
-                         for label, d in directions.items()}
-    exact = None
-    if compare is not None:
-        material = load_material(compare)
-        bs = compute_band_structure(material, n_k=20)
-        if bs.edges is None:
-            raise InputError("--compare needs a semiconductor (a gap and electrons.valence)",
-                             str(compare), "electrons")
-        exact = {}
-        t = np.linspace(0.0, k_max, 61)
-        for label, d in directions.items():
-            k = t[:, None] * unit_vector(d) * 2 * np.pi / material.a_A
-            e = exact_energies(bs.model, k, bs.n_bands) - bs.edges.valence_max_eV
-            exact[label] = (t, e)
-        results["compared_with"] = {"file": str(compare), "name": material.name}
-    settings = {"models": names, "k_max_frac": k_max}
+    analysis = analyse_kp_material(kpm, (model_name,) if model_name else None, k_max)
+    lines = None if compare is None else exact_lines_from_gamma(load_material(compare), k_max)
+    results = kp_results(analysis, None if lines is None else (lines, str(compare)))
+    settings = {"models": list(analysis.models), "k_max_frac": k_max}
     doc = document("kp", kpm, settings, results)
-    fig = kp_figure(kpm.name, kpm.source, plotted, exact,
+    exact = None if lines is None else {d: (lines.k_frac, e) for d, e in lines.energies_eV.items()}
+    fig = kp_figure(kpm.name, kpm.source, {n: m.lines for n, m in analysis.models.items()}, exact,
                     "" if compare is None else f"{Path(compare).stem} (plane-wave, exact)")
     image = out_dir / f"{file.stem}-kp.{image_format.value}"
     json_path = json_path or out_dir / f"{file.stem}-kp.json"
     save_figure(fig, image, image_format)
     write_json(json_path, doc)
+    directions = CUBIC_DIRECTIONS
     table = Table(title=f"{kpm.name}: masses at Γ (m0)", title_justify="left")
     table.add_column("model")
     table.add_column("band")
