@@ -417,3 +417,39 @@ def test_no_input_is_ever_executed():
     text = "\n".join(p.read_text(encoding="utf-8") for p in package.rglob("*.py"))
     for word in ("eval(", "exec(", "pickle", "yaml.load"):
         assert word not in text, word
+
+
+def test_library_messages_name_options_in_library_terms():
+    # Only the command line knows flags: no string in the library names one (common practice,
+    # no source: a notebook user never reads a flag name).
+    import ast
+    import pathlib
+
+    package = pathlib.Path(cli.__file__).parents[1]
+    offenders = []
+    for path in package.rglob("*.py"):
+        if "cli" in path.relative_to(package).parts:
+            continue
+        tree = ast.parse(path.read_text(encoding="utf-8"))
+        docstrings = {id(n.body[0].value) for n in ast.walk(tree)
+                      if isinstance(n, ast.Module | ast.ClassDef | ast.FunctionDef)
+                      and n.body and isinstance(n.body[0], ast.Expr)}
+        for node in ast.walk(tree):
+            if (isinstance(node, ast.Constant) and id(node) not in docstrings
+                    and isinstance(node.value, str)
+                    and any(w.startswith("--") and w[2:3].isalpha()
+                            for w in node.value.split())):
+                offenders.append(f"{path.name}:{node.lineno}: {node.value[:60]}")
+    assert not offenders, offenders
+
+
+@pytest.mark.parametrize("args, line", [
+    (["sweep", str(MATERIALS / "silicon.toml"), "--vary", "lattice.a_A=5.4:5.5:2",
+      "--form-factors", "smooth", "--engine", "serial"], "--form-factors: unknown mode"),
+    (["dos", str(CHAIN), "--method", "boxes", "--engine", "serial"], "--method: unknown method"),
+    (["bands", str(CHAIN), "--order", "4"], "--order: expected order 1, 2 or 3"),
+    (["bands", str(CHAIN), "--threshold", "0.7"], "--threshold: expected a coupling threshold"),
+])
+def test_library_errors_are_shown_with_their_flags(args, line, tmp_path):
+    code, _, err = run([*args, "--out", str(tmp_path)])
+    assert_user_error(code, err, line)

@@ -73,7 +73,7 @@ def test_orthorhombic_mesh_maps_each_point_to_its_mirror_images():
 def test_bad_mesh_is_refused(bad, why):
     with pytest.raises(InputError, match=why) as err:
         dos.reciprocal_mesh(empty("fcc", A_AL, 3), bad)
-    assert err.value.key == "--mesh"
+    assert err.value.key == "mesh"
 
 
 @pytest.fixture(scope="module")

@@ -59,9 +59,9 @@ def test_run_block_guards_every_item():
 
 
 @pytest.mark.parametrize("kwargs, key", [
-    ({"kind": "cloud"}, "--engine"),
-    ({"kind": "scheduler"}, "--scheduler"),
-    ({"kind": "local", "workers": 0}, "--workers"),
+    ({"kind": "cloud"}, "engine"),
+    ({"kind": "scheduler"}, "address"),
+    ({"kind": "local", "workers": 0}, "workers"),
 ])
 def test_bad_engines_are_user_errors(kwargs, key):
     with pytest.raises(InputError) as exc:
@@ -112,4 +112,4 @@ def test_unreachable_scheduler_is_a_user_error(monkeypatch):
     monkeypatch.setattr(execution, "CONNECT_TIMEOUT", "1s")
     with pytest.raises(InputError) as exc:
         run(_square_or_fail, [1], Engine("scheduler", address="tcp://127.0.0.1:9"))
-    assert exc.value.key == "--scheduler" and "cannot reach" in str(exc.value)
+    assert exc.value.key == "address" and "cannot reach" in str(exc.value)

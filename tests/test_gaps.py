@@ -365,9 +365,9 @@ def test_resolve_points():
     assert lab == "L" and kind == "labelled point"
     assert resolve_points(si, ["Gamma"])[0][0] == "Γ"
     assert resolve_points(si, ["0.1 0 0"])[0][2] == "given point"
-    with pytest.raises(InputError, match="--point"):
+    with pytest.raises(InputError, match="points"):
         resolve_points(si, ["Q"])
-    with pytest.raises(InputError, match="--point"):
+    with pytest.raises(InputError, match="points"):
         resolve_points(si, ["0.5,0.5"])
 
 

@@ -95,7 +95,7 @@ def test_free_electron_fermi_energy_of_the_empty_fcc_lattice():
 def test_bad_dos_requests_are_user_errors(aluminium):
     with pytest.raises(InputError) as exc:
         compute_dos(aluminium, 6, method="histogram")
-    assert exc.value.key == "--method"
+    assert exc.value.key == "method"
     with pytest.raises(InputError) as exc:
         compute_dos(aluminium, 6, energy_step_eV=0.0)
-    assert exc.value.key == "--step-meV"
+    assert exc.value.key == "energy_step_eV"

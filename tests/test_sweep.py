@@ -68,7 +68,7 @@ def test_parse_axis_reads_key_and_range():
 def test_parse_axis_refuses_malformed_ranges(spec, fragment):
     with pytest.raises(InputError) as exc:
         parse_axis(spec)
-    assert fragment in str(exc.value) and exc.value.key == "--vary"
+    assert fragment in str(exc.value) and exc.value.key == "axes"
 
 
 def test_get_and_set_values_by_dotted_key(si_doc):
@@ -209,14 +209,14 @@ def test_edges_fail_per_point_where_the_gap_closes(si_doc):
 
 
 @pytest.mark.parametrize("kwargs, key", [
-    ({"axes": ()}, "--vary"),
-    ({"quantities": ("bands",)}, "--quantity"),
-    ({"form_factors": "smooth"}, "--form-factors"),
-    ({"basis": "free"}, "--basis"),
-    ({"points": ("Q",)}, "--point"),
-    ({"lower_band": 9}, "--between"),
-    ({"axes": (SweepAxis("alloy.x", np.array([0.0, 1.0])),)}, "--alloy-end"),
-    ({"axes": (SweepAxis("strain.xx", np.array([0.0, 0.01])),)}, "--form-factors"),
+    ({"axes": ()}, "axes"),
+    ({"quantities": ("bands",)}, "quantities"),
+    ({"form_factors": "smooth"}, "form_factors"),
+    ({"basis": "free"}, "basis"),
+    ({"points": ("Q",)}, "points"),
+    ({"lower_band": 9}, "lower_band"),
+    ({"axes": (SweepAxis("alloy.x", np.array([0.0, 1.0])),)}, "alloy_end"),
+    ({"axes": (SweepAxis("strain.xx", np.array([0.0, 0.01])),)}, "form_factors"),
     ({"axes": (SweepAxis("lattice.a_A", np.array([5.43, -2.0])),)}, "lattice.a_A"),
 ])
 def test_prepare_refuses_bad_sweeps_before_any_work(si_doc, kwargs, key):
@@ -346,7 +346,7 @@ def test_kp_sweep_refuses_strain():
     path = str(MATERIALS / "gallium-arsenide-kp.toml")
     with pytest.raises(InputError) as exc:
         prepare(read_toml_document(path), path, (parse_axis("strain.xx=0:0.01:2"),))
-    assert exc.value.key == "--vary"
+    assert exc.value.key == "axes"
 
 
 # --- continuous form factors: lattice constant and strain --------------------------------------

@@ -14,6 +14,7 @@ import typer
 
 from ..errors import InputError, ModelWarning
 from .commands import bands, check, dos, fullzone, gaps, kp, masses, sweep
+from .options import error_line
 
 try:  # typer >= 0.26 carries its own copy of click; its exceptions are the ones raised
     from typer._click.exceptions import ClickException, UsageError
@@ -69,7 +70,7 @@ def main(argv: list[str] | None = None) -> None:
     except InputError as exc:
         if debug:
             raise
-        print(f"bandpert: error: {exc.one_line()}", file=sys.stderr)
+        print(f"bandpert: error: {error_line(exc)}", file=sys.stderr)
         code = 2
     except Exception as exc:
         if debug:

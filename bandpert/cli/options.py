@@ -117,3 +117,28 @@ def engine_from_options(kind: EngineKind, workers: int | None, scheduler: str | 
                              key="--scheduler")
         return Engine("scheduler", address=scheduler)
     return Engine(kind.value, workers=workers)
+
+
+#: Library option names (keys of :class:`~bandpert.errors.InputError`) → the flags that set them.
+FLAGS = {
+    "cutoff_eV": "--cutoff-eV", "n_k": "--k-points", "n_bands": "--bands", "exact": "--no-exact",
+    "order": "--order", "coupling_threshold": "--threshold", "tolerance_eV": "--tolerance-meV",
+    "radius_points": "--radius-points", "points": "--point", "point": "--point",
+    "band": "--band", "temperature_K": "--temperature", "mesh": "--mesh", "method": "--method",
+    "smearing_eV": "--smearing-eV", "energy_step_eV": "--step-meV", "engine": "--engine",
+    "address": "--scheduler", "workers": "--workers", "axes": "--vary",
+    "lower_band": "--between", "quantities": "--quantity", "form_factors": "--form-factors",
+    "basis": "--basis", "alloy_end": "--alloy-end", "model": "--model", "k_max_frac": "--k-max",
+}
+
+#: Library wording inside messages → the command line's wording.
+_TEXT = {"form_factors": "--form-factors", "lower_band": "--between N",
+         "alloy_end": "--alloy-end FILE", "Engine(kind='serial')": "--engine serial"}
+
+
+def error_line(exc: InputError) -> str:
+    """An input error in the command line's terms: option names rendered as their flags."""
+    problem = exc.problem
+    for name, flag in _TEXT.items():
+        problem = problem.replace(name, flag)
+    return InputError(problem, exc.source, FLAGS.get(exc.key, exc.key)).one_line()

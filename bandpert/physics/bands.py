@@ -443,10 +443,10 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     BandStructure
     """
     if n_k < 2:
-        raise InputError(f"expected at least 2 k-points, got {n_k}", key="k-points")
+        raise InputError(f"expected at least 2 k-points, got {n_k}", key="n_k")
     if not exact and perturbation is None:
         raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
-                         "bands were asked for", key="--no-exact")
+                         "bands were asked for", key="exact")
     nb = default_bands(material) if n_bands is None else n_bands
     cutoff = cutoff_eV or material.cutoff_eV
     if cutoff is None:

@@ -156,17 +156,17 @@ def _mesh_shape(material: Material, n_per_axis: int | tuple[int, ...]) -> tuple[
         values = tuple(values)
     except TypeError:
         raise InputError(f"got {n_per_axis!r}; expected an integer or {d} integers (points per "
-                         "reciprocal axis)", material.file, "--mesh") from None
+                         "reciprocal axis)", material.file, "mesh") from None
     if len(values) != d:
         raise InputError(f"got {len(values)} numbers for a {d}-dimensional crystal; expected one "
-                         f"integer or {d}", material.file, "--mesh")
+                         f"integer or {d}", material.file, "mesh")
     for n in values:
         if isinstance(n, bool) or not isinstance(n, int | np.integer):
             raise InputError(f"got {n!r}; expected whole numbers of points per axis",
-                             material.file, "--mesh")
+                             material.file, "mesh")
         if n < 2:
             raise InputError(f"got {n} points on an axis; expected at least 2 (a mesh of one "
-                             "point has no cells for the tetrahedra)", material.file, "--mesh")
+                             "point has no cells for the tetrahedra)", material.file, "mesh")
     return tuple(int(n) for n in values)
 
 
@@ -195,7 +195,7 @@ def reciprocal_mesh(material: Material, n_per_axis: int | tuple[int, ...],
     Raises
     ------
     InputError
-        With key ``--mesh`` for a mesh that is not 1–3 integers ≥ 2 matching the dimension.
+        With key ``mesh`` for a mesh that is not 1–3 integers ≥ 2 matching the dimension.
     """
     shape = _mesh_shape(material, n_per_axis)
     b = reciprocal_vectors(material.vectors_A)

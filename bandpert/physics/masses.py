@@ -491,12 +491,12 @@ def band_masses(model: PlaneWaveModel, k_cart_invA: np.ndarray, band: int,
     """
     if not temperature_K > 0:
         raise InputError(f"expected a positive temperature, got {temperature_K}",
-                         key="--temperature")
+                         key="temperature_K")
     k = np.asarray(k_cart_invA, dtype=float)
     states = eigenstates(model, k)
     if band >= len(states.energies_eV):
         raise InputError(f"band {band + 1} does not exist: the basis holds "
-                         f"{len(states.energies_eV)}", key="--band")
+                         f"{len(states.energies_eV)}", key="band")
     group = degenerate_set(states, band)
     k_frac = np.linalg.solve(model.reciprocal_invA.T, k)
     valleys = None
@@ -579,7 +579,7 @@ def edge_masses(bs, temperature_K: float = 300.0, cross_check: bool = True) -> l
 
     if bs.edges is None or bs.energies_eV is None:
         raise InputError("no band gap on the path (a metal, or no electrons.valence): give "
-                         "the point and the band", bs.material.file, "--point")
+                         "the point and the band", bs.material.file, "point")
     rot = point_group_rotations(bs.material)
     n_val = bs.material.valence_electrons // 2
     out = []

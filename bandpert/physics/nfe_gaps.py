@@ -833,7 +833,7 @@ def resolve_points(material: Material, specs: list[str] | None = None
     Raises
     ------
     InputError
-        For an unknown label or coordinates of the wrong dimension (key ``--point``).
+        For an unknown label or coordinates of the wrong dimension (key ``points``).
     """
     points, legs = standard_path(material)
     if not specs:
@@ -851,7 +851,7 @@ def resolve_points(material: Material, specs: list[str] | None = None
             if coords.size != material.dimension or not np.all(np.isfinite(coords)):
                 raise InputError(f"{spec!r} has {coords.size} coordinates; expected "
                                  f"{material.dimension} finite fractions of the reciprocal "
-                                 "vectors, or a label", key="--point")
+                                 "vectors, or a label", key="points")
             on_path = [lab for lab, p in points.items() if np.allclose(p, coords, atol=1e-12)]
             kind = KIND_LABELLED if on_path else KIND_GIVEN
             out.append((on_path[0] if on_path else f"({', '.join(parts)})", coords, kind))
@@ -860,7 +860,7 @@ def resolve_points(material: Material, specs: list[str] | None = None
         if label not in points:
             known = ", ".join(points)
             raise InputError(f"unknown point {spec!r}; expected one of {known} or fractional "
-                             "coordinates", key="--point")
+                             "coordinates", key="points")
         out.append((label, np.array(points[label], dtype=float), KIND_LABELLED))
     return out
 
@@ -906,7 +906,7 @@ def gap_analysis(material: Material, model: PlaneWaveModel | None = None,
     """
     nb = default_bands(material) if n_bands is None else int(n_bands)
     if nb < 1:
-        raise InputError(f"must be at least 1, got {nb}", key="--bands")
+        raise InputError(f"must be at least 1, got {nb}", key="n_bands")
     if model is None:
         cutoff = cutoff_eV or material.cutoff_eV or converged_cutoff(material, nb)
         model = build_model(material, cutoff)

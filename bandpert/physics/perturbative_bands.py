@@ -68,17 +68,17 @@ class PerturbationSettings:
 
     def __post_init__(self) -> None:
         if self.order not in (1, 2, 3):
-            raise InputError(f"expected order 1, 2 or 3, got {self.order}", key="--order")
+            raise InputError(f"expected order 1, 2 or 3, got {self.order}", key="order")
         if not 0.0 < self.coupling_threshold < 0.5:
             raise InputError("expected a coupling threshold strictly between 0 and 0.5 (the "
                              f"two-level series diverges at 0.5), got {self.coupling_threshold}",
-                             key="--threshold")
+                             key="coupling_threshold")
         if not self.tolerance_eV > 0.0:
             raise InputError(f"expected a positive tolerance, got {self.tolerance_eV}",
-                             key="--tolerance-meV")
+                             key="tolerance_eV")
         if self.radius_points < 0:
             raise InputError(f"expected 0 or more points, got {self.radius_points}",
-                             key="--radius-points")
+                             key="radius_points")
 
 
 @dataclass(frozen=True)

@@ -71,12 +71,12 @@ class Engine:
     def __post_init__(self) -> None:
         if self.kind not in ENGINE_KINDS:
             raise InputError(f"unknown engine '{self.kind}'; expected one of "
-                             f"{', '.join(ENGINE_KINDS)}", key="--engine")
+                             f"{', '.join(ENGINE_KINDS)}", key="engine")
         if self.kind == "scheduler" and not self.address:
             raise InputError("a scheduler engine needs an address such as tcp://host:8786",
-                             key="--scheduler")
+                             key="address")
         if self.workers is not None and self.workers < 1:
-            raise InputError(f"must be at least 1, got {self.workers}", key="--workers")
+            raise InputError(f"must be at least 1, got {self.workers}", key="workers")
 
     def describe(self) -> str:
         """One line for the terminal and the JSON settings."""
@@ -180,14 +180,14 @@ def dask_client(engine: Engine) -> Iterator[Any]:
         from distributed import Client
     except ImportError as exc:  # pragma: no cover - dask is a dependency
         raise InputError("dask.distributed is not installed; install bandpert's dependencies "
-                         "or use --engine serial", key="--engine") from exc
+                         "or run serially (Engine(kind='serial'))", key="engine") from exc
     if engine.kind == "scheduler":
         try:
             client = Client(engine.address, timeout=CONNECT_TIMEOUT)
         except (OSError, TimeoutError, ValueError) as exc:
             raise InputError(f"cannot reach a Dask scheduler at {engine.address} ({exc}); "
                              "expected the address of a running scheduler",
-                             key="--scheduler") from None
+                             key="address") from None
         try:
             yield client
         finally:

@@ -199,10 +199,10 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
     """
     if method not in DOS_METHODS:
         raise InputError(f"unknown method '{method}'; expected {', '.join(DOS_METHODS)}",
-                         material.file, "--method")
+                         material.file, "method")
     if not energy_step_eV > 0:
         raise InputError(f"must be positive, got {energy_step_eV}", material.file,
-                         "--step-meV")
+                         "energy_step_eV")
     nb = n_bands or default_bands(material)
     cutoff = cutoff_eV or material.cutoff_eV
     if cutoff is None:
@@ -212,7 +212,7 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
     model = _model_for(material, cutoff)  # fails here, once, on a bad basis
     if nb > model.size:
         raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
-                         "waves", material.file, "--bands")
+                         "waves", material.file, "n_bands")
     mesh = reciprocal_mesh(material, n_per_axis)
     with session(engine) as runner:  # one cluster for the bands and the DOS
         energies = mesh_energies(material, mesh, cutoff, nb, runner, progress)

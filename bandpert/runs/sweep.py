@@ -94,36 +94,36 @@ def parse_axis(spec: str) -> SweepAxis:
     Raises
     ------
     InputError
-        Naming ``--vary`` and what was expected.
+        Naming the axis (key ``axes``) and what was expected.
     """
     shape = "expected KEY=START:STOP:COUNT, e.g. lattice.a_A=5.3:5.6:31"
     if "=" not in spec:
-        raise InputError(f"'{spec}' has no '='; {shape}", key="--vary")
+        raise InputError(f"'{spec}' has no '='; {shape}", key="axes")
     key, _, rng = spec.partition("=")
     key = key.strip()
     parts = rng.split(":")
     if not key or len(parts) != 3:
         raise InputError(f"'{spec}' is not of the form KEY=START:STOP:COUNT; {shape}",
-                         key="--vary")
+                         key="axes")
     try:
         start, stop = float(parts[0]), float(parts[1])
         count = int(parts[2])
     except ValueError:
         raise InputError(f"'{spec}': START and STOP must be numbers and COUNT an integer; "
-                         f"{shape}", key="--vary") from None
+                         f"{shape}", key="axes") from None
     if not (math.isfinite(start) and math.isfinite(stop)):
-        raise InputError(f"'{spec}': START and STOP must be finite", key="--vary")
+        raise InputError(f"'{spec}': START and STOP must be finite", key="axes")
     if count < 1:
-        raise InputError(f"'{spec}': COUNT must be at least 1, got {count}", key="--vary")
+        raise InputError(f"'{spec}': COUNT must be at least 1, got {count}", key="axes")
     head = key.split(".", 1)[0]
     if head == "strain":
         comp = key.split(".", 1)[1] if "." in key else ""
         if comp not in STRAIN_COMPONENTS:
             raise InputError(f"unknown strain component '{comp}'; expected one of "
                              f"{', '.join('strain.' + c for c in STRAIN_COMPONENTS)}",
-                             key="--vary")
+                             key="axes")
     elif head == "alloy" and key != "alloy.x":
-        raise InputError(f"unknown alloy key '{key}'; expected alloy.x", key="--vary")
+        raise InputError(f"unknown alloy key '{key}'; expected alloy.x", key="axes")
     else:
         _split_key(key)
     return SweepAxis(key=key, values=np.linspace(start, stop, count))
@@ -137,7 +137,7 @@ def _split_key(key: str) -> list[str | int]:
         if not m:
             raise InputError(f"'{key}' is not a document key (segment '{segment}'); expected "
                              "dotted names with optional [index], e.g. potential.symmetric[0]",
-                             key="--vary")
+                             key="axes")
         steps.append(m.group(1))
         steps.extend(int(i) for i in re.findall(r"\[(\d+)\]", m.group(2)))
     return steps
@@ -427,7 +427,7 @@ def _gaps_at_points(bs: BandStructure, labels: tuple[str, ...], lower_band: int)
     e = bs.energies_eV
     if lower_band >= e.shape[1]:
         raise InputError(f"band {lower_band} has no band above it among the {e.shape[1]} "
-                         "computed; expected fewer or more bands", key="--between")
+                         "computed; expected fewer or more bands", key="lower_band")
     where = {}
     for index, label in zip(bs.path.label_indices, bs.path.labels, strict=True):
         for name in label.split("|"):
@@ -595,7 +595,7 @@ def form_factor_note(material: Material, axes: tuple[SweepAxis, ...], mode: str,
                 + window)
     if form in ("symmetric-antisymmetric", "per-species") and lattice_moves:
         return ("tabulated form factors kept fixed on the |G|² shells of the reference lattice "
-                "(no 1/Ω scaling, no q-dependence); use --form-factors continuous for a v(q) "
+                "(no 1/Ω scaling, no q-dependence); use form_factors continuous for a v(q) "
                 "that follows the lattice")
     if form == "continuous":
         return "the file's continuous v(q) follows the lattice, scaled by 1/Ω"
@@ -625,27 +625,27 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     """
     if not axes:
         raise InputError("nothing to vary; expected at least one KEY=START:STOP:COUNT",
-                         source, "--vary")
+                         source, "axes")
     keys = [a.key for a in axes]
     if len(set(keys)) != len(keys):
-        raise InputError("a key is varied twice; expected each key once", source, "--vary")
+        raise InputError("a key is varied twice; expected each key once", source, "axes")
     n_points = int(np.prod([len(a.values) for a in axes]))
     if n_points > MAX_POINTS:
         raise InputError(f"{n_points} parameter points; expected at most {MAX_POINTS}", source,
-                         "--vary")
+                         "axes")
     for q in quantities:
         if q not in QUANTITIES:
             raise InputError(f"unknown quantity '{q}'; expected {', '.join(QUANTITIES)}",
-                             source, "--quantity")
+                             source, "quantities")
     if form_factors not in FORM_FACTOR_MODES:
         raise InputError(f"unknown mode '{form_factors}'; expected "
-                         f"{', '.join(FORM_FACTOR_MODES)}", source, "--form-factors")
+                         f"{', '.join(FORM_FACTOR_MODES)}", source, "form_factors")
     if basis not in BASIS_MODES:
         raise InputError(f"unknown basis rule '{basis}'; expected {', '.join(BASIS_MODES)}",
-                         source, "--basis")
+                         source, "basis")
     if any(a.kind == "alloy" for a in axes) and alloy_end is None:
-        raise InputError("alloy.x needs the second end of the alloy (--alloy-end FILE)", source,
-                         "--alloy-end")
+        raise InputError("alloy.x needs the second end of the alloy (alloy_end)", source,
+                         "alloy_end")
     doc = copy.deepcopy(document)
     if is_kp_document(doc):
         return _prepare_kp(doc, source, tuple(axes), alloy_end, alloy_source, form_factors)
@@ -653,8 +653,8 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     if alloy_end is not None:
         if form_factors == "continuous":
             raise InputError("alloy.x interpolates the two files' own form factors (virtual "
-                             "crystal); expected --form-factors tabulated with --alloy-end",
-                             source, "--form-factors")
+                             "crystal); expected form_factors tabulated with alloy_end",
+                             source, "form_factors")
         alloy_end = copy.deepcopy(alloy_end)
         parse_material(alloy_end, alloy_source)  # each end must be valid on its own
     window = ""
@@ -678,22 +678,22 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     strained = any(a.kind == "strain" for a in axes)
     if strained and reference.potential.form in ("symmetric-antisymmetric", "per-species"):
         raise InputError("strain splits the |G|² shells, where tabulated form factors do not "
-                         "exist; expected --form-factors continuous (a fitted v(q))", source,
-                         "--form-factors")
+                         "exist; expected form_factors continuous (a fitted v(q))", source,
+                         "form_factors")
     if strained and reference.dimension < 2 and any(
             a.kind == "strain" and a.key not in ("strain.xx", "strain.hydrostatic")
             for a in axes):
-        raise InputError("a 1D lattice has only strain.xx", source, "--vary")
+        raise InputError("a 1D lattice has only strain.xx", source, "axes")
     nb = n_bands or default_bands(reference)
     n_el = reference.valence_electrons
     if lower_band is None:
         if "gaps" in quantities and (n_el is None or n_el % 2):
-            raise InputError("gaps at points need the band below the gap: give --between N (or "
-                             "an even electrons.valence)", source, "--between")
+            raise InputError("gaps at points need the band below the gap: give lower_band (or "
+                             "an even electrons.valence)", source, "lower_band")
         lower_band = (n_el or 2) // 2
     if lower_band < 1 or lower_band >= nb:
         raise InputError(f"band {lower_band} must lie between 1 and {nb - 1} (bands computed: "
-                         f"{nb})", source, "--between")
+                         f"{nb})", source, "lower_band")
     if (("edges" in quantities or "masses" in quantities)
             and (n_el is None or n_el % 2)):
         raise InputError("edges and masses need a semiconductor: an even electrons.valence",
@@ -707,7 +707,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
             name = canonical_label(p)
             if name not in labels:
                 raise InputError(f"'{p}' is not a label of the path ({', '.join(labels)})",
-                                 source, "--point")
+                                 source, "points")
             chosen.append(name)
         labels = tuple(dict.fromkeys(chosen))
     cutoff = cutoff_eV or reference.cutoff_eV or converged_cutoff(reference, nb)
@@ -735,9 +735,9 @@ def _prepare_kp(doc: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     if any(a.kind == "strain" for a in axes):
         raise InputError("a k·p parameter file has no lattice vectors to strain (its deformation "
                          "potentials are not modelled); expected keys of its [parameters]",
-                         source, "--vary")
+                         source, "axes")
     if form_factors != "tabulated":
-        raise InputError("a k·p parameter file has no form factors", source, "--form-factors")
+        raise InputError("a k·p parameter file has no form factors", source, "form_factors")
     reference = parse_kp_material(doc, source)
     if alloy_end is not None:
         alloy_end = copy.deepcopy(alloy_end)
