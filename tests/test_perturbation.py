@@ -1,4 +1,4 @@
-"""Tests of bandpert.perturbation.series (model-independent perturbation theory).
+"""Tests of bandpert.perturbation (model-independent perturbation theory).
 
 Outside values are marked with their source beside the check. Checks marked "internal
 consistency" compare two independent implementations or a computation with exact
@@ -13,7 +13,7 @@ import scipy.special
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from bandpert.perturbation import series as pt
+import bandpert.perturbation as pt
 
 # --------------------------------------------------------------------------------------------
 # model problems built here

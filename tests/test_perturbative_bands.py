@@ -7,7 +7,7 @@ import pytest
 import scipy.special
 from conftest import bundled, make_material
 
-from bandpert.perturbation.series import TREATMENT_SUBSPACE
+from bandpert.perturbation import TREATMENT_SUBSPACE
 from bandpert.physics.bands import compute_band_structure
 from bandpert.physics.perturbative_bands import PerturbationSettings, compare, perturbative_bands
 from bandpert.planewave.model import build_model

@@ -23,7 +23,7 @@ from ..crystal.lattice import (
 )
 from ..errors import InputError
 from ..input.material import Material
-from ..perturbation.series import perturbative_levels
+from ..perturbation import perturbative_levels
 from ..physics.perturbative_bands import (
     Comparison,
     PerturbationSettings,

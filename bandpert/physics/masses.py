@@ -28,7 +28,7 @@ import scipy.linalg
 import scipy.optimize
 
 from ..errors import InputError
-from ..perturbation.series import lowdin_effective_hamiltonian
+from ..perturbation import lowdin_effective_hamiltonian
 from ..physics.bands import exact_energies
 from ..planewave.model import PlaneWaveModel
 from ..units import BOLTZMANN_EV_PER_K

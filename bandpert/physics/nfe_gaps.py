@@ -44,7 +44,7 @@ import scipy.linalg
 from ..crystal.lattice import reciprocal_vectors, standard_path
 from ..errors import InputError
 from ..input.material import Material, canonical_label
-from ..perturbation.series import lowdin_effective_hamiltonian
+from ..perturbation import lowdin_effective_hamiltonian
 from ..physics.bands import converged_cutoff, default_bands
 from ..planewave.model import (
     MAX_BASIS,

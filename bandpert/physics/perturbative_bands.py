@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from ..perturbation.series import (
+from ..perturbation import (
     DEFAULT_COUPLING_THRESHOLD,
     TREATMENT_NAMES,
     TREATMENT_NONDEGENERATE,

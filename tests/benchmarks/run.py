@@ -28,6 +28,7 @@ from pathlib import Path
 
 import numpy as np
 import scipy.linalg
+from perturbation_driver import driver_rows  # sibling script (run.py runs as a script)
 from threadpoolctl import threadpool_info, threadpool_limits
 
 import bandpert
@@ -408,6 +409,11 @@ def main(argv: list[str] | None = None) -> int:
                  f"exact / perturbative, MiB: {peaks}; outputs at {mem[-1]['k_points']} k: "
                  f"{mem[-1]['exact_output_bytes'] / mib:.2f} / "
                  f"{mem[-1]['perturbative_output_bytes'] / mib:.2f} MiB"))
+
+    # -- 6. the perturbative driver alone on a synthetic batch (perturbation_driver.py)
+    driver_results, driver_out = driver_rows(max(3, reps // 2), say)
+    results.update(driver_results)
+    rows.extend(driver_out)
 
     # -- Dask: the same jobs on one worker and on two
     dask_results, dask_rows = dask_speedup(reps, say)

@@ -19,7 +19,7 @@ from ...output.report import (
     document,
     perturbative_table,
 )
-from ...perturbation.series import DEFAULT_COUPLING_THRESHOLD
+from ...perturbation import DEFAULT_COUPLING_THRESHOLD
 from ...physics.bands import compute_band_structure
 from ...physics.perturbative_bands import (
     DEFAULT_RADIUS_POINTS,
