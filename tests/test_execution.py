@@ -6,10 +6,18 @@ distributed run equals the serial one.
 
 from __future__ import annotations
 
+import contextlib
+import http.server
+import socket
+import threading
+import time
+
 import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+from test_cli import CHAIN, assert_user_error
+from test_cli import run as run_cli
 
 from bandpert.errors import InputError
 from bandpert.runs import execution
@@ -113,3 +121,73 @@ def test_unreachable_scheduler_is_a_user_error(monkeypatch):
     with pytest.raises(InputError) as exc:
         run(_square_or_fail, [1], Engine("scheduler", address="tcp://127.0.0.1:9"))
     assert exc.value.key == "address" and "cannot reach" in str(exc.value)
+
+
+@contextlib.contextmanager
+def _listener(kind: str):
+    """A service on 127.0.0.1 that is not a Dask scheduler; yields its tcp:// address.
+
+    "silent": accepts and says nothing; "http": a plain HTTP server (waits for a request);
+    "chatty": greets with a banner line, as many line-based services do.
+    """
+    if kind == "http":
+        server = http.server.ThreadingHTTPServer(("127.0.0.1", 0),
+                                                 http.server.SimpleHTTPRequestHandler)
+        thread = threading.Thread(target=server.serve_forever, daemon=True)
+        thread.start()
+        try:
+            yield f"tcp://127.0.0.1:{server.server_address[1]}"
+        finally:
+            server.shutdown()
+            server.server_close()
+        return
+    sock = socket.create_server(("127.0.0.1", 0))
+    held = []
+
+    def accept() -> None:
+        with contextlib.suppress(OSError):
+            while True:
+                conn, _ = sock.accept()
+                held.append(conn)
+                if kind == "chatty":
+                    conn.sendall(b"SSH-2.0-NotDask_1.0\r\n" * 4)
+
+    threading.Thread(target=accept, daemon=True).start()
+    try:
+        yield f"tcp://127.0.0.1:{sock.getsockname()[1]}"
+    finally:
+        sock.close()
+        for conn in held:
+            conn.close()
+
+
+@pytest.mark.parametrize("kind, fragment", [("silent", "no Dask greeting"),
+                                            ("http", "no Dask greeting"),
+                                            ("chatty", "does not speak the Dask protocol")])
+def test_a_service_that_is_not_a_scheduler_is_refused(monkeypatch, kind, fragment):
+    # A Dask server sends its handshake first (distributed's comm/core.py, common practice, no
+    # source); anything else is refused in one line naming the address, before the client
+    # would hang (HTTP) or read a banner as a frame length of exabytes.
+    monkeypatch.setattr(execution, "PROBE_TIMEOUT_S", 1.0)
+    with _listener(kind) as address:
+        with pytest.raises(InputError) as exc:
+            run(_square_or_fail, [1], Engine("scheduler", address=address))
+    assert exc.value.key == "address"
+    assert address in str(exc.value) and fragment in str(exc.value)
+    assert "expected the address of a running Dask scheduler" in str(exc.value)
+
+
+def test_the_check_passes_a_real_scheduler(dask_scheduler):
+    execution.check_scheduler(dask_scheduler)  # raises on failure
+
+
+def test_not_a_scheduler_exits_2_within_15_seconds(tmp_path):
+    # Through the command line with the default time-outs: one line, exit 2, nothing written.
+    with _listener("http") as address:
+        start = time.perf_counter()
+        code, _, err = run_cli(["dos", str(CHAIN), "--scheduler", address, "--mesh", "4",
+                                "--out", str(tmp_path / "out")])
+        elapsed = time.perf_counter() - start
+    assert_user_error(code, err, "--scheduler", address)
+    assert elapsed < 15.0
+    assert not (tmp_path / "out").exists()

@@ -22,6 +22,8 @@ it; tests hold serial and distributed results equal to 1e-10 eV.
 from __future__ import annotations
 
 import os
+import socket
+import struct
 import traceback
 from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
@@ -48,6 +50,13 @@ ENGINE_KINDS = ("serial", "local", "scheduler")
 
 #: How long to wait for an existing scheduler to answer.
 CONNECT_TIMEOUT = "10s"
+
+#: Seconds allowed for each step of the protocol check of a scheduler address (TCP connect,
+#: then the scheduler's greeting): a service that is not Dask is refused within twice this.
+PROBE_TIMEOUT_S = 5.0
+
+#: Largest greeting accepted from a scheduler (its handshake is about 60 bytes).
+_MAX_GREETING_BYTES = 1 << 16
 
 
 @dataclass(frozen=True)
@@ -173,6 +182,69 @@ def local_cluster(n_workers: int) -> Any:
                             worker_dashboard_address="127.0.0.1:0", silence_logs=logging.ERROR)
 
 
+def check_scheduler(address: str, timeout_s: float = PROBE_TIMEOUT_S) -> None:
+    """Check that ``address`` is a Dask scheduler before handing it to :class:`distributed.Client`.
+
+    A Dask server speaks first: on a new TCP connection it sends its handshake, a message framed
+    as an 8-byte little-endian byte count followed by msgpack frames holding, among others, its
+    ``pickle-protocol`` (distributed's ``comm/tcp.py`` and ``comm/core.py``; common practice, no
+    source beyond the library). A service that stays silent (an HTTP server waits for a request)
+    or sends anything else is refused here, in one line, instead of hanging the client or making
+    it allocate a "message" of absurd size. Only ``tcp://`` (or scheme-less) addresses are
+    checked; other transports go straight to the client.
+
+    Raises
+    ------
+    InputError
+        Key ``address``: unreachable, silent, or not speaking the Dask protocol.
+    """
+    scheme, _, location = address.rpartition("://")
+    if scheme not in ("", "tcp"):
+        return
+    host, _, port_text = location.rpartition(":")
+    host = host.strip("[]")
+    try:
+        port = int(port_text)
+    except ValueError:
+        raise InputError(f"'{address}' has no port; expected tcp://host:port, e.g. "
+                         "tcp://10.0.0.5:8786", key="address") from None
+    expected = "expected the address of a running Dask scheduler (tcp://host:port)"
+    try:
+        conn = socket.create_connection((host or "127.0.0.1", port), timeout=timeout_s)
+    except OSError as exc:
+        reason = "timed out" if isinstance(exc, TimeoutError) else exc.strerror or str(exc)
+        raise InputError(f"cannot reach a Dask scheduler at {address} ({reason}); {expected}",
+                         key="address") from None
+    with conn:
+        try:
+            conn.settimeout(timeout_s)
+            head = _receive(conn, 8)
+            size = struct.unpack("<Q", head)[0] if len(head) == 8 else 0
+            body = _receive(conn, size) if 0 < size <= _MAX_GREETING_BYTES else b""
+        except TimeoutError:
+            raise InputError(f"{address} accepts connections but sent no Dask greeting within "
+                             f"{timeout_s:g} s (an HTTP server or another service?); {expected}",
+                             key="address") from None
+        except OSError as exc:
+            raise InputError(f"{address} closed the connection ({exc.strerror or exc}); "
+                             f"{expected}", key="address") from None
+    if b"pickle-protocol" not in body:
+        raise InputError(f"{address} does not speak the Dask protocol (it sent "
+                         f"{head[:8]!r}…); {expected}", key="address")
+
+
+def _receive(conn: socket.socket, n: int) -> bytes:
+    """Up to ``n`` bytes from ``conn`` (fewer if the peer closes)."""
+    chunks, got = [], 0
+    while got < n:
+        chunk = conn.recv(n - got)
+        if not chunk:
+            break
+        chunks.append(chunk)
+        got += len(chunk)
+    return b"".join(chunks)
+
+
 @contextmanager
 def dask_client(engine: Engine) -> Iterator[Any]:
     """A :class:`distributed.Client` for the engine; a local cluster is closed on exit."""
@@ -182,6 +254,7 @@ def dask_client(engine: Engine) -> Iterator[Any]:
         raise InputError("dask.distributed is not installed; install bandpert's dependencies "
                          "or run serially (Engine(kind='serial'))", key="engine") from exc
     if engine.kind == "scheduler":
+        check_scheduler(engine.address)
         try:
             client = Client(engine.address, timeout=CONNECT_TIMEOUT)
         except (OSError, TimeoutError, ValueError) as exc:
