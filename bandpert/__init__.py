@@ -3,7 +3,7 @@
 The library is usable without the command line::
 
     from bandpert import load_material, compute_band_structure
-    bs = compute_band_structure(load_material("materials/silicon.toml"))
+    bs = compute_band_structure(load_material("silicon"))
 """
 
 from importlib.metadata import PackageNotFoundError, version

@@ -2,13 +2,12 @@
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import pytest
 
+from bandpert.data import MATERIALS_DIR
 from bandpert.input.material import Material, load_material, parse_material
 
-MATERIALS = Path(__file__).resolve().parent.parent / "materials"
+MATERIALS = MATERIALS_DIR / "planewave"
 
 
 def make_material(lattice: dict, atoms: list[dict], potential: dict, **extra) -> Material:

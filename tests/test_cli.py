@@ -19,11 +19,12 @@ import typer
 import bandpert.cli.app as cli
 import bandpert.cli.commands.bands as bands_command
 import bandpert.cli.options as options
+from bandpert.data import MATERIALS_DIR
 from bandpert.input.material import load_material
 from bandpert.planewave.model import build_model
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
-MATERIALS = Path(__file__).resolve().parents[1] / "materials"
+MATERIALS = MATERIALS_DIR / "planewave"
 CHAIN = MATERIALS / "cosine-chain.toml"
 N_K = 30
 
@@ -341,13 +342,12 @@ def test_check_3d_material():
 # masses and kp
 # ---------------------------------------------------------------------------------------------
 
-MATERIALS_DIR = CHAIN.parent
 
 
 def test_masses_and_kp_close_the_loop(tmp_path):
     # masses on the zincblende model writes its JSON and the k·p file it implies; kp reads that
     # file back and draws the k·p bands beside the plane-wave ones (internal consistency).
-    gaas = MATERIALS_DIR / "gallium-arsenide.toml"
+    gaas = MATERIALS / "gallium-arsenide.toml"
     kp_file = tmp_path / "implied-kp.toml"
     code, out, err = run(["masses", str(gaas), "--out", str(tmp_path), "--write-kp",
                           str(kp_file)])
@@ -371,19 +371,19 @@ def test_masses_and_kp_close_the_loop(tmp_path):
 
 
 def test_masses_of_a_metal_need_a_point(tmp_path):
-    code, _, err = run(["masses", str(MATERIALS_DIR / "aluminium.toml"), "--out",
+    code, _, err = run(["masses", str(MATERIALS / "aluminium.toml"), "--out",
                         str(tmp_path)])
     assert_user_error(code, err, "--point")
 
 
 def test_kp_rejects_a_bad_model_name(tmp_path):
-    code, _, err = run(["kp", str(MATERIALS_DIR / "gallium-arsenide-kp.toml"), "--model",
+    code, _, err = run(["kp", str(MATERIALS_DIR / "kp" / "gallium-arsenide.toml"), "--model",
                         "nine-band", "--out", str(tmp_path)])
     assert_user_error(code, err, "--model")
 
 
 def test_warnings_are_one_line_each_and_the_run_succeeds(tmp_path):
-    code, _, err = run(["bands", str(MATERIALS_DIR / "square-demo.toml"), "--out", str(tmp_path),
+    code, _, err = run(["bands", str(MATERIALS / "square-demo.toml"), "--out", str(tmp_path),
                         "--cutoff-eV", "15", "--bands", "3", "--k-points", "20",
                         "--radius-points", "0"])
     assert code == 0
@@ -453,3 +453,14 @@ def test_library_messages_name_options_in_library_terms():
 def test_library_errors_are_shown_with_their_flags(args, line, tmp_path):
     code, _, err = run([*args, "--out", str(tmp_path)])
     assert_user_error(code, err, line)
+
+
+def test_bundled_materials_are_found_by_name(tmp_path):
+    # `bandpert check silicon` reads the bundled file (package data); a path still works.
+    code, out, err = run(["check", "silicon"])
+    assert code == 0, err
+    assert "fcc (3D), a = 5.43 Å" in out
+    code, _, err = run(["kp", "gallium-arsenide", "--out", str(tmp_path)])
+    assert code == 0, err  # the k·p file of that name, not the plane-wave one
+    code, _, err = run(["check", "unobtainium"])
+    assert_user_error(code, err, "unobtainium", "silicon", "germanium")

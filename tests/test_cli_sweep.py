@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import json
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -11,9 +10,10 @@ import scipy.special
 from test_cli import assert_user_error, no_dot_files, run
 
 import bandpert.cli.options as options
+from bandpert.data import MATERIALS_DIR
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
-MATERIALS = Path(__file__).resolve().parents[1] / "materials"
+MATERIALS = MATERIALS_DIR / "planewave"
 CHAIN = MATERIALS / "cosine-chain.toml"
 SILICON = MATERIALS / "silicon.toml"
 V1_RANGE = "potential.coefficients[0].value=0.2:2.0:4"

@@ -22,6 +22,7 @@ from hypothesis import strategies as st
 from test_material import to_toml
 
 from bandpert import kp
+from bandpert.data import MATERIALS_DIR
 from bandpert.errors import InputError
 from bandpert.input.kp_file import KPMaterial, load_kp_material, parse_kp_material
 from bandpert.kp import (
@@ -46,9 +47,9 @@ from bandpert.kp import (
 )
 from bandpert.units import HBAR2_OVER_2M0_EV_A2 as C
 
-MATERIALS = Path(__file__).resolve().parents[1] / "materials"
-GAAS = load_kp_material(MATERIALS / "gallium-arsenide-kp.toml")
-INP = load_kp_material(MATERIALS / "indium-phosphide-kp.toml")
+MATERIALS = MATERIALS_DIR / "kp"
+GAAS = load_kp_material(MATERIALS_DIR / "kp" / "gallium-arsenide.toml")
+INP = load_kp_material(MATERIALS_DIR / "kp" / "indium-phosphide.toml")
 BOTH = [GAAS, INP]
 IDS = ["GaAs", "InP"]
 
@@ -450,7 +451,7 @@ def test_models_refuse_missing_parameters_in_code():
 # ---------------------------------------------------------------------------------------------
 
 FILE_NAME = "broken-kp.toml"
-VALID = tomllib.loads((MATERIALS / "gallium-arsenide-kp.toml").read_text(encoding="utf-8"))
+VALID = tomllib.loads((MATERIALS_DIR / "kp" / "gallium-arsenide.toml").read_text(encoding="utf-8"))
 
 
 def _put(*path_and_value):
@@ -575,7 +576,7 @@ def test_parse_refuses_a_non_table():
 
 
 def test_every_bundled_kp_file_loads():
-    files = sorted(MATERIALS.glob("*-kp.toml"))
+    files = sorted(MATERIALS.glob("*.toml"))
     assert len(files) >= 2
     for path in files:
         material = load_kp_material(path)

@@ -21,6 +21,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from bandpert.cli.app import main
+from bandpert.data import MATERIALS_DIR
 from bandpert.errors import InputError
 from bandpert.input.material import (
     LATTICE_TYPES,
@@ -33,7 +34,7 @@ from bandpert.input.material import (
 )
 from bandpert.units import ENERGY_UNITS_TO_EV
 
-MATERIALS = Path(__file__).resolve().parents[1] / "materials"
+MATERIALS = MATERIALS_DIR / "planewave"
 FILE_NAME = "broken-material.toml"
 
 # ---------------------------------------------------------------------------------------------

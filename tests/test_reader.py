@@ -8,6 +8,7 @@ from pathlib import Path
 import pytest
 
 from bandpert.cli.app import main
+from bandpert.data import MATERIALS_DIR
 from bandpert.errors import InputError
 from bandpert.input import kp_file, material
 from bandpert.input.reader import (
@@ -20,7 +21,7 @@ from bandpert.input.reader import (
 )
 
 ROOT = Path(__file__).resolve().parents[1]
-MATERIALS = ROOT / "materials"
+MATERIALS = MATERIALS_DIR / "planewave"
 
 DEEP_ARRAY = "a = " + "[" * 5000 + "]" * 5000 + "\n"
 DEEP_TABLE = "a = " + "{b = " * 3000 + "1" + "}" * 3000 + "\n"

@@ -9,6 +9,7 @@ import numpy as np
 import pytest
 from conftest import MATERIALS
 
+from bandpert.data import MATERIALS_DIR
 from bandpert.errors import InputError
 from bandpert.input.material import parse_material, read_toml_document
 from bandpert.physics.bands import compute_band_structure, exact_energies
@@ -322,7 +323,7 @@ def test_model_at_each_point_uses_the_reported_cutoff(si_doc, si_lattice_sweep):
 def test_kp_sweep_of_the_kane_energy_follows_the_kane_mass_formula():
     # Eight-band conduction mass at Γ: m0/m* = 1 + 2F + (Ep/3) [2/Eg + 1/(Eg + Δso)]
     # (Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001), eq. 2.15; from memory).
-    path = str(MATERIALS / "gallium-arsenide-kp.toml")
+    path = str(MATERIALS_DIR / "kp" / "gallium-arsenide.toml")
     doc = read_toml_document(path)
     spec, reference, note = prepare(doc, path, (parse_axis("parameters.Ep_eV=20:30:6"),))
     assert spec.kind == "k·p" and "k·p parameters" in note
@@ -343,7 +344,7 @@ def test_kp_sweep_of_the_kane_energy_follows_the_kane_mass_formula():
 
 
 def test_kp_sweep_refuses_strain():
-    path = str(MATERIALS / "gallium-arsenide-kp.toml")
+    path = str(MATERIALS_DIR / "kp" / "gallium-arsenide.toml")
     with pytest.raises(InputError) as exc:
         prepare(read_toml_document(path), path, (parse_axis("strain.xx=0:0.01:2"),))
     assert exc.value.key == "axes"

@@ -47,6 +47,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from ..data import find_material
 from ..errors import InputError
 from ..kp import (
     MODEL_NAMES,
@@ -231,5 +232,6 @@ def load_kp_material(path: str | Path) -> KPMaterial:
     InputError
         If the file cannot be read, is not UTF-8 TOML, or fails validation.
     """
+    path = find_material(path, "kp")  # a bundled name works too
     doc = read_toml_document(path, "a k·p parameter TOML file")
     return parse_kp_material(doc, str(path))

@@ -19,6 +19,7 @@ from typing import Any
 
 import numpy as np
 
+from ..data import find_material
 from ..errors import InputError
 from ..units import ENERGY_UNITS_TO_EV
 from .reader import (
@@ -589,7 +590,8 @@ def load_material(path: str | Path) -> Material:
     Parameters
     ----------
     path : str or pathlib.Path
-        A TOML file in the bandpert material schema (README, "Material files").
+        A TOML file in the bandpert material schema (README, "Material files"), or the
+        name of a bundled one (``"silicon"``, :func:`bandpert.data.find_material`).
 
     Returns
     -------
@@ -600,4 +602,5 @@ def load_material(path: str | Path) -> Material:
     InputError
         If the file cannot be read, is not TOML, or fails validation.
     """
+    path = find_material(path, "planewave")
     return parse_material(read_toml_document(path), str(path))

@@ -187,11 +187,11 @@ def check_scheduler(address: str, timeout_s: float = PROBE_TIMEOUT_S) -> None:
 
     A Dask server speaks first: on a new TCP connection it sends its handshake, a message framed
     as an 8-byte little-endian byte count followed by msgpack frames holding, among others, its
-    ``pickle-protocol`` (distributed's ``comm/tcp.py`` and ``comm/core.py``; common practice, no
-    source beyond the library). A service that stays silent (an HTTP server waits for a request)
-    or sends anything else is refused here, in one line, instead of hanging the client or making
-    it allocate a "message" of absurd size. Only ``tcp://`` (or scheme-less) addresses are
-    checked; other transports go straight to the client.
+    ``compression`` and ``python`` entries (distributed's ``comm/tcp.py`` and ``comm/core.py``;
+    common practice, no source beyond the library). A service that stays silent (an HTTP
+    server waits for a request) or sends anything else is refused here, in one line, instead
+    of hanging the client or making it allocate a "message" of absurd size. Only ``tcp://``
+    (or scheme-less) addresses are checked; other transports go straight to the client.
 
     Raises
     ------
@@ -228,7 +228,7 @@ def check_scheduler(address: str, timeout_s: float = PROBE_TIMEOUT_S) -> None:
         except OSError as exc:
             raise InputError(f"{address} closed the connection ({exc.strerror or exc}); "
                              f"{expected}", key="address") from None
-    if b"pickle-protocol" not in body:
+    if b"compression" not in body or b"python" not in body:
         raise InputError(f"{address} does not speak the Dask protocol (it sent "
                          f"{head[:8]!r}…); {expected}", key="address")
 

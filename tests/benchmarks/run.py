@@ -33,6 +33,7 @@ from threadpoolctl import threadpool_info, threadpool_limits
 
 import bandpert
 from bandpert.crystal.lattice import sample_path, standard_path
+from bandpert.data import MATERIALS_DIR
 from bandpert.input.material import load_material
 from bandpert.io import write_json
 from bandpert.physics import masses
@@ -54,7 +55,7 @@ ALUMINIUM_SCAN_EV = (325.0, 600.0, 800.0)  # 229, 537 and 869 plane waves
 
 def case(name: str, cutoff_eV: float | None, n_k: int = N_K):
     """(material, model, k-points, bands) of a bundled material along its standard path."""
-    material = load_material(ROOT / "materials" / f"{name}.toml")
+    material = load_material(MATERIALS_DIR / "planewave" / f"{name}.toml")
     n_bands = default_bands(material)
     cutoff = cutoff_eV or material.cutoff_eV or converged_cutoff(material, n_bands)
     model = build_model(material, cutoff)
@@ -170,12 +171,12 @@ def dask_speedup(reps: int, say: Callable[..., None]) -> tuple[dict, list[tuple[
     from bandpert.runs.mesh_dos import compute_dos
     from bandpert.runs.sweep import parse_axis, prepare, run_sweep
 
-    doc = read_toml_document(ROOT / "materials" / "silicon.toml")
+    doc = read_toml_document(MATERIALS_DIR / "planewave" / "silicon.toml")
     spec, _, _ = prepare(doc, "silicon.toml", (parse_axis("lattice.a_A=5.30:5.56:24"),),
                          ("edges", "gaps"), n_k=60)
     spec_m, _, _ = prepare(doc, "silicon.toml", (parse_axis("lattice.a_A=5.30:5.56:12"),),
                            ("edges", "masses"), n_k=40)
-    aluminium = load_material(ROOT / "materials" / "aluminium.toml")
+    aluminium = load_material(MATERIALS_DIR / "planewave" / "aluminium.toml")
     clusters = {n: local_cluster(n) for n in (1, 2)}
     results: dict = {}
     rows = []

@@ -12,8 +12,10 @@ import subprocess
 import sys
 from pathlib import Path
 
+from bandpert.data import MATERIALS_DIR
+
 HERE = Path(__file__).resolve().parent
-MATERIALS = HERE.parent.parent / "materials"
+MATERIALS = MATERIALS_DIR / "planewave"
 
 # name -> command-line arguments after `bandpert`; {m} is the materials folder.
 CASES: dict[str, list[str]] = {
@@ -27,8 +29,8 @@ CASES: dict[str, list[str]] = {
     "gaps-silicon-X": ["gaps", "{m}/silicon.toml", "--point", "X", "--k-points", "20"],
     "masses-silicon": ["masses", "{m}/silicon.toml"],
     "masses-gaas": ["masses", "{m}/gallium-arsenide.toml"],
-    "kp-gaas": ["kp", "{m}/gallium-arsenide-kp.toml"],
-    "kp-inp": ["kp", "{m}/indium-phosphide-kp.toml"],
+    "kp-gaas": ["kp", "gallium-arsenide"],
+    "kp-inp": ["kp", "indium-phosphide"],
     "fullzone-silicon": ["fullzone", "{m}/silicon.toml", "--k-points", "16"],
     "dos-aluminium": ["dos", "{m}/aluminium.toml", "--mesh", "6", "--engine", "serial"],
     "sweep-silicon": ["sweep", "{m}/silicon.toml", "--vary", "lattice.a_A=5.40:5.46:2",

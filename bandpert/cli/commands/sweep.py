@@ -9,6 +9,7 @@ import numpy as np
 import typer
 from rich.table import Table
 
+from ...data import find_material
 from ...errors import InputError
 from ...input.material import read_toml_document
 from ...io import write_json, write_table
@@ -98,8 +99,8 @@ def sweep(
         raise InputError(f"expected a positive temperature in K, got {temperature}",
                          key="--temperature")
     run_on = engine_from_options(engine, workers, scheduler)
-    doc = read_toml_document(file)
-    end = None if alloy_end is None else read_toml_document(alloy_end)
+    doc = read_toml_document(find_material(file))
+    end = None if alloy_end is None else read_toml_document(find_material(alloy_end))
     spec, reference, note = prepare(
         doc, str(file), axes, quantities=tuple(quantity or ("edges", "gaps")),
         points=tuple(point) if point else None, n_k=k_points, n_bands=n_bands,
