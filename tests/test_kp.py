@@ -27,6 +27,7 @@ from bandpert.errors import InputError
 from bandpert.input.kp_file import KPMaterial, load_kp_material, parse_kp_material
 from bandpert.kp import (
     KPParameters,
+    analyse_kp_material,
     bands_along,
     conduction_inverse_mass,
     eight_band_model,
@@ -389,6 +390,29 @@ def test_eight_band_nonparabolicity():
     spherical = eight_band_model(dataclasses.replace(GAAS.parameters, gamma3=2.06))
     iso = [nonparabolicity(spherical, d).alpha_per_eV for d in ("001", "110", "111")]
     assert iso == pytest.approx([alpha["001"]] * 3, rel=1e-6)
+
+
+def test_analysis_names_both_nonparabolicities():
+    """The analysis of the GaAs file reports the model's own α and Kane's (1 − m*/m0)²/Eg
+    apart: with m* = 0.067 and Eg = 1.519 eV (source: Vurgaftman, Meyer & Ram-Mohan, J. Appl.
+    Phys. 89, 5815 (2001), Table III) Kane's is 0.573 /eV (source: Kane, J. Phys. Chem. Solids
+    1, 249 (1957); from memory); the two-band model with remote-band terms gives 0.488 /eV."""
+    result = analyse_kp_material(GAAS, k_max_frac=0.05)
+    assert tuple(result.models) == GAAS.models
+    two, eight = result.models["two-band"], result.models["eight-band"]
+    assert two.kane_alpha_per_eV == pytest.approx((1 - 0.067) ** 2 / 1.519, rel=1e-3)
+    assert eight.kane_alpha_per_eV == pytest.approx(0.573, abs=0.001)
+    assert two.nonparabolicity.alpha_per_eV == pytest.approx(0.488, abs=0.001)
+    assert "Kane" in two.kane_alpha_source and "1957" in two.kane_alpha_source
+    assert result.models["six-band"].nonparabolicity is None
+    assert result.models["six-band"].kane_alpha_per_eV is None
+    # masses along [001] in the analysis are the six-band model's γ1 ∓ 2γ2 (Luttinger 1956)
+    p = GAAS.parameters
+    assert result.models["six-band"].masses_m0["[001]"]["heavy hole"] == pytest.approx(
+        1 / (p.gamma1 - 2 * p.gamma2), rel=1e-9)
+    assert result.models["eight-band"].lines["[111]"].k_frac[-1] == pytest.approx(0.05)
+    with pytest.raises(InputError):
+        analyse_kp_material(GAAS, k_max_frac=0.7)
 
 
 @given(k=vectors, turn=directions)

@@ -135,13 +135,14 @@ def test_star_sizes_in_fcc():
 
 
 def test_valence_triplet_dkk_parameters_match_the_exact_bands(silicon_edges):
-    # The spinless Γ25' triplet: along [100] the curvatures are {L, M, M}, along [111]
-    # {(L+2M+2N)/3, (L+2M−N)/3 twice} (source: Dresselhaus, Kip & Kittel, Phys. Rev. 98, 368
-    # (1955)).
+    # The spinless Γ25' triplet: along [100] the curvatures are 1 + {L, M, M}, along [111]
+    # 1 + {(L+2M+2N)/3, (L+2M−N)/3 twice}, L, M, N the usual DKK parameters and 1 the
+    # free-electron term (source: Dresselhaus, Kip & Kittel, Phys. Rev. 98, 368 (1955)).
     # Checked against finite differences of the exact bands along each direction.
     bs, _, val = silicon_edges
     assert list(val.degenerate_bands) == [1, 2, 3]
     big_l, big_m, big_n = val.edge.dkk_LMN
+    big_l, big_m = big_l + 1, big_m + 1  # the curvatures include the free-electron term
     model = bs.model
     h = 0.004
     for name, expected in (("[100]", [big_l, big_m, big_m]),
@@ -156,7 +157,7 @@ def test_valence_triplet_dkk_parameters_match_the_exact_bands(silicon_edges):
         fd = np.sort((4 * c_h - c_2h) / 3)
         assert np.allclose(fd, np.sort(expected), rtol=2e-3, atol=2e-3)
     g1, g2, g3 = val.edge.luttinger
-    assert g1 == pytest.approx(-(big_l + 2 * big_m) / 3)
+    assert g1 == pytest.approx(-(big_l + 2 * big_m) / 3)  # = −1 − (L + 2M)/3, usual L, M
     assert g2 == pytest.approx(-(big_l - big_m) / 6)
     assert g3 == pytest.approx(-big_n / 6)
     # the spinless 1966 model against the silicon Luttinger parameters γ1 = 4.28, γ2 = 0.34,

@@ -40,6 +40,7 @@ from .hamiltonians import (
     two_band_model,
 )
 from .parameters import (
+    KANE_NONPARABOLICITY_SOURCE,
     MODEL_NAMES,
     REQUIRED_PARAMETERS,
     KPParameters,
@@ -64,6 +65,7 @@ __all__ = [
     "DEFAULT_NONPARABOLICITY_KMAX_INVA",
     "EIGHT_BAND_BASIS",
     "ENERGY_ZERO",
+    "KANE_NONPARABOLICITY_SOURCE",
     "MODEL_NAMES",
     "REQUIRED_PARAMETERS",
     "SIX_BAND_BASIS",

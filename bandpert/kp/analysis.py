@@ -19,7 +19,7 @@ from ..errors import InputError
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 from .bands import DirectionalBands, bands_along
 from .hamiltonians import ENERGY_ZERO, KPModel
-from .parameters import KPParameters, unit_vector
+from .parameters import KANE_NONPARABOLICITY_SOURCE, KPParameters, kane_nonparabolicity, unit_vector
 
 if TYPE_CHECKING:  # annotation only: input.kp_file imports this package to build its models
     from ..input.kp_file import KPMaterial
@@ -293,7 +293,11 @@ class ModelAnalysis:
     masses_m0 : dict
         Direction label → band name → band-edge mass (m0, positive; Kramers pairs averaged).
     nonparabolicity : Nonparabolicity or None
-        The conduction band's along [001] (two- and eight-band models).
+        The conduction band's along [001] (two- and eight-band models): the model's own α, with
+        its remote-band terms.
+    kane_alpha_per_eV : float or None
+        Kane's α = (1 − m*/m0)²/Eg for the same edge mass m* (bare free-electron k² terms;
+        :data:`~bandpert.kp.parameters.KANE_NONPARABOLICITY_SOURCE`), for comparison.
     lines : dict
         Direction label → :class:`~bandpert.kp.bands.DirectionalBands` from Γ.
     """
@@ -302,7 +306,9 @@ class ModelAnalysis:
     gamma_energies_eV: FloatArray
     masses_m0: dict[str, dict[str, float]]
     nonparabolicity: Nonparabolicity | None
+    kane_alpha_per_eV: float | None
     lines: dict[str, DirectionalBands]
+    kane_alpha_source: str = KANE_NONPARABOLICITY_SOURCE
 
 
 @dataclass(frozen=True, eq=False)
@@ -367,8 +373,10 @@ def analyse_kp_material(kpm: KPMaterial, models: tuple[str, ...] | None = None,
         masses = {label: masses_at_gamma(model, d).as_dict()
                   for label, d in CUBIC_DIRECTIONS.items()}
         npb = nonparabolicity(model, "001") if "conduction" in model.band_names else None
+        kane = (None if npb is None
+                else kane_nonparabolicity(npb.edge_mass_m0, kpm.parameters.Eg_eV))
         lines = {label: bands_along(model, d, k_max_frac=k_max_frac, n_k=n_k)
                  for label, d in CUBIC_DIRECTIONS.items()}
-        out[name] = ModelAnalysis(name, model.gamma_energies_eV, masses, npb, lines)
+        out[name] = ModelAnalysis(name, model.gamma_energies_eV, masses, npb, kane, lines)
     return KPAnalysis(kpm.name, kpm.source, kpm.parameters, dict(kpm.reference_masses_m0),
                       out, float(k_max_frac))

@@ -51,6 +51,7 @@ import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 __all__ = [
+    "KANE_NONPARABOLICITY_SOURCE",
     "MODEL_NAMES",
     "REQUIRED_PARAMETERS",
     "KPParameters",
@@ -240,9 +241,17 @@ def two_band_coupling_eV(Eg_eV: float, Delta_so_eV: float, Ep_eV: float) -> floa
 
 
 
+#: Where Kane's nonparabolicity (1 − m*/m0)²/Eg comes from (:func:`kane_nonparabolicity`).
+KANE_NONPARABOLICITY_SOURCE = "E. O. Kane, J. Phys. Chem. Solids 1, 249 (1957)"
+
+
 def kane_nonparabolicity(m_e_m0: float, Eg_eV: float) -> float:
-    """Kane's two-band nonparabolicity α = (1 − m*/m0)²/Eg, in 1/eV (Kane 1957, the
-    two-band result for E(1 + αE) = ħ²k²/2m*; from memory)."""
+    """Kane's two-band nonparabolicity α = (1 − m*/m0)²/Eg, in 1/eV.
+
+    The two-band result for ε(1 + αε) = ħ²k²/2m* with bare free-electron k² terms on both
+    bands (Kane, J. Phys. Chem. Solids 1, 249 (1957); from memory). A model with remote-band
+    terms has its own α (:func:`bandpert.kp.analysis.nonparabolicity`), which differs.
+    """
     return (1.0 - m_e_m0) ** 2 / Eg_eV
 
 

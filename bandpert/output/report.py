@@ -12,6 +12,7 @@ import numpy as np
 
 from .. import __version__
 from ..input.material import Material
+from ..kp.parameters import dkk_with_free_electron
 from ..physics.bands import BandStructure
 
 
@@ -346,6 +347,8 @@ def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any
             "dkk_L": None if e.dkk_LMN is None else e.dkk_LMN[0],
             "dkk_M": None if e.dkk_LMN is None else e.dkk_LMN[1],
             "dkk_N": None if e.dkk_LMN is None else e.dkk_LMN[2],
+            "dkk_LMN_with_free_electron": (None if e.dkk_LMN is None
+                                           else list(dkk_with_free_electron(*e.dkk_LMN))),
             "luttinger_gamma": None if e.luttinger is None else list(e.luttinger),
             "direction_inverse_masses": {k: v for k, v in e.direction_curvatures.items()},
             "direction_masses_m0": {k: _finite_or_none(1.0 / np.abs(v))[0] for k, v in
@@ -378,7 +381,9 @@ def kp_results(analysis, exact=None) -> dict[str, Any]:
                                  "energies_at_gamma_eV": m.gamma_energies_eV}
         if m.nonparabolicity is not None:
             entry["nonparabolicity"] = {"direction": "[001]",
-                                        "alpha_per_eV": m.nonparabolicity.alpha_per_eV,
+                                        "model_alpha_per_eV": m.nonparabolicity.alpha_per_eV,
+                                        "kane_alpha_per_eV": m.kane_alpha_per_eV,
+                                        "kane_alpha_source": m.kane_alpha_source,
                                         "edge_mass_m0": m.nonparabolicity.edge_mass_m0}
         models[name] = entry
     results: dict[str, Any] = {"models": models,

@@ -28,6 +28,7 @@ import scipy.linalg
 import scipy.optimize
 
 from ..errors import InputError
+from ..kp.parameters import luttinger_from_dkk
 from ..perturbation import lowdin_effective_hamiltonian
 from ..physics.bands import exact_energies
 from ..planewave.model import PlaneWaveModel
@@ -240,10 +241,10 @@ class DegenerateEdge:
         Direction label → ascending eigenvalues of H_eff(q)/(C q²) (m0/m* of each band along
         the direction, sign kept: negative for a maximum).
     dkk_LMN : tuple of float or None
-        Dresselhaus–Kip–Kittel L, M, N (units ħ²/2m0, free term included) for a threefold
-        cubic edge, None otherwise.
+        Dresselhaus–Kip–Kittel L, M, N as usually defined (units ħ²/2m0, the free-electron
+        term excluded; :mod:`bandpert.kp.parameters`) for a threefold cubic edge, else None.
     luttinger : tuple of float or None
-        γ1 = −(L + 2M)/3, γ2 = −(L − M)/6, γ3 = −N/6 (CONVENTIONS.md).
+        γ1 = −1 − (L + 2M)/3, γ2 = −(L − M)/6, γ3 = −N/6 (CONVENTIONS.md).
     """
 
     bands: np.ndarray
@@ -258,7 +259,8 @@ def degenerate_edge(states: Eigenstates, band: int) -> DegenerateEdge:
 
     Along u = [100], [110], [111] the eigenvalues of H_eff(q u)/(C q²) give each band's m0/m*.
     For a threefold edge of a cubic crystal (Γ25′/Γ15) the DKK form gives, with x̂ = [100]:
-    eigenvalues {L, M, M}; along [111]: {(L + 2M + 2N)/3, (L + 2M − N)/3 (twice)}
+    eigenvalues {1 + L, 1 + M, 1 + M}; along [111]: {1 + (L + 2M + 2N)/3, 1 + (L + 2M − N)/3
+    (twice)}, the 1 being the free-electron term
     (Dresselhaus, Kip & Kittel 1955), from which L, M and N follow independently of the
     basis the degenerate eigenvectors happen to come in.
     """
@@ -282,10 +284,10 @@ def degenerate_edge(states: Eigenstates, band: int) -> DegenerateEdge:
         c100, c111 = curv["[100]"], curv["[111]"]
         single100, double100 = _single_and_double(c100)
         single111, double111 = _single_and_double(c111)
-        big_l, big_m = single100, double100
+        big_l, big_m = single100 - 1.0, double100 - 1.0  # the usual L, M: free term removed
         big_n = single111 - double111  # (L+2M+2N)/3 − (L+2M−N)/3 = N
         lmn = (float(big_l), float(big_m), float(big_n))
-        lut = (-(big_l + 2 * big_m) / 3, -(big_l - big_m) / 6, -big_n / 6)
+        lut = luttinger_from_dkk(*lmn)
     return DegenerateEdge(bands=sub, energy_eV=float(states.energies_eV[band]),
                           direction_curvatures=curv, dkk_LMN=lmn,
                           luttinger=None if lut is None else tuple(float(x) for x in lut))

@@ -69,10 +69,16 @@ def kp(
     if kpm.parameters.Delta_so_eV == 0:
         out.print("Delta_so_eV = 0: Γ8 and Γ7 coincide, so the heavy/light/split-off names only "
                   "label the sorted curvatures of the threefold (spinless) valence top")
+    kane_source = None
     for name, entry in results["models"].items():
         if "nonparabolicity" in entry:
             npb = entry["nonparabolicity"]
-            out.print(f"{name}: conduction nonparabolicity α = {npb['alpha_per_eV']:.3f} /eV "
-                      f"along [001] (edge mass {npb['edge_mass_m0']:.4f} m0)")
+            kane_source = npb["kane_alpha_source"]
+            out.print(f"{name}: conduction nonparabolicity along [001] (m* = "
+                      f"{npb['edge_mass_m0']:.4f} m0): the model's own α = "
+                      f"{npb['model_alpha_per_eV']:.3f} /eV; Kane's (1 − m*)²/Eg = "
+                      f"{npb['kane_alpha_per_eV']:.3f} /eV")
+    if kane_source:
+        out.print(f"Kane's α: bare free-electron k² terms, {kane_source}")
     out.print(f"wrote {image}, {json_path}")
 

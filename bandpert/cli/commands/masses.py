@@ -131,7 +131,10 @@ def _masses_table(m, location: str, zero_eV: float) -> None:
         e = m.edge
         if e.dkk_LMN is not None:
             big_l, big_m, big_n = e.dkk_LMN
-            table.add_row("DKK L, M, N (ħ²/2m0)", f"{big_l:.3f}, {big_m:.3f}, {big_n:.3f}")
+            table.add_row("DKK L, M, N (ħ²/2m0)", f"{big_l:.3f}, {big_m:.3f}, {big_n:.3f} (usual: "
+                          "free-electron term excluded)")
+            table.add_row("  alternative L, M, N", f"{big_l + 1:.3f}, {big_m + 1:.3f}, "
+                          f"{big_n:.3f} (free-electron term included)")
             g1, g2, g3 = e.luttinger
             table.add_row("Luttinger γ1, γ2, γ3", f"{g1:.3f}, {g2:.3f}, {g3:.3f} (spinless "
                           "triplet; Γ8 hole formulas need spin–orbit)")
