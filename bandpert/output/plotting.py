@@ -386,15 +386,16 @@ def fullzone_figure(bs: BandStructure, convergence, shown_index: int | None = No
     ----------
     bs : BandStructure
         Exact bands along the path.
-    convergence : bandpert.fullzone.KpConvergence
+    convergence : bandpert.physics.fullzone.KpConvergence
     shown_index : int, optional
-        Which basis size to draw in the band panel (default: the largest truncated one).
+        Which basis size to draw in the band panel (default: ``convergence.shown_index``, a
+        truncated size whose error is visible beside the exact bands).
     """
     fig = Figure(figsize=(9.6, 4.4), layout="constrained")
     ax, ax_c = fig.subplots(1, 2, gridspec_kw={"width_ratios": [2.2, 1]})
     _draw_bands_panel(ax, bs, None)
     sizes = convergence.basis_sizes
-    i = shown_index if shown_index is not None else max(0, len(sizes) - 2)
+    i = shown_index if shown_index is not None else convergence.shown_index
     x = bs.path.distance_invA
     e = convergence.energies_eV[i] - bs.energy_zero_eV
     lines = ax.plot(x, e, ls="--", lw=1.0, color=NONDEGENERATE_COLOUR)

@@ -400,7 +400,9 @@ def fullzone_results(result) -> dict[str, Any]:
     """The ``results`` of ``bandpert fullzone`` (a
     :class:`bandpert.physics.fullzone.FullZoneResult`; keys documented in the README)."""
     bs, conv = result.exact, result.convergence
-    return {"basis_sizes": conv.basis_sizes, "max_error_eV": conv.max_error_eV,
+    return {"basis_sizes": conv.basis_sizes, "requested_basis_sizes": conv.requested_sizes,
+            "shown_basis_size": int(conv.basis_sizes[conv.shown_index]),
+            "max_error_eV": conv.max_error_eV,
             "rms_error_eV": conv.rms_error_eV, "k_frac": bs.path.k_frac,
             "exact_energies_eV": bs.energies_eV, "kp_energies_eV": conv.energies_eV,
             "energy_zero_eV": bs.energy_zero_eV}

@@ -7,6 +7,12 @@ In the basis of the lowest N eigenstates |n⟩ of H(k0), the plane-wave Hamilton
 with π_nm = p_nm/ħ (see :mod:`bandpert.physics.masses`). Keeping every basis state it is a unitary
 transform of the plane-wave H(k0 + q) and gives the exact bands; truncating to N states is the
 full-zone k·p method of Cardona & Pollak, Phys. Rev. 142, 530 (1966).
+
+A truncated basis must hold whole multiplets of H(k0): keeping part of a degenerate level picks
+an arbitrary combination of its states and breaks the crystal's symmetry (silicon at Γ: levels
+29–31 at 54.4575 eV; 30 states put the three equivalent Δ points (½, 0, 0), (0, ½, 0),
+(0, 0, ½)·2π/a up to 4.4 meV apart). :func:`close_multiplets` rounds each requested size up to
+the end of its multiplet.
 """
 
 from __future__ import annotations
@@ -62,6 +68,46 @@ def kp_basis_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis: 
     return out
 
 
+#: Levels of H(k0) closer than this (eV) form one multiplet when basis sizes are rounded. At Γ a
+#: cutoff basis holds whole stars of G, so H(Γ) has the crystal's full point group and its
+#: symmetry-required degeneracies hold to rounding (silicon, 259 plane waves: 4e-13 eV), while
+#: distinct levels lie further apart (silicon: 3.3 meV at the least). Merging two accidentally
+#: close levels only enlarges a basis, which costs nothing in accuracy.
+MULTIPLET_TOL_EV = 1e-6
+
+#: Γ states tried by default (each rounded up to close its multiplet).
+DEFAULT_BASIS_SIZES: tuple[int, ...] = (15, 30, 60, 120)
+
+#: The band figure shows the largest truncated basis whose error along the path is at least
+#: this (eV): large enough to see beside the exact bands, unlike a converged one that overlays
+#: them.
+VISIBLE_ERROR_EV = 0.05
+
+
+def close_multiplets(levels_eV: np.ndarray, sizes: np.ndarray | tuple[int, ...],
+                     tol_eV: float = MULTIPLET_TOL_EV) -> np.ndarray:
+    """Each basis size rounded up to the end of the multiplet its last state belongs to.
+
+    Parameters
+    ----------
+    levels_eV : numpy.ndarray
+        (n,) ascending levels of H(k0), all of them (the whole basis).
+    sizes : array_like of int
+        Requested numbers of states, 1 ≤ size ≤ n.
+    tol_eV : float
+        Consecutive levels closer than this are one multiplet.
+
+    Returns
+    -------
+    numpy.ndarray
+        (len(sizes),) sizes that end on a gap wider than ``tol_eV`` (or on n).
+    """
+    levels = np.asarray(levels_eV, dtype=float)
+    ends = np.append(np.flatnonzero(np.diff(levels) > tol_eV) + 1, levels.size)
+    wanted = np.asarray(sizes, dtype=int)
+    return ends[np.searchsorted(ends, wanted, side="left")]
+
+
 @dataclass(frozen=True)
 class KpConvergence:
     """Full-zone k·p bands against the exact ones as the basis grows.
@@ -69,34 +115,58 @@ class KpConvergence:
     Attributes
     ----------
     basis_sizes : numpy.ndarray
-        (n_s,) numbers of k0 eigenstates kept.
+        (n_s,) numbers of k0 eigenstates kept, each closing a multiplet of H(k0); the last is
+        the whole plane-wave basis.
+    requested_sizes : numpy.ndarray
+        The sizes asked for (sorted, without repeats).
+    rounded_sizes : numpy.ndarray
+        Each requested size rounded up to close its multiplet (:func:`close_multiplets`).
     max_error_eV : numpy.ndarray
         (n_s,) largest |E_kp − E_exact| over the path and the bands.
     rms_error_eV : numpy.ndarray
         (n_s,) root-mean-square error.
     energies_eV : numpy.ndarray
         (n_s, n_k, n_bands) the k·p bands.
+    shown_index : int
+        The size worth drawing beside the exact bands: the largest truncated one whose largest
+        error is at least :data:`VISIBLE_ERROR_EV`, else the smallest truncated one.
     """
 
     basis_sizes: np.ndarray
+    requested_sizes: np.ndarray
+    rounded_sizes: np.ndarray
     max_error_eV: np.ndarray
     rms_error_eV: np.ndarray
     energies_eV: np.ndarray
+    shown_index: int
 
 
 def kp_convergence(model: PlaneWaveModel, k0_cart_invA: np.ndarray, k_cart_invA: np.ndarray,
-                   n_bands: int, basis_sizes: tuple[int, ...] = (8, 15, 30, 60, 120),
-                   exact_eV: np.ndarray | None = None) -> KpConvergence:
-    """Convergence of full-zone k·p bands with the number of basis states (the whole plane-wave
-    basis is always added last, where the method is exact)."""
-    sizes = np.array(sorted({s for s in basis_sizes if n_bands <= s < model.size}
+                   n_bands: int, basis_sizes: tuple[int, ...] = DEFAULT_BASIS_SIZES,
+                   exact_eV: np.ndarray | None = None,
+                   tol_eV: float = MULTIPLET_TOL_EV) -> KpConvergence:
+    """Convergence of full-zone k·p bands with the number of basis states.
+
+    Each size is rounded up to close its multiplet of H(k0) (:func:`close_multiplets`); sizes
+    below ``n_bands`` are dropped; the whole plane-wave basis is always added last, where the
+    method is exact.
+    """
+    requested = np.unique(np.asarray(basis_sizes, dtype=int))
+    levels = exact_energies(model, np.atleast_2d(k0_cart_invA), model.size)[0]
+    closed = close_multiplets(levels, np.clip(requested, 1, model.size), tol_eV)
+    sizes = np.array(sorted({int(s) for s in closed if n_bands <= s < model.size}
                             | {model.size}))
     exact = exact_energies(model, k_cart_invA, n_bands) if exact_eV is None else exact_eV
     bands = np.array([kp_basis_energies(model, k0_cart_invA, s, k_cart_invA, n_bands)
                       for s in sizes])
     err = np.abs(bands - exact[None])
-    return KpConvergence(basis_sizes=sizes, max_error_eV=err.max(axis=(1, 2)),
-                         rms_error_eV=np.sqrt((err**2).mean(axis=(1, 2))), energies_eV=bands)
+    max_err = err.max(axis=(1, 2))
+    visible = np.flatnonzero(max_err[:-1] >= VISIBLE_ERROR_EV)
+    shown = int(visible[-1]) if visible.size else 0
+    return KpConvergence(basis_sizes=sizes, requested_sizes=requested, rounded_sizes=closed,
+                         max_error_eV=max_err,
+                         rms_error_eV=np.sqrt((err**2).mean(axis=(1, 2))), energies_eV=bands,
+                         shown_index=shown)
 
 
 @dataclass(frozen=True, eq=False)
@@ -115,7 +185,8 @@ class FullZoneResult:
     convergence: KpConvergence
 
 
-def full_zone_kp(material: Material, basis_sizes: tuple[int, ...], n_k: int = 120,
+def full_zone_kp(material: Material, basis_sizes: tuple[int, ...] = DEFAULT_BASIS_SIZES,
+                 n_k: int = 120,
                  n_bands: int | None = None) -> FullZoneResult:
     """Full-zone k·p from the Γ eigenstates along the whole path (Cardona & Pollak 1966).
 
@@ -123,7 +194,8 @@ def full_zone_kp(material: Material, basis_sizes: tuple[int, ...], n_k: int = 12
     ----------
     material : Material
     basis_sizes : tuple of int
-        Numbers of Γ eigenstates to keep (the whole plane-wave basis is added).
+        Numbers of Γ eigenstates to keep, each rounded up to close its multiplet (the whole
+        plane-wave basis is added).
     n_k : int
         Points along the path.
     n_bands : int, optional

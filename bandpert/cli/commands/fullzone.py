@@ -71,5 +71,11 @@ def fullzone(
                                strict=True):
         table.add_row(str(n), f"{1e3 * e_max:.3g}", f"{1e3 * e_rms:.3g}")
     out.print(table)
+    rounded = [f"{a} → {b}" for a, b in zip(conv.requested_sizes, conv.rounded_sizes,
+                                              strict=True) if a != b]
+    if rounded:
+        out.print("basis sizes rounded up to close degenerate Γ multiplets (a cut multiplet "
+                  "breaks the cubic symmetry): " + ", ".join(rounded))
+    out.print(f"figure: {conv.basis_sizes[conv.shown_index]} Γ states beside the exact bands")
     out.print(f"wrote {image}, {json_path}")
 
