@@ -13,6 +13,7 @@ import warnings
 import typer
 
 from ..errors import InputError, ModelWarning
+from ..io import all_or_nothing
 from .commands import bands, check, dos, fullzone, gaps, kp, masses, sweep
 from .options import error_line
 
@@ -53,12 +54,12 @@ def main(argv: list[str] | None = None) -> None:
 
     warnings.showwarning = show
     try:
-        code = command.main(args=args, prog_name="bandpert", standalone_mode=False)
-        if code == 130:  # click returns 130 for Ctrl-C
-            print("bandpert: interrupted; no partial output was left", file=sys.stderr)
-        else:
-            for text in dict.fromkeys(held):
-                print(text, file=sys.stderr)
+        with all_or_nothing():  # a command writes all its files or none
+            code = command.main(args=args, prog_name="bandpert", standalone_mode=False)
+            if code == 130:  # click returns 130 for Ctrl-C: discard the staged files
+                raise KeyboardInterrupt
+        for text in dict.fromkeys(held):
+            print(text, file=sys.stderr)
     except typer.Exit as exc:
         code = exc.exit_code
     except ClickException as exc:
@@ -75,7 +76,8 @@ def main(argv: list[str] | None = None) -> None:
     except Exception as exc:
         if debug:
             raise
-        print(f"bandpert: internal error ({exc.__class__.__name__}: {exc}); this is a bug, "
+        text = " ".join(str(exc).split())[:200]  # one line, whatever the exception says
+        print(f"bandpert: internal error ({exc.__class__.__name__}: {text}); this is a bug, "
               "rerun with --debug for the traceback", file=sys.stderr)
         code = 1
     sys.exit(code if isinstance(code, int) else 0)

@@ -57,7 +57,7 @@ from ..kp import (
     conduction_inverse_mass,
     make_model,
 )
-from .reader import TableReader, describe, read_header, read_toml_document
+from .reader import TableReader, check_range, describe, read_header, read_toml_document
 
 #: Crystal structures a k·p file may name (the models have no inversion-asymmetry terms, so
 #: both take the same Hamiltonians).
@@ -66,6 +66,28 @@ STRUCTURES: tuple[str, ...] = ("zincblende", "diamond")
 #: Keys of ``[parameters]``, all numbers.
 PARAMETER_KEYS: tuple[str, ...] = ("Eg_eV", "Delta_so_eV", "Ep_eV", "F", "gamma1", "gamma2",
                                    "gamma3")
+
+#: Accepted range of each parameter: (low, high, why). The ranges hold every tabulated
+#: zincblende and diamond crystal with a wide margin (Vurgaftman et al. 2001 list Eg 0.17–6.2 eV,
+#: Δso up to 0.8 eV, Ep 8–30 eV, |F| < 3, γ1 up to 35; from memory) and keep the models' matrices
+#: finite and their band-edge masses defined: below 1 meV a gap is numerically a degeneracy and
+#: the conduction mass m0/m* ∝ Ep/Eg runs past anything a k·p expansion describes.
+PARAMETER_RANGES: dict[str, tuple[float, float, str]] = {
+    "Eg_eV": (1e-3, 20.0, "eV; a gap below 1 meV is a degenerate level with no band-edge mass; "
+                          "inverted gaps are not supported"),
+    "Delta_so_eV": (0.0, 5.0, "eV; 0 means no spin–orbit coupling"),
+    "Ep_eV": (0.0, 100.0, "eV; it is 2m0P²/ħ², about 20–30 eV in tabulated crystals"),
+    "F": (-100.0, 100.0, "Kane's remote-band parameter, of order 1"),
+    "gamma1": (-1000.0, 1000.0, "Luttinger parameters are of order 1 to 40"),
+    "gamma2": (-1000.0, 1000.0, "Luttinger parameters are of order 1 to 40"),
+    "gamma3": (-1000.0, 1000.0, "Luttinger parameters are of order 1 to 40"),
+}
+
+#: Accepted cubic lattice constant, Å (tabulated zincblende and diamond crystals: 3.57–6.48 Å).
+LATTICE_CONSTANT_RANGE_A = (1.0, 20.0)
+
+#: Accepted tabulated masses, m0.
+REFERENCE_MASS_RANGE_M0 = (1e-4, 1e3)
 
 #: Keys of ``[reference]``, all positive masses in m0.
 REFERENCE_KEYS: tuple[str, ...] = ("m_e_m0", "m_so_m0")
@@ -146,12 +168,15 @@ def _read_parameters(r: TableReader) -> KPParameters:
     values: dict[str, float | None] = {}
     for key in PARAMETER_KEYS:
         values[key] = r.number(key, required=False, positive=key == "Eg_eV")
+        if key == "Delta_so_eV" and values[key] is not None and values[key] < 0:
+            raise r.fail(key, "must not be negative (0 means no spin–orbit coupling), got "
+                              f"{values[key]:g}")
+        if key == "Ep_eV" and values[key] is not None and values[key] < 0:
+            raise r.fail(key, f"must not be negative (it is 2m0P²/ħ²), got {values[key]:g}")
+        if values[key] is not None:
+            low, high, why = PARAMETER_RANGES[key]
+            check_range(values[key], (low, high), r, key, why)
     r.finish()
-    if values["Delta_so_eV"] is not None and values["Delta_so_eV"] < 0:
-        raise r.fail("Delta_so_eV", "must not be negative (0 means no spin–orbit coupling), got "
-                                    f"{values['Delta_so_eV']:g}")
-    if values["Ep_eV"] is not None and values["Ep_eV"] < 0:
-        raise r.fail("Ep_eV", f"must not be negative (it is 2m0P²/ħ²), got {values['Ep_eV']:g}")
     g1, g2, g3 = values["gamma1"], values["gamma2"], values["gamma3"]
     if None not in (g1, g2, g3):
         worst = "gamma2" if abs(g2) >= abs(g3) else "gamma3"
@@ -206,7 +231,8 @@ def parse_kp_material(doc: dict[str, Any], source: str = "") -> KPMaterial:
     listed = _read_models(r)
     lat = r.sub("lattice")
     structure = lat.string("structure", choices=STRUCTURES)
-    a = lat.number("a_A", positive=True)
+    a = lat.number("a_A", positive=True, bounds=LATTICE_CONSTANT_RANGE_A,
+                   meaning="Å; tabulated zincblende and diamond crystals have 3.5 to 6.5 Å")
     lat.finish()
     par = r.sub("parameters")
     params = _read_parameters(par)
@@ -215,7 +241,8 @@ def parse_kp_material(doc: dict[str, Any], source: str = "") -> KPMaterial:
     ref = r.sub("reference", required=False)
     if ref is not None:
         for key in REFERENCE_KEYS:
-            value = ref.number(key, required=False, positive=True)
+            value = ref.number(key, required=False, positive=True,
+                               bounds=REFERENCE_MASS_RANGE_M0, meaning="m0")
             if value is not None:
                 reference[key] = value
         ref.finish()

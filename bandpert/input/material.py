@@ -21,7 +21,7 @@ import numpy as np
 
 from ..data import find_material
 from ..errors import InputError
-from ..units import ENERGY_UNITS_TO_EV
+from ..units import ENERGY_UNITS_TO_EV, HBAR2_OVER_2M0_EV_A2
 from .reader import (
     TableReader,
     describe,
@@ -74,6 +74,27 @@ MAX_FRACTIONAL_COORDINATE = 1000.0
 #: Largest accepted magnitude of a Miller index of an explicit Fourier coefficient. Far beyond
 #: any basis the plane-wave model allows, and small enough for its integer index arithmetic.
 MAX_MILLER_INDEX = 100_000
+
+#: Longest accepted lattice length (lattice constants and vector lengths), Å. A longer period
+#: puts the first reciprocal shell below 4e-6 eV: every band energy would be a numerical
+#: rounding of the free-electron continuum.
+MAX_LATTICE_LENGTH_A = 1000.0
+
+#: Largest accepted |V| of a Fourier coefficient or form factor, as a multiple of the kinetic
+#: scale ħ²(2π/a)²/2m0 (silicon's strongest form factor is 0.56 of it). A stronger potential
+#: binds states on a length scale no plane-wave basis of at most :data:`MAX_BANDS` waves
+#: resolves; its bands would be numbers without meaning.
+MAX_POTENTIAL_RATIO = 100.0
+
+#: Largest number of bands, and of plane waves (the plane-wave model's own limit,
+#: ``bandpert.planewave.model.MAX_BASIS``: a 4000 × 4000 complex matrix is 256 MB).
+MAX_BANDS = 4000
+
+#: Largest accepted plane-wave cutoff, eV (7350 Ry): beyond any basis the tool builds.
+MAX_CUTOFF_EV = 1.0e5
+
+#: Largest |G|² of a listed form-factor shell, in (2π/a)²: far beyond any basis the tool builds.
+MAX_SHELL_G2 = 1.0e4
 
 #: Relative tolerance under which two |G|² shells count as the same shell.
 SHELL_MATCH_TOLERANCE = 1e-6
@@ -262,8 +283,17 @@ def _read_lattice(r: TableReader) -> tuple[str, int, np.ndarray, float]:
         vectors = np.array([number_list(v, r, "vectors_A", length=dim) for v in raw])
         a = r.number("a_A", required=False, positive=True,
                      default=float(np.linalg.norm(vectors[0])))
+        if np.max(np.abs(vectors)) > MAX_LATTICE_LENGTH_A:
+            raise r.fail("vectors_A", f"a component of {np.max(np.abs(vectors)):g} Å is outside "
+                                      f"the accepted range (at most {MAX_LATTICE_LENGTH_A:g} Å "
+                                      "per component; a longer period leaves no resolved bands)")
+        if a > MAX_LATTICE_LENGTH_A:
+            _length_range(r, "a_A", a)
     else:
         consts = {k: r.number(k, positive=k != "gamma_deg") for k in keys}
+        for k, value in consts.items():
+            if k != "gamma_deg" and value > MAX_LATTICE_LENGTH_A:
+                _length_range(r, k, value)
         if kind == "oblique" and not 0.0 < consts["gamma_deg"] < 180.0:
             raise r.fail("gamma_deg", "must lie strictly between 0 and 180, got "
                                       f"{consts['gamma_deg']:g}")
@@ -293,6 +323,32 @@ def _read_lattice(r: TableReader) -> tuple[str, int, np.ndarray, float]:
     r.finish()
     vectors.setflags(write=False)
     return kind, dim, vectors, a
+
+
+def _length_range(r: TableReader, key: str, value: float) -> None:
+    raise r.fail(key, f"{value:g} Å is outside the accepted range 0.3 to {MAX_LATTICE_LENGTH_A:g} "
+                      "Å (a longer period leaves no resolved bands; expected a lattice "
+                      "constant in Å)")
+
+
+def kinetic_scale_eV(a_A: float) -> float:
+    """The kinetic scale ħ²(2π/a)²/2m0 of a lattice constant ``a`` (Å), in eV.
+
+    It is the free-electron energy of the first reciprocal shell of a simple cubic lattice of
+    edge ``a``, the natural unit of the form factors (5.10 eV for silicon's a = 5.43 Å).
+    """
+    return HBAR2_OVER_2M0_EV_A2 * (2.0 * math.pi / a_A) ** 2
+
+
+def _check_strength(r: TableReader, key: str, values_eV, a_A: float, what: str = "|V|") -> None:
+    """Refuse a potential stronger than :data:`MAX_POTENTIAL_RATIO` × the kinetic scale."""
+    largest = max((abs(complex(v)) for v in values_eV), default=0.0)
+    scale = kinetic_scale_eV(a_A)
+    if largest > MAX_POTENTIAL_RATIO * scale:
+        raise r.fail(key, f"{what} = {largest:.4g} eV is {largest / scale:.3g} times the kinetic "
+                          f"scale ħ²(2π/a)²/2m0 = {scale:.4g} eV; expected at most "
+                          f"{MAX_POTENTIAL_RATIO:g} times (a potential that strong needs a basis "
+                          "no plane-wave model holds)")
 
 
 def _image_shifts(dim: int) -> np.ndarray:
@@ -341,7 +397,8 @@ def _read_atoms(raw: Any, source: str, dim: int, vectors: np.ndarray) -> tuple[A
     return tuple(atoms)
 
 
-def _read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int) -> Potential:
+def _read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int, a_A: float,
+                    atom_measure: float) -> Potential:
     form = r.string("form", choices=POTENTIAL_FORMS)
     if form == "empty":
         r.finish()
@@ -401,16 +458,18 @@ def _read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int) -> Potent
                 coeffs[minus] = z.conjugate()
         r.finish()
         keys = sorted(coeffs)
+        _check_strength(r, "coefficients", coeffs.values(), a_A)
         return Potential(form=form, file_unit=unit, miller=tuple(keys),
                          fourier_eV=tuple(coeffs[k] for k in keys))
     if form == "continuous":
-        return _read_continuous(r, atoms, dim, unit, to_ev)
+        return _read_continuous(r, atoms, dim, unit, to_ev, a_A, atom_measure)
     shells = number_list(r.raw("shells"), r, "shells")
     if not shells:
         raise r.fail("shells", "expected at least one |G|² shell")
-    if any(s < 0 for s in shells):
-        raise r.fail("shells", f"{list(shells)} has a negative |G|²; expected non-negative "
-                               "values in units of (2π/a)²")
+    if any(not 0 <= s <= MAX_SHELL_G2 for s in shells):
+        raise r.fail("shells", f"{list(shells)} has a |G|² outside the accepted range "
+                               f"0 to {MAX_SHELL_G2:g}; expected non-negative values in units "
+                               "of (2π/a)²")
     ordered = sorted(shells)
     for lo, hi in zip(ordered, ordered[1:], strict=False):
         if hi - lo <= SHELL_MATCH_TOLERANCE * max(hi, 1.0):
@@ -426,9 +485,12 @@ def _read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int) -> Potent
         anti = r.raw("antisymmetric", required=False)
         anti = (0.0,) * n if anti is None else number_list(anti, r, "antisymmetric", length=n)
         r.finish()
+        sym_ev = _energies_ev(sym, to_ev, r, "symmetric")
+        anti_ev = _energies_ev(anti, to_ev, r, "antisymmetric")
+        _check_strength(r, "symmetric", sym_ev, a_A)
+        _check_strength(r, "antisymmetric", anti_ev, a_A)
         return Potential(form=form, file_unit=unit, shells_g2=shells,
-                         symmetric_eV=_energies_ev(sym, to_ev, r, "symmetric"),
-                         antisymmetric_eV=_energies_ev(anti, to_ev, r, "antisymmetric"))
+                         symmetric_eV=sym_ev, antisymmetric_eV=anti_ev)
     species_r = r.sub("species")
     needed = {a.species for a in atoms}
     values: dict[str, tuple[float, ...]] = {}
@@ -437,13 +499,14 @@ def _read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int) -> Potent
             raise species_r.fail(name, f"missing form factors for species '{name}' (atoms list it)")
         factors = number_list(species_r.raw(name), species_r, name, length=n)
         values[name] = _energies_ev(factors, to_ev, species_r, name)
+        _check_strength(species_r, name, values[name], a_A)
     species_r.finish()
     r.finish()
     return Potential(form=form, file_unit=unit, shells_g2=shells, species_eV=values)
 
 
 def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: str,
-                     to_ev: float) -> Potential:
+                     to_ev: float, a_A: float, atom_measure: float) -> Potential:
     """The "continuous" form: per-species parameters of v(q), Ω0 and an optional taper.
 
     v(q) = a1 (q² − a2) / (a3 exp(a4 q²) − 1) (Friedel, Hybertsen & Schlüter, Phys. Rev. B 39,
@@ -486,6 +549,10 @@ def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: st
             raise s.fail("a3", f"{a3:g} makes the denominator a3·exp(a4 q²) − 1 of v(q), which "
                                f"{where}; expected a3 > 1 (denominator positive for all q >= 0)")
         s.finish()
+        # |v(q)| ≤ |a1| (q² + |a2|) e^{−a4 q²}/(a3 − 1) and max q² e^{−a4 q²} = 1/(e a4)
+        bound = abs(a1) * (1.0 / (math.e * a4) + abs(a2)) / (a3 - 1.0) * omega0 / atom_measure
+        _check_strength(s, "a1", [bound], a_A, "the bound (Ω0/Ω_atom)|a1|(1/(e·a4) + |a2|)/"
+                                               "(a3 − 1) on |V|")
         params[name] = (a1, a2, a3, a4)
     species_r.finish()
     r.finish()
@@ -506,6 +573,10 @@ def _read_path(r: TableReader, dim: int) -> CustomPath:
             raise pts_r.fail(label, f"'{label}' and '{given[name]}' both name the point {name}; "
                                     "expected each point once")
         points[name] = number_list(pts_r.raw(label), pts_r, label, length=dim)
+        if any(abs(x) > MAX_FRACTIONAL_COORDINATE for x in points[name]):
+            raise pts_r.fail(label, f"{show_list(list(points[name]))} is outside the accepted "
+                                    f"range (magnitude at most {MAX_FRACTIONAL_COORDINATE:g}); "
+                                    "expected fractions of the reciprocal vectors")
         given[name] = label
     pts_r.finish()
     raw = r.raw("legs")
@@ -557,24 +628,31 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
     lat = r.sub("lattice")
     kind, dim, vectors, a = _read_lattice(lat)
     atoms = _read_atoms(r.raw("atoms"), source, dim, vectors)
-    pot = _read_potential(r.sub("potential"), atoms, dim)
+    measure = abs(float(np.linalg.det(vectors))) / len(atoms)
+    pot = _read_potential(r.sub("potential"), atoms, dim, a, measure)
     cutoff = None
     basis = r.sub("basis", required=False)
     n_bands = None
     if basis is not None:
-        c_ev = basis.number("cutoff_eV", required=False, positive=True)
-        c_ry = basis.number("cutoff_Ry", required=False, positive=True)
+        why = "beyond any basis of at most 4000 plane waves"
+        c_ev = basis.number("cutoff_eV", required=False, positive=True,
+                            bounds=(0.0, MAX_CUTOFF_EV), meaning=why)
+        c_ry = basis.number("cutoff_Ry", required=False, positive=True,
+                            bounds=(0.0, MAX_CUTOFF_EV / ENERGY_UNITS_TO_EV["Ry"]), meaning=why)
         if c_ev is not None and c_ry is not None:
             raise basis.fail("cutoff_Ry", "give either cutoff_eV or cutoff_Ry, not both")
         cutoff = c_ev if c_ev is not None else (
             None if c_ry is None else _to_ev(c_ry, ENERGY_UNITS_TO_EV["Ry"], basis,
                                              "cutoff_Ry").real)
-        n_bands = basis.integer("bands", required=False, minimum=1)
+        n_bands = basis.integer("bands", required=False, minimum=1, maximum=MAX_BANDS,
+                                meaning="the largest plane-wave basis the tool builds")
         basis.finish()
     electrons = None
     el = r.sub("electrons", required=False)
     if el is not None:
-        electrons = el.integer("valence", minimum=1)
+        electrons = el.integer("valence", minimum=1, maximum=2 * MAX_BANDS,
+                               meaning=f"two per band of the largest basis, {MAX_BANDS} "
+                                       "plane waves")
         el.finish()
     path_r = r.sub("path", required=False)
     path = _read_path(path_r, dim) if path_r is not None else None
