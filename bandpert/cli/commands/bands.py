@@ -5,6 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Annotated
 
+import numpy as np
 import typer
 from rich.table import Table
 
@@ -159,6 +160,10 @@ def _summary(bs) -> None:
             inside = pb.convergence_radius > s.lam
             table.add_row("convergence radius", f"λ = {s.lam:g} inside on "
                           f"{100 * inside.mean():.0f} % of the sampled (band, k) points "
-                          f"(smallest radius {pb.convergence_radius.min():.2f})")
+                          f"(smallest radius {_radius(pb.convergence_radius.min())})")
     out.print(table)
 
+
+def _radius(r: float) -> str:
+    """A convergence radius for the summary: infinite when every series terminates (V = 0)."""
+    return f"{r:.2f}" if np.isfinite(r) else "unbounded: the series terminate"
