@@ -1,0 +1,331 @@
+"""A mutation fuzz of every bundled file through every command, in this process.
+
+Each input is a bundled file with one key set to a wrong type, zero, its negative, a tiny or
+denormal number, 1e308, int64 max, NaN or infinity, ×1e6 or ×1e-6, or deleted; or a key
+replaced by deeply nested arrays; or the whole file replaced by garbage. It runs through the
+command line's entry point (``bandpert.cli.app.main``, the function the ``bandpert`` script
+calls, so its error-to-exit-status map and its all-or-nothing output staging are exercised)
+with small settings, and must:
+
+- exit 0 or 2 (3 is allowed for ``sweep``, whose failed points are reported and kept);
+- print no traceback, and on exit 2 exactly one ``bandpert: error:`` line of bounded length;
+- print and write no non-finite number when it succeeds;
+- leave no output at all when it fails, and the complete set when it succeeds;
+- finish within :data:`TIME_BUDGET_S` seconds;
+- keep the process's peak memory under :data:`MEMORY_BOUND_GIB` (an address-space limit makes a
+  runaway allocation fail as an error instead of exhausting the machine).
+
+The CI size is :data:`DEFAULT_EXAMPLES` inputs (hypothesis, derandomized: the same inputs on
+every run). ``BANDPERT_FUZZ_EXAMPLES=20000 pytest -m fuzz`` runs the longer mode. The counts are
+printed at the end of the run.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import copy
+import io
+import json
+import math
+import os
+import re
+import resource
+import shutil
+import signal
+import tempfile
+import time
+from collections import Counter
+from pathlib import Path
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from bandpert.cli.app import main
+from bandpert.input.reader import read_toml_document
+
+MATERIALS = Path(__file__).resolve().parents[1] / "materials"
+DEFAULT_EXAMPLES = 2000
+EXAMPLES = int(os.environ.get("BANDPERT_FUZZ_EXAMPLES", DEFAULT_EXAMPLES))
+TIME_BUDGET_S = 30
+#: Peak resident memory allowed for the whole test process, GiB.
+MEMORY_BOUND_GIB = 3.0
+INT64_MAX = 2**63 - 1
+
+FILES = {p.name: read_toml_document(p) for p in sorted(MATERIALS.glob("*.toml"))}
+KP_FILES = {n for n, d in FILES.items() if "parameters" in d}
+
+#: Small settings per command, so that a run that is accepted finishes quickly.
+SMALL = {
+    "check": [],
+    "bands": ["--k-points", "6", "--radius-points", "2"],
+    "gaps": ["--k-points", "6"],
+    "masses": [],
+    "fullzone": ["--k-points", "6", "--basis", "10"],
+    "dos": ["--mesh", "3", "--engine", "serial", "--step-meV", "50"],
+    "sweep": ["--k-points", "6", "--engine", "serial", "--quantity", "edges"],
+    "kp": [],
+}
+PLANE_WAVE_COMMANDS = ("check", "bands", "gaps", "masses", "fullzone", "dos", "sweep")
+OUTPUTS = {"bands": 3, "gaps": 2, "masses": 1, "fullzone": 2, "dos": 3, "sweep": 3, "kp": 2,
+           "check": 0}
+
+
+class Hang(BaseException):
+    """Raised by the timer when a run exceeds its budget (not an Exception: nothing catches
+    it on the way out)."""
+
+
+def _on_alarm(signum, frame):
+    raise Hang
+
+
+# ---------------------------------------------------------------------------------------------
+# documents, their keys and a TOML writer
+# ---------------------------------------------------------------------------------------------
+
+def _paths(node, prefix=()):
+    """Every key path of a document (tables, arrays and their entries)."""
+    if isinstance(node, dict):
+        for k, v in node.items():
+            yield (*prefix, k)
+            yield from _paths(v, (*prefix, k))
+    elif isinstance(node, list):
+        for i, v in enumerate(node):
+            yield (*prefix, i)
+            yield from _paths(v, (*prefix, i))
+
+
+PATHS = {name: list(_paths(doc)) for name, doc in FILES.items()}
+DEEP = "__deep__"
+
+
+def _value(v) -> str:
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, int):
+        return str(v)
+    if isinstance(v, float):
+        if math.isnan(v):
+            return "nan"
+        if math.isinf(v):
+            return "inf" if v > 0 else "-inf"
+        return repr(v)
+    if isinstance(v, str):
+        if v.startswith(DEEP):
+            n = int(v[len(DEEP):])
+            return "[" * n + "]" * n
+        return json.dumps(v, ensure_ascii=False)
+    if isinstance(v, list):
+        return "[" + ", ".join(_value(x) for x in v) + "]"
+    if isinstance(v, dict):
+        return "{" + ", ".join(f"{json.dumps(k, ensure_ascii=False)} = {_value(x)}"
+                               for k, x in v.items()) + "}"
+    raise TypeError(v)
+
+
+def to_toml(doc: dict) -> str:
+    """One ``key = value`` line per top-level key (inline tables and arrays below)."""
+    return "".join(f"{json.dumps(k, ensure_ascii=False)} = {_value(v)}\n" for k, v in doc.items())
+
+
+def _mutations(value) -> list:
+    """The replacement values tried for one key (None: delete the key)."""
+    wrong_types = ["x", True, [], {}, [[1, 2], "a"]]
+    common = [None, f"{DEEP}40", f"{DEEP}3000"]
+    if isinstance(value, bool):
+        return [*wrong_types, 0, 1.5, *common]
+    if isinstance(value, (int, float)):
+        return [*wrong_types, 0, 0.0, -value, 1e-300, 5e-324, 1e308, -1e308, INT64_MAX,
+                -INT64_MAX, math.nan, math.inf, -math.inf, "nan", "inf", value * 1e6,
+                value * 1e-6, int(value) - 1 if isinstance(value, int) else round(value),
+                *common]
+    if isinstance(value, str):
+        return [*wrong_types[1:], 0, 1e308, "", "z" * 5000, value + "x", *common]
+    return [*wrong_types, 0, 1e308, math.nan, *common]
+
+
+def _mutate(doc: dict, path: tuple, replacement) -> dict:
+    doc = copy.deepcopy(doc)
+    node = doc
+    for p in path[:-1]:
+        node = node[p]
+    if replacement is None:
+        del node[path[-1]]
+    else:
+        node[path[-1]] = replacement
+    return doc
+
+
+def _argv(command: str, name: str, doc: dict, file: Path, out: Path) -> list[str]:
+    argv = [command, str(file), *SMALL[command]]
+    if command != "check":
+        argv += ["--out", str(out)]
+    if command == "sweep":
+        if name in KP_FILES:
+            argv += ["--vary", "parameters.Ep_eV=20:30:2"]
+        else:
+            a = FILES[name]["lattice"].get("a_A", 5.0)
+            argv += ["--vary", f"lattice.a_A={a}:{a * 1.01:.6g}:2"]
+    return argv
+
+
+# ---------------------------------------------------------------------------------------------
+# one run and its checks
+# ---------------------------------------------------------------------------------------------
+
+NON_FINITE = re.compile(r"(?<![A-Za-z])(nan|inf|infinity)(?![A-Za-z])", re.IGNORECASE)
+
+
+def _run(argv: list[str]) -> tuple[int, str, str, float]:
+    stdout, stderr = io.StringIO(), io.StringIO()
+    start = time.perf_counter()
+    signal.signal(signal.SIGALRM, _on_alarm)
+    signal.setitimer(signal.ITIMER_REAL, TIME_BUDGET_S)
+    try:
+        with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
+            main(argv)
+        code = 0
+    except SystemExit as done:
+        code = done.code if isinstance(done.code, int) else 0
+    except Hang:
+        code = -1
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+    return code, stdout.getvalue(), stderr.getvalue(), time.perf_counter() - start
+
+
+def _check(command: str, file: Path, out: Path, code: int, stdout: str, stderr: str,
+           counts: Counter, problems: list, label: str) -> None:
+    counts["inputs"] += 1
+    files = [p for p in out.rglob("*") if p.is_file()] if out.exists() else []
+    temporary = [p for p in files if p.name.startswith(".") or ".bandpert-" in str(p)]
+    if code == -1:
+        counts["hangs"] += 1
+        problems.append(f"hang: {label}")
+        return
+    counts[f"exit {code}"] += 1
+    if code not in (0, 2) and not (command == "sweep" and code == 3):
+        problems.append(f"exit {code}: {label}: {stderr.strip()[:300]}")
+    if "Traceback" in stderr or "Traceback" in stdout:
+        counts["tracebacks"] += 1
+        problems.append(f"traceback: {label}")
+    if code == 2:
+        lines = stderr.strip().splitlines()
+        if len(lines) != 1 or not lines[0].startswith("bandpert: error: "):
+            counts["messages not one line"] += 1
+            problems.append(f"message of {len(lines)} lines: {label}: {stderr[:300]}")
+        elif len(lines[0]) > 400:
+            counts["long messages"] += 1
+            problems.append(f"message of {len(lines[0])} characters: {label}")
+        elif str(file) not in lines[0]:
+            counts["messages without the file"] += 1
+            problems.append(f"message without the file name: {label}: {lines[0]}")
+    if code != 0 and code != 3 and [p for p in files if p not in temporary]:
+        counts["partial"] += 1
+        problems.append(f"partial output after exit {code}: {label}: {[p.name for p in files]}")
+    if temporary:
+        counts["temporary files left"] += 1
+        problems.append(f"temporary files left: {label}: {[p.name for p in temporary]}")
+    if code == 0:
+        if len(files) < OUTPUTS[command]:
+            counts["partial"] += 1
+            problems.append(f"incomplete output set: {label}: {[p.name for p in files]}")
+        texts = [stdout] + [p.read_text(encoding="utf-8") for p in files
+                            if p.suffix in (".csv", ".json")]
+        if any(NON_FINITE.search(t) for t in texts):
+            counts["non-finite"] += 1
+            where = next(t for t in texts if NON_FINITE.search(t))
+            m = NON_FINITE.search(where)
+            problems.append(f"non-finite output: {label}: "
+                            f"...{where[max(0, m.start() - 80):m.end() + 20]}...")
+
+
+@contextlib.contextmanager
+def _address_space_limit(extra_gib: float):
+    """Cap the address space at its current size + ``extra_gib`` for the block."""
+    soft, hard = resource.getrlimit(resource.RLIMIT_AS)
+    with open("/proc/self/status", encoding="ascii") as status:
+        vm = next(int(line.split()[1]) * 1024 for line in status if line.startswith("VmSize"))
+    limit = int(vm + extra_gib * 2**30)
+    if hard != resource.RLIM_INFINITY:
+        limit = min(limit, hard)
+    resource.setrlimit(resource.RLIMIT_AS, (limit, hard))
+    try:
+        yield
+    finally:
+        resource.setrlimit(resource.RLIMIT_AS, (soft, hard))
+
+
+@pytest.mark.fuzz
+def test_mutated_inputs_through_every_command(capsys):
+    counts: Counter = Counter()
+    problems: list[str] = []
+    seen: dict[tuple[str, str], None] = {}
+    work = Path(tempfile.mkdtemp(prefix="bandpert-fuzz-"))
+    started = time.perf_counter()
+    slowest = [0.0, ""]
+
+    @settings(max_examples=EXAMPLES, derandomize=True, database=None, deadline=None,
+              suppress_health_check=list(HealthCheck))
+    @given(st.data())
+    def one(data):
+        name = data.draw(st.sampled_from(sorted(FILES)), label="file")
+        kind = data.draw(st.sampled_from(["key"] * 19 + ["garbage"]), label="kind")
+        doc = FILES[name]
+        if kind == "key":
+            path = data.draw(st.sampled_from(PATHS[name]), label="key")
+            node = doc
+            for p in path:
+                node = node[p]
+            replacement = data.draw(st.sampled_from(_mutations(node)), label="value")
+            text = to_toml(_mutate(doc, path, replacement))
+            what = f"{'.'.join(map(str, path))} = {str(replacement)[:40]}"
+        else:
+            text = data.draw(st.one_of(
+                st.text(max_size=200),
+                st.binary(max_size=200).map(lambda b: b.decode("latin-1")),
+                st.integers(0, 2000).map(lambda i: to_toml(doc)[:i] + "]]\x00=" +
+                                         to_toml(doc)[i:])), label="garbage")
+            what = "garbage text"
+        commands = ("kp", "sweep") if name in KP_FILES else PLANE_WAVE_COMMANDS
+        command = data.draw(st.sampled_from(commands), label="command")
+        if (command, text) in seen:  # an identical input has the same outcome
+            counts["repeated"] += 1
+            return
+        seen[(command, text)] = None
+        case = work / f"case-{len(seen)}"
+        case.mkdir()
+        file = case / name
+        file.write_text(text, encoding="utf-8", errors="surrogateescape")
+        out = case / "out"
+        code, stdout, stderr, seconds = _run(_argv(command, name, doc, file, out))
+        if seconds > slowest[0]:
+            slowest[:] = [seconds, f"{command} {name} {what}"]
+        _check(command, file, out, code, stdout, stderr, counts, problems,
+               f"{command} {name} {what}")
+        shutil.rmtree(case, ignore_errors=True)
+
+    before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20
+    try:
+        with _address_space_limit(MEMORY_BOUND_GIB):
+            one()
+    finally:
+        shutil.rmtree(work, ignore_errors=True)
+    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20  # KiB → GiB
+    elapsed = time.perf_counter() - started
+    summary = (f"fuzz: {counts['inputs']} distinct inputs run ({counts['repeated']} repeats "
+               f"skipped) in {elapsed:.0f} s; exit 0: {counts['exit 0']}, exit 2: "
+               f"{counts['exit 2']}, exit 3 (sweep points failed): {counts['exit 3']}, exit 1: "
+               f"{counts['exit 1']}, hangs (> {TIME_BUDGET_S} s): {counts['hangs']}, "
+               f"non-finite: {counts['non-finite']}, partial: {counts['partial']}, "
+               f"tracebacks: {counts['tracebacks']}, messages not one line: "
+               f"{counts['messages not one line']}, long: {counts['long messages']}, without "
+               f"the file: {counts['messages without the file']}; slowest {slowest[0]:.1f} s "
+               f"({slowest[1]}); peak memory {peak:.2f} GiB (before {before:.2f})")
+    with capsys.disabled():
+        print("\n" + summary)
+        for p in problems[:40]:
+            print("  " + p)
+    assert not problems, f"{len(problems)} problems; first: {problems[0]}"
+    assert peak < MEMORY_BOUND_GIB
