@@ -23,7 +23,7 @@ from ..runs.execution import Engine
 
 #: Standard output and error of every command (tests swap ``out`` for a wide console).
 out = Console() if sys.stdout.isatty() else Console(width=160)  # files and pipes: no wrap
-err = Console(stderr=True)
+err = Console(stderr=True, soft_wrap=True)  # a message is one line, however long
 
 
 class ImageFormat(StrEnum):

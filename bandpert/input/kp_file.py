@@ -57,7 +57,14 @@ from ..kp import (
     conduction_inverse_mass,
     make_model,
 )
-from .reader import TableReader, check_range, describe, read_header, read_toml_document
+from .reader import (
+    TableReader,
+    check_range,
+    describe,
+    read_header,
+    read_toml_document,
+    shorten,
+)
 
 #: Crystal structures a k·p file may name (the models have no inversion-asymmetry terms, so
 #: both take the same Hamiltonians).
@@ -157,7 +164,7 @@ def _read_models(r: TableReader) -> tuple[str, ...] | None:
         if not isinstance(value, str):
             raise r.fail("models", f"expected model names as strings, got {describe(value)}")
         if value not in MODEL_NAMES:
-            raise r.fail("models", f"'{value}' is not one of: {', '.join(MODEL_NAMES)}")
+            raise r.fail("models", f"'{shorten(value)}' is not one of: {', '.join(MODEL_NAMES)}")
     if len(set(raw)) != len(raw):
         twice = next(v for v in raw if raw.count(v) > 1)
         raise r.fail("models", f"'{twice}' is listed twice; expected each model once")

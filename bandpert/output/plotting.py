@@ -453,9 +453,12 @@ def sweep_figure(result) -> Figure:
     panels = [(t, y, [n for n in result.columns if rule(n)]) for t, y, rule in SWEEP_PANELS]
     panels = [p for p in panels if p[2]]
     n_col = 2 if len(panels) > 1 else 1
-    n_row = -(-len(panels) // n_col)
+    n_row = max(1, -(-len(panels) // n_col))
     fig = Figure(figsize=(5.2 * n_col, 3.1 * n_row))
     axes = fig.subplots(n_row, n_col, squeeze=False)
+    if not panels:  # every point failed: say so rather than draw nothing
+        axes[0, 0].text(0.5, 0.5, "no quantity could be computed at any point",
+                        ha="center", va="center", transform=axes[0, 0].transAxes)
     failed = np.array([f.values[0] for f in result.failures]) if result.failures else None
     cycle = matplotlib.rcParams["axes.prop_cycle"].by_key()["color"]
     for ax, (title, ylabel, names) in zip(axes.flat, panels, strict=False):
