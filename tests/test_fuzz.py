@@ -43,9 +43,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from bandpert.cli.app import main
+from bandpert.data import MATERIALS_DIR
 from bandpert.input.reader import read_toml_document
 
-MATERIALS = Path(__file__).resolve().parents[1] / "materials"
+MATERIALS = MATERIALS_DIR
 DEFAULT_EXAMPLES = 2000
 EXAMPLES = int(os.environ.get("BANDPERT_FUZZ_EXAMPLES", DEFAULT_EXAMPLES))
 TIME_BUDGET_S = 30
@@ -53,7 +54,8 @@ TIME_BUDGET_S = 30
 MEMORY_BOUND_GIB = 3.0
 INT64_MAX = 2**63 - 1
 
-FILES = {p.name: read_toml_document(p) for p in sorted(MATERIALS.glob("*.toml"))}
+FILES = {f"{p.parent.name}-{p.name}": read_toml_document(p)
+         for p in sorted(MATERIALS.glob("*/*.toml"))}
 KP_FILES = {n for n, d in FILES.items() if "parameters" in d}
 
 #: Small settings per command, so that a run that is accepted finishes quickly.

@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 
 from bandpert.cli.app import main
+from bandpert.data import MATERIALS_DIR
 from bandpert.io import (
     COMMIT_NAME,
     TEMP_PREFIX,
@@ -156,7 +157,7 @@ main(["bands", sys.argv[2], "--out", sys.argv[3], "--k-points", "8", "--radius-p
 def test_sigkill_during_a_long_write_keeps_the_previous_set(tmp_path):
     # A real process killed with SIGKILL (no Python handler runs) while writing its outputs:
     # the folder keeps the previous complete set, and the next run leaves no temporary file.
-    material = Path(__file__).resolve().parents[1] / "materials" / "cosine-chain.toml"
+    material = MATERIALS_DIR / "planewave" / "cosine-chain.toml"
     out = tmp_path / "out"
     args = ["bands", str(material), "--out", str(out), "--k-points", "8", "--radius-points", "2",
             "--cutoff-eV", "200"]

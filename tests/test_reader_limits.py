@@ -13,17 +13,21 @@ from pathlib import Path
 import pytest
 
 from bandpert.cli.app import main
+from bandpert.data import MATERIALS_DIR
 from bandpert.input.material import MAX_BANDS, kinetic_scale_eV
 from bandpert.planewave.model import MAX_BASIS
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
-MATERIALS = Path(__file__).resolve().parents[1] / "materials"
+MATERIALS = MATERIALS_DIR / "planewave"
+KP_MATERIALS = MATERIALS_DIR / "kp"
 INT64_MAX = "9223372036854775807"
 
 
 def _variant(tmp_path, name: str, key: str, value: str) -> Path:
-    """A bundled file with one ``key = ...`` line replaced."""
-    text = (MATERIALS / name).read_text(encoding="utf-8")
+    """A bundled file with one ``key = ...`` line replaced (``kp:`` names a k·p file)."""
+    folder = KP_MATERIALS if name.startswith("kp:") else MATERIALS
+    name = name.removeprefix("kp:")
+    text = (folder / name).read_text(encoding="utf-8")
     new, n = re.subn(rf"^{re.escape(key)} = .*$", f"{key} = {value}", text, count=1,
                      flags=re.MULTILINE)
     assert n == 1, key
@@ -61,7 +65,7 @@ KP_CASES = [
 @pytest.mark.parametrize("case", KP_CASES, ids=[c[0] for c in KP_CASES])
 def test_kp_files_out_of_range_are_refused_before_any_output(case, tmp_path, capsys):
     _, key, value, dotted, word = case
-    path = _variant(tmp_path, "gallium-arsenide-kp.toml", key, value)
+    path = _variant(tmp_path, "kp:gallium-arsenide.toml", key, value)
     out = tmp_path / "out"
     _refused(["kp", str(path), "--out", str(out)], capsys, path, dotted, word)
     assert not out.exists()
@@ -69,7 +73,7 @@ def test_kp_files_out_of_range_are_refused_before_any_output(case, tmp_path, cap
 
 def test_sweep_of_a_kp_file_with_a_huge_lattice_constant(tmp_path, capsys):
     # was OverflowError (exit 1)
-    path = _variant(tmp_path, "gallium-arsenide-kp.toml", "a_A", "1e308")
+    path = _variant(tmp_path, "kp:gallium-arsenide.toml", "a_A", "1e308")
     out = tmp_path / "out"
     _refused(["sweep", str(path), "--vary", "parameters.Ep_eV=20:30:2", "--engine", "serial",
               "--out", str(out)], capsys, path, "lattice.a_A", "range")
