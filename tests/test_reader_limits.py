@@ -146,3 +146,17 @@ def test_a_chain_at_the_longest_lattice_constant_runs_finite(tmp_path, capsys):
     captured = capsys.readouterr()
     assert done.value.code == 0, captured.err
     assert not re.search(r"\b(nan|inf)\b", captured.out + captured.err, flags=re.IGNORECASE)
+
+
+@pytest.mark.parametrize("argv", [
+    ["bands", "silicon", "--k-points", "1000000000000"],
+    ["sweep", "silicon", "--vary", "lattice.a_A=5:6:1000000000000", "--engine", "serial"],
+], ids=["k-points", "sweep-count"])
+def test_sizes_from_options_are_bounded_before_allocation(argv, tmp_path, capsys):
+    # were MemoryError (exit 1) after trying to allocate terabytes
+    with pytest.raises(SystemExit) as done:
+        main([*argv, "--out", str(tmp_path / "out")])
+    err = capsys.readouterr().err
+    assert done.value.code == 2 and err.count("\n") == 1
+    assert "at most" in err or "limit" in err
+    assert not (tmp_path / "out").exists()

@@ -410,6 +410,10 @@ def energy_reference(material: Material, path_energies_eV: np.ndarray,
     return fermi_level(e_mesh, w, n_el), "Fermi level", None
 
 
+#: Most k-points along a path (a path of 1e6 points would take hours and gigabytes).
+MAX_PATH_POINTS = 100_000
+
+
 def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | None = None,
                            cutoff_eV: float | None = None, fermi_mesh: int | None = None,
                            progress: Progress | None = None, exact: bool = True,
@@ -444,6 +448,9 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     """
     if n_k < 2:
         raise InputError(f"expected at least 2 k-points, got {n_k}", key="n_k")
+    if n_k > MAX_PATH_POINTS:  # before the path is sampled
+        raise InputError(f"expected at most {MAX_PATH_POINTS} k-points along the path, got "
+                         f"{n_k}", key="n_k")
     if not exact and perturbation is None:
         raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
                          "bands were asked for", key="exact")

@@ -88,6 +88,10 @@ class SweepAxis:
         return head if head in ("strain", "alloy") else "document"
 
 
+#: Most values of one swept key (each point is a full band-structure run).
+MAX_AXIS_POINTS = 100_000
+
+
 def parse_axis(spec: str) -> SweepAxis:
     """Read ``KEY=START:STOP:COUNT`` (COUNT ≥ 1; with COUNT = 1 only START is used).
 
@@ -115,6 +119,9 @@ def parse_axis(spec: str) -> SweepAxis:
         raise InputError(f"'{spec}': START and STOP must be finite", key="axes")
     if count < 1:
         raise InputError(f"'{spec}': COUNT must be at least 1, got {count}", key="axes")
+    if count > MAX_AXIS_POINTS:  # before numpy allocates the values
+        raise InputError(f"'{spec[:80]}': COUNT {count} is above the limit of "
+                         f"{MAX_AXIS_POINTS} points per key", key="axes")
     head = key.split(".", 1)[0]
     if head == "strain":
         comp = key.split(".", 1)[1] if "." in key else ""
