@@ -7,8 +7,11 @@ User errors exit 2 with one stderr line; internal errors exit 1 with a one-line 
 from __future__ import annotations
 
 import contextlib
+import importlib.util
 import io
 import json
+import pathlib
+import re
 from pathlib import Path
 
 import numpy as np
@@ -122,8 +125,8 @@ def chain_run(tmp_path_factory):
 def test_bands_writes_image_csv_and_json(chain_run):
     out_dir, out, _ = chain_run
     names = sorted(p.name for p in out_dir.iterdir())
-    assert names == ["cosine-chain-bands.csv", "cosine-chain-bands.json",
-                     "cosine-chain-bands.png", "cosine-chain-perturbative.csv"]
+    assert names == ["cosine-chain-bands-perturbative.csv", "cosine-chain-bands.csv",
+                     "cosine-chain-bands.json", "cosine-chain-bands.png"]
     assert (out_dir / "cosine-chain-bands.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     assert "cosine-chain-bands.json" in out
     assert no_dot_files(out_dir)
@@ -364,9 +367,9 @@ def test_masses_and_kp_close_the_loop(tmp_path):
     assert doc["results"]["kp_parameters"]["Delta_so_eV"] == 0.0
     code, out, err = run(["kp", str(kp_file), "--compare", str(gaas), "--out", str(tmp_path)])
     assert code == 0, err
-    kp_doc = json.loads((tmp_path / "implied-kp-kp.json").read_text(encoding="utf-8"))
+    kp_doc = json.loads((tmp_path / "implied-kp.json").read_text(encoding="utf-8"))
     assert set(kp_doc["results"]["models"]) == {"two-band", "six-band", "eight-band"}
-    assert (tmp_path / "implied-kp-kp.png").exists()
+    assert (tmp_path / "implied-kp.png").exists()
     assert no_dot_files(tmp_path)
 
 
@@ -464,3 +467,45 @@ def test_bundled_materials_are_found_by_name(tmp_path):
     assert code == 0, err  # the k·p file of that name, not the plane-wave one
     code, _, err = run(["check", "unobtainium"])
     assert_user_error(code, err, "unobtainium", "silicon", "germanium")
+
+
+def test_default_names_differ_between_modes_and_name_sets_them(tmp_path):
+    # exact-only and comparison runs of one file do not overwrite each other; --name names
+    # every file of a run; the default folder is not a tracked one (issue: named outputs).
+    args = ["bands", str(CHAIN), "--k-points", "10", "--out", str(tmp_path)]
+    assert run([*args, "--exact-only"])[0] == 0
+    assert run([*args, "--no-exact", "--radius-points", "0"])[0] == 0
+    assert run([*args, "--exact-only", "--name", "mine"])[0] == 0
+    names = sorted(p.name for p in tmp_path.iterdir())
+    assert names == ["cosine-chain-exact-bands.csv", "cosine-chain-exact-bands.json",
+                     "cosine-chain-exact-bands.png", "cosine-chain-perturbative-bands-"
+                     "perturbative.csv", "cosine-chain-perturbative-bands.csv",
+                     "cosine-chain-perturbative-bands.json", "cosine-chain-perturbative-bands.png",
+                     "mine.csv", "mine.json", "mine.png"]
+    code, _, err = run([*args, "--name", "a/b"])
+    assert_user_error(code, err, "--name")
+    assert options.DEFAULT_OUT.name == "bandpert-out"
+
+
+def test_mass_points_get_their_own_default_names(tmp_path):
+    code, _, err = run(["masses", str(CHAIN), "--point", "X", "--band", "2", "--out",
+                        str(tmp_path)])
+    assert code == 0, err
+    assert (tmp_path / "cosine-chain-masses-X-band2.json").exists()
+
+
+def test_readme_figures_are_the_ones_the_script_regenerates():
+    # Every figure the README shows is written by docs/figures/regenerate.py under that name,
+    # with the very command the README prints beside it.
+    root = pathlib.Path(cli.__file__).parents[2]
+    spec = importlib.util.spec_from_file_location("regenerate",
+                                                  root / "docs" / "figures" / "regenerate.py")
+    regenerate = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(regenerate)
+    readme = (root / "README.md").read_text(encoding="utf-8")
+    shown = set(re.findall(r"\]\(docs/figures/([\w.-]+\.png)\)", readme))
+    assert shown == set(regenerate.FIGURES)
+    flat = " ".join(readme.split())
+    for commands in regenerate.FIGURES.values():
+        for args in commands:
+            assert regenerate.command_text(args) in flat, args

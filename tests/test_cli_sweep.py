@@ -30,7 +30,7 @@ def chain_sweep(tmp_path_factory):
     out_dir = tmp_path_factory.mktemp("sweep")
     code, out, err = run(["sweep", str(CHAIN), "--vary", V1_RANGE, "--quantity", "gaps",
                           "--between", "1", "--engine", "serial", "--k-points", "20",
-                          "--out", str(out_dir)])
+                          "--out", str(out_dir), "--name", "cosine-chain-sweep"])
     assert code == 0, err
     return out_dir, out, err
 
@@ -86,7 +86,7 @@ def test_sweep_csv_layout(chain_sweep):
 def test_sweep_on_a_scheduler_equals_the_serial_run(chain_sweep, dask_scheduler, tmp_path):
     code, out, err = run(["sweep", str(CHAIN), "--vary", V1_RANGE, "--quantity", "gaps",
                           "--between", "1", "--scheduler", dask_scheduler, "--k-points", "20",
-                          "--out", str(tmp_path)])
+                          "--out", str(tmp_path), "--name", "cosine-chain-sweep"])
     assert code == 0, err
     serial = json.loads((chain_sweep[0] / "cosine-chain-sweep.json").read_text())["results"]
     spread = json.loads((tmp_path / "cosine-chain-sweep.json").read_text())
@@ -98,7 +98,7 @@ def test_sweep_on_a_scheduler_equals_the_serial_run(chain_sweep, dask_scheduler,
 def test_sweep_with_failed_points_keeps_the_rest_and_exits_3(tmp_path):
     code, out, err = run(["sweep", str(SILICON), "--vary", "lattice.a_A=5.43:4.9:2",
                           "--quantity", "edges", "--engine", "serial", "--k-points", "20",
-                          "--out", str(tmp_path)])
+                          "--out", str(tmp_path), "--name", "silicon-sweep"])
     assert code == 3, err
     assert "failed point lattice.a_A = 4.9:" in err and "semiconductor" in err
     res = json.loads((tmp_path / "silicon-sweep.json").read_text())["results"]

@@ -6,6 +6,7 @@ Only the command line knows flags. Library errors name options in library terms
 
 from __future__ import annotations
 
+import re
 import sys
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -58,14 +59,26 @@ SchedulerOption = Annotated[str | None, typer.Option(
     "--scheduler", metavar="ADDRESS", help="Run on an existing Dask scheduler instead, e.g. "
     "tcp://10.0.0.5:8786 (its workers need bandpert installed).", show_default=False)]
 
-#: Default output folder of every command that writes.
-DEFAULT_OUT = Path("plots")
+#: Default output folder of every command that writes (not a tracked folder of the project).
+DEFAULT_OUT = Path("bandpert-out")
 
 
 def json_option(command: str) -> object:
     """The ``--json PATH`` option of a command, its default named in the help."""
     return typer.Option("--json", help="Where to write the JSON results (default: "
-                        f"OUT/<name>-{command}.json).", show_default=False)
+                        "OUT/NAME.json).", show_default=False)
+
+
+def name_option(default: str) -> object:
+    """The ``--name NAME`` option: the base name of every file a command writes."""
+    return typer.Option("--name", help="Base name of the files written: OUT/NAME.png, "
+                        f".csv, .json (default: {default}).", show_default=False)
+
+
+def file_part(text: str) -> str:
+    """``text`` made safe inside a file name: Γ → G, anything but letters, digits, ``.``,
+    ``_`` and ``-`` → ``_``."""
+    return re.sub(r"[^A-Za-z0-9._-]+", "_", text.replace("Γ", "G")).strip("_") or "_"
 
 
 @contextmanager
@@ -83,10 +96,18 @@ def progress_bar(description: str) -> Iterator:
         yield update
 
 
-def output_paths(file: Path, out_dir: Path, command: str, image_format: ImageFormat,
+def output_base(out_dir: Path, name: str | None, default: str) -> Path:
+    """``OUT/NAME``, the common stem of a command's files (``NAME`` from ``--name``, else the
+    command's default, which differs between modes so that runs do not overwrite each other)."""
+    if name is not None and (not name.strip() or Path(name).name != name):
+        raise InputError(f"'{name}' is not a file name; expected a name without folders "
+                         "(the folder is --out)", key="--name")
+    return out_dir / (name if name is not None else file_part(default))
+
+
+def output_paths(base: Path, image_format: ImageFormat,
                  json_path: Path | None) -> tuple[Path, Path, Path]:
-    """The image, CSV and JSON paths of a command: ``OUT/<stem>-<command>.<ext>``."""
-    base = out_dir / f"{file.stem}-{command}"
+    """The image, CSV and JSON paths of a command: ``OUT/NAME.<ext>`` (``--json`` wins)."""
     return (base.with_name(f"{base.name}.{image_format.value}"),
             base.with_name(f"{base.name}.csv"), json_path or base.with_name(f"{base.name}.json"))
 

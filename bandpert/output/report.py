@@ -138,7 +138,7 @@ def band_structure_table(bs: BandStructure) -> tuple[list[str], list[str], np.nd
     ]
     cols = (["k_index", "path_distance_invA"] + [f"k{a}_invA" for a in axes]
             + [f"k{i + 1}_frac" for i in range(d)]
-            + [f"band{n + 1}_eV" for n in range(bs.energies_eV.shape[1])])
+            + [f"band{n + 1}_eV" for n in range(bs.n_bands)])
     rows = np.column_stack([np.arange(len(p.k_frac)), p.distance_invA, p.k_cart_invA, p.k_frac,
                             bs.relative_energies_eV])
     return header, cols, rows

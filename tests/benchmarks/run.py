@@ -3,7 +3,7 @@
 
 Run as a plain script (pytest does not collect it: no ``test_`` names)::
 
-    python3 tests/benchmarks/run.py [--json plots/benchmark.json] [--reps 7]
+    python3 tests/benchmarks/run.py [--json docs/figures/benchmark.json] [--reps 7]
 
 Each timed pair is run alternately ``--reps`` times (after one warm-up call) and the median
 of the per-repetition ratios is quoted, so that a busy neighbour on a shared machine slows both
@@ -211,8 +211,8 @@ def dask_speedup(reps: int, say: Callable[..., None]) -> tuple[dict, list[tuple[
 
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--json", default=str(ROOT / "plots" / "benchmark.json"),
-                        help="where to write the JSON (default plots/benchmark.json)")
+    parser.add_argument("--json", default=str(ROOT / "docs" / "figures" / "benchmark.json"),
+                        help="where to write the JSON (default docs/figures/benchmark.json)")
     parser.add_argument("--reps", type=int, default=7, help="repetitions per pair (default 7)")
     parser.add_argument("--only-dask", action="store_true",
                         help="run only the Dask section (prints the table, writes no JSON)")

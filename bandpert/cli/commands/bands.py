@@ -36,7 +36,9 @@ from ..options import (
     PlotCsvJsonDir,
     check_count,
     json_option,
+    name_option,
     out,
+    output_base,
     output_paths,
     progress_bar,
     save_figure,
@@ -54,6 +56,9 @@ def bands(
     cutoff_eV: CutoffOption = None,
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("bands")] = None,
+    name: Annotated[str | None, name_option("<file>-bands; with --exact-only "
+                                            "<file>-exact-bands; with --no-exact "
+                                            "<file>-perturbative-bands")] = None,
     e_min: Annotated[float | None, typer.Option("--emin", help="Lower energy limit of the plot "
                                                 "(eV from the energy zero).",
                                                 show_default=False)] = None,
@@ -99,7 +104,6 @@ def bands(
         bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV,
                                     progress=progress, exact=not no_exact,
                                     perturbation=settings_p)
-    stem = file.stem
     window = None
     if e_min is not None or e_max is not None:
         e = bs.relative_energies_eV
@@ -114,12 +118,14 @@ def bands(
     doc = document("bands", material, settings, band_structure_results(bs))
     header, cols, rows = band_structure_table(bs)
     fig = band_figure(bs, window)
-    image, csv_path, json_path = output_paths(file, out_dir, "bands", image_format, json_path)
+    mode = "exact-" if exact_only else "perturbative-" if no_exact else ""
+    base = output_base(out_dir, name, f"{file.stem}-{mode}bands")
+    image, csv_path, json_path = output_paths(base, image_format, json_path)
     written = [image, csv_path]
     save_figure(fig, image, image_format)
     write_csv(csv_path, header, cols, rows)
     if bs.perturbative is not None:
-        pert_csv = out_dir / f"{stem}-perturbative.csv"
+        pert_csv = base.with_name(f"{base.name}-perturbative.csv")
         write_csv(pert_csv, *perturbative_table(bs))
         written.append(pert_csv)
     write_json(json_path, doc)

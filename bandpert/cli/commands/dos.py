@@ -29,7 +29,9 @@ from ..options import (
     check_count,
     engine_from_options,
     json_option,
+    name_option,
     out,
+    output_base,
     output_paths,
     progress_bar,
     save_figure,
@@ -55,6 +57,7 @@ def dos(
     out_dir: PlotCsvJsonDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("dos")] = None,
+    name: Annotated[str | None, name_option("<file>-dos")] = None,
 ) -> None:
     """Density of states on a dense k-mesh and the Fermi level from the electron count.
 
@@ -80,7 +83,8 @@ def dos(
                 "step_eV": step_meV * 1e-3, "bands": int(result.energies_eV.shape[1]),
                 "cutoff_eV": result.cutoff_eV, "basis_size": result.basis_size,
                 "engine": result.engine}
-    image, csv_path, json_path = output_paths(file, out_dir, "dos", image_format, json_path)
+    image, csv_path, json_path = output_paths(output_base(out_dir, name, f"{file.stem}-dos"),
+                                              image_format, json_path)
     fig = dos_figure(result)
     save_figure(fig, image, image_format)
     write_csv(csv_path, *dos_table(result))

@@ -22,7 +22,10 @@ from ..options import (
     OutDir,
     check_count,
     json_option,
+    name_option,
     out,
+    output_base,
+    output_paths,
     save_figure,
 )
 
@@ -40,6 +43,7 @@ def fullzone(
     out_dir: OutDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("fullzone")] = None,
+    name: Annotated[str | None, name_option("<file>-fullzone")] = None,
 ) -> None:
     """Full-zone k·p: bands along the whole path from the Γ eigenstates, against exact bands,
     and their convergence with the number of states kept (Cardona & Pollak 1966)."""
@@ -56,8 +60,8 @@ def fullzone(
     result = full_zone_kp(material, sizes, n_k=k_points, n_bands=n_bands)
     bs, conv = result.exact, result.convergence
     fig = fullzone_figure(bs, conv)
-    image = out_dir / f"{file.stem}-fullzone.{image_format.value}"
-    json_path = json_path or out_dir / f"{file.stem}-fullzone.json"
+    image, _, json_path = output_paths(output_base(out_dir, name, f"{file.stem}-fullzone"),
+                                       image_format, json_path)
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "expansion_point": "Γ"}

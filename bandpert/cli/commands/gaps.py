@@ -24,7 +24,10 @@ from ..options import (
     MaterialFile,
     check_count,
     json_option,
+    name_option,
     out,
+    output_base,
+    output_paths,
     progress_bar,
     save_figure,
 )
@@ -33,6 +36,7 @@ from ..options import (
 def gaps(
     file: MaterialFile,
     json_path: Annotated[Path | None, json_option("gaps")] = None,
+    name: Annotated[str | None, name_option("<file>-gaps")] = None,
     point: Annotated[list[str] | None, typer.Option("--point", metavar="<label|coords>",
                                                     help="A point to examine: a "
                                                     "label of the path (G/Gamma for Γ) or "
@@ -81,9 +85,8 @@ def gaps(
                 "points": list(point) if point else "labelled points of the path",
                 "crossings": search}
     doc = document("gaps", material, settings, gap_results(report, bs))
-    stem = file.stem
-    image = out_dir / f"{stem}-gaps.{image_format.value}"
-    json_path = json_path or out_dir / f"{stem}-gaps.json"
+    image, _, json_path = output_paths(output_base(out_dir, name, f"{file.stem}-gaps"),
+                                       image_format, json_path)
     fig = gap_figure(bs, report)
     save_figure(fig, image, image_format)
     write_json(json_path, doc)

@@ -16,7 +16,18 @@ from ...kp import CUBIC_DIRECTIONS, MODEL_NAMES, analyse_kp_material
 from ...output.plotting import kp_figure
 from ...output.report import document, kp_results
 from ...physics.kp_from_planewave import exact_lines_from_gamma
-from ..options import DEFAULT_OUT, FormatOption, ImageFormat, OutDir, json_option, out, save_figure
+from ..options import (
+    DEFAULT_OUT,
+    FormatOption,
+    ImageFormat,
+    OutDir,
+    json_option,
+    name_option,
+    out,
+    output_base,
+    output_paths,
+    save_figure,
+)
 
 
 def kp(
@@ -32,6 +43,7 @@ def kp(
     out_dir: OutDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("kp")] = None,
+    name: Annotated[str | None, name_option("<file>-kp, without a doubled -kp")] = None,
 ) -> None:
     """k·p models at Γ from a parameter file: band-edge masses along [001], [110] and [111],
     nonparabolicity, and bands near Γ (beside a plane-wave model's exact bands with --compare).
@@ -51,8 +63,9 @@ def kp(
     exact = None if lines is None else {d: (lines.k_frac, e) for d, e in lines.energies_eV.items()}
     fig = kp_figure(kpm.name, kpm.source, {n: m.lines for n, m in analysis.models.items()}, exact,
                     "" if compare is None else f"{Path(compare).stem} (plane-wave, exact)")
-    image = out_dir / f"{file.stem}-kp.{image_format.value}"
-    json_path = json_path or out_dir / f"{file.stem}-kp.json"
+    default = file.stem if file.stem.endswith("-kp") else f"{file.stem}-kp"
+    image, _, json_path = output_paths(output_base(out_dir, name, default), image_format,
+                                       json_path)
     save_figure(fig, image, image_format)
     write_json(json_path, doc)
     directions = CUBIC_DIRECTIONS

@@ -18,7 +18,16 @@ from ...physics.bands import compute_band_structure
 from ...physics.kp_from_planewave import extract_kp_parameters, kp_material_text
 from ...physics.masses import band_masses, edge_masses
 from ...physics.nfe_gaps import resolve_points
-from ..options import DEFAULT_OUT, CutoffOption, MaterialFile, json_option, out, progress_bar
+from ..options import (
+    DEFAULT_OUT,
+    CutoffOption,
+    MaterialFile,
+    json_option,
+    name_option,
+    out,
+    output_base,
+    progress_bar,
+)
 
 
 def masses(
@@ -35,6 +44,8 @@ def masses(
     = 300.0,
     cutoff_eV: CutoffOption = None,
     json_path: Annotated[Path | None, json_option("masses")] = None,
+    name: Annotated[str | None, name_option("<file>-masses; with --point or --band "
+                                            "<file>-masses-<point>-band<N>")] = None,
     out_dir: Annotated[Path, typer.Option("--out", help="Folder for the JSON.")] = DEFAULT_OUT,
     kp_file: Annotated[Path | None, typer.Option("--write-kp", help="Also write the k·p parameter "
                                                  "file (Eg, Ep, F, γ1–γ3) this model implies.",
@@ -87,7 +98,11 @@ def masses(
                 "temperature_K": temperature_K, "point": point, "band": band}
     doc = document("masses", material, settings,
                    masses_results(entries, bs.energy_zero_eV, locations, kp_params))
-    json_path = json_path or out_dir / f"{file.stem}-masses.json"
+    default = f"{file.stem}-masses"
+    if point is not None or band is not None:
+        default += f"-{locations[0]}-band{entries[0].band + 1}"
+    base = output_base(out_dir, name, default)
+    json_path = json_path or base.with_name(f"{base.name}.json")
     write_json(json_path, doc)
     written = [json_path]
     if kp_file is not None:

@@ -32,7 +32,9 @@ from ..options import (
     engine_from_options,
     err,
     json_option,
+    name_option,
     out,
+    output_base,
     output_paths,
     progress_bar,
     save_figure,
@@ -78,6 +80,7 @@ def sweep(
     out_dir: PlotCsvJsonDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("sweep")] = None,
+    name: Annotated[str | None, name_option("<file>-sweep-<varied keys>")] = None,
 ) -> None:
     """Sweep keys of a material file over ranges; tabulate and plot gaps, band edges and masses.
 
@@ -117,7 +120,9 @@ def sweep(
                 "reference_cutoff_eV": spec.reference_cutoff_eV, "basis_rule": spec.basis,
                 "form_factors": form_factors, "alloy_end": str(alloy_end or ""),
                 "temperature_K": temperature, "engine": result.engine}
-    image, csv_path, json_path = output_paths(file, out_dir, "sweep", image_format, json_path)
+    image, csv_path, json_path = output_paths(output_base(
+        out_dir, name, "-".join([f"{file.stem}-sweep", *(a.key for a in spec.axes)])),
+        image_format, json_path)
     fig = sweep_figure(result)
     save_figure(fig, image, image_format, dpi=160)
     write_table(csv_path, *sweep_table(result))
