@@ -19,6 +19,7 @@ import pytest
 import scipy.special
 import typer
 
+import bandpert
 import bandpert.cli.app as cli
 import bandpert.cli.commands.bands as bands_command
 import bandpert.cli.options as options
@@ -70,21 +71,23 @@ COMMAND = typer.main.get_command(cli.app)
 
 #: The options each command documents (kept by hand so that a lost option is noticed).
 OPTIONS = {
-    "bands": ["--out", "--k-points", "--bands", "--cutoff-eV", "--format", "--json", "--emin",
-              "--emax", "--order", "--threshold", "--tolerance-meV", "--radius-points",
+    "bands": ["--out", "--k-points", "--bands", "--cutoff-eV", "--format", "--json", "--name",
+              "--emin", "--emax", "--order", "--threshold", "--tolerance-meV", "--radius-points",
               "--no-exact", "--exact-only", "--help"],
     "check": ["--cutoff-eV", "--help"],
-    "gaps": ["--json", "--point", "--crossings", "--bands", "--cutoff-eV", "--out", "--k-points",
-             "--format", "--help"],
-    "masses": ["--point", "--band", "--temperature", "--cutoff-eV", "--json", "--out",
+    "gaps": ["--json", "--name", "--point", "--crossings", "--bands", "--cutoff-eV", "--out",
+             "--k-points", "--format", "--help"],
+    "masses": ["--point", "--band", "--temperature", "--cutoff-eV", "--json", "--name", "--out",
                "--write-kp", "--help"],
-    "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--help"],
-    "fullzone": ["--basis", "--k-points", "--bands", "--out", "--format", "--json", "--help"],
+    "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--name", "--help"],
+    "fullzone": ["--basis", "--k-points", "--bands", "--out", "--format", "--json", "--name",
+                 "--help"],
     "sweep": ["--vary", "--quantity", "--point", "--between", "--form-factors", "--basis",
               "--alloy-end", "--k-points", "--bands", "--cutoff-eV", "--temperature", "--engine",
-              "--workers", "--scheduler", "--out", "--format", "--json", "--help"],
+              "--workers", "--scheduler", "--out", "--format", "--json", "--name", "--help"],
     "dos": ["--mesh", "--method", "--smearing-eV", "--step-meV", "--bands", "--cutoff-eV",
-            "--engine", "--workers", "--scheduler", "--out", "--format", "--json", "--help"],
+            "--engine", "--workers", "--scheduler", "--out", "--format", "--json", "--name",
+            "--help"],
 }
 
 
@@ -509,3 +512,21 @@ def test_readme_figures_are_the_ones_the_script_regenerates():
     for commands in regenerate.FIGURES.values():
         for args in commands:
             assert regenerate.command_text(args) in flat, args
+
+
+def test_help_lists_choices_and_hides_flag_metavars():
+    # Flags take no value, so their help shows none; choice options list their choices; the
+    # file argument reads FILE|NAME; --version prints the version (common practice, no source).
+    for name, shown in [("bands", ["FILE|NAME"]), ("dos", ["tetrahedron|gaussian"]),
+                        ("sweep", ["edges|gaps|masses", "tabulated|continuous", "scaled|fixed"]),
+                        ("kp", ["two-band|six-band|eight-band"])]:
+        code, out, err = run([name, "--help"])
+        assert code == 0, err
+        for text in shown:
+            assert text in out, (name, text)
+        assert "<list[str]>" not in out and "{file}" not in out
+        for line in out.splitlines():
+            if "--no-exact" in line or "--exact-only" in line or "--crossings" in line:
+                assert "<bool>" not in line, line
+    code, out, _ = run(["--version"])
+    assert code == 0 and out.strip() == f"bandpert {bandpert.__version__}"

@@ -9,9 +9,11 @@ from __future__ import annotations
 
 import sys
 import warnings
+from typing import Annotated
 
 import typer
 
+from .. import __version__
 from ..errors import InputError, ModelWarning
 from ..io import all_or_nothing
 from .commands import bands, check, dos, fullzone, gaps, kp, masses, sweep
@@ -26,6 +28,17 @@ app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_
                   help="Crystal bands by exact diagonalisation and by perturbation theory. "
                        "Add --debug anywhere on the line to see the traceback of an internal "
                        "error.")
+
+
+@app.callback(invoke_without_command=True)
+def _root(version: Annotated[bool, typer.Option("--version", metavar="", is_eager=True,
+                                                help="Print the version and exit.")] = False
+          ) -> None:
+    if version:
+        print(f"bandpert {__version__}")
+        raise typer.Exit(0)
+
+
 app.command()(bands.bands)
 app.command()(check.check)
 app.command()(gaps.gaps)

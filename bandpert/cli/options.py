@@ -38,7 +38,8 @@ class EngineKind(StrEnum):
     serial = "serial"
 
 
-MaterialFile = Annotated[Path, typer.Argument(help="Material description file (TOML).",
+MaterialFile = Annotated[Path, typer.Argument(metavar="FILE|NAME", help="Material file (TOML), "
+                                              "or the name of a bundled one (silicon, …).",
                                               show_default=False)]
 OutDir = Annotated[Path, typer.Option("--out", help="Folder for the plot and JSON.")]
 FormatOption = Annotated[ImageFormat, typer.Option("--format", help="Image format.")]
@@ -65,14 +66,14 @@ DEFAULT_OUT = Path("bandpert-out")
 
 def json_option(command: str) -> object:
     """The ``--json PATH`` option of a command, its default named in the help."""
-    return typer.Option("--json", help="Where to write the JSON results (default: "
+    return typer.Option("--json", metavar="PATH", help="Where to write the JSON results (default: "
                         "OUT/NAME.json).", show_default=False)
 
 
 def name_option(default: str) -> object:
     """The ``--name NAME`` option: the base name of every file a command writes."""
-    return typer.Option("--name", help="Base name of the files written: OUT/NAME.png, "
-                        f".csv, .json (default: {default}).", show_default=False)
+    return typer.Option("--name", metavar="NAME", help="Base name of the files written: "
+                        f"OUT/NAME.png, .csv, .json (default: {default}).", show_default=False)
 
 
 def file_part(text: str) -> str:

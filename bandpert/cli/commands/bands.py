@@ -77,9 +77,11 @@ def bands(
     radius_points: Annotated[int, typer.Option("--radius-points", help="k-points at which the "
                                                "convergence radius in λ is computed (0: none).")]
     = DEFAULT_RADIUS_POINTS,
-    no_exact: Annotated[bool, typer.Option("--no-exact", help="Skip the exact diagonalisation "
+    no_exact: Annotated[bool, typer.Option("--no-exact", metavar="",
+                                           help="Skip the exact diagonalisation "
                                            "(perturbative bands only, no comparison).")] = False,
-    exact_only: Annotated[bool, typer.Option("--exact-only", help="Skip the perturbative bands.")]
+    exact_only: Annotated[bool, typer.Option("--exact-only", metavar="",
+                                             help="Skip the perturbative bands.")]
     = False,
 ) -> None:
     """Bands along the Brillouin-zone path, exact and perturbative side by side.

@@ -42,7 +42,8 @@ def dos(
     file: MaterialFile,
     mesh: Annotated[int, typer.Option("--mesh", help="Points per reciprocal axis of the "
                                       "Γ-centred mesh (symmetry-reduced in 3D).")] = 16,
-    method: Annotated[str, typer.Option("--method", help="tetrahedron (linear tetrahedra, "
+    method: Annotated[str, typer.Option("--method", metavar="tetrahedron|gaussian",
+                                        help="tetrahedron (linear tetrahedra, "
                                         "Blöchl-Jepsen-Andersen 1994) or gaussian.")]
     = "tetrahedron",
     smearing_eV: Annotated[float, typer.Option("--smearing-eV", help="Gaussian width (with "

@@ -32,7 +32,8 @@ from ..options import (
 
 def fullzone(
     file: MaterialFile,
-    basis: Annotated[str, typer.Option("--basis", help="Numbers of Γ eigenstates to try, "
+    basis: Annotated[str, typer.Option("--basis", metavar="N,N,…",
+                                       help="Numbers of Γ eigenstates to try, "
                                        "comma-separated (the whole plane-wave basis is added).")]
     = "15,30,60,120",
     k_points: Annotated[int, typer.Option("--k-points", help="Number of k-points along the path.")]

@@ -44,7 +44,7 @@ def gaps(
                                                     "'0.5,0,0.5'; repeat for more (default: "
                                                     "every labelled point of the path).",
                                                     show_default=False)] = None,
-    crossings: Annotated[bool | None, typer.Option("--crossings/--no-crossings",
+    crossings: Annotated[bool | None, typer.Option("--crossings/--no-crossings", metavar="",
                                                    help="Also examine where free-electron "
                                                    "bands cross between labelled points "
                                                    "(default: on, off when --point is given).",

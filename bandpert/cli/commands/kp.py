@@ -31,8 +31,12 @@ from ..options import (
 
 
 def kp(
-    file: Annotated[Path, typer.Argument(help="k·p parameter file (TOML).", show_default=False)],
-    model_name: Annotated[str | None, typer.Option("--model", help="two-band, six-band or "
+    file: Annotated[Path, typer.Argument(metavar="FILE|NAME", show_default=False,
+                                         help="k·p parameter file (TOML), or the name of a "
+                                         "bundled one.")],
+    model_name: Annotated[str | None, typer.Option("--model",
+                                                   metavar="two-band|six-band|eight-band",
+                                                   help="two-band, six-band or "
                                                    "eight-band (default: every model the file "
                                                    "supports).", show_default=False)] = None,
     compare: Annotated[Path | None, typer.Option("--compare", help="A plane-wave material file "

@@ -32,7 +32,8 @@ from ..options import (
 
 def masses(
     file: MaterialFile,
-    point: Annotated[str | None, typer.Option("--point", help="Where: a path label (G/Gamma for Γ) "
+    point: Annotated[str | None, typer.Option("--point", metavar="LABEL|COORDS",
+                                              help="Where: a path label (G/Gamma for Γ) "
                                               "or fractional coordinates '0.5,0,0.5'. Default: "
                                               "the conduction minimum and valence maximum, "
                                               "refined in 3D.", show_default=False)] = None,

@@ -49,21 +49,25 @@ def sweep(
         "strain.xx|yy|zz|xy|xz|yz|hydrostatic and alloy.x (with --alloy-end). Repeat to vary "
         "several keys (all combinations).", show_default=False)],
     quantity: Annotated[list[str] | None, typer.Option(
-        "--quantity", help="What to compute at each point: edges (band-edge energies, "
+        "--quantity", metavar="edges|gaps|masses",
+        help="What to compute at each point: edges (band-edge energies, "
         "positions, gaps), gaps (at the labelled points), masses (band-edge masses). "
         "Repeatable; default edges and gaps.", show_default=False)] = None,
     point: Annotated[list[str] | None, typer.Option(
-        "--point", help="Label of the path for the gaps (G/Gamma for Γ); repeatable; default "
+        "--point", metavar="LABEL",
+        help="Label of the path for the gaps (G/Gamma for Γ); repeatable; default "
         "every label of the path.", show_default=False)] = None,
     between: Annotated[int | None, typer.Option(
         "--between", metavar="N", help="Gaps at the points are between bands N and N+1 "
         "(1-based; default: the highest occupied band).", show_default=False)] = None,
     form_factors: Annotated[str, typer.Option(
-        "--form-factors", help="tabulated: keep the file's form factors fixed on their |G|² "
+        "--form-factors", metavar="tabulated|continuous",
+        help="tabulated: keep the file's form factors fixed on their |G|² "
         "shells; continuous: fit a v(q) to them (Friedel-Hybertsen-Schlüter form, 1/Ω "
         "scaling) that follows the lattice (needed for strain).")] = "tabulated",
     basis: Annotated[str, typer.Option(
-        "--basis", help="scaled: cutoff × (Ω_ref/Ω)^(2/d), the same plane waves under a "
+        "--basis", metavar="scaled|fixed",
+        help="scaled: cutoff × (Ω_ref/Ω)^(2/d), the same plane waves under a "
         "uniform change of the lattice constant; fixed: the same cutoff in eV.")] = "scaled",
     alloy_end: Annotated[Path | None, typer.Option(
         "--alloy-end", help="Material file of the x = 1 end of an alloy.x sweep "
