@@ -17,7 +17,7 @@ import bandpert.output.plotting, bandpert.cli.app
 from bandpert.input.material import load_material
 from bandpert.physics.bands import compute_band_structure
 from bandpert.output.plotting import band_figure
-m = load_material("materials/cosine-chain.toml")
+m = load_material("cosine-chain")
 fig = band_figure(compute_band_structure(m, n_k=8, n_bands=3))
 assert matplotlib.get_backend() == "svg", matplotlib.get_backend()
 assert "matplotlib.pyplot" not in sys.modules, "the library imported pyplot"

@@ -124,7 +124,7 @@ def aluminium_gaps():
 def test_aluminium_first_order_gaps_are_twice_the_fourier_coefficients(aluminium_gaps):
     # Gaps at L and X are 2|U111| and 2|U200| at first order (Ashcroft & Mermin, Solid State
     # Physics, 1976, ch. 9; U111 = 0.0179 Ry, U200 = 0.0562 Ry: Ashcroft, Phil. Mag. 8, 2055
-    # (1963), as in materials/aluminium.toml, from memory).
+    # (1963), as in the bundled aluminium.toml, from memory).
     lg = group_at(point_named(aluminium_gaps, "L"), 0)
     xg = group_at(point_named(aluminium_gaps, "X"), 0)
     assert lg.degeneracy == xg.degeneracy == 2

@@ -42,7 +42,7 @@ FILE_NAME = "broken-material.toml"
 # ---------------------------------------------------------------------------------------------
 
 #: Silicon in the Cohen–Bergstresser form (a = 5.43 Å, V_S(3, 8, 11) = -0.21, 0.04, 0.08 Ry, as
-#: in materials/silicon.toml after Cohen & Bergstresser, Phys. Rev. 141, 789 (1966)), with every
+#: in the bundled silicon.toml after Cohen & Bergstresser, Phys. Rev. 141, 789 (1966)), with every
 #: optional table filled.
 VALID: dict = {
     "name": "Silicon-like test material",
