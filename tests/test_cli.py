@@ -530,3 +530,11 @@ def test_help_lists_choices_and_hides_flag_metavars():
                 assert "<bool>" not in line, line
     code, out, _ = run(["--version"])
     assert code == 0 and out.strip() == f"bandpert {bandpert.__version__}"
+
+
+def test_the_readme_python_example_uses_the_top_level_api():
+    # Every `bp.NAME` the README's notebook example calls is exported by `bandpert` itself.
+    readme = (pathlib.Path(cli.__file__).parents[2] / "README.md").read_text(encoding="utf-8")
+    used = set(re.findall(r"\bbp\.(\w+)\(", readme))
+    assert {"load_material", "compute_band_structure", "edge_masses", "gap_analysis"} <= used
+    assert used <= set(bandpert.__all__), used - set(bandpert.__all__)
