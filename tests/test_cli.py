@@ -200,9 +200,12 @@ def test_bands_csv_layout(chain_run):
     assert lines[:len(header)] == header and len(header) >= 1
     assert any("eV" in h for h in header) and any("1/Angstrom" in h for h in header)
     columns = lines[len(header)].split(",")
-    assert columns[:2] == ["k_index", "path_distance_invA"]
+    assert columns[:3] == ["k_index", "path_distance_invA", "k_label"]
     assert [c for c in columns if c.startswith("band")] == [f"band{i}_eV" for i in range(1, 7)]
-    rows = np.array([[float(x) for x in ln.split(",")] for ln in lines[len(header) + 1:]])
+    cells = [ln.split(",") for ln in lines[len(header) + 1:]]
+    assert cells[0][2] == "Γ" and cells[-1][2] == "X" and cells[1][2] == ""
+    columns = columns[:2] + columns[3:]
+    rows = np.array([[float(x) for x in c[:2] + c[3:]] for c in cells])
     doc = json.loads((out_dir / "cosine-chain-bands.json").read_text())["results"]
     assert rows.shape == (len(doc["k_frac"]), len(columns))
     assert rows[:, 0].tolist() == list(range(len(rows)))
@@ -538,3 +541,16 @@ def test_the_readme_python_example_uses_the_top_level_api():
     used = set(re.findall(r"\bbp\.(\w+)\(", readme))
     assert {"load_material", "compute_band_structure", "edge_masses", "gap_analysis"} <= used
     assert used <= set(bandpert.__all__), used - set(bandpert.__all__)
+
+
+def test_bands_summary_says_metal_or_semiconductor(tmp_path):
+    # Aluminium has no gap between occupied and empty bands, silicon has one (Ashcroft & Mermin,
+    # Solid State Physics, 1976, ch. 9 and ch. 28; from memory).
+    code, out, err = run(["bands", str(MATERIALS / "aluminium.toml"), "--exact-only",
+                          "--k-points", "10", "--out", str(tmp_path)])
+    assert code == 0, err
+    assert "metal (no gap" in out
+    code, out, err = run(["bands", "silicon", "--exact-only", "--k-points", "10", "--out",
+                          str(tmp_path)])
+    assert code == 0, err
+    assert "semiconductor or insulator" in out and "metal (" not in out

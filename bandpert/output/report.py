@@ -501,3 +501,15 @@ def dos_table(result) -> tuple[list[str], list[str], np.ndarray]:
     rows = np.column_stack([d.energies_eV, d.energies_eV - result.energy_zero_eV, d.dos_per_eV,
                             d.integrated])
     return header, cols, rows
+
+
+def with_k_labels(bs: BandStructure, columns: list[str],
+                  rows: np.ndarray) -> tuple[list[str], list[list[str]]]:
+    """A path table with a ``k_label`` column after the first two: the point's label (Γ, X, …)
+    where the path has one, else empty; numbers formatted as :func:`bandpert.io.write_csv`."""
+    labels = [""] * len(bs.path.k_frac)
+    for i, lab in zip(bs.path.label_indices, bs.path.labels, strict=True):
+        labels[int(i)] = lab
+    cells = [[f"{x:.10g}" for x in row] for row in np.asarray(rows, dtype=float)]
+    return (columns[:2] + ["k_label"] + columns[2:],
+            [row[:2] + [lab] + row[2:] for row, lab in zip(cells, labels, strict=True)])

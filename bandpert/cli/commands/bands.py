@@ -12,13 +12,14 @@ from rich.table import Table
 from ...crystal.lattice import describe_position
 from ...errors import InputError
 from ...input.material import load_material
-from ...io import write_csv, write_json
+from ...io import write_csv, write_json, write_table
 from ...output.plotting import band_figure
 from ...output.report import (
     band_structure_results,
     band_structure_table,
     document,
     perturbative_table,
+    with_k_labels,
 )
 from ...perturbation import DEFAULT_COUPLING_THRESHOLD
 from ...physics.bands import compute_band_structure
@@ -125,7 +126,7 @@ def bands(
     image, csv_path, json_path = output_paths(base, image_format, json_path)
     written = [image, csv_path]
     save_figure(fig, image, image_format)
-    write_csv(csv_path, header, cols, rows)
+    write_table(csv_path, header, *with_k_labels(bs, cols, rows))
     if bs.perturbative is not None:
         pert_csv = base.with_name(f"{base.name}-perturbative.csv")
         write_csv(pert_csv, *perturbative_table(bs))
@@ -145,8 +146,11 @@ def _summary(bs) -> None:
         table.add_row("space group", f"{sym.international} ({sym.number})")
     table.add_row("basis", f"{bs.model.size} plane waves, cutoff {bs.model.basis.cutoff_eV:.2f} eV")
     table.add_row("energy zero", f"{bs.energy_zero_kind} = {bs.energy_zero_eV:.4f} eV (absolute)")
+    if bs.edges is None and bs.material.valence_electrons:
+        table.add_row("kind", "metal (no gap between occupied and empty bands on the path)")
     if bs.edges is not None:
         g = bs.edges
+        table.add_row("kind", "semiconductor or insulator (a gap on the path)")
         table.add_row("gap", f"{g.gap_eV:.3f} eV")
         table.add_row("valence maximum", describe_position(bs.path, g.valence_max_index))
         table.add_row("conduction minimum", describe_position(bs.path, g.conduction_min_index))
