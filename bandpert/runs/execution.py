@@ -53,7 +53,7 @@ CONNECT_TIMEOUT = "10s"
 
 #: Seconds allowed for each step of the protocol check of a scheduler address (TCP connect,
 #: then the scheduler's greeting): a service that is not Dask is refused within twice this.
-PROBE_TIMEOUT_S = 5.0
+PROBE_TIMEOUT_S = 3.0
 
 #: Largest greeting accepted from a scheduler (its handshake is about 60 bytes).
 _MAX_GREETING_BYTES = 1 << 16
