@@ -68,6 +68,11 @@ def _finite_or_none(a: np.ndarray) -> list:
     return [[None if not np.isfinite(x) else float(x) for x in row] for row in np.atleast_2d(a)]
 
 
+def _inside_or_none(radius: np.ndarray, lam: float) -> list:
+    """Nested lists of ``λ < radius``; null where the radius is undetermined (NaN)."""
+    return [[None if np.isnan(x) else bool(x > lam) for x in row] for row in np.atleast_2d(radius)]
+
+
 def perturbative_results(bs: BandStructure) -> dict[str, Any]:
     """The ``results.perturbative`` section of ``bandpert bands`` (keys in the README)."""
     pb = bs.perturbative
@@ -90,7 +95,7 @@ def perturbative_results(bs: BandStructure) -> dict[str, Any]:
         "convergence_radius": {
             "k_indices": pb.radius_k_indices,
             "radius": _finite_or_none(pb.convergence_radius) if len(pb.radius_k_indices) else [],
-            "lambda_inside": pb.convergence_radius > s.lam,
+            "lambda_inside": _inside_or_none(pb.convergence_radius, s.lam),
         },
         "comparison": None if cmp is None else {
             "matched": "band by band in sorted order at each k",

@@ -106,7 +106,8 @@ class PerturbativeBands:
     radius_k_indices : numpy.ndarray
         (n_r,) k-point indices where the convergence radius was computed.
     convergence_radius : numpy.ndarray
-        (n_r, n_bands) radius in λ of the series used (inf: the series terminates).
+        (n_r, n_bands) radius in λ of the series used (inf: the series terminates; NaN:
+        undetermined, its two estimators disagree).
     settings : PerturbationSettings
     """
 

@@ -169,13 +169,18 @@ def _summary(bs) -> None:
                           f"on trustworthy points {1e3 * c.max_error_trustworthy_eV:.2f} meV; "
                           f"estimate ≥ true error on {100 * c.estimate_coverage:.1f} %")
         if len(pb.radius_k_indices):
-            inside = pb.convergence_radius > s.lam
+            radius = pb.convergence_radius
+            known = ~np.isnan(radius)
+            smallest = np.min(radius[known]) if known.any() else np.nan
             table.add_row("convergence radius", f"λ = {s.lam:g} inside on "
-                          f"{100 * inside.mean():.0f} % of the sampled (band, k) points "
-                          f"(smallest radius {_radius(pb.convergence_radius.min())})")
+                          f"{100 * (radius > s.lam).mean():.0f} % of the sampled (band, k) "
+                          f"points, undetermined on {100 * (~known).mean():.0f} % "
+                          f"(smallest radius {_radius(smallest)})")
     out.print(table)
 
 
 def _radius(r: float) -> str:
     """A convergence radius for the summary: infinite when every series terminates (V = 0)."""
+    if np.isnan(r):
+        return "undetermined"
     return f"{r:.2f}" if np.isfinite(r) else "unbounded: the series terminate"
