@@ -17,11 +17,12 @@ from .data import bundled_names, find_material  # noqa: E402
 from .errors import InputError  # noqa: E402
 from .input.kp_file import KPMaterial, load_kp_material  # noqa: E402
 from .input.material import Material, load_material, parse_material  # noqa: E402
-from .physics.bands import BandStructure, compute_band_structure, exact_energies  # noqa: E402
+from .physics.bands import BandStructure, compute_band_structure  # noqa: E402
 from .physics.masses import BandMasses, band_masses, edge_masses  # noqa: E402
 from .physics.nfe_gaps import GapReport, gap_analysis  # noqa: E402
 from .physics.perturbative_bands import PerturbationSettings  # noqa: E402
 from .planewave.model import PlaneWaveModel, build_model  # noqa: E402
+from .planewave.solver import exact_energies  # noqa: E402
 from .runs.execution import Engine  # noqa: E402
 from .runs.mesh_dos import DosResult, compute_dos  # noqa: E402
 

@@ -7,8 +7,10 @@ import pytest
 from conftest import bundled, make_material
 
 from bandpert.crystal.lattice import standard_path
-from bandpert.physics.bands import compute_band_structure, exact_energies, fermi_level
+from bandpert.physics.bands import compute_band_structure, fermi_level
+from bandpert.planewave import solver
 from bandpert.planewave.model import build_model
+from bandpert.planewave.solver import exact_energies
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 
@@ -116,17 +118,15 @@ def test_band_count_larger_than_basis_is_refused():
 def test_batched_and_lapack_paths_agree(silicon):
     # The two solver paths (batched numpy below BATCH_BELOW, per-k LAPACK subset above) give the
     # same eigenvalues (internal consistency; common practice, no source).
-    import bandpert.physics.bands as bands
-
     model = build_model(silicon, 50.0)
     k = np.random.default_rng(1).normal(size=(5, 3))
     e1 = exact_energies(model, k, 6)
-    old = bands.BATCH_BELOW
+    old = solver.BATCH_BELOW
     try:
-        bands.BATCH_BELOW = 0
+        solver.BATCH_BELOW = 0
         e2 = exact_energies(model, k, 6)
     finally:
-        bands.BATCH_BELOW = old
+        solver.BATCH_BELOW = old
     assert np.allclose(e1, e2, atol=1e-9)
 
 
@@ -134,7 +134,7 @@ def test_an_unconverged_cutoff_is_warned_about(silicon):
     # The project's convergence criterion (bands move < 5 meV at 1.5 × the cutoff; common
     # practice, no source): 60 eV is far from it for silicon, the default cutoff meets it.
     from bandpert.errors import ModelWarning
-    from bandpert.physics.bands import warn_if_unconverged
+    from bandpert.planewave.cutoff import warn_if_unconverged
 
     with pytest.warns(ModelWarning, match="not converged"):
         change = warn_if_unconverged(silicon, 60.0, 8)

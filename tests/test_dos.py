@@ -11,11 +11,12 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.integrate import quad
 
+from bandpert.crystal.kmesh import KMesh, full_grid_frac, reciprocal_mesh
 from bandpert.crystal.lattice import point_group_rotations
 from bandpert.errors import InputError
 from bandpert.physics import dos
-from bandpert.physics.bands import exact_energies
 from bandpert.planewave.model import build_model
+from bandpert.planewave.solver import exact_energies
 from bandpert.units import HBAR2_OVER_2M0_EV_A2 as C
 
 A_AL = 4.05  # Å, aluminium (source: Ashcroft & Mermin, Solid State Physics (1976), Table 4.3)
@@ -26,7 +27,7 @@ def empty(kind: str, a: float, d: int):
                          {"form": "empty"})
 
 
-def empty_bands(material, mesh: dos.KMesh, n_bands: int, cutoff_eV: float) -> np.ndarray:
+def empty_bands(material, mesh: KMesh, n_bands: int, cutoff_eV: float) -> np.ndarray:
     """Empty-lattice bands: with V = 0 the Hamiltonian is its kinetic diagonal, so the sorted
     diagonal is the spectrum (checked against the diagonalisation at a few points)."""
     model = build_model(material, cutoff_eV)
@@ -43,7 +44,7 @@ def empty_bands(material, mesh: dos.KMesh, n_bands: int, cutoff_eV: float) -> np
 
 def test_full_grid_is_in_c_order():
     # C order by definition of KMesh: index = i0 n1 n2 + i1 n2 + i2 (common practice, no source)
-    k = dos.full_grid_frac((2, 3, 4))
+    k = full_grid_frac((2, 3, 4))
     i0, i1, i2 = 1, 2, 3
     np.testing.assert_allclose(k[i0 * 12 + i1 * 4 + i2], [1 / 2, 2 / 3, 3 / 4])
     assert len(k) == 24
@@ -57,7 +58,7 @@ def test_orthorhombic_mesh_maps_each_point_to_its_mirror_images():
     # first-index-fastest grid with our C order.
     m = make_material({"type": "orthorhombic", "a_A": 3.0, "b_A": 4.0, "c_A": 5.0},
                       [{"species": "X", "position": [0.0, 0.0, 0.0]}], {"form": "empty"})
-    mesh = dos.reciprocal_mesh(m, (4, 5, 6))
+    mesh = reciprocal_mesh(m, (4, 5, 6))
     n = np.array(mesh.shape)
     assert mesh.n_full == 120
     assert len(mesh.k_frac) == 3 * 3 * 4
@@ -72,7 +73,7 @@ def test_orthorhombic_mesh_maps_each_point_to_its_mirror_images():
                                       ((4, 0, 4), "at least 2"), (True, "whole")])
 def test_bad_mesh_is_refused(bad, why):
     with pytest.raises(InputError, match=why) as err:
-        dos.reciprocal_mesh(empty("fcc", A_AL, 3), bad)
+        reciprocal_mesh(empty("fcc", A_AL, 3), bad)
     assert err.value.key == "mesh"
 
 
@@ -83,9 +84,9 @@ def silicon_mesh():
     (at the image of the point reached from its irreducible point by a symmetry operation)."""
     si = bundled("silicon")
     model = build_model(si, 60.0)
-    mesh = dos.reciprocal_mesh(si, 8)
+    mesh = reciprocal_mesh(si, 8)
     e_irr = exact_energies(model, mesh.k_cart_invA, 6)
-    full = dos.reciprocal_mesh(si, 8, reduce_by_symmetry=False)
+    full = reciprocal_mesh(si, 8, reduce_by_symmetry=False)
     e_full = exact_energies(model, symmetry_images(si, mesh) @ mesh.reciprocal_invA, 6)
     return mesh, e_irr, full, e_full
 
@@ -103,7 +104,7 @@ def test_irreducible_silicon_mesh_unfolds_to_the_full_grid(silicon_mesh):
     np.testing.assert_allclose(mesh.unfold(e_irr), e_full, atol=1e-9)
 
 
-def symmetry_images(material, mesh: dos.KMesh) -> np.ndarray:
+def symmetry_images(material, mesh: KMesh) -> np.ndarray:
     """For each full-grid point, the image ±R k_irr of its irreducible point that equals it
     modulo a reciprocal lattice vector (R from spglib, acting on fractional reciprocal rows as
     W⁻¹ for the direct-space rotation W)."""
@@ -123,7 +124,7 @@ def test_empty_fcc_mesh_unfolds_to_energies_at_the_full_grid_points():
     # the unfolded energies equal those computed directly at k_frac = i/n in [0, 1), C order
     # (Ashcroft & Mermin (1976), ch. 9, the empty lattice, from memory).
     m = empty("fcc", A_AL, 3)
-    mesh = dos.reciprocal_mesh(m, 6)
+    mesh = reciprocal_mesh(m, 6)
     model = build_model(m, 300.0)
     direct = np.sort(model.kinetic_eV(mesh.full_k_frac @ mesh.reciprocal_invA), axis=1)[:, :6]
     unfolded = mesh.unfold(empty_bands(m, mesh, 6, 300.0))
@@ -150,7 +151,7 @@ def test_irreducible_and_full_mesh_give_the_same_dos(silicon_mesh):
 def free_fcc():
     """Empty fcc lattice a = 4.05 Å, 24³ mesh, 30 bands (covering every state up to ~76 eV)."""
     m = empty("fcc", A_AL, 3)
-    mesh = dos.reciprocal_mesh(m, 24)
+    mesh = reciprocal_mesh(m, 24)
     return m, mesh, empty_bands(m, mesh, 30, 300.0)
 
 
@@ -188,7 +189,7 @@ def test_free_electron_dos_is_constant_in_2d():
     # g = A m/(π ħ²), both spins; with C = ħ²/2m that is A/(2π C)
     # (source: Ashcroft & Mermin (1976), ch. 2, problem 1, from memory).
     m = empty("square", 3.0, 2)
-    mesh = dos.reciprocal_mesh(m, 48)
+    mesh = reciprocal_mesh(m, 48)
     e = empty_bands(m, mesh, 16, 200.0)
     top = dos.band_energy_window(e)[1]
     grid = np.arange(1.0, 0.8 * top, 0.1)
@@ -203,7 +204,7 @@ def test_free_electron_dos_in_1d():
     # g(E) = L/(π √(C E)) both spins, N = 2 L √(E/C)/π (source: Ashcroft & Mermin (1976), ch. 2,
     # the 1D case of eq. 2.61's derivation, from memory).
     m = empty("chain", 2.5, 1)
-    mesh = dos.reciprocal_mesh(m, 200)
+    mesh = reciprocal_mesh(m, 200)
     e = empty_bands(m, mesh, 8, 1500.0)
     grid = np.arange(1.0, 0.8 * dos.band_energy_window(e)[1], 0.1)
     d = dos.tetrahedron_dos(mesh, e, grid)
@@ -223,7 +224,7 @@ def test_aluminium_free_electron_fermi_level():
     # Solid State Physics (1976), Table 2.1). Measured with a 32³ mesh: 11.6603 eV against the
     # analytic 11.6524 eV (+8 meV; the linear interpolation error falls as 1/n²).
     m = empty("fcc", A_AL, 3)
-    mesh = dos.reciprocal_mesh(m, 32)
+    mesh = reciprocal_mesh(m, 32)
     e = empty_bands(m, mesh, 8, 150.0)
     ef = dos.fermi_level_from_count(mesh, e, 3)
     exact = free_electron_fermi_energy(3 / m.volume_A)
@@ -236,7 +237,7 @@ def test_aluminium_free_electron_fermi_level():
 def aluminium():
     """The bundled aluminium (weak local pseudopotential), 150 eV (65 plane waves), 20³ mesh."""
     al = bundled("aluminium")
-    mesh = dos.reciprocal_mesh(al, 20)
+    mesh = reciprocal_mesh(al, 20)
     return al, mesh, exact_energies(build_model(al, 150.0), mesh.k_cart_invA, 8)
 
 
@@ -358,7 +359,7 @@ def test_random_bands_dos_properties(d, seed, shift):
     shape = tuple(int(x) for x in rng.integers(2, 6, size=d))
     n_full, n_bands = int(np.prod(shape)), 3
     b = rng.normal(size=(d, d)) + 3 * np.eye(d)
-    mesh = dos.KMesh(shape, dos.full_grid_frac(shape), np.full(n_full, 1 / n_full),
+    mesh = KMesh(shape, full_grid_frac(shape), np.full(n_full, 1 / n_full),
                      np.arange(n_full), b)
     e = np.sort(rng.uniform(-3.0, 3.0, size=(n_full, n_bands)), axis=1)
     grid = np.linspace(-4.0, 4.0, 301)
@@ -378,7 +379,7 @@ def test_grid_simplices_tile_the_cell():
     # diagonal: for fcc the reciprocal (bcc) cell's shortest diagonal (Blöchl, Jepsen &
     # Andersen (1994), Sec. III).
     m = empty("fcc", A_AL, 3)
-    mesh = dos.reciprocal_mesh(m, 4)
+    mesh = reciprocal_mesh(m, 4)
     corners = dos._simplex_corners(mesh)
     assert corners.shape == (6 * 64, 4)
     assert len(np.unique(np.sort(corners, axis=1), axis=0)) == 6 * 64
@@ -399,7 +400,7 @@ def test_triangles_use_the_shorter_diagonal():
     # (common practice, no source).
     m = make_material({"type": "hexagonal-2d", "a_A": 2.5},
                       [{"species": "X", "position": [0.0, 0.0]}], {"form": "empty"})
-    mesh = dos.reciprocal_mesh(m, 4)
+    mesh = reciprocal_mesh(m, 4)
     corners = dos._simplex_corners(mesh)
     assert corners.shape == (2 * 16, 3)
     k = mesh.full_k_frac @ mesh.reciprocal_invA

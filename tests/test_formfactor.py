@@ -15,17 +15,16 @@ from hypothesis import strategies as st
 
 from bandpert.errors import InputError
 from bandpert.input.material import load_material, parse_material
-from bandpert.physics.bands import exact_energies
 from bandpert.planewave.formfactor import (
     ContinuousFit,
     continuous_document,
-    continuous_form_factor,
     fit_continuous_potential,
     free_electron_fermi_energy_eV,
     long_wavelength_limit_eV,
-    taper_weight,
 )
-from bandpert.planewave.model import build_model, fourier_coefficients
+from bandpert.planewave.model import build_model
+from bandpert.planewave.potential import continuous_form_factor, fourier_coefficients, taper_weight
+from bandpert.planewave.solver import exact_energies
 from bandpert.units import RYDBERG_EV
 
 TABULATED = ["silicon", "germanium", "gallium-arsenide"]

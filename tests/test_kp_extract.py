@@ -12,10 +12,11 @@ from hypothesis import strategies as st
 
 from bandpert.input.kp_file import parse_kp_material
 from bandpert.kp import dkk_from_luttinger, luttinger_from_dkk, unit_vector
-from bandpert.physics.bands import converged_cutoff, exact_energies
 from bandpert.physics.kp_from_planewave import extract_kp_parameters, kp_material_text
 from bandpert.physics.masses import degenerate_edge, eigenstates
+from bandpert.planewave.cutoff import converged_cutoff
 from bandpert.planewave.model import build_model
+from bandpert.planewave.solver import exact_energies
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 

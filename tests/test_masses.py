@@ -9,7 +9,7 @@ from conftest import bundled, make_material
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from bandpert.physics.bands import compute_band_structure, exact_energies
+from bandpert.physics.bands import compute_band_structure
 from bandpert.physics.masses import (
     C,
     band_masses,
@@ -24,6 +24,7 @@ from bandpert.physics.masses import (
     star_size,
 )
 from bandpert.planewave.model import build_model
+from bandpert.planewave.solver import exact_energies
 
 
 def _rotations(material):

@@ -6,10 +6,11 @@ import numpy as np
 import pytest
 from conftest import bundled, make_material
 
-from bandpert.crystal.lattice import reciprocal_vectors
+from bandpert.crystal.kmesh import reciprocal_mesh
 from bandpert.errors import InputError
-from bandpert.physics.bands import fermi_level, uniform_mesh
-from bandpert.physics.dos import reciprocal_mesh
+from bandpert.physics.bands import fermi_level
+from bandpert.planewave.model import build_model
+from bandpert.planewave.solver import exact_energies
 from bandpert.runs.execution import Engine
 from bandpert.runs.mesh_dos import compute_dos, mesh_energies
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
@@ -55,13 +56,9 @@ def test_tetrahedron_and_gaussian_fermi_levels_agree(aluminium, al_dos):
     # Two integrations of the same bands (common practice, no source). On a 14³ mesh a
     # σ = 0.05 eV Gaussian still carries a sampling error: the two differ by 53 meV (measured);
     # the tetrahedra converge faster, which is why they are the default.
-    k_frac, w = uniform_mesh(aluminium, 14)
-    from bandpert.physics.bands import exact_energies
-    from bandpert.planewave.model import build_model
-
-    e = exact_energies(build_model(aluminium, al_dos.cutoff_eV),
-                       k_frac @ reciprocal_vectors(aluminium.vectors_A), 6)
-    assert abs(fermi_level(e, w, 3, 0.05) - al_dos.fermi_level_eV) < 0.08
+    mesh = reciprocal_mesh(aluminium, 14, fold=False)
+    e = exact_energies(build_model(aluminium, al_dos.cutoff_eV), mesh.k_cart_invA, 6)
+    assert abs(fermi_level(e, mesh.weights, 3, 0.05) - al_dos.fermi_level_eV) < 0.08
     gauss = compute_dos(aluminium, 14, method="gaussian", smearing_eV=0.05, n_bands=6)
     assert abs(gauss.fermi_level_eV - al_dos.fermi_level_eV) < 0.08
 

@@ -125,7 +125,7 @@ def test_weak_potential_limit_is_exact_to_the_order():
     material = bundled("aluminium")
     model = build_model(material, 120.0)
     k = np.random.default_rng(3).uniform(-0.4, 0.4, size=(6, 3)) @ model.reciprocal_invA
-    from bandpert.physics.bands import exact_energies
+    from bandpert.planewave.solver import exact_energies
 
     errors = []
     for lam in (0.1, 0.05):

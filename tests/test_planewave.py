@@ -11,8 +11,8 @@ from conftest import bundled, make_material
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from bandpert.physics.bands import exact_energies
 from bandpert.planewave.model import build_model, fourier_coefficients
+from bandpert.planewave.solver import exact_energies
 from bandpert.units import HBAR2_OVER_2M0_EV_A2, RYDBERG_EV
 
 

@@ -12,8 +12,9 @@ from conftest import MATERIALS
 from bandpert.data import MATERIALS_DIR
 from bandpert.errors import InputError
 from bandpert.input.material import parse_material, read_toml_document
-from bandpert.physics.bands import compute_band_structure, exact_energies
+from bandpert.physics.bands import compute_band_structure
 from bandpert.planewave.model import build_model
+from bandpert.planewave.solver import exact_energies
 from bandpert.runs.execution import Engine
 from bandpert.runs.sweep import (
     SweepAxis,

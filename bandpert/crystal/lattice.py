@@ -12,6 +12,8 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
+import seekpath
+import spglib
 
 from ..errors import InputError
 from ..input.material import Material, canonical_label
@@ -42,9 +44,16 @@ class Symmetry:
     has_inversion: bool | None
 
 
-def _species_numbers(material: Material) -> list[int]:
+def spglib_cell(material: Material) -> tuple[np.ndarray, np.ndarray, list[int]]:
+    """The one cell handed to spglib and seekpath: (lattice rows Å, fractional positions, types).
+
+    Species are numbered 1, 2, … in alphabetical order of their names; only which atoms share a
+    number matters to spglib (Togo & Tanaka, arXiv:1808.01590 (2018)).
+    """
     names = sorted({a.species for a in material.atoms})
-    return [names.index(a.species) + 1 for a in material.atoms]
+    return (np.asarray(material.vectors_A, dtype=float),
+            np.array([a.position_frac for a in material.atoms], dtype=float),
+            [names.index(a.species) + 1 for a in material.atoms])
 
 
 def crystal_symmetry(material: Material, symprec: float = 1e-5) -> Symmetry:
@@ -64,11 +73,7 @@ def crystal_symmetry(material: Material, symprec: float = 1e-5) -> Symmetry:
     """
     if material.dimension != 3:
         return Symmetry(None, None, None)
-    import spglib
-
-    cell = (material.vectors_A, [a.position_frac for a in material.atoms],
-            _species_numbers(material))
-    data = spglib.get_symmetry_dataset(cell, symprec=symprec)
+    data = spglib.get_symmetry_dataset(spglib_cell(material), symprec=symprec)
     if data is None:
         return Symmetry(None, None, None)
     rotations = np.asarray(data.rotations)
@@ -110,10 +115,8 @@ def standard_path(material: Material) -> tuple[dict[str, tuple[float, ...]],
         if kind == "vectors":
             kind = "chain" if material.dimension == 1 else "oblique"
         return _OWN_PATHS[kind]
-    import seekpath
-
-    cell = (material.vectors_A.tolist(), [list(a.position_frac) for a in material.atoms],
-            _species_numbers(material))
+    lattice, positions, types = spglib_cell(material)
+    cell = (lattice.tolist(), positions.tolist(), types)
     try:
         with warnings.catch_warnings():
             warnings.simplefilter("ignore")
@@ -238,9 +241,5 @@ def point_group_rotations(material: Material, symprec: float = 1e-5) -> np.ndarr
     """Rotations of the crystal's space group (spglib, fractional direct coordinates), 3D only."""
     if material.dimension != 3:
         return None
-    import spglib
-
-    cell = (material.vectors_A, [a.position_frac for a in material.atoms],
-            _species_numbers(material))
-    data = spglib.get_symmetry_dataset(cell, symprec=symprec)
+    data = spglib.get_symmetry_dataset(spglib_cell(material), symprec=symprec)
     return None if data is None else np.asarray(data.rotations)

@@ -1,27 +1,21 @@
-"""Exact bands: diagonalisation of H(k) = H0(k) + V by LAPACK, only the bands asked for.
-
-Also the choices that make a band structure usable: a converged default cutoff, the energy zero
-(valence-band maximum for a semiconductor, Fermi level for a metal) and the band edges.
+"""Exact bands along a labelled path (LAPACK, :mod:`bandpert.planewave.solver`), and the choices
+that make a band structure usable: the energy zero (valence-band maximum for a semiconductor,
+Fermi level for a metal, chosen by :func:`choose_energy_zero` for every command) and the band
+edges. The cutoff comes from the one rule of :mod:`bandpert.planewave.cutoff`.
 """
 
 from __future__ import annotations
 
+import warnings
 from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
-import scipy.linalg.lapack
+from scipy.special import erfc
 
-from ..crystal.lattice import (
-    KPath,
-    Symmetry,
-    crystal_symmetry,
-    reciprocal_vectors,
-    sample_path,
-    standard_path,
-)
-from ..errors import InputError
+from ..crystal.kmesh import reciprocal_mesh
+from ..crystal.lattice import KPath, Symmetry, crystal_symmetry, sample_path, standard_path
+from ..errors import InputError, ModelWarning
 from ..input.material import Material
 from ..perturbation import perturbative_levels
 from ..physics.perturbative_bands import (
@@ -31,110 +25,9 @@ from ..physics.perturbative_bands import (
     compare,
     perturbative_bands,
 )
-from ..planewave.model import PlaneWaveModel, build_model, single_blas_thread
-from ..units import HBAR2_OVER_2M0_EV_A2
-
-#: Below this basis size the eigenvalues of a block of k-points come from one batched numpy call
-#: (all eigenvalues, divide and conquer); above it, LAPACK's MRRR driver per k-point, only the
-#: bands asked for. Measured crossover on the bundled materials (one BLAS thread, 200 k-points):
-#: batched is 30 % faster at 65–89 plane waves and 5 % at 113, per-k MRRR 8 % faster at 169.
-BATCH_BELOW = 128
-
-#: Bytes of Hamiltonians held at once by the batched path (memory does not grow with n_k).
-BATCH_BYTES = 16 * 2**20
-
-#: Bands move by less than this when the default cutoff is raised by half (eV).
-CONVERGENCE_TOLERANCE_EV = 0.005
-
-Progress = Callable[[int, int], None]
-
-def _mrrr_solver(n: int, n_bands: int, complex_: bool) -> Callable[[np.ndarray], np.ndarray]:
-    """The LAPACK call ``scipy.linalg.eigh(..., subset_by_index, driver="evr")`` makes, bound once.
-
-    Same routine, arguments and optimal workspace as scipy's wrapper (so the same numbers),
-    without re-validating the arguments and querying the workspace at every k-point.
-    """
-    prefix = "he" if complex_ else "sy"
-    drv, query = scipy.linalg.lapack.get_lapack_funcs(
-        (prefix + "evr", prefix + "evr_lwork"), dtype=complex if complex_ else float)
-    *sizes, info = query(n, lower=1)
-    if info != 0:
-        raise RuntimeError(f"LAPACK workspace query failed (info = {info})")
-    names = ("lwork", "lrwork", "liwork") if complex_ else ("lwork", "liwork")
-    work = {name: int(size.real) for name, size in zip(names, sizes, strict=True)}
-
-    def solve(h: np.ndarray) -> np.ndarray:
-        w, _, _, _, info = drv(h, compute_v=0, range="I", lower=1, il=1, iu=n_bands,
-                               overwrite_a=1, **work)
-        if info != 0:
-            raise np.linalg.LinAlgError(f"LAPACK ?syevr/?heevr failed (info = {info})")
-        return w[:n_bands]
-
-    return solve
-
-
-def exact_energies(model: PlaneWaveModel, k_cart_invA: np.ndarray, n_bands: int,
-                   progress: Progress | None = None) -> np.ndarray:
-    """Lowest ``n_bands`` eigenvalues of H(k) at each k-point, ascending.
-
-    H(k) = H0(k) + V is assembled per k from the k-independent V; LAPACK's MRRR driver
-    (``?syevr``/``?heevr``) computes only the requested eigenvalues. Bases below
-    :data:`BATCH_BELOW` plane waves are diagonalised in blocks of k-points by one
-    :func:`numpy.linalg.eigvalsh` call per block. BLAS runs on one thread
-    (:func:`single_blas_thread`); the kinetic diagonal is built per block of k-points, so the
-    memory beyond the (n_k, n_bands) result does not grow with the number of k-points.
-
-    Parameters
-    ----------
-    model : PlaneWaveModel
-    k_cart_invA : numpy.ndarray
-        (n_k, d) Cartesian wave vectors (Å⁻¹).
-    n_bands : int
-        Number of bands; at most the basis size.
-    progress : callable, optional
-        Called as ``progress(done, total)``.
-
-    Returns
-    -------
-    numpy.ndarray
-        (n_k, n_bands) energies in eV (absolute: the model's own zero).
-    """
-    n = model.size
-    if n_bands > n:
-        raise InputError(f"{n_bands} bands asked for but the basis holds only {n} plane waves; "
-                         "expected fewer bands or a larger cutoff", key="bands")
-    k = np.atleast_2d(k_cart_invA)
-    n_k = len(k)
-    v = model.potential_eV
-    out = np.empty((n_k, n_bands))
-    diag = np.arange(n)
-    block = max(1, min(n_k, BATCH_BYTES // (n * n * v.itemsize)))
-    with single_blas_thread():
-        if n < BATCH_BELOW:
-            h = np.empty((block, n, n), dtype=v.dtype)
-            for start in range(0, n_k, block):
-                stop = min(n_k, start + block)
-                hb = h[: stop - start]
-                hb[:] = v
-                hb[:, diag, diag] += model.kinetic_eV(k[start:stop])
-                out[start:stop] = np.linalg.eigvalsh(hb)[:, :n_bands]
-                if progress:
-                    progress(stop, n_k)
-            return out
-        solve = _mrrr_solver(n, n_bands, np.iscomplexobj(v))
-        v_f = np.asfortranarray(v)  # LAPACK's layout: no copy inside the wrapper
-        h = np.empty_like(v_f)
-        step = max(1, n_k // 50)
-        for start in range(0, n_k, block):
-            kinetic = model.kinetic_eV(k[start:start + block])
-            for j, row in enumerate(kinetic):
-                i = start + j
-                np.copyto(h, v_f)
-                h[diag, diag] += row
-                out[i] = solve(h)
-                if progress and (i % step == 0 or i == n_k - 1):
-                    progress(i + 1, n_k)
-    return out
+from ..planewave.cutoff import choose_cutoff
+from ..planewave.model import PlaneWaveModel, build_model
+from ..planewave.solver import Progress, exact_energies
 
 
 def default_bands(material: Material) -> int:
@@ -143,112 +36,6 @@ def default_bands(material: Material) -> int:
         return material.n_bands
     occupied = (material.valence_electrons or 8) // 2 + (material.valence_electrons or 8) % 2
     return occupied + 4
-
-
-def _probe_points(material: Material) -> np.ndarray:
-    """Labelled points and segment midpoints, Cartesian (Å⁻¹): where convergence is checked."""
-    points, legs = standard_path(material)
-    b = reciprocal_vectors(material.vectors_A)
-    frac = [points[label] for leg in legs for label in leg]
-    frac += [np.add(points[leg[i]], points[leg[i + 1]]) / 2 for leg in legs
-             for i in range(len(leg) - 1)]
-    return np.unique(np.round(np.array(frac, dtype=float), 12), axis=0) @ b
-
-
-def converged_cutoff(material: Material, n_bands: int,
-                     tolerance_eV: float = CONVERGENCE_TOLERANCE_EV) -> float:
-    """Smallest cutoff (on a ×1.15 ladder) at which the bands move by < tolerance at ×1.5 cutoff.
-
-    Ladder steps where the ×1.5 basis holds no more plane waves than the lower one are skipped.
-
-    The check runs at the labelled points and segment midpoints of the path with 20 % margin
-    (tolerance × 0.8), on absolute energies (stricter than after a shift of the zero).
-
-    Parameters
-    ----------
-    material : Material
-    n_bands : int
-        The bands that must be converged.
-    tolerance_eV : float
-        Allowed change of any band at any probe point.
-
-    Returns
-    -------
-    float
-        The cutoff in eV.
-    """
-    k = _probe_points(material)
-    b = reciprocal_vectors(material.vectors_A)
-    # start where the basis holds twice the bands: the smallest |G| that does
-    g_min = np.min(np.linalg.norm(b, axis=1))
-    cutoff = HBAR2_OVER_2M0_EV_A2 * g_min**2 * max(1.0, (2 * n_bands) ** (2 / material.dimension)
-                                                   / 4)
-    for _ in range(60):
-        low = build_model(material, cutoff)
-        high = build_model(material, 1.5 * cutoff)
-        # raising the cutoff by half must add plane waves, or the test would pass vacuously
-        if high.size > low.size and low.size >= n_bands:
-            diff = np.abs(exact_energies(low, k, n_bands) - exact_energies(high, k, n_bands))
-            if diff.max() < 0.8 * tolerance_eV:
-                return float(cutoff)
-        cutoff *= 1.15
-    raise InputError("no cutoff converged the bands within the basis limit; expected a "
-                     "smoother potential or an explicit basis.cutoff_eV", material.file, "basis")
-
-
-def warn_if_unconverged(material: Material, cutoff_eV: float, n_bands: int,
-                        tolerance_eV: float = CONVERGENCE_TOLERANCE_EV) -> float:
-    """Warn (:class:`~bandpert.errors.ModelWarning`) when a given cutoff is not converged.
-
-    The bands at the labelled points and segment midpoints are compared with those at 1.5 ×
-    the cutoff (or the next cutoff that adds plane waves, if that one adds none); the largest
-    change (eV) is returned.
-    """
-    import warnings
-
-    from ..errors import ModelWarning
-
-    low = build_model(material, cutoff_eV)
-    factor = 1.5
-    high = build_model(material, factor * cutoff_eV)
-    while high.size == low.size and factor < 10:  # a raise that adds nothing proves nothing
-        factor *= 1.15
-        high = build_model(material, factor * cutoff_eV)
-    nb = min(n_bands, low.size)
-    k = _probe_points(material)
-    change = float(np.abs(exact_energies(low, k, nb) - exact_energies(high, k, nb)).max())
-    if change >= tolerance_eV:
-        warnings.warn(f"the bands move by {1e3 * change:.1f} meV when the cutoff of "
-                      f"{cutoff_eV:.4g} eV is raised {factor:.2f}-fold: the basis is not "
-                      "converged to "
-                      f"{1e3 * tolerance_eV:g} meV (raise the cutoff, or leave it out for a "
-                      "converged default)", ModelWarning, stacklevel=3)
-    return change
-
-
-def uniform_mesh(material: Material, n_per_axis: int) -> tuple[np.ndarray, np.ndarray]:
-    """Γ-centred uniform k-mesh reduced by symmetry (spglib) in 3D, full in 1D/2D.
-
-    Returns
-    -------
-    k_frac : numpy.ndarray
-        (n, d) fractional coordinates of the irreducible points.
-    weights : numpy.ndarray
-        (n,) weights summing to 1.
-    """
-    d = material.dimension
-    if d == 3:
-        import spglib
-
-        names = sorted({a.species for a in material.atoms})
-        cell = (material.vectors_A, [a.position_frac for a in material.atoms],
-                [names.index(a.species) for a in material.atoms])
-        mapping, grid = spglib.get_ir_reciprocal_mesh([n_per_axis] * 3, cell, is_shift=[0, 0, 0])
-        irr, counts = np.unique(mapping, return_counts=True)
-        return grid[irr] / n_per_axis, counts / counts.sum()
-    axes = [np.arange(n_per_axis) / n_per_axis] * d
-    k = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, d)
-    return k, np.full(len(k), 1.0 / len(k))
 
 
 def fermi_level(energies_eV: np.ndarray, weights: np.ndarray, n_electrons: int,
@@ -272,8 +59,6 @@ def fermi_level(energies_eV: np.ndarray, weights: np.ndarray, n_electrons: int,
     -------
     float
     """
-    from scipy.special import erfc
-
     if 2 * energies_eV.shape[1] < n_electrons + 2:
         raise InputError("too few bands on the mesh for the electron count", key="bands")
     lo, hi = energies_eV.min() - 1.0, energies_eV.max()
@@ -374,14 +159,43 @@ class BandStructure:
         return int(self.reference_energies_eV.shape[1])
 
 
+def choose_energy_zero(energies_eV: np.ndarray, n_electrons: int | None,
+                       fermi_level_eV: Callable[[], float]) -> tuple[float, str, BandEdges | None]:
+    """The one rule for the display zero: valence-band maximum, Fermi level, or none.
+
+    With an even electron count 2m and band m wholly below band m + 1 on the k-points given
+    (:func:`band_edges`), the crystal is a semiconductor and the zero is the valence maximum;
+    with an electron count otherwise, the zero is the Fermi level; without one, absolute.
+
+    Parameters
+    ----------
+    energies_eV : numpy.ndarray
+        (n_k, n_bands) absolute energies on the k-points that decide (a path or a mesh).
+    n_electrons : int or None
+        Valence electrons per primitive cell.
+    fermi_level_eV : callable
+        Returns the Fermi level (eV); called only when it is the zero.
+
+    Returns
+    -------
+    zero_eV, kind, edges
+        ``kind`` is "valence-band maximum", "Fermi level" or "absolute".
+    """
+    if n_electrons is None:
+        return 0.0, "absolute", None
+    edges = band_edges(energies_eV, n_electrons // 2) if n_electrons % 2 == 0 else None
+    if edges is not None:
+        return edges.valence_max_eV, "valence-band maximum", edges
+    return float(fermi_level_eV()), "Fermi level", None
+
+
 def energy_reference(material: Material, path_energies_eV: np.ndarray,
                      mesh_energies: Callable[[np.ndarray, int], np.ndarray],
                      fermi_mesh: int | None = None) -> tuple[float, str, BandEdges | None]:
-    """Energy zero for display: valence-band maximum, Fermi level, or none.
+    """Energy zero of a band structure (:func:`choose_energy_zero` on the path's energies).
 
-    With ``electrons.valence`` given and even, a gap on the path between the occupied and
-    empty bands makes the crystal a semiconductor (zero at the valence maximum); otherwise it
-    is a metal and the zero is the Fermi level on a uniform mesh (:func:`fermi_level`).
+    A metal's Fermi level comes from a uniform mesh (:func:`~bandpert.crystal.kmesh
+    .reciprocal_mesh`) and :func:`fermi_level`.
 
     Parameters
     ----------
@@ -398,16 +212,13 @@ def energy_reference(material: Material, path_energies_eV: np.ndarray,
     zero_eV, kind, edges
     """
     n_el = material.valence_electrons
-    if n_el is None:
-        return 0.0, "absolute", None
-    edges = band_edges(path_energies_eV, n_el // 2) if n_el % 2 == 0 else None
-    if edges is not None:
-        return edges.valence_max_eV, "valence-band maximum", edges
-    mesh = fermi_mesh or {1: 600, 2: 60, 3: 24}[material.dimension]
-    k_frac, w = uniform_mesh(material, mesh)
-    b = reciprocal_vectors(material.vectors_A)
-    e_mesh = mesh_energies(k_frac @ b, n_el // 2 + 4)
-    return fermi_level(e_mesh, w, n_el), "Fermi level", None
+
+    def fermi() -> float:
+        n = fermi_mesh or {1: 600, 2: 60, 3: 24}[material.dimension]
+        mesh = reciprocal_mesh(material, n, fold=False)
+        return fermi_level(mesh_energies(mesh.k_cart_invA, n_el // 2 + 4), mesh.weights, n_el)
+
+    return choose_energy_zero(path_energies_eV, n_el, fermi)
 
 
 #: Most k-points along a path (a path of 1e6 points would take hours and gigabytes).
@@ -429,7 +240,7 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     n_bands : int, optional
         Bands to compute; default :func:`default_bands`.
     cutoff_eV : float, optional
-        Overrides the file's cutoff; without either, :func:`converged_cutoff` chooses one.
+        Overrides the file's cutoff (:func:`~bandpert.planewave.cutoff.choose_cutoff`).
     fermi_mesh : int, optional
         k-points per axis of the uniform mesh for a metal's Fermi level.
     progress : callable, optional
@@ -439,8 +250,9 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     perturbation : PerturbationSettings, optional
         Also compute perturbative bands (H0 = kinetic energy, V = crystal potential).
     check_cutoff : bool
-        With a given cutoff, warn when it is not converged (:func:`warn_if_unconverged`,
-        default). A sweep checks once at its reference point and switches it off per point.
+        With a given cutoff, warn when it is not converged
+        (:func:`~bandpert.planewave.cutoff.warn_if_unconverged`, default). A sweep checks
+        once at its reference point and switches it off per point.
 
     Returns
     -------
@@ -455,12 +267,7 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
                          "bands were asked for", key="exact")
     nb = default_bands(material) if n_bands is None else n_bands
-    cutoff = cutoff_eV or material.cutoff_eV
-    if cutoff is None:
-        cutoff = converged_cutoff(material, nb)
-    elif check_cutoff:
-        warn_if_unconverged(material, cutoff, nb)
-    model = build_model(material, cutoff)
+    model = build_model(material, choose_cutoff(material, nb, cutoff_eV, check_cutoff))
     points, legs = standard_path(material)
     path = sample_path(model.reciprocal_invA, points, legs, n_k)
     energies = exact_energies(model, path.k_cart_invA, nb, progress) if exact else None
@@ -469,10 +276,6 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         pert = perturbative_bands(model, path.k_cart_invA, nb, perturbation, path.label_indices)
         outside = pert.convergence_radius <= perturbation.lam
         if outside.any():
-            import warnings
-
-            from ..errors import ModelWarning
-
             warnings.warn(f"λ = {perturbation.lam:g} lies outside the convergence radius of the "
                           f"perturbation series on {100 * outside.mean():.0f} % of the sampled "
                           "(band, k) points: there the low-order result is not a convergent "

@@ -23,9 +23,10 @@ import numpy as np
 
 from ..errors import InputError
 from ..input.material import Material
-from ..physics.bands import BandStructure, compute_band_structure, exact_energies
+from ..physics.bands import BandStructure, compute_band_structure
 from ..physics.masses import eigenstates
 from ..planewave.model import PlaneWaveModel
+from ..planewave.solver import exact_energies
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
 

@@ -23,9 +23,10 @@ from ..errors import InputError
 from ..input.material import Material
 from ..kp.analysis import CUBIC_DIRECTIONS
 from ..kp.parameters import KPParameters, unit_vector
-from ..physics.bands import compute_band_structure, exact_energies
+from ..physics.bands import compute_band_structure
 from ..physics.masses import degenerate_edge, degenerate_set, eigenstates, inverse_mass_tensor
 from ..planewave.model import PlaneWaveModel
+from ..planewave.solver import exact_energies
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
 #: A conduction state couples to the valence triplet when Σ|π|² exceeds this (Å⁻²).

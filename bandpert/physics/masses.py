@@ -30,8 +30,8 @@ import scipy.optimize
 from ..errors import InputError
 from ..kp.parameters import luttinger_from_dkk
 from ..perturbation import lowdin_effective_hamiltonian
-from ..physics.bands import exact_energies
 from ..planewave.model import PlaneWaveModel
+from ..planewave.solver import exact_energies
 from ..units import BOLTZMANN_EV_PER_K
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 

@@ -45,16 +45,11 @@ from ..crystal.lattice import reciprocal_vectors, standard_path
 from ..errors import InputError
 from ..input.material import Material, canonical_label
 from ..perturbation import lowdin_effective_hamiltonian
-from ..physics.bands import converged_cutoff, default_bands
-from ..planewave.model import (
-    MAX_BASIS,
-    SHELL_TOLERANCE,
-    PlaneWaveBasis,
-    PlaneWaveModel,
-    build_model,
-    fourier_coefficients,
-    plane_wave_basis,
-)
+from ..physics.bands import default_bands
+from ..planewave.basis import MAX_BASIS, PlaneWaveBasis, plane_wave_basis
+from ..planewave.cutoff import choose_cutoff
+from ..planewave.model import PlaneWaveModel, build_model
+from ..planewave.potential import SHELL_TOLERANCE, continuous_form_factor, fourier_coefficients
 from ..units import HBAR2_OVER_2M0_EV_A2
 
 __all__ = [
@@ -625,7 +620,6 @@ def _continuous_reasons(material: Material, g: np.ndarray, positions: np.ndarray
     Rule 3 ("beyond the potential's range") applies from the upper end of the taper on; rule 4
     becomes "form factor zero at that |G|" (every v_s vanishes there, e.g. at q² = a2).
     """
-    from ..planewave.formfactor import continuous_form_factor
 
     pot = material.potential
     q = np.linalg.norm(g, axis=1)
@@ -908,8 +902,7 @@ def gap_analysis(material: Material, model: PlaneWaveModel | None = None,
     if nb < 1:
         raise InputError(f"must be at least 1, got {nb}", key="n_bands")
     if model is None:
-        cutoff = cutoff_eV or material.cutoff_eV or converged_cutoff(material, nb)
-        model = build_model(material, cutoff)
+        model = build_model(material, choose_cutoff(material, nb, cutoff_eV, False))
     if nb > model.size:
         raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
                          "waves; expected fewer bands or a larger cutoff", key="bands")

@@ -23,7 +23,8 @@ from ..perturbation import (
     level_convergence_radius,
     perturbative_levels,
 )
-from ..planewave.model import PlaneWaveModel, single_blas_thread
+from ..planewave.model import PlaneWaveModel
+from ..planewave.solver import single_blas_thread
 
 #: Default perturbation order.
 DEFAULT_ORDER = 2

@@ -43,6 +43,8 @@ from ..input.material import (
     parse_material,
 )
 from ..units import ENERGY_UNITS_TO_EV, HBAR2_OVER_2M0_EV_A2
+from .basis import plane_wave_basis
+from .potential import check_shells_exist, continuous_form_factor, fourier_coefficients
 
 #: Tabulated forms the fit accepts.
 TABULATED_FORMS = ("symmetric-antisymmetric", "per-species")
@@ -64,59 +66,6 @@ _SHELL_RTOL = 1e-6
 # --------------------------------------------------------------------------------------------
 # the functions
 # --------------------------------------------------------------------------------------------
-
-
-def continuous_form_factor(q_invA: np.ndarray | float, a1: float, a2_invA2: float, a3: float,
-                           a4_A2: float) -> np.ndarray:
-    """The form factor v(q) = a1 (q² − a2) / (a3 exp(a4 q²) − 1).
-
-    Functional form of Friedel, Hybertsen & Schlüter, Phys. Rev. B 39, 7974 (1989) (from
-    memory). It is evaluated as a1 (q² − a2) e^{−a4 q²} / (a3 − e^{−a4 q²}), which is the same
-    function and cannot overflow; with a3 > 1 and a4 > 0 the denominator lies in [a3 − 1, a3).
-
-    Parameters
-    ----------
-    q_invA : array_like
-        |q| in Å⁻¹ (any shape).
-    a1 : float
-        Energy scale (the unit of the result).
-    a2_invA2 : float
-        q² of the sign change, Å⁻².
-    a3 : float
-        Dimensionless, > 1 for a finite v.
-    a4_A2 : float
-        Gaussian decay, Å², > 0 for a decaying v.
-
-    Returns
-    -------
-    numpy.ndarray
-        v(q) in the unit of ``a1``, shape of ``q_invA``. v(0) = −a1 a2 / (a3 − 1).
-    """
-    q2 = np.square(np.asarray(q_invA, dtype=float))
-    decay = np.exp(-a4_A2 * q2)
-    return a1 * (q2 - a2_invA2) * decay / (a3 - decay)
-
-
-def taper_weight(q_invA: np.ndarray | float, q1_invA: float, q2_invA: float) -> np.ndarray:
-    """Smooth switch w(q): 1 for q ≤ q1, 0 for q ≥ q2, C² in between.
-
-    w = 1 − s(t), t = (q − q1)/(q2 − q1), with the quintic s(t) = t³ (10 − 15 t + 6 t²), whose
-    first and second derivatives vanish at t = 0 and t = 1 (common practice, no source).
-
-    Parameters
-    ----------
-    q_invA : array_like
-        |q| in Å⁻¹.
-    q1_invA, q2_invA : float
-        Start and end of the switch, 0 ≤ q1 < q2.
-
-    Returns
-    -------
-    numpy.ndarray
-        Weights in [0, 1], shape of ``q_invA``.
-    """
-    t = np.clip((np.asarray(q_invA, dtype=float) - q1_invA) / (q2_invA - q1_invA), 0.0, 1.0)
-    return 1.0 - t**3 * (10.0 + t * (-15.0 + 6.0 * t))
 
 
 def free_electron_fermi_energy_eV(density_invA3: float) -> float:
@@ -149,46 +98,6 @@ def long_wavelength_limit_eV(material: Material) -> float:
                          "valence electrons per primitive cell", material.file, "electrons.valence")
     return -2.0 / 3.0 * free_electron_fermi_energy_eV(material.valence_electrons
                                                       / material.volume_A)
-
-
-def continuous_fourier_coefficients(material: Material, g_cart_invA: np.ndarray,
-                                    is_zero: np.ndarray | None = None) -> np.ndarray:
-    """V(G) of the "continuous" form at Cartesian G (eV).
-
-    V(G) = (Ω0/Ω_atom) w(|G|) (1/N) Σ_j v_j(|G|) exp(−i G·r_j), with V(0) = 0 (module docstring;
-    Ω_atom = cell measure / N).
-
-    Parameters
-    ----------
-    material : Material
-        With ``potential.form == "continuous"``.
-    g_cart_invA : numpy.ndarray
-        (..., d) Cartesian G in Å⁻¹.
-    is_zero : numpy.ndarray of bool, optional
-        Where G = 0 (by default, where |G| = 0 exactly).
-
-    Returns
-    -------
-    numpy.ndarray
-        Complex V(G), leading shape of ``g_cart_invA``.
-    """
-    pot = material.potential
-    g = np.asarray(g_cart_invA, dtype=float)
-    q = np.sqrt(np.einsum("...i,...i->...", g, g))
-    positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
-    value = np.zeros(q.shape, dtype=complex)
-    cache: dict[str, np.ndarray] = {}
-    for atom, r in zip(material.atoms, positions, strict=True):
-        if atom.species not in cache:
-            cache[atom.species] = continuous_form_factor(q, *pot.continuous[atom.species])
-        value += cache[atom.species] * np.exp(-1j * (g @ r))
-    n_atoms = len(material.atoms)
-    scale = pot.reference_volume_A / (material.volume_A / n_atoms) / n_atoms
-    value *= scale
-    if pot.taper_invA is not None:
-        value *= taper_weight(q, *pot.taper_invA)
-    zero = (q == 0.0) if is_zero is None else is_zero
-    return np.where(zero, 0.0, value)
 
 
 # --------------------------------------------------------------------------------------------
@@ -301,8 +210,6 @@ class ContinuousFit:
 def _lattice_shells(material: Material, q_max_invA: float
                     ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Non-zero lattice G up to q_max: Miller indices, Cartesian G, and a shell label per G."""
-    from ..planewave.model import plane_wave_basis
-
     basis = plane_wave_basis(reciprocal_vectors(material.vectors_A),
                              HBAR2_OVER_2M0_EV_A2 * q_max_invA**2 * (1 + 1e-9))
     g = basis.g_cart_invA
@@ -370,8 +277,6 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
         For another form, a missing valence, a non-3D lattice, or when no start gives finite
         parameters.
     """
-    from ..planewave.model import check_shells_exist, fourier_coefficients, plane_wave_basis
-
     pot = material.potential
     if pot.form not in TABULATED_FORMS:
         raise InputError(f"form '{pot.form}' has no tabulated form factors to fit; expected one "

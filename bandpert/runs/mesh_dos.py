@@ -1,10 +1,10 @@
 """Dense k-mesh jobs: exact bands on the irreducible wedge of a uniform mesh, spread over workers,
-then the density of states and the Fermi level (:mod:`bandpert.dos`).
+then the density of states and the Fermi level (:mod:`bandpert.physics.dos`).
 
 The irreducible points (spglib's irreducible reciprocal mesh in 3D) are cut into contiguous blocks;
 each block is one task that builds the plane-wave model and diagonalises its k-points
-(:func:`bandpert.bands.exact_energies`, one BLAS thread). The blocks come back in order, so the
-energies, and hence the DOS, do not depend on how many workers ran them.
+(:func:`bandpert.planewave.solver.exact_energies`, one BLAS thread). The blocks come back in
+order, so the energies, and hence the DOS, do not depend on how many workers ran them.
 """
 
 from __future__ import annotations
@@ -13,18 +13,14 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..crystal.kmesh import KMesh, reciprocal_mesh
 from ..errors import InputError
 from ..input.material import Material
-from ..physics.bands import converged_cutoff, default_bands, exact_energies, warn_if_unconverged
-from ..physics.dos import (
-    DensityOfStates,
-    KMesh,
-    fermi_level_from_count,
-    gaussian_dos,
-    reciprocal_mesh,
-    tetrahedron_dos,
-)
-from ..planewave.model import PlaneWaveModel, build_model, single_blas_thread
+from ..physics.bands import choose_energy_zero, default_bands
+from ..physics.dos import DensityOfStates, fermi_level_from_count, gaussian_dos, tetrahedron_dos
+from ..planewave.cutoff import choose_cutoff
+from ..planewave.model import PlaneWaveModel, build_model
+from ..planewave.solver import exact_energies, single_blas_thread
 from ..runs.execution import SERIAL, Engine, Progress, Runner, run, session
 
 DOS_METHODS = ("tetrahedron", "gaussian")
@@ -183,7 +179,7 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
     smearing_eV : float
         Gaussian width (``method="gaussian"``; also the fallback width nowhere else).
     n_bands : int, optional
-        Bands computed (default :func:`~bandpert.bands.default_bands`).
+        Bands computed (default :func:`~bandpert.physics.bands.default_bands`).
     cutoff_eV : float, optional
         Plane-wave cutoff (default: the file's, else converged).
     energy_step_eV : float
@@ -204,11 +200,7 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
         raise InputError(f"must be positive, got {energy_step_eV}", material.file,
                          "energy_step_eV")
     nb = n_bands or default_bands(material)
-    cutoff = cutoff_eV or material.cutoff_eV
-    if cutoff is None:
-        cutoff = converged_cutoff(material, nb)
-    else:
-        warn_if_unconverged(material, cutoff, nb)
+    cutoff = choose_cutoff(material, nb, cutoff_eV)
     model = _model_for(material, cutoff)  # fails here, once, on a bad basis
     if nb > model.size:
         raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
@@ -221,16 +213,13 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
         grid = np.arange(lo, top + 0.5 * energy_step_eV, energy_step_eV)
         dos = band_resolved_dos(mesh, energies, grid, method, smearing_eV, runner)
     n_el = material.valence_electrons
-    e_f = vbm = cbm = None
-    zero, kind = 0.0, "absolute"
+    e_f = None
     if n_el is not None:
         e_f = fermi_level_from_count(mesh, energies, n_el, method=method,
                                      smearing_eV=smearing_eV)
-        zero, kind = e_f, "Fermi level"
-        m = n_el // 2
-        if n_el % 2 == 0 and 0 < m < nb and energies[:, m].min() > energies[:, m - 1].max():
-            vbm, cbm = float(energies[:, m - 1].max()), float(energies[:, m].min())
-            zero, kind = vbm, "valence-band maximum"
+    zero, kind, edges = choose_energy_zero(energies, n_el, lambda: e_f)
+    vbm = None if edges is None else edges.valence_max_eV
+    cbm = None if edges is None else edges.conduction_min_eV
     return DosResult(material=material, mesh=mesh, cutoff_eV=float(cutoff),
                      basis_size=model.size, energies_eV=energies, dos=dos,
                      complete_below_eV=top, fermi_level_eV=e_f, valence_max_eV=vbm,

@@ -47,7 +47,10 @@ import numpy as np
 from ..crystal.lattice import describe_position, point_group_rotations, standard_path
 from ..errors import InputError
 from ..input.material import Material, parse_material
-from ..physics.bands import BandStructure, compute_band_structure, converged_cutoff, default_bands
+from ..physics.bands import BandStructure, compute_band_structure, default_bands
+from ..planewave.cutoff import choose_cutoff
+from ..planewave.model import build_model
+from ..planewave.solver import exact_energies, single_blas_thread
 from ..runs.execution import SERIAL, Engine, Outcome, Progress, run
 from ..units import HBAR2_OVER_2M0_EV_A2
 
@@ -391,8 +394,6 @@ def evaluate_point(task: tuple[SweepSpec, tuple[float, ...]]) -> dict[str, float
     ``conduction_valleys``, ``conduction_dos_mass``, ``conduction_conductivity_mass``,
     ``valence_m{1,2,3}`` or ``valence_gamma{1,2,3}`` (degenerate top), ``valence_dos_mass``.
     """
-    from ..planewave.model import single_blas_thread
-
     spec, values = task
     with single_blas_thread():  # the same arithmetic in this process and in any worker
         if spec.kind == "k·p":
@@ -505,7 +506,6 @@ def _valley_images(bs: BandStructure, index: int, band: int, maximum: bool,
     image wins only if it is better by more than 1e-9 eV, so an unstrained crystal keeps the
     point on the path.
     """
-    from ..physics.bands import exact_energies
 
     k0 = bs.path.k_frac[index]
     if rotations is None:
@@ -582,8 +582,6 @@ def faithful_window(tabulated: Material, taper_invA: tuple[float, float]) -> tup
     unit = 2.0 * np.pi / tabulated.a_A
     shells = np.array(tabulated.potential.shells_g2, dtype=float)
     q_last = unit * np.sqrt(shells.max())
-    from ..planewave.model import build_model
-
     g = build_model(tabulated, 4.0 * HBAR2_OVER_2M0_EV_A2 * q_last**2).basis.g_cart_invA
     q = np.unique(np.round(np.linalg.norm(g, axis=1), 9))
     q_next = q[q > q_last * (1 + 1e-9)].min()
@@ -717,7 +715,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                                  source, "points")
             chosen.append(name)
         labels = tuple(dict.fromkeys(chosen))
-    cutoff = cutoff_eV or reference.cutoff_eV or converged_cutoff(reference, nb)
+    cutoff = choose_cutoff(reference, nb, cutoff_eV, check_convergence=False)
     rotations = point_group_rotations(reference) if strained else None
     spec = SweepSpec(document=doc, source=source, axes=tuple(axes), quantities=tuple(quantities),
                      points=labels, n_k=n_k, n_bands=nb, lower_band=lower_band,
@@ -728,8 +726,6 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     grid = parameter_grid(spec.axes)
     for values in (grid[0], grid[-1]):
         m = point_material(spec, tuple(values))
-        from ..planewave.model import build_model
-
         build_model(m, point_cutoff(spec, m))  # a range leaving the basis limit fails here
     return spec, reference, form_factor_note(reference, spec.axes, form_factors, window)
 

@@ -37,14 +37,16 @@ from bandpert.data import MATERIALS_DIR
 from bandpert.input.material import load_material
 from bandpert.io import write_json
 from bandpert.physics import masses
-from bandpert.physics.bands import converged_cutoff, default_bands, exact_energies
+from bandpert.physics.bands import default_bands
 from bandpert.physics.perturbative_bands import (
     PerturbationSettings,
     compare,
     perturbative_bands,
     radius_sample,
 )
+from bandpert.planewave.cutoff import converged_cutoff
 from bandpert.planewave.model import build_model
+from bandpert.planewave.solver import exact_energies
 
 ROOT = Path(__file__).resolve().parents[2]
 N_K = 200

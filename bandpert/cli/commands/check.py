@@ -10,7 +10,8 @@ from rich.table import Table
 
 from ...crystal.lattice import crystal_symmetry, reciprocal_vectors, standard_path
 from ...input.material import Material, load_material
-from ...physics.bands import converged_cutoff, default_bands
+from ...physics.bands import default_bands
+from ...planewave.cutoff import choose_cutoff
 from ...planewave.model import build_model
 from ..options import MaterialFile, out
 
@@ -24,7 +25,7 @@ def check(
     """Validate a material file and print what it describes: lattice, symmetry, path, basis."""
     material = load_material(file)
     nb = default_bands(material)
-    cutoff = cutoff_eV or material.cutoff_eV or converged_cutoff(material, nb)
+    cutoff = choose_cutoff(material, nb, cutoff_eV, check_convergence=False)
     model = build_model(material, cutoff)
     sym = crystal_symmetry(material)
     points, legs = standard_path(material)
