@@ -19,6 +19,14 @@ from ..errors import InputError
 from ..input.material import Material
 from .lattice import reciprocal_vectors, spglib_cell
 
+#: Largest full grid (points) a mesh may have: checked on the requested shape before spglib or
+#: any array is allocated.
+MAX_MESH_POINTS = 1_000_000
+
+#: Bytes held per full-grid point while one band is integrated by tetrahedra (6 tetrahedra of 4
+#: corner indices and 4 corner energies, 8 bytes each).
+MESH_BYTES_PER_POINT = 6 * 4 * 8 * 2
+
 
 @dataclass(frozen=True)
 class KMesh:
@@ -139,6 +147,12 @@ def _mesh_shape(material: Material, n_per_axis: int | tuple[int, ...]) -> tuple[
         if n < 2:
             raise InputError(f"got {n} points on an axis; expected at least 2 (a mesh of one "
                              "point has no cells for the tetrahedra)", material.file, "mesh")
+    total = float(np.prod([float(n) for n in values]))
+    if total > MAX_MESH_POINTS:
+        raise InputError(f"a mesh of {' × '.join(str(int(n)) for n in values)} = {total:.3g} "
+                         f"points; expected at most {MAX_MESH_POINTS:.0e} (about "
+                         f"{MAX_MESH_POINTS * MESH_BYTES_PER_POINT / 2**30:.1f} GiB of tetrahedra "
+                         "per band)", material.file, "mesh")
     return tuple(int(n) for n in values)
 
 
