@@ -7,10 +7,11 @@ import pytest
 from conftest import bundled, make_material
 
 from bandpert.crystal.lattice import standard_path
-from bandpert.physics.bands import compute_band_structure, fermi_level
+from bandpert.physics.bands import compute_band_structure
 from bandpert.planewave import solver
 from bandpert.planewave.model import build_model
 from bandpert.planewave.solver import exact_energies
+from bandpert.runs.mesh_dos import compute_dos
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 
@@ -97,13 +98,18 @@ def test_free_electron_fermi_energy_of_aluminium():
     assert bs.energy_zero_eV == pytest.approx(11.7, abs=0.1)
 
 
-def test_fermi_level_counts_electrons():
-    # A single flat band holding 2 electrons per k: the level sits at the band for N = 2
-    # (exact counting; common practice, no source).
-    e = np.array([[0.0, 5.0, 10.0], [0.0, 5.0, 10.0]])
-    w = np.array([0.5, 0.5])
-    assert 0.0 < fermi_level(e, w, 2) < 5.0
-    assert 5.0 < fermi_level(e, w, 4) < 10.0
+def test_bands_gaps_and_dos_give_one_fermi_level_for_aluminium():
+    # One mesh, one Fermi-level routine (tetrahedra by default): the display zero of `bands`
+    # (and of `gaps`, which reports the same band structure's zero) equals the Fermi level of
+    # `dos` on the same mesh within 1 meV (internal consistency; common practice, no source).
+    al = bundled("aluminium")
+    bs = compute_band_structure(al, n_k=20, fermi_mesh=10)
+    d = compute_dos(al, 10)
+    assert bs.energy_zero_kind == "Fermi level"
+    assert abs(bs.energy_zero_eV - d.fermi_level_eV) < 1e-3
+    smeared = compute_band_structure(al, n_k=20, fermi_mesh=10, fermi_method="gaussian")
+    d_smeared = compute_dos(al, 10, method="gaussian")
+    assert abs(smeared.energy_zero_eV - d_smeared.fermi_level_eV) < 1e-3
 
 
 def test_band_count_larger_than_basis_is_refused():

@@ -8,8 +8,8 @@ from conftest import bundled, make_material
 
 from bandpert.crystal.kmesh import reciprocal_mesh
 from bandpert.errors import InputError
-from bandpert.physics.bands import fermi_level
-from bandpert.planewave.model import build_model
+from bandpert.physics.dos import DEFAULT_SMEARING_EV, fermi_level_from_count
+from bandpert.planewave.model import build_k_centred_model
 from bandpert.planewave.solver import exact_energies
 from bandpert.runs.execution import Engine
 from bandpert.runs.mesh_dos import compute_dos, mesh_energies
@@ -54,12 +54,15 @@ def test_aluminium_fermi_energy_from_the_band_bottom(al_dos):
 
 def test_tetrahedron_and_gaussian_fermi_levels_agree(aluminium, al_dos):
     # Two integrations of the same bands (common practice, no source). On a 14³ mesh a
-    # σ = 0.05 eV Gaussian still carries a sampling error: the two differ by 53 meV (measured);
-    # the tetrahedra converge faster, which is why they are the default.
-    mesh = reciprocal_mesh(aluminium, 14, fold=False)
-    e = exact_energies(build_model(aluminium, al_dos.cutoff_eV), mesh.k_cart_invA, 6)
-    assert abs(fermi_level(e, mesh.weights, 3, 0.05) - al_dos.fermi_level_eV) < 0.08
-    gauss = compute_dos(aluminium, 14, method="gaussian", smearing_eV=0.05, n_bands=6)
+    # σ = 0.05 eV Gaussian still carries a sampling error of some tens of meV; the tetrahedra
+    # converge faster, which is why they are the default.
+    mesh = reciprocal_mesh(aluminium, 14)
+    e = exact_energies(build_k_centred_model(aluminium, al_dos.cutoff_eV), mesh.k_cart_invA, 6)
+    assert np.allclose(e, al_dos.energies_eV, atol=1e-10)
+    gauss = compute_dos(aluminium, 14, method="gaussian", n_bands=6)
+    assert gauss.dos.smearing_eV == DEFAULT_SMEARING_EV
+    assert gauss.fermi_level_eV == pytest.approx(
+        fermi_level_from_count(mesh, e, 3, method="gaussian"), abs=1e-9)
     assert abs(gauss.fermi_level_eV - al_dos.fermi_level_eV) < 0.08
 
 

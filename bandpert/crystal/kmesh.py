@@ -100,9 +100,10 @@ def full_grid_frac(shape: tuple[int, ...]) -> np.ndarray:
 def fold_to_first_zone(k_frac: np.ndarray, reciprocal_invA: np.ndarray) -> np.ndarray:
     """The image k + G of each point with the shortest Cartesian length (first Brillouin zone).
 
-    The plane-wave basis is a fixed set of G around Γ, so a model's energies are exactly periodic
-    in k only as far as the basis is converged; mesh points are therefore given as their images
-    nearest Γ, where a Γ-centred basis is most accurate. Images k + m with m ∈ {−1, 0, 1}^d are
+    With a basis centred on each k (:class:`bandpert.planewave.model.KCentredModel`) the energies
+    are periodic in k to rounding; the images nearest Γ keep |k| small, and with it the set of
+    plane waves the k-centred bases draw from (and a fixed Γ-centred basis is most accurate
+    there). Images k + m with m ∈ {−1, 0, 1}^d are
     compared (enough for points first reduced to [−½, ½)^d on a primitive cell that is not
     extremely oblique); ties keep the first image found, in the order of m.
 
@@ -157,7 +158,7 @@ def _mesh_shape(material: Material, n_per_axis: int | tuple[int, ...]) -> tuple[
 
 
 def reciprocal_mesh(material: Material, n_per_axis: int | tuple[int, ...],
-                    reduce_by_symmetry: bool = True, fold: bool = True) -> KMesh:
+                    reduce_by_symmetry: bool = True) -> KMesh:
     """Γ-centred uniform mesh, reduced by symmetry in 3D.
 
     In 3D the irreducible points come from ``spglib.get_ir_reciprocal_mesh`` (A. Togo and
@@ -173,9 +174,6 @@ def reciprocal_mesh(material: Material, n_per_axis: int | tuple[int, ...],
         Points per reciprocal axis (one number for all axes, or one per axis); each at least 2.
     reduce_by_symmetry : bool
         False keeps every point of the full grid (each its own irreducible point).
-    fold : bool
-        Give the irreducible points as their images nearest Γ (:func:`fold_to_first_zone`,
-        default); False keeps spglib's grid addresses (3D) or [0, 1) (1D, 2D).
 
     Returns
     -------
@@ -190,8 +188,7 @@ def reciprocal_mesh(material: Material, n_per_axis: int | tuple[int, ...],
     b = reciprocal_vectors(material.vectors_A)
     n_full = int(np.prod(shape))
     if material.dimension != 3 or not reduce_by_symmetry:
-        full = full_grid_frac(shape)
-        return KMesh(shape, fold_to_first_zone(full, b) if fold else full,
+        return KMesh(shape, fold_to_first_zone(full_grid_frac(shape), b),
                      np.full(n_full, 1.0 / n_full), np.arange(n_full), b)
     mapping, grid = spglib.get_ir_reciprocal_mesh(list(shape), spglib_cell(material),
                                                   is_shift=[0, 0, 0])
@@ -205,6 +202,5 @@ def reciprocal_mesh(material: Material, n_per_axis: int | tuple[int, ...],
     irreducible, position, counts = np.unique(mapping, return_inverse=True, return_counts=True)
     full_to_irr = np.empty(n_full, dtype=np.int64)
     full_to_irr[c_index] = position.ravel()
-    k_irr = grid[irreducible] / n
-    return KMesh(shape, fold_to_first_zone(k_irr, b) if fold else k_irr, counts / n_full,
+    return KMesh(shape, fold_to_first_zone(grid[irreducible] / n, b), counts / n_full,
                  full_to_irr, b)

@@ -11,13 +11,13 @@ from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import erfc
 
 from ..crystal.kmesh import reciprocal_mesh
 from ..crystal.lattice import KPath, Symmetry, crystal_symmetry, sample_path, standard_path
 from ..errors import InputError, ModelWarning
 from ..input.material import Material
 from ..perturbation import perturbative_levels
+from ..physics.dos import DEFAULT_SMEARING_EV, fermi_level_from_count
 from ..physics.perturbative_bands import (
     Comparison,
     PerturbationSettings,
@@ -26,7 +26,7 @@ from ..physics.perturbative_bands import (
     perturbative_bands,
 )
 from ..planewave.cutoff import choose_cutoff
-from ..planewave.model import PlaneWaveModel, build_model
+from ..planewave.model import KCentredModel, PlaneWaveModel, build_k_centred_model
 from ..planewave.solver import Progress, exact_energies
 
 
@@ -36,37 +36,6 @@ def default_bands(material: Material) -> int:
         return material.n_bands
     occupied = (material.valence_electrons or 8) // 2 + (material.valence_electrons or 8) % 2
     return occupied + 4
-
-
-def fermi_level(energies_eV: np.ndarray, weights: np.ndarray, n_electrons: int,
-                smearing_eV: float = 0.05) -> float:
-    """Fermi level from an occupation count with Gaussian smearing (two spins per band).
-
-    Solves Σ_k w_k Σ_n 2 · ½ erfc((E_nk − E_F)/σ) = N by bisection.
-
-    Parameters
-    ----------
-    energies_eV : numpy.ndarray
-        (n_k, n_bands) band energies on a mesh.
-    weights : numpy.ndarray
-        (n_k,) k-point weights summing to 1.
-    n_electrons : int
-        Electrons per primitive cell.
-    smearing_eV : float
-        Gaussian width σ.
-
-    Returns
-    -------
-    float
-    """
-    if 2 * energies_eV.shape[1] < n_electrons + 2:
-        raise InputError("too few bands on the mesh for the electron count", key="bands")
-    lo, hi = energies_eV.min() - 1.0, energies_eV.max()
-    for _ in range(100):
-        mid = 0.5 * (lo + hi)
-        count = 2.0 * np.sum(weights[:, None] * 0.5 * erfc((energies_eV - mid) / smearing_eV))
-        lo, hi = (mid, hi) if count < n_electrons else (lo, mid)
-    return 0.5 * (lo + hi)
 
 
 @dataclass(frozen=True)
@@ -115,9 +84,11 @@ class BandStructure:
     symmetry : Symmetry
     path : KPath
     model : PlaneWaveModel
+        The Γ-centred fixed basis of the cutoff: the perturbative series and the basis size.
     energies_eV : numpy.ndarray or None
-        (n_k, n_bands) exact absolute energies (the model's zero, V(G=0) as given); None when
-        the exact diagonalisation was skipped.
+        (n_k, n_bands) exact absolute energies (the model's zero, V(G=0) as given), each k in
+        its own basis ħ²|k+G|²/2m0 ≤ cutoff (``k_centred``); None when the exact
+        diagonalisation was skipped.
     energy_zero_eV : float
         Reference used for display: subtract it from the absolute energies.
     energy_zero_kind : str
@@ -128,6 +99,9 @@ class BandStructure:
         Perturbative bands at the same k-points, if asked for.
     comparison : Comparison or None
         Perturbative against exact, when both were computed.
+    k_centred : KCentredModel or None
+        The model with a basis centred on each k that gave ``energies_eV``; ``k_centred.at(k0)``
+        is the fixed basis for derivative stencils around k0.
     """
 
     material: Material
@@ -140,6 +114,7 @@ class BandStructure:
     edges: BandEdges | None
     perturbative: PerturbativeBands | None = None
     comparison: Comparison | None = None
+    k_centred: KCentredModel | None = None
 
     @property
     def reference_energies_eV(self) -> np.ndarray:
@@ -191,11 +166,15 @@ def choose_energy_zero(energies_eV: np.ndarray, n_electrons: int | None,
 
 def energy_reference(material: Material, path_energies_eV: np.ndarray,
                      mesh_energies: Callable[[np.ndarray, int], np.ndarray],
-                     fermi_mesh: int | None = None) -> tuple[float, str, BandEdges | None]:
+                     fermi_mesh: int | None = None, fermi_method: str = "tetrahedron",
+                     smearing_eV: float = DEFAULT_SMEARING_EV
+                     ) -> tuple[float, str, BandEdges | None]:
     """Energy zero of a band structure (:func:`choose_energy_zero` on the path's energies).
 
-    A metal's Fermi level comes from a uniform mesh (:func:`~bandpert.crystal.kmesh
-    .reciprocal_mesh`) and :func:`fermi_level`.
+    A metal's Fermi level comes from the one k-mesh (:func:`~bandpert.crystal.kmesh
+    .reciprocal_mesh`) and the one Fermi-level routine
+    (:func:`~bandpert.physics.dos.fermi_level_from_count`: linear tetrahedra by default), the
+    same as ``bandpert dos`` on the same mesh.
 
     Parameters
     ----------
@@ -206,6 +185,10 @@ def energy_reference(material: Material, path_energies_eV: np.ndarray,
         ``mesh_energies(k_cart_invA, n_bands)`` → (n_mesh, n_bands) energies on the mesh.
     fermi_mesh : int, optional
         Mesh points per axis (default 24 in 3D, 60 in 2D, 600 in 1D).
+    fermi_method : str
+        "tetrahedron" (default) or "gaussian".
+    smearing_eV : float
+        Gaussian width (``fermi_method="gaussian"`` only).
 
     Returns
     -------
@@ -215,8 +198,10 @@ def energy_reference(material: Material, path_energies_eV: np.ndarray,
 
     def fermi() -> float:
         n = fermi_mesh or {1: 600, 2: 60, 3: 24}[material.dimension]
-        mesh = reciprocal_mesh(material, n, fold=False)
-        return fermi_level(mesh_energies(mesh.k_cart_invA, n_el // 2 + 4), mesh.weights, n_el)
+        mesh = reciprocal_mesh(material, n)
+        energies = mesh_energies(mesh.k_cart_invA, n_el // 2 + 4)
+        return fermi_level_from_count(mesh, energies, n_el, method=fermi_method,
+                                      smearing_eV=smearing_eV)
 
     return choose_energy_zero(path_energies_eV, n_el, fermi)
 
@@ -229,7 +214,8 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
                            cutoff_eV: float | None = None, fermi_mesh: int | None = None,
                            progress: Progress | None = None, exact: bool = True,
                            perturbation: PerturbationSettings | None = None,
-                           check_cutoff: bool = True) -> BandStructure:
+                           check_cutoff: bool = True, fermi_method: str = "tetrahedron",
+                           smearing_eV: float = DEFAULT_SMEARING_EV) -> BandStructure:
     """Material → bands along its standard (or custom) path: exact and/or perturbative.
 
     Parameters
@@ -253,6 +239,8 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         With a given cutoff, warn when it is not converged
         (:func:`~bandpert.planewave.cutoff.warn_if_unconverged`, default). A sweep checks
         once at its reference point and switches it off per point.
+    fermi_method, smearing_eV : str, float
+        How a metal's Fermi level is found (:func:`energy_reference`).
 
     Returns
     -------
@@ -267,10 +255,12 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
                          "bands were asked for", key="exact")
     nb = default_bands(material) if n_bands is None else n_bands
-    model = build_model(material, choose_cutoff(material, nb, cutoff_eV, check_cutoff))
+    k_centred = build_k_centred_model(material,
+                                      choose_cutoff(material, nb, cutoff_eV, check_cutoff))
+    model = k_centred.gamma
     points, legs = standard_path(material)
     path = sample_path(model.reciprocal_invA, points, legs, n_k)
-    energies = exact_energies(model, path.k_cart_invA, nb, progress) if exact else None
+    energies = exact_energies(k_centred, path.k_cart_invA, nb, progress) if exact else None
     pert = None
     if perturbation is not None:
         pert = perturbative_bands(model, path.k_cart_invA, nb, perturbation, path.label_indices)
@@ -284,16 +274,17 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     def mesh_energies(k_cart: np.ndarray, n: int) -> np.ndarray:
         n = min(n, model.size)
         if exact:
-            return exact_energies(model, k_cart, n)
+            return exact_energies(k_centred, k_cart, n)
         return perturbative_levels(model.kinetic_eV(k_cart), model.potential_eV, n,
                                    lam=perturbation.lam, order=perturbation.order,
                                    coupling_threshold=perturbation.coupling_threshold,
                                    estimate_error=False).energies
 
     reference = energies if energies is not None else pert.energies_eV
-    zero, kind, edges = energy_reference(material, reference, mesh_energies, fermi_mesh)
+    zero, kind, edges = energy_reference(material, reference, mesh_energies, fermi_mesh,
+                                         fermi_method, smearing_eV)
     return BandStructure(material=material, symmetry=crystal_symmetry(material), path=path,
                          model=model, energies_eV=energies, energy_zero_eV=float(zero),
                          energy_zero_kind=kind, edges=edges, perturbative=pert,
                          comparison=None if (energies is None or pert is None)
-                         else compare(energies, pert))
+                         else compare(energies, pert), k_centred=k_centred)

@@ -31,8 +31,11 @@ from ..errors import InputError
 #: Electrons per band and k-point (spin degeneracy of the spinless models).
 SPIN_DEGENERACY = 2
 
-#: Default Gaussian width σ (eV) of :func:`fermi_level_from_count` with ``method="gaussian"``.
-DEFAULT_SMEARING_EV = 0.1
+#: The one default Gaussian width σ (eV), for the Fermi level and the DOS of every command.
+DEFAULT_SMEARING_EV = 0.05
+
+#: Fermi-level methods: the linear tetrahedron method (the default) or Gaussian smearing.
+FERMI_METHODS = ("tetrahedron", "gaussian")
 
 #: Largest number of (simplex, energy) pairs evaluated at once (bounds the working memory).
 MAX_PAIRS = 2**21
@@ -463,8 +466,8 @@ def gaussian_dos(energies_eV: np.ndarray, weights: np.ndarray, energy_grid_eV: n
 
     D(ε) = 2 Σ_k w_k Σ_n exp(−(ε − E_nk)²/σ²) / (σ√π) and N(ε) = 2 Σ_k w_k Σ_n
     ½ erfc((E_nk − ε)/σ), its exact integral (common practice; the same occupation as
-    :func:`bandpert.bands.fermi_level`). σ is the width in the exponent, σ/√2 the standard
-    deviation.
+    :func:`fermi_level_from_count` with ``method="gaussian"``). σ is the width in the exponent,
+    σ/√2 the standard deviation.
 
     Parameters
     ----------

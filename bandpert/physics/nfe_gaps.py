@@ -46,10 +46,9 @@ from ..errors import InputError
 from ..input.material import Material, canonical_label
 from ..perturbation import lowdin_effective_hamiltonian
 from ..physics.bands import default_bands
-from ..planewave.basis import MAX_BASIS, PlaneWaveBasis, plane_wave_basis
 from ..planewave.cutoff import choose_cutoff
-from ..planewave.model import PlaneWaveModel, build_model
-from ..planewave.potential import SHELL_TOLERANCE, continuous_form_factor, fourier_coefficients
+from ..planewave.model import PlaneWaveModel, build_model, centred_model
+from ..planewave.potential import SHELL_TOLERANCE, continuous_form_factor
 from ..units import HBAR2_OVER_2M0_EV_A2
 
 __all__ = [
@@ -695,24 +694,7 @@ def k_centred_model(material: Material, cutoff_eV: float, k_cart_invA: np.ndarra
     PlaneWaveModel
         Its ``kinetic_eV`` must be evaluated at this same k.
     """
-    b = reciprocal_vectors(material.vectors_A)
-    k = np.asarray(k_cart_invA, dtype=float)
-    g_max = np.sqrt(cutoff_eV / HBAR2_OVER_2M0_EV_A2)
-    wide = plane_wave_basis(b, HBAR2_OVER_2M0_EV_A2 * (g_max + np.linalg.norm(k)) ** 2)
-    kg = wide.g_cart_invA + k
-    e = HBAR2_OVER_2M0_EV_A2 * np.einsum("ij,ij->i", kg, kg)
-    keep = np.flatnonzero(e <= cutoff_eV * (1 + 1e-12))
-    keep = keep[np.lexsort((*wide.miller[keep].T[::-1], np.round(e[keep], 10)))]
-    if keep.size > MAX_BASIS:
-        raise InputError(f"a cutoff of {cutoff_eV:.4g} eV gives {keep.size} plane waves (the "
-                         f"limit is {MAX_BASIS}); expected a smaller cutoff", material.file,
-                         "basis.cutoff_eV")
-    basis = PlaneWaveBasis(miller=wide.miller[keep], g_cart_invA=wide.g_cart_invA[keep],
-                           cutoff_eV=float(cutoff_eV))
-    v = fourier_coefficients(material, basis.miller[:, None, :] - basis.miller[None, :, :])
-    if np.max(np.abs(v.imag), initial=0.0) <= 1e-12 * max(1.0, np.max(np.abs(v), initial=0.0)):
-        v = np.ascontiguousarray(v.real)
-    return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v)
+    return centred_model(material, cutoff_eV, k_cart_invA)
 
 
 def examine_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, label: str,

@@ -119,3 +119,37 @@ def plane_wave_basis(reciprocal_invA: np.ndarray, cutoff_eV: float) -> PlaneWave
     grid, g, g2 = grid[keep], g[keep], g2[keep]
     order = np.lexsort((*grid.T[::-1], np.round(g2, 10)))
     return PlaneWaveBasis(miller=grid[order], g_cart_invA=g[order], cutoff_eV=float(cutoff_eV))
+
+
+def k_centred_basis(reciprocal_invA: np.ndarray, cutoff_eV: float,
+                    k_cart_invA: np.ndarray) -> PlaneWaveBasis:
+    """All G with ħ²|k+G|²/2m0 ≤ ``cutoff_eV``: the basis centred on k.
+
+    Every operation of the little group of k maps k+G onto some k+G' of the same length, so
+    this set is invariant under the little group and keeps every degeneracy its symmetry
+    requires (Bouckaert, Smoluchowski & Wigner, Phys. Rev. 50, 58 (1936)); a Γ-centred set
+    |G| ≤ G_max does not at a zone-boundary k. Sorted by |k+G| then by Miller index.
+
+    Parameters
+    ----------
+    reciprocal_invA : numpy.ndarray
+        Reciprocal primitive vectors as rows (Å⁻¹).
+    cutoff_eV : float
+        Kinetic-energy cutoff on ħ²|k+G|²/2m0 (eV).
+    k_cart_invA : numpy.ndarray
+        (d,) Cartesian k (Å⁻¹).
+
+    Returns
+    -------
+    PlaneWaveBasis
+    """
+    k = np.asarray(k_cart_invA, dtype=float)
+    g_max = np.sqrt(cutoff_eV / HBAR2_OVER_2M0_EV_A2)
+    wide = plane_wave_basis(reciprocal_invA,
+                            HBAR2_OVER_2M0_EV_A2 * (g_max + np.linalg.norm(k)) ** 2)
+    kg = wide.g_cart_invA + k
+    e = HBAR2_OVER_2M0_EV_A2 * np.einsum("ij,ij->i", kg, kg)
+    keep = np.flatnonzero(e <= cutoff_eV * (1 + 1e-12))
+    keep = keep[np.lexsort((*wide.miller[keep].T[::-1], np.round(e[keep], 10)))]
+    return PlaneWaveBasis(miller=wide.miller[keep], g_cart_invA=wide.g_cart_invA[keep],
+                          cutoff_eV=float(cutoff_eV))

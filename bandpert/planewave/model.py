@@ -7,6 +7,17 @@ a local potential) are kept apart: the exact solver adds them, the perturbative 
 the perturbation of H0. The basis is a fixed set of reciprocal-lattice vectors with
 ħ²|G|²/2m0 ≤ cutoff, independent of k (:mod:`bandpert.planewave.basis`).
 
+Two bases serve two purposes:
+
+- :class:`KCentredModel`: at each k its own basis ħ²|k+G|²/2m0 ≤ cutoff, which keeps every
+  degeneracy the little group of k requires. The exact bands along paths and on meshes use it
+  (:func:`bandpert.planewave.solver.exact_energies`).
+- :class:`PlaneWaveModel`: one fixed basis for every k. Built around Γ by :func:`build_model`
+  (the perturbative series, reports of the basis size), or around a centre k0 by
+  :func:`centred_model` for derivative stencils (masses, deformation potentials, gradients):
+  the stencil's points must share one set of plane waves, or the differences would carry the
+  jumps of the basis.
+
 Basis layout: the Hamiltonian index runs over (component, G) with the component index slowest;
 ``n_components`` is 1 for the spinless models here, so a spinor extension only adds a second
 component block and a spin–orbit term without changing the G bookkeeping.
@@ -14,7 +25,7 @@ component block and a spin–orbit term without changing the G bookkeeping.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -22,7 +33,7 @@ from ..crystal.lattice import reciprocal_vectors
 from ..errors import InputError
 from ..input.material import Material
 from ..units import HBAR2_OVER_2M0_EV_A2
-from .basis import MAX_BASIS, PlaneWaveBasis, plane_wave_basis
+from .basis import MAX_BASIS, PlaneWaveBasis, k_centred_basis, plane_wave_basis
 from .potential import check_shells_exist, fourier_coefficients
 
 
@@ -91,11 +102,147 @@ def build_model(material: Material, cutoff_eV: float) -> PlaneWaveModel:
                          f"(matrices of {gib:.1f} GiB each; the limit is {MAX_BASIS}); expected a "
                          "smaller cutoff", material.file, "basis.cutoff_eV")
     check_shells_exist(material, basis)
-    diff = basis.miller[:, None, :] - basis.miller[None, :, :]
-    v = fourier_coefficients(material, diff)
+    return PlaneWaveModel(basis=basis, reciprocal_invA=b,
+                          potential_eV=_potential_matrix(material, basis.miller))
+
+
+def _potential_matrix(material: Material, miller: np.ndarray) -> np.ndarray:
+    """V(G − G') on a basis given by Miller indices: Hermitian, real when every V(G) is."""
+    v = fourier_coefficients(material, miller[:, None, :] - miller[None, :, :])
     if not np.allclose(v, v.conj().T, atol=1e-12):
         raise InputError("the potential matrix is not Hermitian; expected V(-G) = V(G)*",
                          material.file, "potential")
     if np.max(np.abs(v.imag), initial=0.0) <= 1e-12 * max(1.0, np.max(np.abs(v), initial=0.0)):
         v = np.ascontiguousarray(v.real)
-    return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v)
+    return v
+
+
+def centred_model(material: Material, cutoff_eV: float, k0_cart_invA: np.ndarray
+                  ) -> PlaneWaveModel:
+    """The fixed-basis model {G : ħ²|k0+G|²/2m0 ≤ cutoff}, centred on k0.
+
+    For derivative stencils around k0: every point k0 + δ of the stencil is diagonalised in
+    this one basis, so finite differences see the bands, not jumps of the basis. At k0 itself
+    the basis keeps every symmetry of the little group of k0
+    (:func:`~bandpert.planewave.basis.k_centred_basis`).
+
+    Parameters
+    ----------
+    material : Material
+    cutoff_eV : float
+        Kinetic-energy cutoff on ħ²|k0+G|²/2m0 (eV).
+    k0_cart_invA : numpy.ndarray
+        (d,) Cartesian centre (Å⁻¹).
+
+    Returns
+    -------
+    PlaneWaveModel
+        Its ``kinetic_eV`` may be evaluated at any k; it is symmetric at k0.
+    """
+    b = reciprocal_vectors(material.vectors_A)
+    basis = k_centred_basis(b, cutoff_eV, np.asarray(k0_cart_invA, dtype=float))
+    if basis.size > MAX_BASIS:
+        raise InputError(f"a cutoff of {cutoff_eV:.4g} eV gives {basis.size} plane waves (the "
+                         f"limit is {MAX_BASIS}); expected a smaller cutoff", material.file,
+                         "basis.cutoff_eV")
+    return PlaneWaveModel(basis=basis, reciprocal_invA=b,
+                          potential_eV=_potential_matrix(material, basis.miller))
+
+
+@dataclass(frozen=True)
+class KCentredModel:
+    """A plane-wave model whose basis at each k is {G : ħ²|k+G|²/2m0 ≤ cutoff}.
+
+    The basis at k is invariant under the little group of k, so the degeneracies its
+    irreducible representations require hold to rounding at every labelled point
+    (Bouckaert, Smoluchowski & Wigner, Phys. Rev. 50, 58 (1936)). The potential is kept as a
+    table of V(G) over a box of Miller indices, so H(k) is gathered per k from
+    V(G_i − G_j) without evaluating any form factor again (:meth:`hamiltonian_parts`).
+
+    Attributes
+    ----------
+    material : Material
+    cutoff_eV : float
+    reciprocal_invA : numpy.ndarray
+        Reciprocal primitive vectors (rows, Å⁻¹).
+    gamma : PlaneWaveModel
+        The Γ-centred model of the same cutoff (its size is the basis size reported).
+    """
+
+    material: Material
+    cutoff_eV: float
+    reciprocal_invA: np.ndarray
+    gamma: PlaneWaveModel
+    _tables: dict = field(default_factory=dict, compare=False, repr=False)
+
+    @property
+    def size(self) -> int:
+        """Basis size at Γ (at other k the size differs by a few plane waves)."""
+        return self.gamma.size
+
+    @property
+    def is_real(self) -> bool:
+        """True when H(k) is real symmetric at every k."""
+        return self.gamma.is_real
+
+    def at(self, k0_cart_invA: np.ndarray) -> PlaneWaveModel:
+        """The fixed basis centred on k0, for stencils around k0 (:func:`centred_model`)."""
+        return centred_model(self.material, self.cutoff_eV, k0_cart_invA)
+
+    def candidates(self, reach_invA: float
+                   ) -> tuple[PlaneWaveBasis, np.ndarray, np.ndarray, int]:
+        """Every G of the bases of all k with |k| ≤ reach, and V over their differences.
+
+        Returns
+        -------
+        basis : PlaneWaveBasis
+            G with |G| ≤ G_max + reach.
+        flat : numpy.ndarray
+            (n_G,) integer code of each G, such that V(G_i − G_j) = table[origin + flat_i −
+            flat_j].
+        table : numpy.ndarray
+            Flat V over the box of differences, with one extra 0 at the end (index −1, for
+            padding rows and columns).
+        origin : int
+            Index of G = 0 in ``table``.
+        """
+        key = float(np.ceil(reach_invA * 8.0) / 8.0)  # reuse a table for nearby reaches
+        found = [r for r in self._tables if r >= key]
+        if found:
+            return self._tables[min(found)]
+        g_max = np.sqrt(self.cutoff_eV / HBAR2_OVER_2M0_EV_A2)
+        basis = plane_wave_basis(self.reciprocal_invA,
+                                 HBAR2_OVER_2M0_EV_A2 * (g_max + key) ** 2)
+        span = 2 * np.max(np.abs(basis.miller), axis=0) + 1
+        width = 2 * span - 1  # differences run over −(span − 1) … span − 1
+        strides = np.cumprod(np.r_[1, width[::-1][:-1]])[::-1]
+        axes = [np.arange(-(s - 1), s) for s in span]
+        box = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, len(span))
+        table = fourier_coefficients(self.material, box)
+        if np.max(np.abs(table.imag), initial=0.0) <= 1e-12 * max(
+                1.0, np.max(np.abs(table), initial=0.0)):
+            table = np.ascontiguousarray(table.real)
+        table = np.append(table, 0.0)
+        origin = int(np.sum((span - 1) * strides))
+        flat = basis.miller @ strides
+        self._tables.clear()
+        self._tables[key] = (basis, flat, table, origin)
+        return self._tables[key]
+
+
+def build_k_centred_model(material: Material, cutoff_eV: float) -> KCentredModel:
+    """The model with a basis centred on each k (:class:`KCentredModel`).
+
+    Parameters
+    ----------
+    material : Material
+    cutoff_eV : float
+        Kinetic-energy cutoff on ħ²|k+G|²/2m0 (eV).
+
+    Returns
+    -------
+    KCentredModel
+    """
+    gamma = build_model(material, cutoff_eV)
+    return KCentredModel(material=material, cutoff_eV=float(cutoff_eV),
+                         reciprocal_invA=gamma.reciprocal_invA, gamma=gamma)

@@ -14,7 +14,8 @@ import scipy.linalg.lapack
 from threadpoolctl import ThreadpoolController
 
 from ..errors import InputError
-from .model import PlaneWaveModel
+from ..units import HBAR2_OVER_2M0_EV_A2
+from .model import KCentredModel, PlaneWaveModel
 
 #: Below this basis size the eigenvalues of a block of k-points come from one batched numpy call
 #: (all eigenvalues, divide and conquer); above it, LAPACK's MRRR driver per k-point, only the
@@ -68,7 +69,7 @@ def _mrrr_solver(n: int, n_bands: int, complex_: bool) -> Callable[[np.ndarray],
     return solve
 
 
-def exact_energies(model: PlaneWaveModel, k_cart_invA: np.ndarray, n_bands: int,
+def exact_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray, n_bands: int,
                    progress: Progress | None = None) -> np.ndarray:
     """Lowest ``n_bands`` eigenvalues of H(k) at each k-point, ascending.
 
@@ -79,9 +80,13 @@ def exact_energies(model: PlaneWaveModel, k_cart_invA: np.ndarray, n_bands: int,
     (:func:`single_blas_thread`); the kinetic diagonal is built per block of k-points, so the
     memory beyond the (n_k, n_bands) result does not grow with the number of k-points.
 
+    A :class:`~bandpert.planewave.model.KCentredModel` is diagonalised at each k in its own
+    basis ħ²|k+G|²/2m0 ≤ cutoff (:func:`_k_centred_energies`); a
+    :class:`~bandpert.planewave.model.PlaneWaveModel` in its one fixed basis.
+
     Parameters
     ----------
-    model : PlaneWaveModel
+    model : PlaneWaveModel or KCentredModel
     k_cart_invA : numpy.ndarray
         (n_k, d) Cartesian wave vectors (Å⁻¹).
     n_bands : int
@@ -94,6 +99,8 @@ def exact_energies(model: PlaneWaveModel, k_cart_invA: np.ndarray, n_bands: int,
     numpy.ndarray
         (n_k, n_bands) energies in eV (absolute: the model's own zero).
     """
+    if isinstance(model, KCentredModel):
+        return _k_centred_energies(model, k_cart_invA, n_bands, progress)
     n = model.size
     if n_bands > n:
         raise InputError(f"{n_bands} bands asked for but the basis holds only {n} plane waves; "
@@ -127,6 +134,84 @@ def exact_energies(model: PlaneWaveModel, k_cart_invA: np.ndarray, n_bands: int,
                 np.copyto(h, v_f)
                 h[diag, diag] += row
                 out[i] = solve(h)
+                if progress and (i % step == 0 or i == n_k - 1):
+                    progress(i + 1, n_k)
+    return out
+
+
+def _k_centred_energies(model: KCentredModel, k_cart_invA: np.ndarray, n_bands: int,
+                        progress: Progress | None = None) -> np.ndarray:
+    """Lowest ``n_bands`` eigenvalues of H(k) in the basis ħ²|k+G|²/2m0 ≤ cutoff at each k.
+
+    H(k)_{ij} = ħ²|k+G_i|²/2m0 δ_ij + V(G_i − G_j) is gathered from the model's table of V
+    (one indexing operation per k). The per-k sizes differ by a few plane waves (silicon at its
+    default cutoff: 242–268 along the path, 259 at Γ). Below :data:`BATCH_BELOW` plane waves
+    the k-points of a block that share a basis size are diagonalised together by one
+    :func:`numpy.linalg.eigvalsh` call (no padding: each k gets exactly its own matrix, so the
+    numbers do not depend on the blocks); above it, LAPACK's MRRR driver runs per k at that
+    k's own size. A k whose basis would hold fewer plane waves than ``n_bands`` (only at tiny
+    cutoffs) takes every shell |k+G| up to its ``n_bands``-th lowest plane wave instead.
+    """
+    if n_bands > model.size:
+        raise InputError(f"{n_bands} bands asked for but the basis holds only {model.size} plane "
+                         "waves; expected fewer bands or a larger cutoff", key="bands")
+    k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+    n_k = len(k)
+    reach = float(np.max(np.linalg.norm(k, axis=1), initial=0.0))
+    cand, flat, table, origin = model.candidates(reach)
+    g = cand.g_cart_invA
+    limit = model.cutoff_eV * (1 + 1e-12)
+    out = np.empty((n_k, n_bands))
+    n_ref = model.size
+    block = max(1, min(n_k, BATCH_BYTES // (n_ref * n_ref * table.itemsize)))
+    solvers: dict[int, Callable[[np.ndarray], np.ndarray]] = {}
+    step = max(1, n_k // 50)
+    base = members = None
+    with single_blas_thread():
+        for start in range(0, n_k, block):
+            stop = min(n_k, start + block)
+            kg = k[start:stop, None, :] + g[None, :, :]
+            kinetic = HBAR2_OVER_2M0_EV_A2 * np.einsum("kgi,kgi->kg", kg, kg)
+            # at a cutoff so small that some k holds fewer plane waves than bands, that k takes
+            # the whole shells up to its n_bands-th lowest plane wave (still symmetric)
+            lowest = np.partition(kinetic, n_bands - 1, axis=1)[:, n_bands - 1]
+            inside = kinetic <= np.maximum(limit, lowest * (1 + 1e-12))[:, None]
+            sizes = inside.sum(axis=1)
+            if sizes.min() < n_bands:
+                raise InputError(f"{n_bands} bands asked for but the basis at some k holds only "
+                                 f"{int(sizes.min())} plane waves; expected fewer bands or a "
+                                 "larger cutoff", key="bands")
+            if n_ref < BATCH_BELOW:
+                # one batched call per basis size: every k gets exactly its own matrix, so the
+                # numbers do not depend on which other k-points share its block
+                for n in np.unique(sizes):
+                    rows = np.flatnonzero(sizes == n)
+                    order = np.argsort(~inside[rows], axis=1, kind="stable")[:, :n]
+                    codes = flat[order]
+                    h = table[origin + codes[:, :, None] - codes[:, None, :]]
+                    r = np.arange(n)
+                    h[:, r, r] += np.take_along_axis(kinetic[rows], order, axis=1)
+                    out[start + rows] = np.linalg.eigvalsh(h)[:, :n_bands]
+                if progress:
+                    progress(stop, n_k)
+                continue
+            for j in range(stop - start):
+                i = start + j
+                if base is None or not np.array_equal(inside[j], members):
+                    # a new set of plane waves (about one k in three along a path): gather H
+                    members = inside[j]
+                    sel = np.flatnonzero(members)
+                    codes = flat[sel]
+                    # H is Hermitian: the transpose (a Fortran-ordered view) has its eigenvalues
+                    base = table[origin + codes[:, None] - codes[None, :]].T
+                    h = np.empty_like(base)
+                    n = len(sel)
+                    diag = np.arange(n)
+                    if n not in solvers:
+                        solvers[n] = _mrrr_solver(n, n_bands, np.iscomplexobj(table))
+                np.copyto(h, base)
+                h[diag, diag] += kinetic[j, sel]
+                out[i] = solvers[n](h)
                 if progress and (i % step == 0 or i == n_k - 1):
                     progress(i + 1, n_k)
     return out

@@ -17,9 +17,15 @@ from ..crystal.kmesh import KMesh, reciprocal_mesh
 from ..errors import InputError
 from ..input.material import Material
 from ..physics.bands import choose_energy_zero, default_bands
-from ..physics.dos import DensityOfStates, fermi_level_from_count, gaussian_dos, tetrahedron_dos
+from ..physics.dos import (
+    DEFAULT_SMEARING_EV,
+    DensityOfStates,
+    fermi_level_from_count,
+    gaussian_dos,
+    tetrahedron_dos,
+)
 from ..planewave.cutoff import choose_cutoff
-from ..planewave.model import PlaneWaveModel, build_model
+from ..planewave.model import KCentredModel, build_k_centred_model
 from ..planewave.solver import exact_energies, single_blas_thread
 from ..runs.execution import SERIAL, Engine, Progress, Runner, run, session
 
@@ -31,15 +37,16 @@ K_BLOCK = 64
 
 #: The last model built in this process, keyed by what defines it: every block of a mesh needs
 #: the same V, so a worker (or the calling process) builds it once, not once per block.
-_LAST_MODEL: dict[tuple, PlaneWaveModel] = {}
+_LAST_MODEL: dict[tuple, KCentredModel] = {}
 
 
-def _model_for(material: Material, cutoff_eV: float) -> PlaneWaveModel:
+def _model_for(material: Material, cutoff_eV: float) -> KCentredModel:
+    """The model with a basis centred on each k (the same bases in every process)."""
     key = (material.file, material.name, material.vectors_A.tobytes(), repr(material.atoms),
            repr(material.potential), float(cutoff_eV))
     if key not in _LAST_MODEL:
         _LAST_MODEL.clear()
-        _LAST_MODEL[key] = build_model(material, cutoff_eV)
+        _LAST_MODEL[key] = build_k_centred_model(material, cutoff_eV)
     return _LAST_MODEL[key]
 
 
@@ -162,7 +169,7 @@ class DosResult:
 
 
 def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
-                method: str = "tetrahedron", smearing_eV: float = 0.05,
+                method: str = "tetrahedron", smearing_eV: float = DEFAULT_SMEARING_EV,
                 n_bands: int | None = None, cutoff_eV: float | None = None,
                 energy_step_eV: float = 0.01, engine: Engine = SERIAL,
                 progress: Progress | None = None) -> DosResult:
