@@ -44,8 +44,20 @@ def no_diagonalisation(monkeypatch):
 
 
 @pytest.mark.parametrize("kind", ["a x 1e6", "a int64 max", "form factors x 1e6"])
-def test_search_refuses_a_potential_it_cannot_converge_before_any_work(kind, no_diagonalisation):
-    material = parse_material(hostile(kind), "hostile.toml")
+def test_hostile_inputs_are_refused_before_any_work(kind, no_diagonalisation):
+    # refused by the reader's range checks or by the search's strength limit, in one line
+    with pytest.raises(InputError) as err:
+        cutoff.converged_cutoff(parse_material(hostile(kind), "hostile.toml"), 8)
+    text = str(err.value)
+    assert "hostile.toml" in text and "\n" not in text
+
+
+def test_search_refuses_a_potential_it_cannot_converge_before_any_work(no_diagonalisation):
+    # 100x the GaAs form factors: inside the reader's range, 16x the first shell's kinetic
+    # energy, beyond the search's limit of 10
+    doc = gaas_doc()
+    doc["potential"]["symmetric"] = [x * 100 for x in doc["potential"]["symmetric"]]
+    material = parse_material(doc, "hostile.toml")
     with pytest.raises(InputError) as err:
         cutoff.converged_cutoff(material, 8)
     text = str(err.value)
