@@ -413,6 +413,34 @@ def fullzone_results(result) -> dict[str, Any]:
             "energy_zero_eV": bs.energy_zero_eV}
 
 
+def kp_path_results(bands) -> dict[str, Any]:
+    """The ``results`` of ``bandpert bands`` on a k·p file (a :class:`bandpert.kp.PathBands`;
+    keys documented in the README)."""
+    return {"kind": "kp", "energy_zero": "valence-band top at Γ",
+            "path": {"labels": list(bands.labels), "label_indices": bands.label_indices,
+                     "fraction": bands.fraction, "k_max_invA": bands.k_max_invA},
+            "k_cart_invA": bands.k_cart_invA, "k_2pi_a": bands.k_2pi_a,
+            "distance_2pi_a": bands.distance_2pi_a,
+            "models": {m: {"band_names": list(bands.band_names[m]),
+                           "energies_eV": bands.energies_eV[m]} for m in bands.models}}
+
+
+def kp_path_table(bands, material_name: str) -> tuple[list[str], list[str], np.ndarray]:
+    """Header lines, column names and rows of the CSV of k·p bands along the path."""
+    header = [f"bandpert {__version__} bands (k·p models along the path): {material_name}",
+              "energies in eV from the valence-band top at Γ; wave vectors in 1/Angstrom "
+              "(Cartesian, 2*pi included) and in units of 2*pi/a; path "
+              + " – ".join(bands.labels)]
+    cols = (["k_index", "path_distance_2pi_a", "kx_invA", "ky_invA", "kz_invA", "kx_2pi_a",
+             "ky_2pi_a", "kz_2pi_a"]
+            + [f"{m}_band{n + 1}_eV" for m in bands.models
+               for n in range(bands.energies_eV[m].shape[1])])
+    rows = np.column_stack([np.arange(len(bands.distance_2pi_a)), bands.distance_2pi_a,
+                            bands.k_cart_invA, bands.k_2pi_a,
+                            *[bands.energies_eV[m] for m in bands.models]])
+    return header, cols, rows
+
+
 def column_unit(name: str) -> str:
     """The unit of a sweep column, read off its name (README, "bandpert sweep")."""
     if name.endswith("_eV"):

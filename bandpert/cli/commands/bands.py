@@ -11,6 +11,7 @@ from rich.table import Table
 
 from ...crystal.lattice import describe_position
 from ...errors import InputError
+from ...input.file_kind import file_kind
 from ...input.material import load_material
 from ...io import write_csv, write_json, write_table
 from ...output.plotting import band_figure
@@ -44,6 +45,7 @@ from ..options import (
     progress_bar,
     save_figure,
 )
+from .kp_bands import kp_bands
 
 
 def bands(
@@ -93,6 +95,8 @@ def bands(
     """
 
     check_count(k_points, "--k-points", 2)
+    if file_kind(file) == "kp":  # a k·p parameter file: its models' bands along a path near Γ
+        return kp_bands(file, out_dir, name, image_format, json_path, e_min, e_max)
     check_count(n_bands, "--bands", 1)
     if cutoff_eV is not None and not cutoff_eV > 0:
         raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
