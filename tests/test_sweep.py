@@ -15,15 +15,14 @@ from bandpert.input.material import parse_material, read_toml_document
 from bandpert.physics.bands import compute_band_structure, exact_energies
 from bandpert.planewave.model import build_model
 from bandpert.runs.execution import Engine
-from bandpert.runs.sweep import (
+from bandpert.runs.sweep import prepare, run_sweep
+from bandpert.runs.sweep_spec import (
     SweepAxis,
     get_value,
     parameter_grid,
     parse_axis,
     point_cutoff,
     point_document,
-    prepare,
-    run_sweep,
     set_value,
     virtual_crystal,
 )

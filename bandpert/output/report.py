@@ -333,6 +333,8 @@ def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any
         "finite_difference": None,
         "convergence": None,
         "degenerate_edge": None,
+        "critical_point": _critical_point_entry(m.critical_point),
+        "summary": m.summary,
     }
     if m.tensor is not None:
         entry["sum_over_states"] = {
@@ -361,6 +363,25 @@ def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any
             "band_dos_masses_m0": m.band_dos_masses,
         }
     return entry
+
+
+def _critical_point_entry(cp) -> dict[str, Any]:
+    near = cp.nearest
+    return {
+        "kind": cp.kind,
+        "saddle_index": cp.saddle_index,
+        "principal_inverse_masses": cp.curvatures,
+        "principal_axes": None if cp.axes is None else cp.axes.T,
+        "degeneracy": cp.degeneracy or None,
+        "run_splittings_eV": _finite_or_none(cp.run_splittings_eV)[0],
+        "centred_splittings_eV": _finite_or_none(cp.centred_splittings_eV),
+        "gradient_eV_A": cp.gradient_eV_A,
+        "nearest_extremum": None if near is None else {
+            "kind": near.kind, "k_frac": near.k_frac, "k_cart_invA": near.k_cart_invA,
+            "energy_eV": near.energy_eV, "beyond_point_eV": near.below_eV,
+            "distance_invA": near.distance_invA, "along_fraction": near.along_fraction},
+        "warning": cp.warning or None,
+    }
 
 
 def masses_results(entries, energy_zero_eV: float, locations: list[str],
