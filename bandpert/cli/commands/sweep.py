@@ -15,7 +15,8 @@ from ...input.material import read_toml_document
 from ...io import write_json, write_table
 from ...output.plotting import sweep_figure
 from ...output.report import column_unit, document, sweep_results, sweep_table
-from ...runs.sweep import parse_axis, prepare, run_sweep
+from ...runs.sweep import prepare, run_sweep
+from ...runs.sweep_spec import parse_axis
 from ..options import (
     DEFAULT_OUT,
     BandsOption,
