@@ -28,16 +28,26 @@ reference lattice.
 
 from __future__ import annotations
 
+import copy
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
+from ..crystal.lattice import reciprocal_vectors
 from ..errors import InputError
-from ..input.material import Material
+from ..input.material import Material, parse_material
+from ..physics.bands import compute_band_structure, converged_cutoff, default_bands
 from ..physics.critical_points import centred_model, degenerate_group
-from ..physics.extrema import EdgeLocation, levels
-from ..planewave.formfactor import strain_derivative_of_potential
-from ..planewave.model import PlaneWaveModel
+from ..physics.extrema import EdgeLocation, levels, locate_edges
+from ..planewave.formfactor import (
+    ContinuousFit,
+    SlopeCondition,
+    continuous_form_factor_slope,
+    fit_continuous_potential,
+    strain_derivative_of_potential,
+)
+from ..planewave.model import PlaneWaveModel, single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
 
 
@@ -228,3 +238,173 @@ def describe(dp: DeformationPotentials) -> list[str]:
     if dp.b_eV is not None:
         lines.append(f"valence top b = (l − m)/3: {dp.b_eV:+.3f} eV, d = n/√3: {dp.d_eV:+.3f} eV")
     return lines
+
+
+# --------------------------------------------------------------------------------------------
+# a continuous v(q) whose slopes follow measured deformation potentials
+# --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class GapTarget:
+    """A measured hydrostatic gap deformation potential dE_g/d ln V (eV).
+
+    ``gap`` is "indirect" (conduction minimum − valence maximum) or a point label ("Γ")."""
+
+    gap: str
+    value_eV: float
+    source: str
+
+
+#: Measured hydrostatic gap deformation potentials, by the sorted species names of a file.
+MEASURED_GAP_POTENTIALS: dict[tuple[str, ...], tuple[GapTarget, ...]] = {
+    # dEg/dP = −1.41 meV/kbar times the bulk modulus 0.98 Mbar
+    ("Si",): (GapTarget("indirect", 1.38, "Welber, Kim, Cardona & Rodriguez, Solid State "
+                        "Commun. 17, 1021 (1975), dEg/dP = −1.41 meV/kbar, with B = 0.98 Mbar; "
+                        "from memory"),),
+    ("As", "Ga"): (GapTarget("Γ", -8.33, "Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, "
+                             "5815 (2001), a = a_c − a_v of GaAs; from memory"),),
+}
+
+
+def _shell_index(model: PlaneWaveModel, unit_invA: float, shells_g2: list[float]) -> np.ndarray:
+    diff = model.basis.miller[:, None, :] - model.basis.miller[None, :, :]
+    g = diff @ model.reciprocal_invA
+    g2 = np.round(np.einsum("...i,...i->...", g, g) / unit_invA**2, 6)
+    out = np.full(g2.shape, -1)
+    for i, s in enumerate(shells_g2):
+        out[np.isclose(g2, s, rtol=0, atol=1e-5)] = i
+    return out
+
+
+def gap_condition(material: Material, cutoff_eV: float, target: GapTarget,
+                  edges: list[EdgeLocation], shells_g2: list[float]) -> SlopeCondition:
+    """The linear condition on the shell slopes that makes a gap's dE_g/d ln V equal a target.
+
+    ``material`` is continuous and equal to the tabulated model at the reference lattice (so
+    its eigenstates are the tabulated ones); the response is computed with each slope u_s′ on
+    each shell set to 1 in turn (:func:`strain_hamiltonian` with ``slopes``).
+    """
+    b = reciprocal_vectors(material.vectors_A)
+    n_val = material.valence_electrons // 2
+    if target.gap == "indirect":
+        cond = next(e for e in edges if not e.maximum)
+        val = next(e for e in edges if e.maximum)
+        where = [(cond.k_cart_invA, cond.band, 1.0), (val.k_cart_invA, val.band, -1.0)]
+    else:
+        k = np.zeros(3) if target.gap == "Γ" else np.asarray(material.path.points[target.gap])
+        k = np.asarray(k, dtype=float) @ b if target.gap != "Γ" else k
+        where = [(k, n_val, 1.0), (k, n_val - 1, -1.0)]
+    unit = 2.0 * np.pi / material.a_A
+    species = sorted({a.species for a in material.atoms})
+    keys = [(s, i) for s in species for i in range(len(shells_g2))]
+    total = np.zeros(len(keys) + 1)
+    for k, band, sign in where:
+        sym = centred_model(material, k, cutoff_eV)
+        group = degenerate_group(material, sym, k, band, sym)[0]
+        shell_of = _shell_index(sym, unit, shells_g2)
+        for j, slopes in enumerate([{}] + [{key: 1.0} for key in keys]):
+            shift = set_shifts(material, sym, k, group, [_hydrostatic(3)], slopes=slopes,
+                               shell_of=shell_of)[0]
+            total[j] += sign * float(np.mean(shift))
+    coefficients = {(s, round(float(shells_g2[i]), 6)): float(total[j + 1] - total[0])
+                    for j, (s, i) in enumerate(keys)}
+    return SlopeCondition(name=f"dEg/d ln V ({target.gap} gap)", target_eV=target.value_eV,
+                          constant_eV=float(total[0]), coefficients=coefficients,
+                          source=target.source)
+
+
+@dataclass(frozen=True)
+class StrainFit:
+    """The continuous v(q) a strained crystal uses, and how its slopes were fixed.
+
+    Attributes
+    ----------
+    document : dict
+        The material document with the fitted "continuous" potential.
+    fit : ContinuousFit
+    constrained : bool
+        True when the measured gap deformation potentials are conditions of the fit (met
+        exactly, with the tabulated form factors still exact at the reference lattice).
+    targets : tuple of GapTarget
+        The measured values known for this crystal (may be empty).
+    achieved_eV : dict
+        Gap → the model's dE_g/d ln V with the fit used.
+    note : str
+        One sentence for every output.
+    """
+
+    document: dict[str, Any]
+    fit: ContinuousFit
+    constrained: bool
+    targets: tuple[GapTarget, ...]
+    achieved_eV: dict[str, float]
+    note: str
+
+
+def _condition_value(cond: SlopeCondition, fit: ContinuousFit, a_A: float) -> float:
+    unit = 2.0 * np.pi / a_A
+    return cond.constant_eV + sum(
+        c * float(continuous_form_factor_slope(
+            unit * np.sqrt(g2), fit.species[s].a1_eV, fit.species[s].a2_invA2,
+            fit.species[s].a3, fit.species[s].a4_A2))
+        for (s, g2), c in cond.coefficients.items())
+
+
+def strain_following_document(document: dict[str, Any], source: str = "",
+                              cutoff_eV: float | None = None) -> StrainFit:
+    """Replace tabulated form factors by a continuous v(q) whose slopes follow measured strain.
+
+    The tabulated values fix v only on the shells; the slopes there decide every deformation
+    potential. Where :data:`MEASURED_GAP_POTENTIALS` knows the crystal, its measured hydrostatic
+    gap deformation potentials are added as conditions of the fit
+    (:func:`bandpert.planewave.formfactor.fit_continuous_potential` with
+    :class:`~bandpert.planewave.formfactor.SlopeCondition` rows; with two species a3 is no longer
+    shared, one more unknown for the extra condition). The constrained fit is used only if it
+    meets every condition and keeps the tabulated V(G) exact (1e-9 eV); otherwise the
+    unconstrained fit is used and the note says by how much the target is missed.
+    """
+    material = parse_material(document, source)
+    fit0 = fit_continuous_potential(material)
+    doc0 = copy.deepcopy(document)
+    doc0["potential"] = fit0.potential_table()
+    doc0["source"] = (f"{document.get('source', '')}; continuous form factors v(q) of Friedel, "
+                      "Hybertsen & Schlüter, Phys. Rev. B 39, 7974 (1989) fitted to them by "
+                      "bandpert")
+    species = tuple(sorted({a.species for a in material.atoms}))
+    targets = MEASURED_GAP_POTENTIALS.get(species, ())
+    if not targets:
+        return StrainFit(doc0, fit0, False, (), {}, "no measured deformation potential is "
+                         "known to bandpert for this crystal: the slopes of v(q) at the shells "
+                         "come from the functional form alone")
+    cmat = parse_material(doc0, source)
+    cutoff = cutoff_eV or material.cutoff_eV or converged_cutoff(material,
+                                                                 default_bands(material))
+    with single_blas_thread():
+        bs = compute_band_structure(cmat, n_k=60, cutoff_eV=cutoff, check_cutoff=False)
+        edges = locate_edges(bs)
+        shells = sorted(fit0.residuals_eV)
+        conds = tuple(gap_condition(cmat, cutoff, t, edges, shells) for t in targets)
+    shared = fit0.shared if len(species) == 1 else ()
+    fit1 = fit_continuous_potential(material, shared=shared, slope_conditions=conds,
+                                    start=fit0)
+    ok = fit1.max_residual_eV < 1e-9 and all(abs(x) < 1e-6
+                                             for x in fit1.slope_residuals_eV.values())
+    said = "; ".join(f"{t.gap} gap {t.value_eV:+.2f} eV ({t.source})" for t in targets)
+    if ok:
+        doc1 = copy.deepcopy(doc0)
+        doc1["potential"] = fit1.potential_table()
+        achieved = {t.gap: _condition_value(c, fit1, material.a_A)
+                    for t, c in zip(targets, conds, strict=True)}
+        return StrainFit(doc1, fit1, True, targets, achieved,
+                         f"slopes of v(q) fixed by the measured dEg/d ln V: {said}")
+    achieved = {t.gap: _condition_value(c, fit0, material.a_A)
+                for t, c in zip(targets, conds, strict=True)}
+    best = ", ".join(f"{t.gap} {fit1.slope_residuals_eV[c.name] + t.value_eV:+.2f} eV with "
+                     f"|ΔV(G)| up to {fit1.max_residual_eV:.1e} eV"
+                     for t, c in zip(targets, conds, strict=True))
+    got = ", ".join(f"{g} {v:+.2f} eV" for g, v in achieved.items())
+    return StrainFit(doc0, fit0, False, targets, achieved,
+                     f"the measured dEg/d ln V ({said}) cannot be met by this form of v(q) while "
+                     f"the tabulated form factors stay exact (closest constrained fit: {best}); "
+                     f"the unconstrained fit is used and gives {got}")
