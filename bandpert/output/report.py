@@ -384,10 +384,31 @@ def _critical_point_entry(cp) -> dict[str, Any]:
     }
 
 
+def deformation_entry(dp, note: str) -> dict[str, Any]:
+    """The ``deformation_potentials`` of ``bandpert masses`` (README)."""
+    lmn = dp.valence_lmn_eV
+    return {
+        "gap_hydrostatic_eV": dp.gap_hydrostatic_eV,
+        "conduction_valley": dp.conduction_valley,
+        "xi_u_eV": dp.xi_u_eV,
+        "xi_d_plus_xi_u_over_3_minus_a_v_eV": dp.xi_d_plus_xi_u_over_3_minus_a_v_eV,
+        "valence_l_m_n_eV": None if lmn is None else list(lmn),
+        "b_eV": dp.b_eV,
+        "d_eV": dp.d_eV,
+        "form_factors": note,
+        "strain": "first order at the reference lattice (where the continuous v(q) equals the "
+                  "tabulated form factors); atoms at fixed fractional positions (no internal "
+                  "relaxation)",
+    }
+
+
 def masses_results(entries, energy_zero_eV: float, locations: list[str],
-                   kp_parameters: dict[str, Any] | None) -> dict[str, Any]:
+                   kp_parameters: dict[str, Any] | None,
+                   deformation: tuple | None = None) -> dict[str, Any]:
     """The ``results`` of ``bandpert masses`` (keys documented in the README)."""
     return {
+        "deformation_potentials": None if deformation is None else deformation_entry(
+            *deformation),
         "energy_zero_eV": energy_zero_eV,
         "masses": [_band_masses_entry(m, energy_zero_eV, loc)
                    for m, loc in zip(entries, locations, strict=True)],

@@ -34,7 +34,7 @@ from typing import Any
 
 import numpy as np
 
-from ..crystal.lattice import reciprocal_vectors
+from ..crystal.lattice import point_group_rotations, reciprocal_vectors
 from ..errors import InputError
 from ..input.material import Material, parse_material
 from ..physics.bands import compute_band_structure, converged_cutoff, default_bands
@@ -49,6 +49,9 @@ from ..planewave.formfactor import (
 )
 from ..planewave.model import PlaneWaveModel, single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
+
+#: Potential forms whose deformation potentials bandpert computes (tabulated ones are fitted).
+STRAIN_FOLLOWING_FORMS = ("symmetric-antisymmetric", "per-species", "continuous")
 
 
 def _hydrostatic(d: int) -> np.ndarray:
@@ -408,3 +411,30 @@ def strain_following_document(document: dict[str, Any], source: str = "",
                      f"the measured dEg/d ln V ({said}) cannot be met by this form of v(q) while "
                      f"the tabulated form factors stay exact (closest constrained fit: {best}); "
                      f"the unconstrained fit is used and gives {got}")
+
+
+def material_deformation_potentials(material: Material, document: dict[str, Any], bs,
+                                    edges: list[EdgeLocation]
+                                    ) -> tuple[DeformationPotentials, str]:
+    """Deformation potentials of a bundled-style semiconductor at its reference lattice.
+
+    Tabulated form factors are replaced first by the strain-following continuous v(q)
+    (:func:`strain_following_document`), equal to them at the reference lattice, so the bands
+    and ``edges`` of ``bs`` still hold. Gaps are reported at Γ, X and L where the path has them.
+
+    Returns
+    -------
+    DeformationPotentials
+    note : str
+        How v(q) follows the strain (said in every output).
+    """
+    if material.potential.form == "continuous":
+        cmat, note = material, "the file's continuous v(q) follows the strain"
+    else:
+        sf = strain_following_document(document, material.file, bs.model.basis.cutoff_eV)
+        cmat, note = parse_material(sf.document, material.file), sf.note
+    points = {p: np.asarray(bs.path.points_frac[p]) for p in ("Γ", "X", "L")
+              if p in bs.path.points_frac}
+    with single_blas_thread():
+        dp = deformation_potentials(cmat, bs.model, edges, points, point_group_rotations(cmat))
+    return dp, note

@@ -47,6 +47,7 @@ from ..errors import InputError
 from ..input.kp_file import parse_kp_material
 from ..input.material import Material, canonical_label, parse_material
 from ..physics.bands import converged_cutoff, default_bands
+from ..physics.deformation import strain_following_document
 from ..planewave.formfactor import continuous_document
 from ..planewave.model import build_model
 from ..runs.execution import SERIAL, Engine, Outcome, Progress, run
@@ -201,15 +202,23 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                              source, "form_factors")
         alloy_end = copy.deepcopy(alloy_end)
         parse_material(alloy_end, alloy_source)  # each end must be valid on its own
-    window = ""
+    window = strain_note = ""
+    strained = any(a.kind == "strain" for a in axes)
     if form_factors == "continuous":
         tabulated = reference
-        doc = continuous_document(doc, source)
+        if strained or "deformation" in quantities:
+            # measured gap deformation potentials as fit conditions where bandpert knows them
+            strain_fit = strain_following_document(doc, source, cutoff_eV)
+            doc = strain_fit.document
+            strain_note = "; " + strain_fit.note
+        else:
+            doc = continuous_document(doc, source)
         reference = parse_material(doc, source)
         lo, hi = faithful_window(tabulated, reference.potential.taper_invA)
         window = (f"; it equals the tabulated model exactly for a/a_ref in [{lo:.4f}, {hi:.4f}] "
                   f"(a = {lo * tabulated.a_A:.4g}–{hi * tabulated.a_A:.4g} Å); beyond, the "
-                  "taper changes the weights of the outer shells smoothly")
+                  "taper changes the weights of the outer shells smoothly, and the column "
+                  "faithful_window says so at every such point" + strain_note)
     if reference.path is None:  # keep the reference labels: a strained cell has lower symmetry
         pts, legs = standard_path(reference)
         doc["path"] = {"points": {k: list(v) for k, v in pts.items()},
@@ -217,7 +226,6 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
         reference = parse_material(doc, source)
     if alloy_end is not None and "path" not in alloy_end:
         alloy_end["path"] = copy.deepcopy(doc["path"])
-    strained = any(a.kind == "strain" for a in axes)
     if strained and reference.potential.form in ("symmetric-antisymmetric", "per-species"):
         raise InputError("strain splits the |G|² shells, where tabulated form factors do not "
                          "exist; expected form_factors continuous (a fitted v(q))", source,
@@ -236,10 +244,14 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     if lower_band < 1 or lower_band >= nb:
         raise InputError(f"band {lower_band} must lie between 1 and {nb - 1} (bands computed: "
                          f"{nb})", source, "lower_band")
-    if (("edges" in quantities or "masses" in quantities)
+    if ({"edges", "masses", "deformation"} & set(quantities)
             and (n_el is None or n_el % 2)):
-        raise InputError("edges and masses need a semiconductor: an even electrons.valence",
-                         source, "electrons.valence")
+        raise InputError("edges, masses and deformation potentials need a semiconductor: an "
+                         "even electrons.valence", source, "electrons.valence")
+    if "deformation" in quantities and (reference.potential.form != "continuous"
+                                        or reference.dimension != 3):
+        raise InputError("deformation potentials need a 3D crystal whose v(q) follows the "
+                         "strain; expected form_factors continuous", source, "form_factors")
     labels = tuple(dict.fromkeys(x for leg in reference.path.legs for x in leg))
     if points:
         chosen = []

@@ -9,13 +9,17 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..crystal.lattice import point_group_rotations, reciprocal_vectors
 from ..errors import InputError
 from ..input.kp_file import parse_kp_material
+from ..input.material import Material
 from ..kp import masses_at_gamma
 from ..physics.bands import BandStructure, compute_band_structure
+from ..physics.deformation import deformation_potentials
 from ..physics.extrema import locate_edges
 from ..physics.masses import edge_masses
-from ..planewave.model import single_blas_thread
+from ..planewave.model import plane_wave_basis, single_blas_thread
+from ..units import HBAR2_OVER_2M0_EV_A2
 from .sweep_spec import SweepSpec, point_cutoff, point_document, point_material
 
 #: Directions along which a k·p sweep reports the Γ masses.
@@ -50,9 +54,29 @@ def _plane_wave_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, f
     row: dict[str, float | str] = {"cutoff_eV": cutoff, "basis_size": float(bs.model.size)}
     if "gaps" in spec.quantities:
         row.update(_gaps_at_points(bs, spec.points, spec.lower_band))
-    if "edges" in spec.quantities or "masses" in spec.quantities:
+    if {"edges", "masses", "deformation"} & set(spec.quantities):
         row.update(_edges_and_masses(bs, spec))
+    if material.potential.form == "continuous" and material.potential.taper_invA is not None:
+        row["faithful_window"] = faithful_at(material)
     return row
+
+
+def faithful_at(material: Material) -> str:
+    """"yes" when no lattice shell lies inside the taper of a continuous v(q), else "no: …".
+
+    Inside the taper the weights of the shells differ from the tabulated model's 1 and 0, so
+    the strained or scaled model is no longer the fitted one continued with full weights; the
+    point is then outside the faithful window.
+    """
+    q1, q2 = material.potential.taper_invA
+    b = reciprocal_vectors(material.vectors_A)
+    g = plane_wave_basis(b, HBAR2_OVER_2M0_EV_A2 * q2**2).g_cart_invA
+    q = np.linalg.norm(g, axis=1)
+    inside = q[(q > q1 * (1 + 1e-9)) & (q < q2 * (1 - 1e-9))]
+    if inside.size == 0:
+        return "yes"
+    return (f"no: {inside.size} G with |G| = {inside.min():.4f}–{inside.max():.4f} Å⁻¹ inside "
+            f"the taper {q1:.4f}–{q2:.4f} Å⁻¹")
 
 
 def _kp_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, float | str]:
@@ -125,4 +149,21 @@ def _edges_and_masses(bs: BandStructure, spec: SweepSpec) -> dict:
             row[f"{prefix}_valleys"] = float(m.valleys)
         if m.dos_mass is not None:
             row[f"{prefix}_dos_mass"] = float(m.dos_mass)
+    if "deformation" in spec.quantities:
+        row.update(_deformation(bs, spec, edges))
+    return row
+
+
+def _deformation(bs: BandStructure, spec: SweepSpec, edges) -> dict[str, float]:
+    """Deformation potentials at this point, to first order around it (eV)."""
+    points = {p: np.asarray(bs.path.points_frac[p]) for p in spec.points
+              if p in bs.path.points_frac}
+    dp = deformation_potentials(bs.material, bs.model, edges, points,
+                                point_group_rotations(bs.material))
+    row = {f"dEg_dlnV_{g}_eV": float(v) for g, v in dp.gap_hydrostatic_eV.items()}
+    row["xi_d_plus_xi_u_over_3_minus_a_v_eV"] = dp.xi_d_plus_xi_u_over_3_minus_a_v_eV
+    for key, value in (("conduction_xi_u_eV", dp.xi_u_eV), ("valence_b_eV", dp.b_eV),
+                       ("valence_d_eV", dp.d_eV)):
+        if value is not None:
+            row[key] = float(value)
     return row

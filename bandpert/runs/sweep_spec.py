@@ -20,7 +20,7 @@ import numpy as np
 from ..errors import InputError
 from ..input.material import Material, parse_material
 
-QUANTITIES = ("edges", "gaps", "masses")
+QUANTITIES = ("edges", "gaps", "masses", "deformation")
 FORM_FACTOR_MODES = ("tabulated", "continuous")
 BASIS_MODES = ("scaled", "fixed")
 STRAIN_COMPONENTS = {"xx": (0, 0), "yy": (1, 1), "zz": (2, 2), "xy": (0, 1), "xz": (0, 2),

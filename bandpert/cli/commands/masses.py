@@ -12,9 +12,12 @@ from rich.table import Table
 from ...crystal.lattice import point_group_rotations
 from ...errors import InputError
 from ...input.material import load_material
+from ...input.reader import read_toml_document
 from ...io import atomic_path, write_json
 from ...output.report import document, masses_results
 from ...physics.bands import compute_band_structure
+from ...physics.deformation import STRAIN_FOLLOWING_FORMS, material_deformation_potentials
+from ...physics.deformation import describe as describe_deformation
 from ...physics.kp_from_planewave import extract_kp_parameters, kp_material_text
 from ...physics.masses import band_masses, edge_masses
 from ...physics.nfe_gaps import resolve_points
@@ -68,9 +71,13 @@ def masses(
     material = load_material(file)
     with progress_bar("diagonalising") as progress:
         bs = compute_band_structure(material, n_k=120, cutoff_eV=cutoff_eV, progress=progress)
+    deformation = None
     if point is None and band is None:
         edges, entries = edge_masses(bs, temperature_K)
         locations = [e.where for e in edges]
+        if material.dimension == 3 and material.potential.form in STRAIN_FOLLOWING_FORMS:
+            deformation = material_deformation_potentials(material, read_toml_document(file),
+                                                          bs, edges)
     else:
         label, k_frac, _ = resolve_points(material, [point or "Γ"])[0]
         n_el = material.valence_electrons
@@ -97,7 +104,8 @@ def masses(
     settings = {"cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "temperature_K": temperature_K, "point": point, "band": band}
     doc = document("masses", material, settings,
-                   masses_results(entries, bs.energy_zero_eV, locations, kp_params))
+                   masses_results(entries, bs.energy_zero_eV, locations, kp_params,
+                                  deformation))
     default = f"{file.stem}-masses"
     if point is not None or band is not None:
         default += f"-{locations[0]}-band{entries[0].band + 1}"
@@ -111,6 +119,11 @@ def masses(
         written.append(kp_file)
     for entry, location in zip(entries, locations, strict=True):
         _masses_table(entry, location, bs.energy_zero_eV)
+    if deformation is not None:
+        out.print("deformation potentials at the reference lattice ("
+                  + deformation[1] + "):")
+        for line in describe_deformation(deformation[0]):
+            out.print("  " + line)
     if kp_params is not None:
         out.print("k·p parameters implied at Γ (Δso = 0): "
                   + ", ".join(f"{k} = {v:.4g}" for k, v in extracted.parameters.as_dict().items()
