@@ -430,8 +430,8 @@ def test_uniaxial_deformation_potential_of_the_delta_valleys(si_doc):
 def test_deformation_quantity_and_the_faithful_window(si_doc):
     # Each point reports its deformation potentials; their mean over two close points is the
     # slope of the gap between them in the same sweep (Hellmann–Feynman: Feynman, Phys. Rev.
-    # 56, 340 (1939)). A strain that pushes a lattice shell into the taper of the fitted v(q) is flagged
-    # (the model then departs from the tabulated one).
+    # 56, 340 (1939)). A strain that pushes a lattice shell into the taper of the fitted v(q)
+    # is flagged (the model then departs from the tabulated one).
     axis = parse_axis("strain.hydrostatic=-0.0005:0.0005:2")
     spec, _, note = prepare(si_doc, SILICON, (axis,), ("edges", "deformation"), ("Γ",), n_k=20,
                             form_factors="continuous")
