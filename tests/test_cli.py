@@ -159,7 +159,8 @@ def test_bands_json_layout(chain_run):
     assert doc["settings"]["bands"] == 6
     pert = res["perturbative"]
     for key in ("order", "coupling_threshold", "tolerance_eV", "energies_eV", "treatment",
-                "treatment_names", "error_estimate_eV", "max_coupling_ratio", "group_size",
+                "treatment_names", "error_estimate_eV", "error_bound_eV", "max_coupling_ratio",
+                "group_size",
                 "trustworthy", "trustworthy_fraction", "threshold_used", "convergence_radius",
                 "comparison"):
         assert key in pert, key
