@@ -21,6 +21,7 @@ def wide_console(monkeypatch):
     (["--threshold", "0.04"], ("--threshold", "0.05 to 0.45", "got 0.04")),
     (["--threshold", "0.5"], ("--threshold", "0.05 to 0.45", "got 0.5")),
     (["--threshold", "nan"], ("--threshold", "0.05 to 0.45", "got nan")),
+    (["--radius-points", "-1"], ("--radius-points", "0 or more", "got -1")),
     (["--tolerance-meV", "0"], ("--tolerance-meV", "0.01 to 1000", "got 0")),
     (["--tolerance-meV", "-3"], ("--tolerance-meV", "0.01 to 1000", "got -3")),
     (["--tolerance-meV", "5000"], ("--tolerance-meV", "0.01 to 1000", "got 5000")),

@@ -27,8 +27,6 @@ from ...physics.bands import compute_band_structure
 from ...physics.perturbative_bands import (
     DEFAULT_RADIUS_POINTS,
     DEFAULT_TOLERANCE_EV,
-    ORDER_RANGE,
-    THRESHOLD_RANGE,
     TOLERANCE_RANGE_EV,
     PerturbationSettings,
 )
@@ -113,8 +111,8 @@ def bands(
     if no_exact and exact_only:
         raise InputError("--no-exact and --exact-only leave nothing to compute; give one",
                          key="--no-exact")
-    _check_range(order, "--order", *ORDER_RANGE)
-    _check_range(threshold, "--threshold", *THRESHOLD_RANGE)
+    # order and threshold are checked by PerturbationSettings (its keys map to the flags); the
+    # tolerance here, in the unit of the flag
     _check_range(tolerance_meV, "--tolerance-meV", *(1e3 * t for t in TOLERANCE_RANGE_EV))
     settings_p = None if exact_only else PerturbationSettings(
         order=order, coupling_threshold=threshold, tolerance_eV=tolerance_meV * 1e-3,
