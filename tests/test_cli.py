@@ -159,7 +159,8 @@ def test_bands_json_layout(chain_run):
     assert doc["settings"]["bands"] == 6
     pert = res["perturbative"]
     for key in ("order", "coupling_threshold", "tolerance_eV", "energies_eV", "treatment",
-                "treatment_names", "error_estimate_eV", "max_coupling_ratio", "group_size",
+                "treatment_names", "error_estimate_eV", "error_bound_eV", "max_coupling_ratio",
+                "group_size",
                 "trustworthy", "trustworthy_fraction", "threshold_used", "convergence_radius",
                 "comparison"):
         assert key in pert, key
@@ -456,7 +457,7 @@ def test_library_messages_name_options_in_library_terms():
     (["sweep", str(MATERIALS / "silicon.toml"), "--vary", "lattice.a_A=5.4:5.5:2",
       "--form-factors", "smooth", "--engine", "serial"], "--form-factors: unknown mode"),
     (["dos", str(CHAIN), "--method", "boxes", "--engine", "serial"], "--method: unknown method"),
-    (["bands", str(CHAIN), "--order", "4"], "--order: expected order 1, 2 or 3"),
+    (["bands", str(CHAIN), "--order", "7"], "--order: expected an order from 1 to 6"),
     (["bands", str(CHAIN), "--threshold", "0.7"], "--threshold: expected a coupling threshold"),
 ])
 def test_library_errors_are_shown_with_their_flags(args, line, tmp_path):

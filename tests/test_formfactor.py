@@ -13,14 +13,18 @@ from conftest import MATERIALS, bundled, make_material
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from bandpert.crystal.lattice import reciprocal_vectors
 from bandpert.errors import InputError
 from bandpert.input.material import load_material, parse_material
 from bandpert.planewave.formfactor import (
     ContinuousFit,
     continuous_document,
+    continuous_form_factor_slope,
     fit_continuous_potential,
     free_electron_fermi_energy_eV,
     long_wavelength_limit_eV,
+    strain_derivative_of_potential,
+    taper_slope,
 )
 from bandpert.planewave.model import build_model
 from bandpert.planewave.potential import continuous_form_factor, fourier_coefficients, taper_weight
@@ -218,6 +222,33 @@ def test_v_changes_linearly_under_a_small_strain():
     d2 = fourier_coefficients(parse_material(strained(doc, 2e-5 * direction), "e2"), mil) - v0
     assert 1e-7 < np.max(np.abs(d1)) < 1e-3
     assert np.allclose(d2, 2 * d1, atol=1e-3 * np.max(np.abs(d1)))
+
+
+def test_slopes_of_v_and_of_the_taper_are_the_derivatives():
+    # Analytic dv/dq and dw/dq against central differences (common practice, no source).
+    q = np.linspace(0.1, 5.0, 50)
+    h = 1e-6
+    p = (11.48, 8.80, 13.16, 0.107)
+    fd = (continuous_form_factor(q + h, *p) - continuous_form_factor(q - h, *p)) / (2 * h)
+    assert np.allclose(continuous_form_factor_slope(q, *p), fd, rtol=1e-6, atol=1e-8)
+    fd_w = (taper_weight(q + h, 2.0, 3.0) - taper_weight(q - h, 2.0, 3.0)) / (2 * h)
+    assert np.allclose(taper_slope(q, 2.0, 3.0), fd_w, atol=1e-6)
+
+
+def test_strain_derivative_of_v_matches_finite_differences():
+    # First-order strain response of V(G) (atoms at fixed fractions) against a central
+    # difference of the strained crystal's V(G), for a shear and a uniaxial direction.
+    doc = continuous_doc("gallium-arsenide")
+    ref = parse_material(doc, "ref.toml")
+    mil = build_model(ref, 60.0).basis.miller
+    g = mil @ reciprocal_vectors(ref.vectors_A)
+    for direction in (np.eye(3, k=1) + np.eye(3, k=-1), np.diag([1.0, 0.0, 0.0])):
+        h = 1e-6
+        plus = fourier_coefficients(parse_material(strained(doc, h * direction), "p"), mil)
+        minus = fourier_coefficients(parse_material(strained(doc, -h * direction), "m"), mil)
+        fd = (plus - minus) / (2 * h)
+        analytic = strain_derivative_of_potential(ref, g, direction)
+        assert np.allclose(analytic, fd, atol=1e-6 * np.abs(fd).max())
 
 
 def test_gamma_levels_move_smoothly_under_uniaxial_strain():

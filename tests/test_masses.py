@@ -9,19 +9,22 @@ from conftest import bundled, make_material
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from bandpert.errors import InputError
 from bandpert.physics.bands import compute_band_structure
-from bandpert.physics.masses import (
-    C,
-    band_masses,
+from bandpert.physics.extrema import (
     conductivity_mass,
-    degenerate_set,
     density_of_states_mass,
     edge_point,
     effective_density_of_states_cm3,
+    star_size,
+)
+from bandpert.physics.masses import (
+    C,
+    band_masses,
+    degenerate_set,
     eigenstates,
     finite_difference_inverse_mass,
     inverse_mass_tensor,
-    star_size,
 )
 from bandpert.planewave.model import build_model
 from bandpert.planewave.solver import exact_energies
@@ -41,8 +44,8 @@ def silicon_edges():
     rot = _rotations(material)
     k_c = edge_point(bs.model, bs.path.k_cart_invA, bs.edges.conduction_min_index, 4, False)
     k_v = edge_point(bs.model, bs.path.k_cart_invA, bs.edges.valence_max_index, 3, True)
-    return (bs, band_masses(bs.model, k_c, 4, rot, label="conduction minimum"),
-            band_masses(bs.model, k_v, 3, rot, label="valence maximum"))
+    return (bs, band_masses(material, bs.model, k_c, 4, rot, label="conduction minimum"),
+            band_masses(material, bs.model, k_v, 3, rot, label="valence maximum"))
 
 
 @settings(max_examples=15, deadline=None)
@@ -108,6 +111,7 @@ def test_silicon_valley_counting_dos_and_conductivity_masses(silicon_edges):
     # Six Δ valleys: m_dos = 6^{2/3}(m_l m_t²)^{1/3} ≈ 1.08 and m_c = 3/(1/m_l + 2/m_t) ≈ 0.26
     # from the handbook masses (Sze 1981, §1.4 and App. G; from memory): within 15 %.
     _, cond, _ = silicon_edges
+    assert cond.critical_point.kind == "minimum"
     assert cond.valleys == 6
     m = np.sort(cond.tensor.principal_masses)
     assert cond.dos_mass == pytest.approx(6 ** (2 / 3) * (m[2] * m[0] ** 2) ** (1 / 3))
@@ -121,7 +125,8 @@ def test_germanium_has_four_l_valleys():
     material = bundled("germanium")
     bs = compute_band_structure(material, n_k=80)
     k = edge_point(bs.model, bs.path.k_cart_invA, bs.edges.conduction_min_index, 4, False)
-    res = band_masses(bs.model, k, 4, _rotations(material))
+    res = band_masses(material, bs.model, k, 4, _rotations(material))
+    assert res.critical_point.kind == "minimum"
     assert np.allclose(res.k_frac, 0.5, atol=1e-6)
     assert res.valleys == 4
 
@@ -178,3 +183,94 @@ def test_dos_and_conductivity_mass_formulas():
     # Source: Sze 1981, §1.4: single spherical valley gives back its mass.
     assert density_of_states_mass(np.array([0.3, 0.3, 0.3]), 1) == pytest.approx(0.3)
     assert conductivity_mass(np.array([0.3, 0.3, 0.3])) == pytest.approx(0.3)
+
+
+# ---- critical points: a mass only where the band has one ----------------------------------
+
+
+def _along(model, k, u, bands, h=0.004):
+    """Independent second differences of the sorted exact bands at k along unit u (m0/m*)."""
+    e = np.array([np.linalg.eigvalsh(model.hamiltonian(k + s * h * u))[:max(bands) + 1]
+                  for s in (-1.0, 0.0, 1.0)])
+    return ((e[0] + e[2] - 2 * e[1]) / h**2 / (2 * C))[bands]
+
+
+def test_silicon_x1_is_a_crossing_without_a_mass():
+    # In the diamond structure every level at X is twofold degenerate (non-symmorphic space
+    # group; source: Yu & Cardona, Fundamentals of Semiconductors, 2010, §2.3 and Fig. 2.10;
+    # from memory), and the X1 pair splits linearly along Δ: no effective mass exists there.
+    material = bundled("silicon")
+    model = build_model(material, 120.0)
+    x = np.array([0.5, 0.0, 0.5]) @ model.reciprocal_invA
+    res = band_masses(material, model, x, 4, _rotations(material), label="X1")
+    cp = res.critical_point
+    assert cp.kind == "crossing" and cp.degeneracy == "symmetry"
+    assert list(res.degenerate_bands) == [4, 5]
+    assert cp.run_splittings_eV[1] > 1e-6  # the run's Γ-centred basis splits the pair ...
+    assert cp.centred_splittings_eV[0, 1] < 1e-7  # ... the basis centred on X does not
+    assert res.tensor is None and res.valleys is None and res.dos_mass is None
+    assert res.effective_dos_cm3 is None
+    # the nearest minimum is the Δ valley near 0.85 of Γ→X (Sze 1981, App. G; from memory)
+    assert cp.nearest.kind == "minimum" and 0.8 < cp.nearest.along_fraction < 0.9
+    assert "crossing" in res.summary and "no effective mass" in res.summary
+
+
+def test_silicon_l3_prime_is_a_saddle_with_signed_curvatures():
+    # L3′ (bands 3, 4) curves up along Λ = [111] and down across it: a saddle (van Hove, Phys.
+    # Rev. 89, 1189 (1953): critical points of index 0–3). Checked against independent second
+    # differences of the exact bands.
+    material = bundled("silicon")
+    model = build_model(material, 120.0)
+    big_l = np.array([0.5, 0.5, 0.5]) @ model.reciprocal_invA
+    res = band_masses(material, model, big_l, 2, _rotations(material), cross_check=False)
+    cp = res.critical_point
+    assert cp.kind == "saddle" and cp.saddle_index == 2
+    assert list(res.degenerate_bands) == [2, 3]
+    assert res.valleys is None and res.dos_mass is None and res.effective_dos_cm3 is None
+    u111 = np.ones(3) / np.sqrt(3)
+    fd111 = _along(model, big_l, u111, [2, 3])
+    fd100 = _along(model, big_l, np.array([1.0, 0, 0]), [2, 3])
+    assert np.all(fd111 > 0) and np.all(fd100 < 0)
+    assert np.allclose(np.sort(res.edge.direction_curvatures["[111]"]), np.sort(fd111),
+                       rtol=1e-2, atol=1e-2)
+    assert np.allclose(np.sort(res.edge.direction_curvatures["[100]"]), np.sort(fd100),
+                       rtol=1e-2, atol=1e-2)
+    assert cp.curvatures[-1] > 0 > cp.curvatures[0]
+
+
+def test_gaas_x_is_a_saddle_with_the_minimum_off_x():
+    # In this model the lowest GaAs conduction band at X is a maximum along Γ–X and a minimum
+    # across it (a "camel's back"); the true minimum lies on Γ–X a little before X. Checked
+    # against an independent scan of the exact band along Γ–X (numpy eigvalsh).
+    material = bundled("gallium-arsenide")
+    model = build_model(material, 120.0)
+    x = np.array([0.5, 0.0, 0.5]) @ model.reciprocal_invA
+    res = band_masses(material, model, x, 4, _rotations(material), cross_check=False)
+    cp = res.critical_point
+    assert cp.kind == "saddle" and cp.saddle_index == 1
+    assert res.valleys is None and res.dos_mass is None and res.conductivity_mass is None
+    assert np.sum(cp.curvatures < 0) == 1
+    t = np.linspace(0.8, 1.0, 81)
+    scan = exact_energies(model, t[:, None] * x[None, :], 5)[:, 4]
+    assert t[np.argmin(scan)] < 1.0
+    near = cp.nearest
+    assert near.kind == "minimum"
+    assert near.along_fraction == pytest.approx(t[np.argmin(scan)], abs=0.01)
+    assert near.below_eV == pytest.approx(scan[-1] - scan.min(), abs=2e-4)
+    assert "saddle" in res.summary and "nearest minimum" in res.summary
+
+
+def test_a_band_far_from_the_gap_is_flagged():
+    # Empirical form factors are fitted to the bands near the gap (Cohen & Bergstresser, Phys.
+    # Rev. 141, 789 (1966)); band 99 at Γ lies about 90 eV up.
+    material = bundled("silicon")
+    model = build_model(material, 120.0)
+    res = band_masses(material, model, np.zeros(3), 98, cross_check=False)
+    assert "from the gap" in res.critical_point.warning
+
+
+def test_a_band_the_basis_does_not_hold_is_an_input_error():
+    material = bundled("silicon")
+    model = build_model(material, 40.0)
+    with pytest.raises(InputError, match="does not exist"):
+        band_masses(material, model, np.zeros(3), model.size + 3)

@@ -30,10 +30,15 @@ def test_aluminium_second_order_trustworthy_points_within_5_meV(aluminium):
     # Reference: exact diagonalisation of the same H(k) (LAPACK through scipy.linalg.eigh).
     # Target of the project: second order within 5 meV on every point marked trustworthy, and
     # at least half of all (band, k) points marked so (common practice, no source).
+    # The mark now rests on a proven bound: measured 80.4 % trusted (57.8 % with the earlier
+    # two-more-orders rule), of the 80.4 % of points that are within 5 meV at all.
     c = aluminium.comparison
     assert aluminium.perturbative.settings.order == 2
     assert c.trustworthy_fraction >= 0.5
+    assert c.trustworthy_fraction >= 0.97 * np.mean(c.abs_error_eV < 0.005)
     assert c.max_error_trustworthy_eV <= 0.005
+    assert c.over_tolerance_trustworthy == 0
+    assert c.bound_coverage == 1.0
 
 
 def test_error_estimate_bounds_the_true_error_on_the_great_majority(aluminium):
@@ -74,7 +79,8 @@ def test_silicon_validity_map_marks_the_failure(silicon_pert):
     # never vouching for a wrong point (exact diagonalisation as reference).
     c = silicon_pert.comparison
     assert c.trustworthy_fraction < 0.1
-    assert c.max_error_trustworthy_eV <= 0.005
+    assert c.max_error_trustworthy_eV is None or c.max_error_trustworthy_eV <= 0.005
+    assert c.bound_coverage == 1.0
     assert np.median(c.abs_error_eV) > 0.01
     assert c.estimate_coverage >= 0.9
 

@@ -16,15 +16,16 @@ from bandpert.physics.bands import compute_band_structure
 from bandpert.planewave.model import build_model
 from bandpert.planewave.solver import exact_energies
 from bandpert.runs.execution import Engine
-from bandpert.runs.sweep import (
+from bandpert.runs.sweep import prepare, run_sweep
+from bandpert.runs.sweep_point import faithful_at
+from bandpert.runs.sweep_spec import (
     SweepAxis,
     get_value,
     parameter_grid,
     parse_axis,
     point_cutoff,
     point_document,
-    prepare,
-    run_sweep,
+    point_material,
     set_value,
     virtual_crystal,
 )
@@ -425,3 +426,23 @@ def test_uniaxial_deformation_potential_of_the_delta_valleys(si_doc):
     xi_u = (split[0.004] - split[-0.004]) / 0.008
     assert 7.0 < xi_u < 11.0
     assert xi_u == pytest.approx(10.1, abs=0.2)
+
+
+def test_deformation_quantity_and_the_faithful_window(si_doc):
+    # Each point reports its deformation potentials; their mean over two close points is the
+    # slope of the gap between them in the same sweep (Hellmann–Feynman: Feynman, Phys. Rev.
+    # 56, 340 (1939)). A strain that pushes a lattice shell into the taper of the fitted v(q)
+    # is flagged (the model then departs from the tabulated one).
+    axis = parse_axis("strain.hydrostatic=-0.0005:0.0005:2")
+    spec, _, note = prepare(si_doc, SILICON, (axis,), ("edges", "deformation"), ("Γ",), n_k=20,
+                            form_factors="continuous")
+    assert "faithful_window" in note and "Welber" in note
+    r = run_sweep(spec)
+    assert not r.failures
+    assert r.text["faithful_window"] == ["yes"] * 2
+    assert np.all(r.columns["conduction_xi_u_eV"] > 0) and np.all(r.columns["valence_b_eV"] < 0)
+    slope = (r.columns["gap_eV"][1] - r.columns["gap_eV"][0]) / (3 * 0.001)
+    assert np.mean(r.columns["dEg_dlnV_indirect_eV"]) == pytest.approx(slope, rel=1e-2)
+    assert faithful_at(point_material(spec, (-0.02,))).startswith("no:")
+    with pytest.raises(InputError, match="form_factors continuous"):
+        prepare(si_doc, SILICON, (parse_axis("lattice.a_A=5.4:5.5:2"),), ("deformation",))

@@ -19,6 +19,7 @@ from rich.console import Console
 from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
 from ..errors import InputError
+from ..input.file_kind import KIND_NAMES, file_kind
 from ..output.style import save_figure as write_figure
 from ..runs.execution import Engine
 
@@ -164,3 +165,17 @@ def error_line(exc: InputError) -> str:
     for name, flag in _TEXT.items():
         problem = problem.replace(name, flag)
     return InputError(problem, exc.source, FLAGS.get(exc.key, exc.key)).one_line()
+
+
+#: The commands that read each kind of file (named when a command gets the other kind).
+COMMANDS_BY_KIND = {"planewave": "bands, gaps, masses, dos, sweep, fullzone or check",
+                    "kp": "kp, bands (its models along a path) or sweep"}
+
+
+def require_kind(file: Path, wanted: str, command: str) -> None:
+    """Refuse, in one line, a file of the other kind than ``command`` reads (exit 2)."""
+    got = file_kind(file, prefer=wanted)
+    if got is not None and got != wanted:
+        raise InputError(f"this is a {KIND_NAMES[got]}, but `bandpert {command}` reads "
+                         f"{KIND_NAMES[wanted]}s; give it to bandpert {COMMANDS_BY_KIND[got]}",
+                         str(file))

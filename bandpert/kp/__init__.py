@@ -21,8 +21,13 @@ from .analysis import (
     two_band_nonparabolicity,
 )
 from .bands import (
+    BAND_SHORT_NAMES,
+    DEFAULT_PATH_FRACTION,
+    PATH_POINTS_2PI_A,
     DirectionalBands,
+    PathBands,
     bands_along,
+    bands_along_path,
 )
 from .hamiltonians import (
     EIGHT_BAND_BASIS,
@@ -60,13 +65,16 @@ from .parameters import (
 )
 
 __all__ = [
+    "BAND_SHORT_NAMES",
     "CUBIC_DIRECTIONS",
     "DEFAULT_FD_STEP_INVA",
     "DEFAULT_NONPARABOLICITY_KMAX_INVA",
+    "DEFAULT_PATH_FRACTION",
     "EIGHT_BAND_BASIS",
     "ENERGY_ZERO",
     "KANE_NONPARABOLICITY_SOURCE",
     "MODEL_NAMES",
+    "PATH_POINTS_2PI_A",
     "REQUIRED_PARAMETERS",
     "SIX_BAND_BASIS",
     "TWO_BAND_BASIS",
@@ -78,8 +86,10 @@ __all__ = [
     "KPParameters",
     "ModelAnalysis",
     "Nonparabolicity",
+    "PathBands",
     "analyse_kp_material",
     "bands_along",
+    "bands_along_path",
     "cartesian_basis_matrix",
     "conduction_inverse_mass",
     "dkk_from_luttinger",

@@ -121,7 +121,7 @@ def comparison_figure(bs: BandStructure,
     non-degenerate (Rayleigh–Schrödinger) series was used and teal diamonds where a subspace
     (Löwdin) treatment was used; hollow markers where the point is not trustworthy. Middle:
     on a log scale in meV, the true error |E_pert − E_exact| (solid, when the exact bands were
-    computed) and the error estimate (dotted) of every band, with the tolerance. Bottom: the
+    computed) and the proven error bound (dotted) of every band, with the tolerance. Bottom: the
     validity map, one row per band, green where trustworthy and red where not.
 
     Parameters
@@ -160,9 +160,11 @@ def comparison_figure(bs: BandStructure,
     tol_meV = pb.settings.tolerance_eV * 1e3
     floor = 1e-4
     for b in range(n_b):
-        est = np.maximum(pb.error_estimate_eV[:, b] * 1e3, floor)
+        # the proven bound decides the mark; where it cannot vouch (inf) nothing is drawn
+        est = np.maximum(np.where(np.isfinite(pb.error_bound_eV[:, b]),
+                                  pb.error_bound_eV[:, b], np.nan) * 1e3, floor)
         ax_err.plot(x, est, ls=":", lw=0.8, color="0.45",
-                    label="error estimate" if b == 0 else "_nolegend_")
+                    label="proven error bound" if b == 0 else "_nolegend_")
         if bs.comparison is not None:
             err = np.maximum(bs.comparison.abs_error_eV[:, b] * 1e3, floor)
             ax_err.plot(x, err, lw=0.9, color=matplotlib.colormaps["viridis"](b / max(n_b - 1, 1)),

@@ -87,6 +87,7 @@ def perturbative_results(bs: BandStructure) -> dict[str, Any]:
         "treatment": pb.treatment,
         "treatment_names": list(pb.treatment_names),
         "error_estimate_eV": pb.error_estimate_eV,
+        "error_bound_eV": _finite_or_none(pb.error_bound_eV),
         "max_coupling_ratio": pb.max_coupling_ratio,
         "group_size": pb.group_size,
         "trustworthy": pb.trustworthy,
@@ -102,7 +103,9 @@ def perturbative_results(bs: BandStructure) -> dict[str, Any]:
             "abs_error_eV": cmp.abs_error_eV,
             "max_error_eV": float(cmp.abs_error_eV.max()),
             "max_error_trustworthy_eV": cmp.max_error_trustworthy_eV,
+            "over_tolerance_trustworthy": cmp.over_tolerance_trustworthy,
             "estimate_coverage": cmp.estimate_coverage,
+            "bound_coverage": cmp.bound_coverage,
         },
     }
 
@@ -116,16 +119,18 @@ def perturbative_table(bs: BandStructure) -> tuple[list[str], list[str], np.ndar
         f"energies in eV relative to the {bs.energy_zero_kind} "
         f"(add {bs.energy_zero_eV:.6f} eV for absolute energies); error estimates in meV; "
         "treatment 0 = non-degenerate (Rayleigh-Schrodinger), 1 = subspace (Lowdin); "
-        "trustworthy 1 = error estimate below the tolerance",
+        "bound = proven bound on |E_pert - E_exact| in meV (-1: cannot vouch); "
+        "trustworthy 1 = bound below the tolerance",
     ]
     n_b = pb.energies_eV.shape[1]
     cols = ["k_index", "path_distance_invA"]
     blocks = [np.arange(len(bs.path.k_frac)), bs.path.distance_invA]
     for b in range(n_b):
-        cols += [f"band{b + 1}_eV", f"band{b + 1}_estimate_meV", f"band{b + 1}_treatment",
-                 f"band{b + 1}_trustworthy"]
+        cols += [f"band{b + 1}_eV", f"band{b + 1}_estimate_meV", f"band{b + 1}_bound_meV",
+                 f"band{b + 1}_treatment", f"band{b + 1}_trustworthy"]
         blocks += [pb.energies_eV[:, b] - bs.energy_zero_eV, pb.error_estimate_eV[:, b] * 1e3,
-                   pb.treatment[:, b], pb.trustworthy[:, b]]
+                   np.where(np.isfinite(pb.error_bound_eV[:, b]), pb.error_bound_eV[:, b] * 1e3,
+                            -1.0), pb.treatment[:, b], pb.trustworthy[:, b]]
     return header, cols, np.column_stack(blocks)
 
 
@@ -175,6 +180,8 @@ def _group_results(group, a_A: float) -> dict[str, Any]:
         "first_order_error_eV": group.first_order_error_eV,
         "second_order_error_eV": group.second_order_error_eV,
         "gap_opens_at": list(group.gap_opens_at),
+        "verdicts": [{"order": v.order, "holds": v.holds, "gap_error_eV": v.error_eV,
+                      "relative_error": v.relative_error} for v in group.verdicts],
         "status": group.status,
         "exact_multiplets": list(group.exact_multiplets),
         "uncoupled": group.uncoupled,
@@ -196,6 +203,8 @@ def gap_results(report, bs: BandStructure | None = None) -> dict[str, Any]:
     ``report`` is a :class:`bandpert.gaps.GapReport`; with ``bs`` (the band structure drawn
     beside it) its energy zero is stated too. Energies are absolute (the model's zero).
     """
+    from ..physics.nfe_gaps import VERDICT_RULE
+
     a = report.material.a_A
     points = []
     for p in report.points:
@@ -219,6 +228,7 @@ def gap_results(report, bs: BandStructure | None = None) -> dict[str, Any]:
         "n_bands": report.n_bands,
         "degeneracy_tolerance_eV": report.degeneracy_tolerance_eV,
         "closed_tolerance_eV": report.closed_tolerance_eV,
+        "verdict_rule": VERDICT_RULE,
         "crossings": report.crossings,
         "energy_zero_eV": None if bs is None else bs.energy_zero_eV,
         "energy_zero_kind": None if bs is None else bs.energy_zero_kind,
@@ -256,48 +266,66 @@ def _coupling_summary(group, a_A: float) -> str:
     return "\n".join(seen[k] for k in sorted(seen))
 
 
-def gap_table(report) -> tuple[list[str], list[list[str]], list[str]]:
-    """Columns, rows (strings) and footnotes of the terminal table of ``bandpert gaps``.
+def _verdict_cell(v) -> str:
+    """``holds`` or ``FAILS``, with the worst splitting error (eV, and % of the exact one)."""
+    rel = "" if v.relative_error is None else f" ({100 * v.relative_error:+.0f} %)"
+    return f"{'holds' if v.holds else 'FAILS'}\n{_gap_value(v.error_eV)}{rel}"
 
-    One row per degenerate group. The gap columns list, for every splitting that is open in the
-    exact levels, the first-order, second-order and exact splitting (eV) at the same position
-    in the group and the second-order error; ``exact levels`` gives the exact multiplets and
-    ``opens at`` the lowest order that opens every open splitting.
+
+def gap_table(report) -> tuple[list[tuple[str, list[str], list[list[str]]]], list[str]]:
+    """The terminal tables of ``bandpert gaps``: couplings, then gaps with verdicts; footnotes.
+
+    Returns ``([(title, columns, rows), …], notes)``. The first table lists, per degenerate
+    group, the Fourier coefficients V(G − G′) that couple it (or why they vanish). The second
+    lists, for every splitting that is open in the exact levels, the first-order, second-order
+    and exact splitting (eV) at the same position in the group, each order's verdict
+    (:class:`bandpert.physics.nfe_gaps.GapVerdict`: ``holds`` or ``FAILS``, with the worst
+    splitting error in eV and in % of the exact splitting), the exact multiplets and the lowest
+    order that opens every open splitting.
     """
-    from ..physics.nfe_gaps import POOR_MATCH_WEIGHT, REASON_TAGS
+    from ..physics.nfe_gaps import POOR_MATCH_WEIGHT, REASON_TAGS, VERDICT_RULE
 
-    cols = ["point", "E0 (eV)", "g", "V(G−G′) (eV)", "1st", "2nd", "exact", "2nd−exact",
-            "exact levels", "opens at"]
-    rows: list[list[str]] = []
+    ccols = ["point", "E0 (eV)", "g", "V(G−G′) (eV)", "why closed"]
+    gcols = ["point", "E0 (eV)", "g", "1st", "2nd", "exact", "1st verdict", "2nd verdict",
+             "exact levels", "opens at"]
+    crows: list[list[str]] = []
+    grows: list[list[str]] = []
     doubtful = False
     for p in report.points:
         label = p.label
         if p.kind == "crossing":
             label = f"{p.segment[0]}→{p.segment[1]} {p.segment_fraction:.3f}"
         if not p.groups:
-            rows.append([label, "—", "1", "", "", "", "", "", "", "no degeneracy"])
+            crows.append([label, "—", "1", "", "no degeneracy"])
+            grows.append([label, "—", "1", "", "", "", "", "", "", "no degeneracy"])
             continue
         for i, g in enumerate(p.groups):
             o = g.open_gaps
             if g.status == "closed":
-                cells = ["—", "—", "closed", "—"]
+                cells = ["—", "—", "closed"]
                 opens = "closed"
             else:
                 cells = [_gap_list(g.first_order_gaps_eV[o]), _gap_list(g.second_order_gaps_eV[o]),
-                        _gap_list(g.exact_gaps_eV[o]),
-                        _gap_list(g.second_order_gaps_eV[o] - g.exact_gaps_eV[o])]
+                         _gap_list(g.exact_gaps_eV[o])]
                 opens = g.status.removeprefix("opens at ")
+            why = ""
             if g.uncoupled:
                 opens += " (uncoupled)"
+                why = "uncoupled"
             levels = "+".join(str(x) for x in g.exact_multiplets)
             if g.poor_match:
                 levels += " ?"
                 doubtful = True
-            rows.append([label if i == 0 else "", f"{g.free_electron_eV:.3f}", str(g.degeneracy),
-                         _coupling_summary(g, report.material.a_A), *cells, levels, opens])
+            head = [label if i == 0 else "", f"{g.free_electron_eV:.3f}", str(g.degeneracy)]
+            crows.append([*head, _coupling_summary(g, report.material.a_A), why])
+            grows.append([*head, *cells, *(_verdict_cell(v) for v in g.verdicts), levels, opens])
     groups = [g for p in report.points for g in p.groups]
     used = {r for g in groups for r in g.coupling_reason}
-    notes = []
+    notes = [f"verdicts: {VERDICT_RULE} (worst splitting error shown, eV and % of the exact "
+             "splitting)"]
+    if any(not v.holds for g in groups for v in g.verdicts):
+        failing = sum(not v.holds for g in groups for v in g.verdicts)
+        notes.append(f"FAILS: {failing} (group, order) predictions miss the exact splitting")
     if used & set(REASON_TAGS):
         notes.append("V(G−G′) = 0 because: " + "; ".join(
             f"{t}: {r}" for r, t in REASON_TAGS.items() if r in used))
@@ -311,7 +339,8 @@ def gap_table(report) -> tuple[list[str], list[list[str]], list[str]]:
         notes.append(f"?: a matched exact state has less than {POOR_MATCH_WEIGHT:g} of its "
                      "weight on the group's plane waves (the match by sorted position is "
                      "doubtful)")
-    return cols, rows, notes
+    return [("couplings of each degenerate group", ccols, crows),
+            ("gaps: first and second order against exact", gcols, grows)], notes
 
 
 def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any]:
@@ -333,6 +362,8 @@ def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any
         "finite_difference": None,
         "convergence": None,
         "degenerate_edge": None,
+        "critical_point": _critical_point_entry(m.critical_point),
+        "summary": m.summary,
     }
     if m.tensor is not None:
         entry["sum_over_states"] = {
@@ -363,10 +394,50 @@ def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any
     return entry
 
 
+def _critical_point_entry(cp) -> dict[str, Any]:
+    near = cp.nearest
+    return {
+        "kind": cp.kind,
+        "saddle_index": cp.saddle_index,
+        "principal_inverse_masses": cp.curvatures,
+        "principal_axes": None if cp.axes is None else cp.axes.T,
+        "degeneracy": cp.degeneracy or None,
+        "run_splittings_eV": _finite_or_none(cp.run_splittings_eV)[0],
+        "centred_splittings_eV": _finite_or_none(cp.centred_splittings_eV),
+        "gradient_eV_A": cp.gradient_eV_A,
+        "nearest_extremum": None if near is None else {
+            "kind": near.kind, "k_frac": near.k_frac, "k_cart_invA": near.k_cart_invA,
+            "energy_eV": near.energy_eV, "beyond_point_eV": near.below_eV,
+            "distance_invA": near.distance_invA, "along_fraction": near.along_fraction},
+        "warning": cp.warning or None,
+    }
+
+
+def deformation_entry(dp, note: str) -> dict[str, Any]:
+    """The ``deformation_potentials`` of ``bandpert masses`` (README)."""
+    lmn = dp.valence_lmn_eV
+    return {
+        "gap_hydrostatic_eV": dp.gap_hydrostatic_eV,
+        "conduction_valley": dp.conduction_valley,
+        "xi_u_eV": dp.xi_u_eV,
+        "xi_d_plus_xi_u_over_3_minus_a_v_eV": dp.xi_d_plus_xi_u_over_3_minus_a_v_eV,
+        "valence_l_m_n_eV": None if lmn is None else list(lmn),
+        "b_eV": dp.b_eV,
+        "d_eV": dp.d_eV,
+        "form_factors": note,
+        "strain": "first order at the reference lattice (where the continuous v(q) equals the "
+                  "tabulated form factors); atoms at fixed fractional positions (no internal "
+                  "relaxation)",
+    }
+
+
 def masses_results(entries, energy_zero_eV: float, locations: list[str],
-                   kp_parameters: dict[str, Any] | None) -> dict[str, Any]:
+                   kp_parameters: dict[str, Any] | None,
+                   deformation: tuple | None = None) -> dict[str, Any]:
     """The ``results`` of ``bandpert masses`` (keys documented in the README)."""
     return {
+        "deformation_potentials": None if deformation is None else deformation_entry(
+            *deformation),
         "energy_zero_eV": energy_zero_eV,
         "masses": [_band_masses_entry(m, energy_zero_eV, loc)
                    for m, loc in zip(entries, locations, strict=True)],
@@ -411,6 +482,34 @@ def fullzone_results(result) -> dict[str, Any]:
             "rms_error_eV": conv.rms_error_eV, "k_frac": bs.path.k_frac,
             "exact_energies_eV": bs.energies_eV, "kp_energies_eV": conv.energies_eV,
             "energy_zero_eV": bs.energy_zero_eV}
+
+
+def kp_path_results(bands) -> dict[str, Any]:
+    """The ``results`` of ``bandpert bands`` on a k·p file (a :class:`bandpert.kp.PathBands`;
+    keys documented in the README)."""
+    return {"kind": "kp", "energy_zero": "valence-band top at Γ",
+            "path": {"labels": list(bands.labels), "label_indices": bands.label_indices,
+                     "fraction": bands.fraction, "k_max_invA": bands.k_max_invA},
+            "k_cart_invA": bands.k_cart_invA, "k_2pi_a": bands.k_2pi_a,
+            "distance_2pi_a": bands.distance_2pi_a,
+            "models": {m: {"band_names": list(bands.band_names[m]),
+                           "energies_eV": bands.energies_eV[m]} for m in bands.models}}
+
+
+def kp_path_table(bands, material_name: str) -> tuple[list[str], list[str], np.ndarray]:
+    """Header lines, column names and rows of the CSV of k·p bands along the path."""
+    header = [f"bandpert {__version__} bands (k·p models along the path): {material_name}",
+              "energies in eV from the valence-band top at Γ; wave vectors in 1/Angstrom "
+              "(Cartesian, 2*pi included) and in units of 2*pi/a; path "
+              + " – ".join(bands.labels)]
+    cols = (["k_index", "path_distance_2pi_a", "kx_invA", "ky_invA", "kz_invA", "kx_2pi_a",
+             "ky_2pi_a", "kz_2pi_a"]
+            + [f"{m}_band{n + 1}_eV" for m in bands.models
+               for n in range(bands.energies_eV[m].shape[1])])
+    rows = np.column_stack([np.arange(len(bands.distance_2pi_a)), bands.distance_2pi_a,
+                            bands.k_cart_invA, bands.k_2pi_a,
+                            *[bands.energies_eV[m] for m in bands.models]])
+    return header, cols, rows
 
 
 def column_unit(name: str) -> str:

@@ -23,23 +23,28 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.constants as const
 import scipy.linalg
-import scipy.optimize
 
+from ..crystal.lattice import point_group_rotations
 from ..errors import InputError
+from ..input.material import Material
 from ..kp.parameters import luttinger_from_dkk
 from ..perturbation import lowdin_effective_hamiltonian
+from ..physics.critical_points import CriticalPoint, classify
+from ..physics.extrema import (
+    EdgeLocation,
+    conductivity_mass,
+    density_of_states_mass,
+    effective_density_of_states_cm3,
+    locate_edges,
+    star_size,
+)
 from ..planewave.model import PlaneWaveModel
-from ..planewave.solver import exact_energies
-from ..units import BOLTZMANN_EV_PER_K
+from ..planewave.solver import exact_energies, single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
 #: Energies closer than this (eV) count as one degenerate level at k0.
 DEGENERACY_TOL_EV = 1e-5
-
-#: A refined extremum must lie this much (eV) beyond the path point to replace it.
-EXTREMUM_GAIN_EV = 1e-6
 
 #: Directions of the cubic warping analysis.
 CUBIC_DIRECTIONS = {"[100]": (1.0, 0.0, 0.0), "[110]": (1.0, 1.0, 0.0), "[111]": (1.0, 1.0, 1.0)}
@@ -103,7 +108,8 @@ def degenerate_set(states: Eigenstates, band: int, tol_eV: float = DEGENERACY_TO
     return np.flatnonzero(np.abs(e - e[band]) <= tol_eV)
 
 
-def inverse_mass_tensor(states: Eigenstates, band: int, n_sum: int | None = None) -> np.ndarray:
+def inverse_mass_tensor(states: Eigenstates, band: int, n_sum: int | None = None,
+                        check: bool = True) -> np.ndarray:
     """(m0/m*)_ij of a non-degenerate band by the sum over states.
 
     (m0/m*)_ij = δ_ij + 4C Σ_{l≠n} Re(π^i_nl π^j_ln)/(E_n − E_l), C = ħ²/2m0 (module docstring).
@@ -115,6 +121,9 @@ def inverse_mass_tensor(states: Eigenstates, band: int, n_sum: int | None = None
         The band n (index into ``states.energies_eV``).
     n_sum : int, optional
         Keep only the lowest ``n_sum`` states in the sum (convergence studies).
+    check : bool
+        Refuse a band within :data:`DEGENERACY_TOL_EV` of another (default); off when the
+        caller has judged the degeneracy against the basis already.
 
     Returns
     -------
@@ -122,7 +131,7 @@ def inverse_mass_tensor(states: Eigenstates, band: int, n_sum: int | None = None
         (d, d) symmetric inverse effective-mass tensor in units of 1/m0.
     """
     group = degenerate_set(states, band)
-    if group.size > 1:
+    if check and group.size > 1:
         raise InputError(f"band {band + 1} is degenerate with band(s) "
                          f"{', '.join(str(g + 1) for g in group if g != band)} at this k; use "
                          "the degenerate-edge treatment", key="band")
@@ -254,7 +263,8 @@ class DegenerateEdge:
     luttinger: tuple[float, float, float] | None
 
 
-def degenerate_edge(states: Eigenstates, band: int) -> DegenerateEdge:
+def degenerate_edge(states: Eigenstates, band: int,
+                    subspace: np.ndarray | None = None) -> DegenerateEdge:
     """Löwdin k·p analysis of the degenerate set containing ``band`` at k0.
 
     Along u = [100], [110], [111] the eigenvalues of H_eff(q u)/(C q²) give each band's m0/m*.
@@ -264,7 +274,7 @@ def degenerate_edge(states: Eigenstates, band: int) -> DegenerateEdge:
     (Dresselhaus, Kip & Kittel 1955), from which L, M and N follow independently of the
     basis the degenerate eigenvectors happen to come in.
     """
-    sub = degenerate_set(states, band)
+    sub = degenerate_set(states, band) if subspace is None else np.asarray(subspace)
     d = states.momentum_invA.shape[0]
     curv: dict[str, np.ndarray] = {}
     if d == 3:
@@ -299,79 +309,6 @@ def _single_and_double(w: np.ndarray) -> tuple[float, float]:
     if abs(w[1] - w[0]) < abs(w[2] - w[1]):
         return float(w[2]), float(0.5 * (w[0] + w[1]))
     return float(w[0]), float(0.5 * (w[1] + w[2]))
-
-
-def refine_extremum(model: PlaneWaveModel, k_start_cart_invA: np.ndarray, band: int,
-                    maximum: bool) -> tuple[np.ndarray, float]:
-    """Locate a band minimum (or maximum) in the full k-space near a starting point.
-
-    BFGS on E_n(k) with the Hellmann–Feynman gradient ∂E_n/∂k_i = 2C π^i_nn (Feynman,
-    Phys. Rev. 56, 340 (1939)).
-
-    Returns
-    -------
-    k_cart_invA : numpy.ndarray
-        The extremum.
-    energy_eV : float
-    """
-    sign = -1.0 if maximum else 1.0
-
-    def f(k: np.ndarray) -> tuple[float, np.ndarray]:
-        st = eigenstates(model, k, band + 1)
-        grad = 2.0 * C * np.real(st.momentum_invA[:, band, band])
-        return sign * st.energies_eV[band], sign * grad
-
-    res = scipy.optimize.minimize(f, np.asarray(k_start_cart_invA, dtype=float), jac=True,
-                                  method="BFGS", options={"gtol": 1e-7})
-    return res.x, float(sign * res.fun)
-
-
-def star_size(k_frac: np.ndarray, rotations: np.ndarray, tol: float = 1e-4) -> int:
-    """Number of symmetry-distinct copies of k (modulo reciprocal-lattice vectors).
-
-    k transforms as k' = k R^{-1} in fractional reciprocal coordinates for direct-lattice
-    rotations R (spglib convention, x' = R x); time reversal adds −k. Copies equal up to a
-    reciprocal-lattice vector count once, so the four pairs L, −L give four L valleys in fcc
-    (common practice, no source).
-    """
-    k = np.asarray(k_frac, dtype=float)
-    images = np.array([k @ np.linalg.inv(r) for r in rotations])
-    images = np.concatenate([images, -images])
-    reduced = images - np.round(images)
-    distinct: list[np.ndarray] = []
-    for p in reduced:
-        if not any(np.allclose(_wrap(p - q), 0.0, atol=tol) for q in distinct):
-            distinct.append(p)
-    return len(distinct)
-
-
-def _wrap(x: np.ndarray) -> np.ndarray:
-    return x - np.round(x)
-
-
-def density_of_states_mass(principal_masses: np.ndarray, valleys: int) -> float:
-    """m_dos = g^{2/3} (m1 m2 m3)^{1/3} for g equivalent ellipsoidal valleys (Sze, *Physics of
-    Semiconductor Devices*, 2nd ed. 1981, §1.4)."""
-    return float(valleys ** (2 / 3) * np.prod(principal_masses) ** (1 / len(principal_masses)))
-
-
-def conductivity_mass(principal_masses: np.ndarray) -> float:
-    """m_c = 3/(1/m1 + 1/m2 + 1/m3) for valleys spread over the cubic directions (Sze 1981)."""
-    return float(len(principal_masses) / np.sum(1.0 / np.asarray(principal_masses)))
-
-
-def effective_density_of_states_cm3(mass_dos: float, temperature_K: float) -> float:
-    """N = 2 (m_dos m0 k_B T / 2πħ²)^{3/2} in cm⁻³ (Sze 1981, eq. 1.16).
-
-    Parameters
-    ----------
-    mass_dos : float
-        Density-of-states mass in m0.
-    temperature_K : float
-    """
-    kt_j = BOLTZMANN_EV_PER_K * temperature_K * const.e
-    n_m3 = 2.0 * (mass_dos * const.m_e * kt_j / (2 * np.pi * const.hbar**2)) ** 1.5
-    return float(n_m3 * 1e-6)
 
 
 def warped_dos_mass(states: Eigenstates, subspace: np.ndarray,
@@ -424,9 +361,12 @@ class BandMasses:
     energy_eV : float
         Absolute energy of the band there.
     degenerate_bands : numpy.ndarray
-        Bands degenerate with it at k (itself included).
+        Bands degenerate with it at k (itself included), judged against the basis
+        (:mod:`bandpert.physics.critical_points`).
+    critical_point : CriticalPoint
+        What the point is (minimum, maximum, saddle, crossing, not stationary).
     tensor : MassTensor or None
-        Sum-over-states tensor (non-degenerate band).
+        Sum-over-states tensor (non-degenerate band; None at a crossing).
     finite_difference : numpy.ndarray or None
         The finite-difference tensor of the exact band (non-degenerate band).
     relative_difference : float or None
@@ -434,17 +374,19 @@ class BandMasses:
     convergence_counts, convergence_masses : numpy.ndarray or None
         Principal masses against the number of states kept in the sum.
     valleys : int or None
-        Symmetry-equivalent copies of k (3D crystals).
+        Symmetry-equivalent copies of k (3D crystals; only at a minimum or maximum).
     dos_mass, conductivity_mass : float or None
         For the valleys (non-degenerate) or the degenerate set (density-of-states mass from
-        the warped bands; no conductivity mass).
+        the warped bands; no conductivity mass); only at a minimum or maximum.
     effective_dos_cm3 : float or None
-        N_c or N_v = 2(m_dos m0 kT/2πħ²)^{3/2} at ``temperature_K``.
+        N_c or N_v = 2(m_dos m0 kT/2πħ²)^{3/2} at ``temperature_K``; only at an extremum.
     temperature_K : float
     edge : DegenerateEdge or None
-        Löwdin k·p analysis of a degenerate set.
+        Löwdin k·p analysis of a degenerate set (not at a crossing).
     band_dos_masses : numpy.ndarray or None
-        Per band of a degenerate set, ⟨m(u)^{3/2}⟩^{2/3}.
+        Per band of a degenerate set, ⟨m(u)^{3/2}⟩^{2/3} (only at an extremum).
+    summary : str
+        One line: what the point is, and where the nearest extremum lies if it is none.
     """
 
     label: str
@@ -453,6 +395,7 @@ class BandMasses:
     k_frac: np.ndarray
     energy_eV: float
     degenerate_bands: np.ndarray
+    critical_point: CriticalPoint
     tensor: MassTensor | None
     finite_difference: np.ndarray | None
     relative_difference: float | None
@@ -465,17 +408,24 @@ class BandMasses:
     temperature_K: float
     edge: DegenerateEdge | None
     band_dos_masses: np.ndarray | None
+    summary: str
 
 
-def band_masses(model: PlaneWaveModel, k_cart_invA: np.ndarray, band: int,
+def band_masses(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray, band: int,
                 rotations: np.ndarray | None = None, temperature_K: float = 300.0,
-                label: str = "", cross_check: bool = True) -> BandMasses:
-    """Masses of ``band`` at ``k_cart_invA``: sum over states (or Löwdin for a degenerate set),
-    the finite-difference cross-check, valley count, density-of-states and conductivity masses
-    and the effective density of states.
+                label: str = "", cross_check: bool = True, where: str = "") -> BandMasses:
+    """Classify ``band`` at k, then give the masses the point carries.
+
+    The point is classified first (:func:`bandpert.physics.critical_points.classify`). A
+    non-degenerate band gets the sum-over-states tensor (signed) and the finite-difference
+    cross-check; a degenerate set without linear splitting the Löwdin k·p analysis; a crossing
+    no mass. Valley count, density-of-states and conductivity masses and the effective density
+    of states exist only at a minimum or maximum.
 
     Parameters
     ----------
+    material : Material
+        For the degeneracy test in a basis centred on k.
     model : PlaneWaveModel
     k_cart_invA : numpy.ndarray
         (d,) the point (e.g. a refined band extremum).
@@ -490,104 +440,109 @@ def band_masses(model: PlaneWaveModel, k_cart_invA: np.ndarray, band: int,
     cross_check : bool
         Also compute the finite-difference tensor and the convergence with the states kept
         (default). Sweeps switch it off: the tensor itself is unchanged.
+    where : str
+        The point in words, for the summary line.
+
+    Raises
+    ------
+    InputError
+        For a non-positive temperature or a band the basis does not hold (key ``band``).
     """
     if not temperature_K > 0:
         raise InputError(f"expected a positive temperature, got {temperature_K}",
                          key="temperature_K")
     k = np.asarray(k_cart_invA, dtype=float)
+    if not 0 <= band < model.size:
+        raise InputError(f"band {band + 1} does not exist: the basis holds {model.size}",
+                         key="band")
+    with single_blas_thread():  # many small eigenproblems: threads only contend
+        return _band_masses(material, model, k, band, rotations, temperature_K, label,
+                            cross_check, where)
+
+
+def _band_masses(material: Material, model: PlaneWaveModel, k: np.ndarray, band: int,
+                 rotations: np.ndarray | None, temperature_K: float, label: str,
+                 cross_check: bool, where: str) -> BandMasses:
     states = eigenstates(model, k)
-    if band >= len(states.energies_eV):
-        raise InputError(f"band {band + 1} does not exist: the basis holds "
-                         f"{len(states.energies_eV)}", key="band")
-    group = degenerate_set(states, band)
+    e0 = states.energies_eV
+
+    def set_curvature(group: np.ndarray, u: np.ndarray) -> np.ndarray:
+        h = effective_hamiltonian_in_q(states, group, u) - e0[group[0]] * np.eye(group.size)
+        return np.linalg.eigvalsh(h) / C
+
+    cp = classify(material, model, k, band, set_curvature=set_curvature)
+    group = cp.degenerate_bands
     k_frac = np.linalg.solve(model.reciprocal_invA.T, k)
     valleys = None
-    if rotations is not None and k.size == 3:
+    if rotations is not None and k.size == 3 and cp.is_extremum:
         valleys = star_size(k_frac, rotations)
     common = dict(label=label or f"band {band + 1}", band=band, k_cart_invA=k, k_frac=k_frac,
-                  energy_eV=float(states.energies_eV[band]), degenerate_bands=group,
-                  valleys=valleys, temperature_K=temperature_K)
+                  energy_eV=float(e0[band]), degenerate_bands=group, critical_point=cp,
+                  valleys=valleys, temperature_K=temperature_K,
+                  summary=cp.describe(band, where or label or "k"))
+    none = dict(tensor=None, finite_difference=None, relative_difference=None,
+                convergence_counts=None, convergence_masses=None, dos_mass=None,
+                conductivity_mass=None, effective_dos_cm3=None, edge=None, band_dos_masses=None)
+    if not cp.carries_mass:
+        return BandMasses(**common, **none)
     if group.size == 1:
-        inv = inverse_mass_tensor(states, band)
+        inv = inverse_mass_tensor(states, band, check=False)
         tensor = principal(inv)
         fd = finite_difference_inverse_mass(model, k, band) if cross_check else None
         counts, conv = sum_convergence(states, band) if cross_check else (None, None)
         dos = cond = n_eff = None
-        if k.size == 3:
+        if k.size == 3 and cp.is_extremum:
             dos = density_of_states_mass(tensor.principal_masses, valleys or 1)
             cond = conductivity_mass(tensor.principal_masses)
             n_eff = effective_density_of_states_cm3(dos, temperature_K)
-        return BandMasses(**common, tensor=tensor, finite_difference=fd,
-                          relative_difference=None if fd is None else
-                          float(np.abs(inv - fd).max() / np.abs(fd).max()),
-                          convergence_counts=counts, convergence_masses=conv, dos_mass=dos,
-                          conductivity_mass=cond, effective_dos_cm3=n_eff, edge=None,
-                          band_dos_masses=None)
-    edge = degenerate_edge(states, band)
+        return BandMasses(**{**common, **none, **dict(
+            tensor=tensor, finite_difference=fd,
+            relative_difference=None if fd is None else
+            float(np.abs(inv - fd).max() / np.abs(fd).max()),
+            convergence_counts=counts, convergence_masses=conv, dos_mass=dos,
+            conductivity_mass=cond, effective_dos_cm3=n_eff)})
+    edge = degenerate_edge(states, band, group)
     band_dos = dos = n_eff = None
-    if k.size == 3:
+    if k.size == 3 and cp.is_extremum:
         band_dos = warped_dos_mass(states, group)
         # N summed over the bands of the set: m_dos^{3/2} = Σ_b m_b^{3/2}
         dos = float(np.sum(band_dos**1.5) ** (2 / 3))
         n_eff = effective_density_of_states_cm3(dos, temperature_K)
-    return BandMasses(**common, tensor=None, finite_difference=None, relative_difference=None,
-                      convergence_counts=None, convergence_masses=None, dos_mass=dos,
-                      conductivity_mass=None, effective_dos_cm3=n_eff, edge=edge,
-                      band_dos_masses=band_dos)
+    return BandMasses(**{**common, **none, **dict(dos_mass=dos, effective_dos_cm3=n_eff,
+                                                  edge=edge, band_dos_masses=band_dos)})
 
 
-def edge_point(model: PlaneWaveModel, k_path_cart_invA: np.ndarray, path_index: int, band: int,
-               maximum: bool) -> np.ndarray:
-    """Start from the extremum found along the path and refine it in the full k-space.
-
-    A degenerate point (e.g. the valence top at Γ) is a cusp of the individual bands and is
-    kept as it is; a refinement that wanders off by more than a tenth of the smallest
-    reciprocal vector is refused and the path point kept.
-    """
-    k = np.asarray(k_path_cart_invA[path_index], dtype=float)
-    states = eigenstates(model, k, band + 3)
-    if degenerate_set(states, band).size > 1:
-        return k
-    gradient = 2.0 * C * np.real(states.momentum_invA[:, band, band])
-    if np.linalg.norm(gradient) < 1e-9:  # already stationary
-        return k
-    refined, energy = refine_extremum(model, k, band, maximum)
-    limit = 0.1 * np.min(np.linalg.norm(model.reciprocal_invA, axis=1))
-    gain = (energy - states.energies_eV[band]) * (1.0 if maximum else -1.0)
-    # The fixed-G basis breaks the equivalence of k and −k + G slightly, so a zone-boundary
-    # extremum such as L shows a spurious gradient (~1e-4 eV·Å in germanium); a move that
-    # gains less than 1 µeV (far below the 5 meV basis convergence) is not a real extremum.
-    if np.linalg.norm(refined - k) > limit or gain < EXTREMUM_GAIN_EV:
-        return k
-    return refined
-
-
-def edge_masses(bs, temperature_K: float = 300.0, cross_check: bool = True) -> list[BandMasses]:
+def edge_masses(bs, temperature_K: float = 300.0, cross_check: bool = True,
+                reference_rotations: np.ndarray | None = None
+                ) -> tuple[list[EdgeLocation], list[BandMasses]]:
     """Masses at the conduction minimum and the valence maximum of a semiconductor.
 
-    The extrema found along the path are refined in the full k-space (:func:`edge_point`)
-    before the masses are taken.
+    The one routine for band-edge masses (``bandpert masses`` and every sweep point): the
+    extrema found along the path are refined in the full k-space
+    (:func:`bandpert.physics.critical_points.locate_edges`) before the masses are taken.
 
     Parameters
     ----------
-    bs : bandpert.bands.BandStructure
+    bs : bandpert.physics.bands.BandStructure
         Exact bands of a semiconductor (``bs.edges`` not None).
     temperature_K : float
         For N_c and N_v.
     cross_check : bool
         Passed to :func:`band_masses`.
-    """
-    from ..crystal.lattice import point_group_rotations
+    reference_rotations : numpy.ndarray, optional
+        Point group of the unstrained crystal (strain sweeps), for :func:`locate_edges`.
 
+    Returns
+    -------
+    edges : list of EdgeLocation
+        Conduction minimum, valence maximum.
+    masses : list of BandMasses
+        The same order.
+    """
     if bs.edges is None or bs.energies_eV is None:
         raise InputError("no band gap on the path (a metal, or no electrons.valence): give "
                          "the point and the band", bs.material.file, "point")
     rot = point_group_rotations(bs.material)
-    n_val = bs.material.valence_electrons // 2
-    out = []
-    for label, index, band, maximum in (
-            ("conduction minimum", bs.edges.conduction_min_index, n_val, False),
-            ("valence maximum", bs.edges.valence_max_index, n_val - 1, True)):
-        k = edge_point(bs.model, bs.path.k_cart_invA, index, band, maximum)
-        out.append(band_masses(bs.model, k, band, rot, temperature_K, label, cross_check))
-    return out
+    edges = locate_edges(bs, reference_rotations)
+    return edges, [band_masses(bs.material, bs.model, e.k_cart_invA, e.band, rot, temperature_K,
+                               e.name, cross_check, where=e.where) for e in edges]

@@ -66,7 +66,11 @@ __all__ = [
     "REASON_RANGE",
     "REASON_STRUCTURE",
     "REASON_TAGS",
+    "GAP_ABSOLUTE_TOLERANCE_EV",
+    "GAP_RELATIVE_TOLERANCE",
+    "VERDICT_RULE",
     "DegenerateGroup",
+    "GapVerdict",
     "GapPoint",
     "GapReport",
     "PathCrossing",
@@ -74,6 +78,7 @@ __all__ = [
     "examine_point",
     "free_electron_groups",
     "gap_analysis",
+    "gap_verdict",
     "k_centred_model",
     "path_crossings",
     "resolve_points",
@@ -115,6 +120,18 @@ REASON_TAGS: dict[str, str] = {
     REASON_FORM_FACTOR_ZERO: "v(q)=0",
 }
 
+#: A predicted splitting holds when it is within this share of the exact splitting …
+GAP_RELATIVE_TOLERANCE: float = 0.10
+
+#: … or within this many eV of it (closed or nearly closed splittings).
+GAP_ABSOLUTE_TOLERANCE_EV: float = 0.005
+
+#: The rule of :class:`GapVerdict`, as reported.
+VERDICT_RULE: str = (
+    f"holds when every splitting of the group is within {100 * GAP_RELATIVE_TOLERANCE:g} % of "
+    f"the exact splitting or within {1e3 * GAP_ABSOLUTE_TOLERANCE_EV:g} meV of it; fails "
+    "otherwise")
+
 OPENS_FIRST = "first order"
 OPENS_SECOND = "second order"
 OPENS_LATER = "beyond second order"
@@ -124,6 +141,50 @@ OPENS_NEVER = "closed"
 # --------------------------------------------------------------------------------------------
 # results
 # --------------------------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class GapVerdict:
+    """Does an order of degenerate perturbation theory get a group's splittings right?
+
+    Attributes
+    ----------
+    order : int
+        1 (eigenvalues of the V block) or 2 (second-order Löwdin).
+    holds : bool
+        True when every splitting Δ_pred of the group satisfies |Δ_pred − Δ_exact| ≤
+        max(:data:`GAP_RELATIVE_TOLERANCE` Δ_exact, :data:`GAP_ABSOLUTE_TOLERANCE_EV`).
+    error_eV : float
+        Δ_pred − Δ_exact at the splitting where |Δ_pred − Δ_exact| is largest (signed).
+    relative_error : float or None
+        That error over Δ_exact (None where the exact splitting is closed).
+    rule : str
+        :data:`VERDICT_RULE`.
+    """
+
+    order: int
+    holds: bool
+    error_eV: float
+    relative_error: float | None
+    rule: str = VERDICT_RULE
+
+
+def gap_verdict(order: int, predicted_gaps_eV: np.ndarray, exact_gaps_eV: np.ndarray,
+                closed_tolerance_eV: float = CLOSED_TOLERANCE_EV) -> GapVerdict:
+    """Verdict of one order on a group's consecutive splittings (see :class:`GapVerdict`).
+
+    The yardstick is the exact diagonalisation of the same H(k); the 10 % / 5 meV rule is the
+    tool's own (common practice, no source).
+    """
+    diff = np.asarray(predicted_gaps_eV, float) - np.asarray(exact_gaps_eV, float)
+    allowed = np.maximum(GAP_RELATIVE_TOLERANCE * np.abs(exact_gaps_eV),
+                         GAP_ABSOLUTE_TOLERANCE_EV)
+    worst = int(np.argmax(np.abs(diff)))
+    exact = float(exact_gaps_eV[worst])
+    return GapVerdict(order=order, holds=bool(np.all(np.abs(diff) <= allowed)),
+                      error_eV=float(diff[worst]),
+                      relative_error=None if exact <= closed_tolerance_eV
+                      else float(diff[worst] / exact))
 
 
 @dataclass(frozen=True)
@@ -208,6 +269,14 @@ class DegenerateGroup:
     def second_order_error_eV(self) -> np.ndarray:
         """(g,) second-order minus exact level, matched in sorted order."""
         return self.second_order_eV - self.exact_eV
+
+    @property
+    def verdicts(self) -> tuple[GapVerdict, GapVerdict]:
+        """First- and second-order :class:`GapVerdict` against the exact splittings."""
+        return (gap_verdict(1, self.first_order_gaps_eV, self.exact_gaps_eV,
+                            self.closed_tolerance_eV),
+                gap_verdict(2, self.second_order_gaps_eV, self.exact_gaps_eV,
+                            self.closed_tolerance_eV))
 
     @property
     def open_gaps(self) -> np.ndarray:

@@ -44,7 +44,12 @@ from ..input.material import (
 )
 from ..units import ENERGY_UNITS_TO_EV, HBAR2_OVER_2M0_EV_A2
 from .basis import plane_wave_basis
-from .potential import check_shells_exist, continuous_form_factor, fourier_coefficients
+from .potential import (
+    check_shells_exist,
+    continuous_form_factor,
+    fourier_coefficients,
+    taper_weight,
+)
 
 #: Tabulated forms the fit accepts.
 TABULATED_FORMS = ("symmetric-antisymmetric", "per-species")
@@ -151,8 +156,10 @@ class ContinuousFit:
     shared : tuple of str
         Parameters common to all species.
     n_conditions, n_unknowns : int
-        Independent real conditions (rank of the observable rows plus one for q → 0) and free
-        parameters.
+        Independent real conditions (rank of the observable rows, one for q → 0, one per slope
+        condition) and free parameters.
+    slope_residuals_eV : dict
+        Slope condition name → achieved − target (eV).
     file_unit : str
         Energy unit of the source file, used by :meth:`potential_table`.
     """
@@ -171,6 +178,7 @@ class ContinuousFit:
     n_unknowns: int
     file_unit: str = "eV"
     starts_tried: int = field(default=0, compare=False)
+    slope_residuals_eV: dict[str, float] = field(default_factory=dict)
 
     @property
     def max_residual_eV(self) -> float:
@@ -238,8 +246,38 @@ def _unpack(x: np.ndarray, names: list[str], shared: tuple[str, ...]
     return out
 
 
-def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3",)
-                             ) -> ContinuousFit:
+@dataclass(frozen=True)
+class SlopeCondition:
+    """A linear condition on the slopes u_s′ = d(w v_s)/dq at the fitted shells.
+
+    A first-order strain response (a deformation potential) at the reference lattice is
+    ``constant_eV + Σ coefficients[(species, shell |G|²)] · u_s′(|G_shell|)``: the eigenstates
+    there do not depend on the slopes, only the strain perturbation does
+    (:func:`strain_derivative_of_potential`). The fit asks it to equal ``target_eV``.
+
+    Attributes
+    ----------
+    name : str
+        What it is, e.g. "dEg/d ln V at Γ".
+    target_eV : float
+    constant_eV : float
+        The response with every slope zero.
+    coefficients : dict
+        (species, shell |G|² in (2π/a)², rounded to 6 decimals) → d(response)/d(u′), in 1/Å.
+    source : str
+        Where the target comes from.
+    """
+
+    name: str
+    target_eV: float
+    constant_eV: float
+    coefficients: dict[tuple[str, float], float]
+    source: str = ""
+
+
+def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3",),
+                             slope_conditions: tuple[SlopeCondition, ...] = (),
+                             start: ContinuousFit | None = None) -> ContinuousFit:
     """Fit v_j(q) of the continuous form to a material's tabulated form factors.
 
     Conditions, all in eV and solved by least squares (:func:`scipy.optimize.least_squares`,
@@ -261,6 +299,12 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
     material : Material
         A 3D material of form "symmetric-antisymmetric" or "per-species", with
         ``electrons.valence``.
+    slope_conditions : tuple of SlopeCondition
+        Extra rows (eV): measured deformation potentials, linear in the slopes at the shells
+        (:class:`SlopeCondition`); they constrain the slopes the tabulated values leave free.
+    start : ContinuousFit, optional
+        Start from these parameters only (one least-squares run of at most 400 evaluations)
+        instead of the grid of starts.
     shared : tuple of str
         Parameters common to all species (names from :data:`SHAREABLE`). The default shares a3:
         with one species the fit has 4 unknowns, with two 7 — as many as the independent
@@ -321,7 +365,10 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
             v_fit += continuous_form_factor(q, a1, a2, a3, a4) * s_row
             v0 += f * (-a1 * a2 / (a3 - 1.0))
         d = (v_fit - v_tab) * weight
-        return np.concatenate([d.real, d.imag, [v0 - target0]])
+        extra = [c.constant_eV - c.target_eV + sum(
+            coef * float(continuous_form_factor_slope(unit_q * math.sqrt(g2), *params[sp]))
+            for (sp, g2), coef in c.coefficients.items()) for c in slope_conditions]
+        return np.concatenate([d.real, d.imag, [v0 - target0], extra])
 
     # rank of the observable conditions (for the report): rows of the Jacobian-free linear map
     # "form factor of species s on shell k" → V(G)
@@ -331,29 +378,23 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
         cols = i * n_shells + shell
         design[np.arange(q.size), cols] = (s_row * weight).real
         design[q.size + np.arange(q.size), cols] = (s_row * weight).imag
-    n_conditions = int(np.linalg.matrix_rank(design, tol=1e-9)) + 1
+    n_conditions = int(np.linalg.matrix_rank(design, tol=1e-9)) + 1 + len(slope_conditions)
 
     per = [p for p in CONTINUOUS_PARAMETERS if p not in shared]
     n_unknowns = len(CONTINUOUS_PARAMETERS) - len(per) + len(per) * len(names)
     q_first = float(q.min())
     best = None
     tried = 0
-    for a2_factor, ln_a3m1, a4 in itertools.product((2.0, 1.5, 3.0, 1.0), (2.5, 1.0, 4.0),
-                                                    (0.1, 0.05, 0.3)):
-        a2 = a2_factor * q_first**2
-        a1 = -target0 * math.exp(ln_a3m1) / a2  # so that v(0) starts at the target
-        start = {"a1": a1, "a2_invA2": a2, "a3": ln_a3m1, "a4_A2": math.log(a4)}
-        x0 = [start[p] for p in CONTINUOUS_PARAMETERS if p in shared]
-        x0 += [start[p] for _ in names for p in per]
+    for x0 in _starts(names, shared, per, q_first, target0, start):
         tried += 1
         with np.errstate(all="ignore"):
             sol = least_squares(residual, np.array(x0), xtol=1e-15, ftol=1e-15, gtol=1e-15,
-                                max_nfev=3000)
+                                max_nfev=3000 if start is None else 400)
         if not (np.all(np.isfinite(sol.x)) and np.isfinite(sol.cost)):
             continue
         if best is None or sol.cost < best.cost:
             best = sol
-        if np.max(np.abs(sol.fun)) < EXACT_RESIDUAL_EV:
+        if np.max(np.abs(sol.fun)) < (EXACT_RESIDUAL_EV if not slope_conditions else 1e-9):
             break
     if best is None:
         raise InputError("no start of the continuous form-factor fit converged to finite "
@@ -374,9 +415,29 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
         reference_volume_A3=material.volume_A / n_atoms, taper_invA=taper,
         residuals_eV=residuals, shell_q_invA=shell_q,
         fermi_energy_eV=-1.5 * target0, long_wavelength_target_eV=target0,
-        long_wavelength_residual_eV=float(r[-1]), shared=tuple(shared),
+        long_wavelength_residual_eV=float(r[2 * q.size]), shared=tuple(shared),
+        slope_residuals_eV={c.name: float(x) for c, x in zip(slope_conditions,
+                                                             r[2 * q.size + 1:], strict=True)},
         n_conditions=n_conditions, n_unknowns=n_unknowns, file_unit=pot.file_unit,
         starts_tried=tried)
+
+
+def _starts(names: list[str], shared: tuple[str, ...], per: list[str], q_first: float,
+            target0: float, start: ContinuousFit | None):
+    """Free-variable starts of the fit: a grid, or the parameters of a previous fit."""
+    if start is not None:
+        raw = {n: {"a1": p.a1_eV, "a2_invA2": p.a2_invA2, "a3": math.log(p.a3 - 1.0),
+                   "a4_A2": math.log(p.a4_A2)} for n, p in start.species.items()}
+        x0 = [raw[names[0]][p] for p in CONTINUOUS_PARAMETERS if p in shared]
+        yield x0 + [raw[n][p] for n in names for p in per]
+        return
+    for a2_factor, ln_a3m1, a4 in itertools.product((2.0, 1.5, 3.0, 1.0), (2.5, 1.0, 4.0),
+                                                    (0.1, 0.05, 0.3)):
+        a2 = a2_factor * q_first**2
+        a1 = -target0 * math.exp(ln_a3m1) / a2  # so that v(0) starts at the target
+        first = {"a1": a1, "a2_invA2": a2, "a3": ln_a3m1, "a4_A2": math.log(a4)}
+        x0 = [first[p] for p in CONTINUOUS_PARAMETERS if p in shared]
+        yield x0 + [first[p] for _ in names for p in per]
 
 
 def continuous_document(doc: dict[str, Any], source: str = "",
@@ -407,3 +468,91 @@ def continuous_document(doc: dict[str, Any], source: str = "",
     out["source"] = (f"{doc['source']}; continuous form factors v(q) of Friedel, Hybertsen & "
                      "Schlüter, Phys. Rev. B 39, 7974 (1989) fitted to them by bandpert")
     return out
+
+
+# --------------------------------------------------------------------------------------------
+# strain derivatives of the continuous potential
+# --------------------------------------------------------------------------------------------
+
+
+def continuous_form_factor_slope(q_invA: np.ndarray | float, a1: float, a2_invA2: float,
+                                 a3: float, a4_A2: float) -> np.ndarray:
+    """dv/dq of v(q) = a1 (q² − a2) D/(a3 − D), D = e^{−a4 q²} (eV·Å for a1 in eV).
+
+    dv/dq = 2q a1 [D/(a3 − D) − (q² − a2) a4 a3 D/(a3 − D)²] (differentiating
+    :func:`continuous_form_factor`).
+    """
+    q = np.asarray(q_invA, dtype=float)
+    q2 = q * q
+    decay = np.exp(-a4_A2 * q2)
+    den = a3 - decay
+    return 2.0 * q * a1 * (decay / den - (q2 - a2_invA2) * a4_A2 * a3 * decay / den**2)
+
+
+def taper_slope(q_invA: np.ndarray | float, q1_invA: float, q2_invA: float) -> np.ndarray:
+    """dw/dq of :func:`taper_weight`: −30 t²(1 − t)²/(q2 − q1) inside the switch, 0 outside."""
+    t = np.clip((np.asarray(q_invA, dtype=float) - q1_invA) / (q2_invA - q1_invA), 0.0, 1.0)
+    return -30.0 * t**2 * (1.0 - t) ** 2 / (q2_invA - q1_invA)
+
+
+def strain_derivative_of_potential(material: Material, g_cart_invA: np.ndarray,
+                                   strain: np.ndarray,
+                                   slopes: dict[tuple[str, int], float] | None = None,
+                                   shell_of: np.ndarray | None = None) -> np.ndarray:
+    """dV(G)/dε contracted with a strain direction, for the "continuous" form (eV).
+
+    Under a homogeneous strain ε with the atoms at fixed fractional positions, G·r_j is
+    unchanged, the cell measure goes as Ω(1 + tr ε) and G_i → G_i − ε_ij G_j, so with
+    u_s = w v_s and V(G) = (Ω0/Ω_atom) Σ_s S_s(G) u_s(|G|):
+
+        Σ_ij ε_ij ∂V(G)/∂ε_ij = −tr(ε) V(G) − (G·ε·G/|G|) (Ω0/Ω_atom) Σ_s S_s(G) u_s′(|G|)
+
+    (first-order strain perturbation of a local pseudopotential; e.g. Yu & Cardona,
+    Fundamentals of Semiconductors, 2010, §3.3; from memory).
+
+    Parameters
+    ----------
+    material : Material
+        With ``potential.form == "continuous"``.
+    g_cart_invA : numpy.ndarray
+        (..., d) Cartesian G (Å⁻¹), e.g. the differences G − G' of a basis.
+    strain : numpy.ndarray
+        (d, d) symmetric strain direction.
+    slopes : dict, optional
+        (species, shell index) → u′ to use instead of the model's own slope on that shell
+        (``shell_of`` gives the shell index of each G, −1 elsewhere); only for building the
+        linear conditions of a constrained fit.
+    shell_of : numpy.ndarray of int, optional
+        Leading shape of ``g_cart_invA``.
+
+    Returns
+    -------
+    numpy.ndarray
+        Complex, leading shape of ``g_cart_invA``; 0 at G = 0.
+    """
+    pot = material.potential
+    g = np.asarray(g_cart_invA, dtype=float)
+    eps = np.asarray(strain, dtype=float)
+    q = np.sqrt(np.einsum("...i,...i->...", g, g))
+    safe = np.where(q == 0.0, 1.0, q)
+    positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
+    n_atoms = len(material.atoms)
+    scale = pot.reference_volume_A / (material.volume_A / n_atoms) / n_atoms
+    value = np.zeros(q.shape, dtype=complex)
+    slope = np.zeros(q.shape, dtype=complex)
+    w = np.ones(q.shape) if pot.taper_invA is None else taper_weight(q, *pot.taper_invA)
+    dw = np.zeros(q.shape) if pot.taper_invA is None else taper_slope(q, *pot.taper_invA)
+    for atom, r in zip(material.atoms, positions, strict=True):
+        phase = np.exp(-1j * (g @ r))
+        params = pot.continuous[atom.species]
+        v = continuous_form_factor(q, *params)
+        value += w * v * phase
+        if slopes is None:
+            slope += (dw * v + w * continuous_form_factor_slope(q, *params)) * phase
+        else:
+            for (species, shell), s in slopes.items():
+                if species == atom.species:
+                    slope += np.where(shell_of == shell, s, 0.0) * phase
+    stretch = np.einsum("...i,ij,...j->...", g, eps, g) / safe
+    out = scale * (-np.trace(eps) * value - stretch * slope)
+    return np.where(q == 0.0, 0.0, out)

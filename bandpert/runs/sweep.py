@@ -33,493 +33,40 @@ keeps the cutoff in eV. The cutoff used at every point is in the results, so any
 recomputed alone (``bandpert bands --cutoff-eV``) and agrees to 1e-10 eV.
 """
 
+
 from __future__ import annotations
 
 import copy
-import itertools
-import math
-import re
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
-from ..crystal.lattice import describe_position, point_group_rotations, standard_path
+from ..crystal.lattice import point_group_rotations, standard_path
 from ..errors import InputError
-from ..input.material import Material, parse_material
-from ..physics.bands import BandStructure, compute_band_structure, default_bands
+from ..input.kp_file import parse_kp_material
+from ..input.material import Material, canonical_label, parse_material
+from ..physics.bands import default_bands
+from ..physics.deformation import strain_following_document
 from ..planewave.cutoff import choose_cutoff
+from ..planewave.formfactor import continuous_document
 from ..planewave.model import build_model
-from ..planewave.solver import exact_energies, single_blas_thread
 from ..runs.execution import SERIAL, Engine, Outcome, Progress, run
 from ..units import HBAR2_OVER_2M0_EV_A2
-
-QUANTITIES = ("edges", "gaps", "masses")
-FORM_FACTOR_MODES = ("tabulated", "continuous")
-BASIS_MODES = ("scaled", "fixed")
-STRAIN_COMPONENTS = {"xx": (0, 0), "yy": (1, 1), "zz": (2, 2), "xy": (0, 1), "xz": (0, 2),
-                     "yz": (1, 2), "hydrostatic": None}
-
-#: Integer keys that count something: the two ends of an alloy must agree on them.
-COUNT_KEYS = ("electrons.valence", "basis.bands")
-
-#: Largest number of parameter points one sweep accepts.
-MAX_POINTS = 100_000
-
-_SEGMENT = re.compile(r"^([A-Za-z_][A-Za-z0-9_\-]*)((?:\[\d+\])*)$")
-
-
-@dataclass(frozen=True)
-class SweepAxis:
-    """One varied key and its values.
-
-    Attributes
-    ----------
-    key : str
-        A dotted document key, ``strain.<component>`` or ``alloy.x``.
-    values : numpy.ndarray
-        The values, ``numpy.linspace(start, stop, count)``.
-    """
-
-    key: str
-    values: np.ndarray
-
-    @property
-    def kind(self) -> str:
-        """``document``, ``strain`` or ``alloy``."""
-        head = self.key.split(".", 1)[0]
-        return head if head in ("strain", "alloy") else "document"
-
-
-#: Most values of one swept key (each point is a full band-structure run).
-MAX_AXIS_POINTS = 100_000
-
-
-def parse_axis(spec: str) -> SweepAxis:
-    """Read ``KEY=START:STOP:COUNT`` (COUNT ≥ 1; with COUNT = 1 only START is used).
-
-    Raises
-    ------
-    InputError
-        Naming the axis (key ``axes``) and what was expected.
-    """
-    shape = "expected KEY=START:STOP:COUNT, e.g. lattice.a_A=5.3:5.6:31"
-    if "=" not in spec:
-        raise InputError(f"'{spec}' has no '='; {shape}", key="axes")
-    key, _, rng = spec.partition("=")
-    key = key.strip()
-    parts = rng.split(":")
-    if not key or len(parts) != 3:
-        raise InputError(f"'{spec}' is not of the form KEY=START:STOP:COUNT; {shape}",
-                         key="axes")
-    try:
-        start, stop = float(parts[0]), float(parts[1])
-        count = int(parts[2])
-    except ValueError:
-        raise InputError(f"'{spec}': START and STOP must be numbers and COUNT an integer; "
-                         f"{shape}", key="axes") from None
-    if not (math.isfinite(start) and math.isfinite(stop)):
-        raise InputError(f"'{spec}': START and STOP must be finite", key="axes")
-    if count < 1:
-        raise InputError(f"'{spec}': COUNT must be at least 1, got {count}", key="axes")
-    if count > MAX_AXIS_POINTS:  # before numpy allocates the values
-        raise InputError(f"'{spec[:80]}': COUNT {count} is above the limit of "
-                         f"{MAX_AXIS_POINTS} points per key", key="axes")
-    head = key.split(".", 1)[0]
-    if head == "strain":
-        comp = key.split(".", 1)[1] if "." in key else ""
-        if comp not in STRAIN_COMPONENTS:
-            raise InputError(f"unknown strain component '{comp}'; expected one of "
-                             f"{', '.join('strain.' + c for c in STRAIN_COMPONENTS)}",
-                             key="axes")
-    elif head == "alloy" and key != "alloy.x":
-        raise InputError(f"unknown alloy key '{key}'; expected alloy.x", key="axes")
-    else:
-        _split_key(key)
-    return SweepAxis(key=key, values=np.linspace(start, stop, count))
-
-
-def _split_key(key: str) -> list[str | int]:
-    """``potential.species.Ga[1]`` → ["potential", "species", "Ga", 1]."""
-    steps: list[str | int] = []
-    for segment in key.split("."):
-        m = _SEGMENT.match(segment)
-        if not m:
-            raise InputError(f"'{key}' is not a document key (segment '{segment}'); expected "
-                             "dotted names with optional [index], e.g. potential.symmetric[0]",
-                             key="axes")
-        steps.append(m.group(1))
-        steps.extend(int(i) for i in re.findall(r"\[(\d+)\]", m.group(2)))
-    return steps
-
-
-def get_value(doc: dict[str, Any], key: str, source: str = "") -> Any:
-    """The value at a dotted key of a document (InputError naming the key if absent)."""
-    node: Any = doc
-    walked = ""
-    for step in _split_key(key):
-        if isinstance(step, int):
-            if not isinstance(node, list) or step >= len(node):
-                size = len(node) if isinstance(node, list) else 0
-                raise InputError(f"'{walked}' has no entry [{step}] (it has {size}); expected an "
-                                 "index of an array of the file", source, key)
-            node = node[step]
-            walked += f"[{step}]"
-        else:
-            if not isinstance(node, dict) or step not in node:
-                where = f"'{walked}'" if walked else "the top level"
-                have = ", ".join(sorted(node)) if isinstance(node, dict) else "no keys"
-                raise InputError(f"{where} has no key '{step}' (it has: {have}); expected a key "
-                                 "of the file", source, key)
-            node = node[step]
-            walked += ("." if walked else "") + step
-    return node
-
-
-def set_value(doc: dict[str, Any], key: str, value: float, source: str = "") -> None:
-    """Write a number at a dotted key (in place); the key must hold a number already."""
-    old = get_value(doc, key, source)
-    if isinstance(old, bool) or not isinstance(old, int | float):
-        raise InputError(f"holds {type(old).__name__}, not a number; expected a numeric key to "
-                         "vary", source, key)
-    steps = _split_key(key)
-    node: Any = doc
-    for step in steps[:-1]:
-        node = node[step]
-    node[steps[-1]] = int(round(value)) if isinstance(old, int) and float(value).is_integer() \
-        else float(value)
-
-
-def strain_tensor(key: str, value: float) -> np.ndarray:
-    """The symmetric 3 × 3 strain tensor of one ``strain.<component>`` axis value."""
-    comp = STRAIN_COMPONENTS[key.split(".", 1)[1]]
-    eps = np.zeros((3, 3))
-    if comp is None:
-        return value * np.eye(3)
-    i, j = comp
-    eps[i, j] = eps[j, i] = value
-    return eps
-
-
-def virtual_crystal(doc_a: dict[str, Any], doc_b: dict[str, Any], x: float, source: str = "",
-                    source_b: str = "") -> dict[str, Any]:
-    """Virtual-crystal document (1 − x)·A + x·B: every number interpolated linearly.
-
-    The two documents must have the same structure (same keys, arrays of the same length, the
-    same atoms in the same order); species of B are renamed to those of A by atom order, so
-    per-species form factors of Ga and In, say, mix on the same site. Strings come from A; the
-    name becomes ``"<A> – <B> virtual crystal, x = …"``. Integers must agree (an electron count
-    cannot be interpolated).
-
-    Reference: L. Nordheim, Ann. Phys. 401, 607 (1931) (the virtual-crystal approximation; from
-    memory); for empirical pseudopotentials, interpolated form factors as in common practice.
-    """
-    b = _rename_species(doc_a, doc_b, source_b)
-
-    def mix(pa: Any, pb: Any, key: str) -> Any:
-        if isinstance(pa, dict) and isinstance(pb, dict):
-            if set(pa) != set(pb):
-                extra = sorted(set(pa) ^ set(pb))
-                raise InputError(f"the alloy end '{source_b}' differs in keys ({', '.join(extra)})"
-                                 "; expected two files of the same structure", source,
-                                 key or "top level")
-            return {k: mix(pa[k], pb[k], f"{key}.{k}" if key else k) for k in pa}
-        if isinstance(pa, list) and isinstance(pb, list):
-            if len(pa) != len(pb):
-                raise InputError(f"has {len(pa)} entries here and {len(pb)} in '{source_b}'; "
-                                 "expected arrays of the same length", source, key)
-            return [mix(u, v, f"{key}[{i}]") for i, (u, v) in enumerate(zip(pa, pb, strict=True))]
-        if isinstance(pa, bool) or isinstance(pb, bool):
-            if pa != pb:
-                raise InputError(f"differs from '{source_b}'; expected the same value", source,
-                                 key)
-            return pa
-        if isinstance(pa, int) and isinstance(pb, int):
-            if pa == pb:
-                return pa
-            if key in COUNT_KEYS:
-                raise InputError(f"is {pa} here and {pb} in '{source_b}'; a count cannot be "
-                                 "interpolated, expected the same value", source, key)
-        if isinstance(pa, int | float) and isinstance(pb, int | float):
-            return (1.0 - x) * pa + x * pb
-        if isinstance(pa, str) and isinstance(pb, str):
-            return pa
-        raise InputError(f"is {type(pa).__name__} here and {type(pb).__name__} in "
-                         f"'{source_b}'; expected the same type", source, key)
-
-    out = mix(doc_a, b, "")
-    out["name"] = f"{doc_a.get('name', 'A')} – {doc_b.get('name', 'B')} virtual crystal, x = {x:g}"
-    out["source"] = (f"virtual-crystal approximation between {doc_a.get('source', '')} and "
-                     f"{doc_b.get('source', '')}")
-    return out
-
-
-def _rename_species(doc_a: dict[str, Any], doc_b: dict[str, Any], source_b: str) -> dict:
-    b = copy.deepcopy(doc_b)
-    atoms_a, atoms_b = doc_a.get("atoms"), b.get("atoms")
-    if atoms_a is None and atoms_b is None:  # k·p parameter files have no atoms
-        return b
-    if not (isinstance(atoms_a, list) and isinstance(atoms_b, list)) or len(atoms_a) != len(
-            atoms_b):
-        raise InputError("expected the same number of atoms in both alloy ends", source_b,
-                         "atoms")
-    rename: dict[str, str] = {}
-    for i, (ua, ub) in enumerate(zip(atoms_a, atoms_b, strict=True)):
-        sa, sb = ua.get("species"), ub.get("species")
-        if rename.setdefault(sb, sa) != sa:
-            raise InputError(f"species '{sb}' sits where the other file has two different "
-                             "species; expected the same arrangement of species", source_b,
-                             f"atoms[{i}].species")
-        ub["species"] = sa
-    species = b.get("potential", {}).get("species")
-    if isinstance(species, dict):
-        b["potential"]["species"] = {rename.get(k, k): v for k, v in species.items()}
-    return b
-
-
-@dataclass(frozen=True)
-class SweepSpec:
-    """Everything a parameter point needs; picklable, sent to the workers.
-
-    Attributes
-    ----------
-    document : dict
-        The reference TOML document (after any form-factor replacement).
-    source : str
-        The file name, for messages.
-    axes : tuple of SweepAxis
-    quantities : tuple of str
-        A subset of :data:`QUANTITIES`.
-    points : tuple of str
-        Labels at which gaps are tabulated.
-    n_k : int
-        k-points along the path of each point.
-    n_bands : int
-    lower_band : int
-        1-based band below the gap at the labelled points.
-    reference_cutoff_eV : float
-    reference_volume : float
-        Cell volume (Å³, Å², Å) of the reference material.
-    basis : str
-        "scaled" or "fixed" (:data:`BASIS_MODES`).
-    alloy_end : dict or None
-        The x = 1 document of an ``alloy.x`` sweep.
-    alloy_source : str
-    temperature_K : float
-    kind : str
-        "plane-wave" (a material file) or "k·p" (a k·p parameter file: the masses at Γ of each
-        of its models).
-    reference_rotations : numpy.ndarray or None
-        Point group of the reference crystal (spglib, fractional direct coordinates). A strained
-        cell has lower symmetry, so valleys that were equivalent split and the lowest one may not
-        lie on the path: every band edge found on the path is compared with its images under
-        these rotations before it is refined.
-    """
-
-    document: dict[str, Any]
-    source: str
-    axes: tuple[SweepAxis, ...]
-    quantities: tuple[str, ...]
-    points: tuple[str, ...]
-    n_k: int
-    n_bands: int
-    lower_band: int
-    reference_cutoff_eV: float
-    reference_volume: float
-    basis: str = "scaled"
-    alloy_end: dict[str, Any] | None = None
-    alloy_source: str = ""
-    temperature_K: float = 300.0
-    kind: str = "plane-wave"
-    reference_rotations: np.ndarray | None = None
-
-
-def is_kp_document(document: dict[str, Any]) -> bool:
-    """True for a k·p parameter file (a ``[parameters]`` table and no ``[potential]``)."""
-    return "parameters" in document and "potential" not in document
-
-
-#: Directions along which a k·p sweep reports the Γ masses.
-KP_DIRECTIONS = ("001", "110", "111")
-
-
-def point_document(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, Any]:
-    """The material document at one parameter point (a new dictionary)."""
-    doc = copy.deepcopy(spec.document)
-    for axis, value in zip(spec.axes, values, strict=True):
-        if axis.kind == "alloy":
-            doc = virtual_crystal(doc, spec.alloy_end, value, spec.source, spec.alloy_source)
-    strain = np.zeros((3, 3))
-    for axis, value in zip(spec.axes, values, strict=True):
-        if axis.kind == "document":
-            set_value(doc, axis.key, value, spec.source)
-        elif axis.kind == "strain":
-            strain += strain_tensor(axis.key, value)
-    if np.any(strain):
-        reference = parse_material(doc, spec.source)
-        d = reference.dimension
-        deform = np.eye(d) + strain[:d, :d]
-        vectors = reference.vectors_A @ deform.T
-        doc["lattice"] = {"type": "vectors", "vectors_A": vectors.tolist(),
-                          "a_A": reference.a_A}
-    return doc
-
-
-def point_material(spec: SweepSpec, values: tuple[float, ...]) -> Material:
-    """The validated material at one parameter point."""
-    return parse_material(point_document(spec, values), spec.source)
-
-
-def point_cutoff(spec: SweepSpec, material: Material) -> float:
-    """Cutoff at a point: the file's if the sweep varies it, else scaled or fixed (module doc)."""
-    if any(a.key.startswith("basis.cutoff") for a in spec.axes) and material.cutoff_eV:
-        return float(material.cutoff_eV)
-    if spec.basis == "fixed":
-        return spec.reference_cutoff_eV
-    ratio = spec.reference_volume / material.volume_A
-    return float(spec.reference_cutoff_eV * ratio ** (2.0 / material.dimension))
-
-
-def evaluate_point(task: tuple[SweepSpec, tuple[float, ...]]) -> dict[str, float | str]:
-    """One parameter point → one row of the sweep table (a flat dict of numbers and text).
-
-    Module-level so that Dask workers import it by name; BLAS runs on one thread, so a point
-    gives the same numbers serially and on any worker (energies and refined positions).
-    Keys (all energies absolute, the model's own zero; masses in m0; see the README for the
-    full list): ``cutoff_eV``,
-    ``basis_size``; with "gaps" ``lower_<P>_eV``, ``upper_<P>_eV``, ``gap_<P>_eV`` for every
-    label P; with "edges" ``valence_max_eV``, ``conduction_min_eV``, ``gap_eV``,
-    ``direct_gap_eV``, ``valence_max_k{1,2,3}_frac``, ``conduction_min_k{1,2,3}_frac``,
-    ``valence_max_at``, ``conduction_min_at``; with "masses" ``conduction_m{1,2,3}``,
-    ``conduction_valleys``, ``conduction_dos_mass``, ``conduction_conductivity_mass``,
-    ``valence_m{1,2,3}`` or ``valence_gamma{1,2,3}`` (degenerate top), ``valence_dos_mass``.
-    """
-    spec, values = task
-    with single_blas_thread():  # the same arithmetic in this process and in any worker
-        if spec.kind == "k·p":
-            return _kp_point(spec, values)
-        return _plane_wave_point(spec, values)
-
-
-def _plane_wave_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, float | str]:
-    material = point_material(spec, values)
-    cutoff = point_cutoff(spec, material)
-    bs = compute_band_structure(material, n_k=spec.n_k, n_bands=spec.n_bands, cutoff_eV=cutoff,
-                                check_cutoff=False)
-    row: dict[str, float | str] = {"cutoff_eV": cutoff, "basis_size": float(bs.model.size)}
-    if "gaps" in spec.quantities:
-        row.update(_gaps_at_points(bs, spec.points, spec.lower_band))
-    if "edges" in spec.quantities or "masses" in spec.quantities:
-        row.update(_edges_and_masses(bs, spec))
-    return row
-
-
-def _kp_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, float | str]:
-    """A k·p file at one parameter point: Γ energies and masses of each model along
-    [001], [110], [111] (columns ``<model>_<band>_<direction>_m0``, spaces as ``_``)."""
-    from ..input.kp_file import parse_kp_material
-    from ..kp import masses_at_gamma
-
-    kpm = parse_kp_material(point_document(spec, values), spec.source)
-    row: dict[str, float | str] = {}
-    for name in kpm.models:
-        model = kpm.model(name)
-        for direction in KP_DIRECTIONS:
-            for band, mass in masses_at_gamma(model, direction).as_dict().items():
-                row[f"{name}_{band}_{direction}_m0".replace(" ", "_").replace("-", "_")] = mass
-    return row
-
-
-def _gaps_at_points(bs: BandStructure, labels: tuple[str, ...], lower_band: int) -> dict:
-    row: dict[str, float] = {}
-    e = bs.energies_eV
-    if lower_band >= e.shape[1]:
-        raise InputError(f"band {lower_band} has no band above it among the {e.shape[1]} "
-                         "computed; expected fewer or more bands", key="lower_band")
-    where = {}
-    for index, label in zip(bs.path.label_indices, bs.path.labels, strict=True):
-        for name in label.split("|"):
-            where.setdefault(name, int(index))
-    for label in labels:
-        i = where[label]
-        lo, hi = float(e[i, lower_band - 1]), float(e[i, lower_band])
-        row[f"lower_{label}_eV"] = lo
-        row[f"upper_{label}_eV"] = hi
-        row[f"gap_{label}_eV"] = hi - lo
-    return row
-
-
-def _edges_and_masses(bs: BandStructure, spec: SweepSpec) -> dict:
-    from ..physics.masses import band_masses, edge_point, eigenstates
-
-    if bs.edges is None:
-        raise InputError("no gap between the occupied and the empty bands at this point (a "
-                         "metal, or no electrons.valence); edges and masses need a semiconductor",
-                         spec.source, "electrons.valence")
-    n_val = bs.material.valence_electrons // 2
-    row: dict[str, float | str] = {}
-    found = {}
-    for name, index, band, maximum in (
-            ("valence_max", bs.edges.valence_max_index, n_val - 1, True),
-            ("conduction_min", bs.edges.conduction_min_index, n_val, False)):
-        candidates, best = _valley_images(bs, index, band, maximum, spec.reference_rotations)
-        k = edge_point(bs.model, candidates, best, band, maximum)
-        found[name] = (k, band)
-        energy = float(eigenstates(bs.model, k, band + 1).energies_eV[band])
-        k_frac = np.linalg.solve(bs.model.reciprocal_invA.T, k)
-        row[f"{name}_eV"] = energy
-        for i, x in enumerate(k_frac):
-            row[f"{name}_k{i + 1}_frac"] = float(x)
-        moved = not np.allclose(k, candidates[best], atol=1e-9)
-        where = describe_position(bs.path, index)
-        if best:
-            where = f"image of {where} under the reference symmetry"
-        row[f"{name}_at"] = where + (" (refined)" if moved else "")
-    row["gap_eV"] = float(row["conduction_min_eV"]) - float(row["valence_max_eV"])
-    row["direct_gap_eV"] = bs.edges.direct_gap_eV
-    if "masses" in spec.quantities:
-        rot = point_group_rotations(bs.material)
-        for name, prefix in (("conduction_min", "conduction"), ("valence_max", "valence")):
-            k, band = found[name]
-            m = band_masses(bs.model, k, band, rot, spec.temperature_K, name, cross_check=False)
-            if m.tensor is not None:
-                masses = np.sort(m.tensor.principal_masses)
-                for i, x in enumerate(masses):
-                    row[f"{prefix}_m{i + 1}"] = float(x)
-                if m.conductivity_mass is not None:
-                    row[f"{prefix}_conductivity_mass"] = float(m.conductivity_mass)
-            elif m.edge is not None and m.edge.luttinger is not None:
-                for i, g in enumerate(m.edge.luttinger):
-                    row[f"{prefix}_gamma{i + 1}"] = float(g)
-            if m.valleys is not None:
-                row[f"{prefix}_valleys"] = float(m.valleys)
-            if m.dos_mass is not None:
-                row[f"{prefix}_dos_mass"] = float(m.dos_mass)
-    return row
-
-
-def _valley_images(bs: BandStructure, index: int, band: int, maximum: bool,
-                   rotations: np.ndarray | None) -> tuple[np.ndarray, int]:
-    """The path extremum and its images under the reference point group (and −k).
-
-    Returns the Cartesian candidates (the path point first) and the index of the best one; an
-    image wins only if it is better by more than 1e-9 eV, so an unstrained crystal keeps the
-    point on the path.
-    """
-
-    k0 = bs.path.k_frac[index]
-    if rotations is None:
-        return bs.path.k_cart_invA[index:index + 1], 0
-    images = np.array([k0 @ np.linalg.inv(r) for r in rotations])
-    images = np.concatenate([images, -images])
-    images = images[np.unique(np.round(images, 9), axis=0, return_index=True)[1]]
-    others = images[~np.all(np.isclose(images, k0, atol=1e-9), axis=1)]
-    images = np.concatenate([[k0], others])
-    cart = images @ bs.model.reciprocal_invA
-    e = exact_energies(bs.model, cart, band + 1)[:, band]
-    gain = (e - e[0]) if maximum else (e[0] - e)
-    best = int(np.argmax(gain))
-    return cart, (best if gain[best] > 1e-9 else 0)
+from .sweep_point import evaluate_point
+from .sweep_spec import (
+    BASIS_MODES,
+    FORM_FACTOR_MODES,
+    MAX_POINTS,
+    QUANTITIES,
+    SweepAxis,
+    SweepSpec,
+    is_kp_document,
+    parameter_grid,
+    point_cutoff,
+    point_document,
+    point_material,
+)
 
 
 @dataclass(frozen=True)
@@ -563,12 +110,6 @@ class SweepResult:
     def n_points(self) -> int:
         """Parameter points in the sweep."""
         return int(self.values.shape[0])
-
-
-def parameter_grid(axes: tuple[SweepAxis, ...]) -> np.ndarray:
-    """All combinations of the axis values, (n_points, n_axes), the last axis fastest."""
-    return np.array(list(itertools.product(*(a.values for a in axes))), dtype=float).reshape(
-        -1, len(axes))
 
 
 def faithful_window(tabulated: Material, taper_invA: tuple[float, float]) -> tuple[float, float]:
@@ -617,7 +158,8 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     """Check a sweep before it runs and fix its reference settings.
 
     The reference material is the file itself (x = 0 for an alloy); its cutoff (given, or the
-    converged default of :func:`~bandpert.bands.converged_cutoff`) is the reference cutoff.
+    converged default of :func:`~bandpert.planewave.cutoff.converged_cutoff`) is the reference
+    cutoff.
     The first and last parameter points are built and validated here, so a range that leaves
     the physical domain is refused before any work starts.
 
@@ -662,17 +204,23 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                              source, "form_factors")
         alloy_end = copy.deepcopy(alloy_end)
         parse_material(alloy_end, alloy_source)  # each end must be valid on its own
-    window = ""
+    window = strain_note = ""
+    strained = any(a.kind == "strain" for a in axes)
     if form_factors == "continuous":
-        from ..planewave.formfactor import continuous_document
-
         tabulated = reference
-        doc = continuous_document(doc, source)
+        if strained or "deformation" in quantities:
+            # measured gap deformation potentials as fit conditions where bandpert knows them
+            strain_fit = strain_following_document(doc, source, cutoff_eV)
+            doc = strain_fit.document
+            strain_note = "; " + strain_fit.note
+        else:
+            doc = continuous_document(doc, source)
         reference = parse_material(doc, source)
         lo, hi = faithful_window(tabulated, reference.potential.taper_invA)
         window = (f"; it equals the tabulated model exactly for a/a_ref in [{lo:.4f}, {hi:.4f}] "
                   f"(a = {lo * tabulated.a_A:.4g}–{hi * tabulated.a_A:.4g} Å); beyond, the "
-                  "taper changes the weights of the outer shells smoothly")
+                  "taper changes the weights of the outer shells smoothly, and the column "
+                  "faithful_window says so at every such point" + strain_note)
     if reference.path is None:  # keep the reference labels: a strained cell has lower symmetry
         pts, legs = standard_path(reference)
         doc["path"] = {"points": {k: list(v) for k, v in pts.items()},
@@ -680,7 +228,6 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
         reference = parse_material(doc, source)
     if alloy_end is not None and "path" not in alloy_end:
         alloy_end["path"] = copy.deepcopy(doc["path"])
-    strained = any(a.kind == "strain" for a in axes)
     if strained and reference.potential.form in ("symmetric-antisymmetric", "per-species"):
         raise InputError("strain splits the |G|² shells, where tabulated form factors do not "
                          "exist; expected form_factors continuous (a fitted v(q))", source,
@@ -699,14 +246,16 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     if lower_band < 1 or lower_band >= nb:
         raise InputError(f"band {lower_band} must lie between 1 and {nb - 1} (bands computed: "
                          f"{nb})", source, "lower_band")
-    if (("edges" in quantities or "masses" in quantities)
+    if ({"edges", "masses", "deformation"} & set(quantities)
             and (n_el is None or n_el % 2)):
-        raise InputError("edges and masses need a semiconductor: an even electrons.valence",
-                         source, "electrons.valence")
+        raise InputError("edges, masses and deformation potentials need a semiconductor: an "
+                         "even electrons.valence", source, "electrons.valence")
+    if "deformation" in quantities and (reference.potential.form != "continuous"
+                                        or reference.dimension != 3):
+        raise InputError("deformation potentials need a 3D crystal whose v(q) follows the "
+                         "strain; expected form_factors continuous", source, "form_factors")
     labels = tuple(dict.fromkeys(x for leg in reference.path.legs for x in leg))
     if points:
-        from ..input.material import canonical_label
-
         chosen = []
         for p in points:
             name = canonical_label(p)
@@ -733,8 +282,6 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
 def _prepare_kp(doc: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                 alloy_end: dict[str, Any] | None, alloy_source: str, form_factors: str):
     """:func:`prepare` for a k·p parameter file: masses at Γ of each model, nothing else."""
-    from ..input.kp_file import parse_kp_material
-
     if any(a.kind == "strain" for a in axes):
         raise InputError("a k·p parameter file has no lattice vectors to strain (its deformation "
                          "potentials are not modelled); expected keys of its [parameters]",

@@ -182,7 +182,8 @@ def dask_speedup(reps: int, say: Callable[..., None]) -> tuple[dict, list[tuple[
     from bandpert.input.material import read_toml_document
     from bandpert.runs.execution import Engine, local_cluster
     from bandpert.runs.mesh_dos import compute_dos
-    from bandpert.runs.sweep import parse_axis, prepare, run_sweep
+    from bandpert.runs.sweep import prepare, run_sweep
+    from bandpert.runs.sweep_spec import parse_axis
 
     doc = read_toml_document(MATERIALS_DIR / "planewave" / "silicon.toml")
     spec, _, _ = prepare(doc, "silicon.toml", (parse_axis("lattice.a_A=5.30:5.56:24"),),

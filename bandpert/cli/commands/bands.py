@@ -11,6 +11,7 @@ from rich.table import Table
 
 from ...crystal.lattice import describe_position
 from ...errors import InputError
+from ...input.file_kind import file_kind
 from ...input.material import load_material
 from ...io import write_csv, write_json, write_table
 from ...output.plotting import band_figure
@@ -26,6 +27,7 @@ from ...physics.bands import compute_band_structure
 from ...physics.perturbative_bands import (
     DEFAULT_RADIUS_POINTS,
     DEFAULT_TOLERANCE_EV,
+    TOLERANCE_RANGE_EV,
     PerturbationSettings,
 )
 from ..options import (
@@ -44,6 +46,13 @@ from ..options import (
     progress_bar,
     save_figure,
 )
+from .kp_bands import kp_bands
+
+
+def _check_range(value: float, name: str, lo: float, hi: float) -> None:
+    """Refuse a setting outside ``[lo, hi]`` (``name`` is the flag; NaN is refused too)."""
+    if not lo <= value <= hi:
+        raise InputError(f"expected a value from {lo:g} to {hi:g}, got {value:g}", key=name)
 
 
 def bands(
@@ -66,14 +75,15 @@ def bands(
     e_max: Annotated[float | None, typer.Option("--emax", help="Upper energy limit of the plot "
                                                 "(eV from the energy zero).",
                                                 show_default=False)] = None,
-    order: Annotated[int, typer.Option("--order", help="Perturbation order in λ (1, 2 or 3).")]
+    order: Annotated[int, typer.Option("--order", help="Perturbation order in λ (1 to 6).")]
     = 2,
     threshold: Annotated[float, typer.Option("--threshold", help="Coupling ratio |V_mn|/|E_m−E_n| "
                                              "above which levels are treated together in a "
-                                             "subspace (Löwdin).")]
+                                             "subspace (Löwdin), 0.05 to 0.45.")]
     = DEFAULT_COUPLING_THRESHOLD,
     tolerance_meV: Annotated[float, typer.Option("--tolerance-meV", help="A point is trustworthy "
-                                                 "when its error estimate is below this.")]
+                                                 "when its proven error bound is below this "
+                                                 "(0.01 to 1000).")]
     = DEFAULT_TOLERANCE_EV * 1e3,
     radius_points: Annotated[int, typer.Option("--radius-points", help="k-points at which the "
                                                "convergence radius in λ is computed (0: none).")]
@@ -93,12 +103,17 @@ def bands(
     """
 
     check_count(k_points, "--k-points", 2)
+    if file_kind(file) == "kp":  # a k·p parameter file: its models' bands along a path near Γ
+        return kp_bands(file, out_dir, name, image_format, json_path, e_min, e_max)
     check_count(n_bands, "--bands", 1)
     if cutoff_eV is not None and not cutoff_eV > 0:
         raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
     if no_exact and exact_only:
         raise InputError("--no-exact and --exact-only leave nothing to compute; give one",
                          key="--no-exact")
+    # order and threshold are checked by PerturbationSettings (its keys map to the flags); the
+    # tolerance here, in the unit of the flag
+    _check_range(tolerance_meV, "--tolerance-meV", *(1e3 * t for t in TOLERANCE_RANGE_EV))
     settings_p = None if exact_only else PerturbationSettings(
         order=order, coupling_threshold=threshold, tolerance_eV=tolerance_meV * 1e-3,
         radius_points=radius_points)
@@ -159,15 +174,19 @@ def _summary(bs) -> None:
     pb = bs.perturbative
     if pb is not None:
         s = pb.settings
+        share = (f"trustworthy on {100 * pb.trustworthy.mean():.1f} % of (band, k) points"
+                 if pb.trustworthy.any() else "no point trustworthy")
         table.add_row(f"perturbative (order {s.order})",
-                      f"trustworthy on {100 * pb.trustworthy.mean():.1f} % of (band, k) points "
-                      f"(estimate < {s.tolerance_eV * 1e3:g} meV); subspace treatment on "
-                      f"{100 * (pb.treatment == 1).mean():.1f} %")
+                      f"{share} (proven error bound < {s.tolerance_eV * 1e3:g} meV); subspace "
+                      f"treatment on {100 * (pb.treatment == 1).mean():.1f} %")
         if bs.comparison is not None:
             c = bs.comparison
+            on = ("no point trustworthy" if c.max_error_trustworthy_eV is None else
+                  f"on trustworthy points {1e3 * c.max_error_trustworthy_eV:.2f} meV "
+                  f"({c.over_tolerance_trustworthy} over the tolerance)")
             table.add_row("against exact", f"largest error {1e3 * c.abs_error_eV.max():.1f} meV; "
-                          f"on trustworthy points {1e3 * c.max_error_trustworthy_eV:.2f} meV; "
-                          f"estimate ≥ true error on {100 * c.estimate_coverage:.1f} %")
+                          f"{on}; bound ≥ true error on {100 * c.bound_coverage:.1f} %, "
+                          f"two-more-orders estimate on {100 * c.estimate_coverage:.1f} %")
         if len(pb.radius_k_indices):
             radius = pb.convergence_radius
             known = ~np.isnan(radius)

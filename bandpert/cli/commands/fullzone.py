@@ -26,6 +26,7 @@ from ..options import (
     out,
     output_base,
     output_paths,
+    require_kind,
     save_figure,
 )
 
@@ -57,6 +58,7 @@ def fullzone(
     if not sizes or min(sizes) < 1:
         raise InputError("expected positive numbers of states", key="--basis")
     check_count(k_points, "--k-points", 2)
+    require_kind(file, "planewave", "fullzone")
     material = load_material(file)
     result = full_zone_kp(material, sizes, n_k=k_points, n_bands=n_bands)
     bs, conv = result.exact, result.convergence

@@ -91,15 +91,16 @@ def gaps(
     save_figure(fig, image, image_format)
     write_json(json_path, doc)
 
-    cols, rows, notes = gap_table(report)
-    table = Table(title=f"{material.name}: free-electron degeneracies and their gaps",
-                  title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
-    for c in cols:
-        numeric = c in ("E0 (eV)", "g", "1st", "2nd", "exact", "2nd−exact")
-        table.add_column(c, overflow="fold", justify="right" if numeric else "left")
-    for r in rows:
-        table.add_row(*r)
-    out.print(table)
+    tables, notes = gap_table(report)
+    out.print(f"{material.name}: free-electron degeneracies and their gaps")
+    for title, cols, rows in tables:
+        table = Table(title=title, title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
+        for c in cols:
+            numeric = c in ("E0 (eV)", "g", "1st", "2nd", "exact")
+            table.add_column(c, overflow="fold", justify="right" if numeric else "left")
+        for r in rows:
+            table.add_row(*r)
+        out.print(table)
     for note in notes:
         out.print(note)
     zero = ("" if bs.energy_zero_kind == "absolute" else

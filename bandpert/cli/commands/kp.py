@@ -26,6 +26,7 @@ from ..options import (
     out,
     output_base,
     output_paths,
+    require_kind,
     save_figure,
 )
 
@@ -58,6 +59,7 @@ def kp(
                          key="--k-max")
     if model_name is not None and model_name not in MODEL_NAMES:
         raise InputError(f"'{model_name}' is not one of {', '.join(MODEL_NAMES)}", key="--model")
+    require_kind(file, "kp", "kp")
     kpm = load_kp_material(file)
     analysis = analyse_kp_material(kpm, (model_name,) if model_name else None, k_max)
     lines = None if compare is None else exact_lines_from_gamma(load_material(compare), k_max)

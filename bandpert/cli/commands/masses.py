@@ -9,12 +9,15 @@ import numpy as np
 import typer
 from rich.table import Table
 
-from ...crystal.lattice import describe_position, point_group_rotations
+from ...crystal.lattice import point_group_rotations
 from ...errors import InputError
 from ...input.material import load_material
+from ...input.reader import read_toml_document
 from ...io import atomic_path, write_json
 from ...output.report import document, masses_results
 from ...physics.bands import compute_band_structure
+from ...physics.deformation import STRAIN_FOLLOWING_FORMS, material_deformation_potentials
+from ...physics.deformation import describe as describe_deformation
 from ...physics.kp_from_planewave import extract_kp_parameters, kp_material_text
 from ...physics.masses import band_masses, edge_masses
 from ...physics.nfe_gaps import resolve_points
@@ -68,17 +71,20 @@ def masses(
     material = load_material(file)
     with progress_bar("diagonalising") as progress:
         bs = compute_band_structure(material, n_k=120, cutoff_eV=cutoff_eV, progress=progress)
+    deformation = None
     if point is None and band is None:
-        entries = edge_masses(bs, temperature_K)
-        locations = [describe_position(bs.path, bs.edges.conduction_min_index) + " (refined)",
-                     describe_position(bs.path, bs.edges.valence_max_index) + " (refined)"]
+        edges, entries = edge_masses(bs, temperature_K)
+        locations = [e.where for e in edges]
+        if material.dimension == 3 and material.potential.form in STRAIN_FOLLOWING_FORMS:
+            deformation = material_deformation_potentials(material, read_toml_document(file),
+                                                          bs, edges)
     else:
         label, k_frac, _ = resolve_points(material, [point or "Γ"])[0]
         n_el = material.valence_electrons
         b = band - 1 if band is not None else (n_el // 2 if n_el else 0)
-        entry = band_masses(bs.model, k_frac @ bs.model.reciprocal_invA, b,
+        entry = band_masses(material, bs.model, k_frac @ bs.model.reciprocal_invA, b,
                             point_group_rotations(material), temperature_K,
-                            f"band {b + 1} at {label}")
+                            f"band {b + 1} at {label}", where=label)
         entries, locations = [entry], [label]
     kp_params = kp_text = None
     if material.dimension == 3 and material.valence_electrons:
@@ -98,7 +104,8 @@ def masses(
     settings = {"cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "temperature_K": temperature_K, "point": point, "band": band}
     doc = document("masses", material, settings,
-                   masses_results(entries, bs.energy_zero_eV, locations, kp_params))
+                   masses_results(entries, bs.energy_zero_eV, locations, kp_params,
+                                  deformation))
     default = f"{file.stem}-masses"
     if point is not None or band is not None:
         default += f"-{locations[0]}-band{entries[0].band + 1}"
@@ -112,6 +119,11 @@ def masses(
         written.append(kp_file)
     for entry, location in zip(entries, locations, strict=True):
         _masses_table(entry, location, bs.energy_zero_eV)
+    if deformation is not None:
+        out.print("deformation potentials at the reference lattice ("
+                  + deformation[1] + "):")
+        for line in describe_deformation(deformation[0]):
+            out.print("  " + line)
     if kp_params is not None:
         out.print("k·p parameters implied at Γ (Δso = 0): "
                   + ", ".join(f"{k} = {v:.4g}" for k, v in extracted.parameters.as_dict().items()
@@ -126,16 +138,23 @@ def _masses_table(m, location: str, zero_eV: float) -> None:
     table.add_row("k (fractional)", _vec(m.k_frac))
     table.add_row("energy", f"{m.energy_eV - zero_eV:.4f} eV from the zero; band(s) "
                   + ", ".join(str(b + 1) for b in m.degenerate_bands))
+    cp = m.critical_point
+    table.add_row("point", cp.kind + (f" (index {cp.saddle_index})" if cp.kind == "saddle"
+                                      else ""))
+    if cp.curvatures is not None:
+        table.add_row("principal m0/m* (signed)", ", ".join(f"{c:+.4f}" for c in cp.curvatures))
     if m.tensor is not None:
         t = m.tensor
         kinds = ["electron-like" if s > 0 else "hole-like" for s in t.curvature_sign]
         for i in range(len(t.principal_masses)):
             table.add_row(f"principal mass {i + 1}", f"{t.principal_masses[i]:.4f} m0 "
                           f"({kinds[i]}) along {_vec(t.principal_axes[:, i])}")
-        table.add_row("finite-difference check", f"relative difference {m.relative_difference:.1e}")
-        conv = ", ".join(f"{n}: {np.max(row):.4f}" for n, row in
-                         zip(m.convergence_counts, m.convergence_masses, strict=True))
-        table.add_row("largest mass vs states kept", conv)
+        if m.relative_difference is not None:
+            table.add_row("finite-difference check",
+                          f"relative difference {m.relative_difference:.1e}")
+            conv = ", ".join(f"{n}: {np.max(row):.4f}" for n, row in
+                             zip(m.convergence_counts, m.convergence_masses, strict=True))
+            table.add_row("largest mass vs states kept", conv)
         if m.valleys is not None:
             table.add_row("valleys", str(m.valleys))
         if m.dos_mass is not None:
@@ -155,13 +174,16 @@ def _masses_table(m, location: str, zero_eV: float) -> None:
             table.add_row("Luttinger γ1, γ2, γ3", f"{g1:.3f}, {g2:.3f}, {g3:.3f} (spinless "
                           "triplet; Γ8 hole formulas need spin–orbit)")
         for name, curv in e.direction_curvatures.items():
-            masses = ", ".join(f"{1 / abs(c):.4f}" for c in curv)
-            table.add_row(f"masses along {name}", f"{masses} m0 (bands of the set)")
+            signed = ", ".join(f"{c:+.4f}" for c in curv)
+            table.add_row(f"m0/m* along {name}", f"{signed} (bands of the set, signed)")
         if m.dos_mass is not None:
             table.add_row("density-of-states mass", f"{m.dos_mass:.4f} m0 (all bands of the set)")
             table.add_row(f"effective DOS at {m.temperature_K:g} K",
                           f"{m.effective_dos_cm3:.3e} cm⁻³")
     out.print(table)
+    out.print(m.summary)
+    if cp.warning:
+        out.print(f"warning: {cp.warning}")
 
 
 

@@ -15,7 +15,8 @@ from ...input.material import read_toml_document
 from ...io import write_json, write_table
 from ...output.plotting import sweep_figure
 from ...output.report import column_unit, document, sweep_results, sweep_table
-from ...runs.sweep import parse_axis, prepare, run_sweep
+from ...runs.sweep import prepare, run_sweep
+from ...runs.sweep_spec import parse_axis
 from ..options import (
     DEFAULT_OUT,
     BandsOption,
@@ -49,9 +50,10 @@ def sweep(
         "strain.xx|yy|zz|xy|xz|yz|hydrostatic and alloy.x (with --alloy-end). Repeat to vary "
         "several keys (all combinations).", show_default=False)],
     quantity: Annotated[list[str] | None, typer.Option(
-        "--quantity", metavar="edges|gaps|masses",
+        "--quantity", metavar="edges|gaps|masses|deformation",
         help="What to compute at each point: edges (band-edge energies, "
-        "positions, gaps), gaps (at the labelled points), masses (band-edge masses). "
+        "positions, gaps), gaps (at the labelled points), masses (band-edge masses), "
+        "deformation (deformation potentials at each point; needs --form-factors continuous). "
         "Repeatable; default edges and gaps.", show_default=False)] = None,
     point: Annotated[list[str] | None, typer.Option(
         "--point", metavar="LABEL",
@@ -166,4 +168,8 @@ def _sweep_summary(result) -> None:
                       f"{good.min():.5g}", f"{good.max():.5g}")
     out.print(table)
     out.print(f"{result.n_points} points, {len(result.failures)} failed; ran on {result.engine}")
+    outside = [t for t in result.text.get("faithful_window", []) if t.startswith("no")]
+    if outside:
+        out.print(f"{len(outside)} of {result.n_points} points lie outside the faithful window of "
+                  "the fitted v(q) (shells inside its taper; column faithful_window)")
 
