@@ -14,7 +14,7 @@ from ...errors import InputError
 from ...input.file_kind import file_kind
 from ...input.material import load_material
 from ...io import write_csv, write_json, write_table
-from ...output.plotting import band_figure
+from ...output.figures import band_figure
 from ...output.report import (
     band_structure_results,
     band_structure_table,

@@ -11,7 +11,7 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_csv, write_json
-from ...output.plotting import dos_figure
+from ...output.figures import dos_figure
 from ...output.report import document, dos_results, dos_table
 from ...runs.mesh_dos import compute_dos
 from ..options import (

@@ -11,7 +11,7 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_json
-from ...output.plotting import fullzone_figure
+from ...output.figures import fullzone_figure
 from ...output.report import document, fullzone_results
 from ...physics.fullzone import full_zone_kp
 from ..options import (

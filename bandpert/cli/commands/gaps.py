@@ -12,7 +12,7 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_json
-from ...output.plotting import gap_figure
+from ...output.figures import gap_figure
 from ...output.report import document, gap_results, gap_table
 from ...physics.bands import compute_band_structure
 from ...physics.nfe_gaps import gap_analysis, resolve_points

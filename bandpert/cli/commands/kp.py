@@ -13,7 +13,7 @@ from ...input.kp_file import load_kp_material
 from ...input.material import load_material
 from ...io import write_json
 from ...kp import CUBIC_DIRECTIONS, MODEL_NAMES, analyse_kp_material
-from ...output.plotting import kp_figure
+from ...output.figures import kp_figure
 from ...output.report import document, kp_results
 from ...physics.kp_from_planewave import exact_lines_from_gamma
 from ..options import (
