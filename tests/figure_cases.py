@@ -22,7 +22,8 @@ from bandpert.physics.nfe_gaps import gap_analysis
 from bandpert.physics.perturbative_bands import PerturbationSettings
 from bandpert.runs.execution import SERIAL
 from bandpert.runs.mesh_dos import compute_dos
-from bandpert.runs.sweep import parse_axis, prepare, run_sweep
+from bandpert.runs.sweep import prepare, run_sweep
+from bandpert.runs.sweep_spec import parse_axis
 
 
 def own_crystal() -> Material:

@@ -82,7 +82,8 @@ def test_error_axis_starts_near_the_smallest_meaningful_error(chain_comparison):
     assert styles.count("-") == styles.count("--") == len(groups)
     texts = [t.get_text() for t in fig.axes[1].get_legend().get_texts()]
     assert all(name in texts for name, _ in groups)
-    assert any("estimate" in t for t in texts) and any("exact" in t for t in texts)
+    assert any("estimate" in t or "bound" in t for t in texts)
+    assert any("exact" in t for t in texts)
 
 
 def test_validity_map_ticks_every_band_and_shows_undetermined_points(chain_comparison):
@@ -184,3 +185,59 @@ def test_sweep_with_many_points_has_no_markers():
                 lower_band=1)
     assert all(ln.get_marker() in (None, "None", "") for ax in fig.axes for ln in ax.lines
                if ln.get_label() != "failed point")
+
+
+def test_gap_figure_marks_an_order_that_fails_its_verdict(drawn):
+    # a report whose groups carry verdicts: the failing order is drawn dotted with crosses
+    from types import SimpleNamespace
+
+    from bandpert.physics.nfe_gaps import gap_analysis
+
+    m = bundled("cosine-chain")
+    bs = compute_band_structure(m, n_k=20, n_bands=4)
+    report = gap_analysis(m, model=bs.model, n_bands=4, crossings=False)
+    judged_verdicts = (SimpleNamespace(holds=True), SimpleNamespace(holds=False))
+
+    class Judged:
+        def __init__(self, g):
+            self._g = g
+
+        def __getattr__(self, name):
+            return getattr(self._g, name)
+
+        verdicts = judged_verdicts
+
+    judged = dataclasses.replace(report, points=tuple(
+        dataclasses.replace(p, groups=tuple(Judged(g) for g in p.groups))
+        for p in report.points))
+    fig = figures.gap_figure(bs, judged)
+    ax = fig.axes[0]
+    assert any(ln.get_marker() == "x" for ln in ax.lines)
+    assert any(t.get_text().endswith(", fails)") for t in ax.texts)
+    assert any("fails" in t.get_text() for t in ax.get_legend().get_texts())
+    assert text_problems(fig) == []
+
+
+def test_energy_window_options_of_every_figure_command(tmp_path):
+    import contextlib
+    import io
+
+    import bandpert.cli.app as cli
+
+    def run(args):
+        stdout, stderr = io.StringIO(), io.StringIO()
+        with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
+            with pytest.raises(SystemExit) as stop:
+                cli.main(args)
+        return stop.value.code or 0, stderr.getvalue()
+
+    for args in (["gaps", "cosine-chain", "--k-points", "10"],
+                 ["fullzone", "cosine-chain", "--basis", "4,8", "--k-points", "10"],
+                 ["kp", "gallium-arsenide"],
+                 ["dos", "cosine-chain", "--mesh", "16", "--engine", "serial"]):
+        code, err = run([*args, "--out", str(tmp_path), "--emin", "-1", "--emax", "2"])
+        assert code == 0, err
+    code, err = run(["gaps", "cosine-chain", "--emin", "2", "--emax", "1",
+                     "--out", str(tmp_path / "refused")])
+    assert code == 2 and "--emin" in err and len(err.splitlines()) == 1
+    assert not (tmp_path / "refused").exists()

@@ -90,16 +90,25 @@ def energy_label(kind: str, quantity: str = "Energy") -> str:
     return f"{quantity} − {ZERO_NAMES.get(kind, kind)} (eV)"
 
 
-def energy_limits(energies: np.ndarray, window: tuple[float, float] | None,
+def energy_limits(energies: np.ndarray,
+                  window: tuple[float | None, float | None] | None,
                   margin: float = 0.04) -> tuple[float, float]:
-    """``window`` if given, else the finite range of ``energies`` widened by ``margin``."""
-    if window is not None:
-        return float(window[0]), float(window[1])
+    """Limits of an energy axis: ``window`` where given, else the finite range of ``energies``
+    widened by ``margin`` (either end of ``window`` may be None: that end follows the data;
+    an end beyond the data's other end opens a 1 eV window from it)."""
     e = np.asarray(energies, dtype=float)
     e = e[np.isfinite(e)]
-    lo, hi = float(e.min()), float(e.max())
+    lo, hi = (float(e.min()), float(e.max())) if e.size else (0.0, 1.0)
     span = hi - lo if hi > lo else 1.0
-    return lo - margin * span, hi + margin * span
+    lo, hi = lo - margin * span, hi + margin * span
+    w_lo, w_hi = window if window is not None else (None, None)
+    if w_lo is not None and w_hi is not None:
+        return float(w_lo), float(w_hi)
+    if w_lo is not None:
+        return float(w_lo), max(hi, float(w_lo) + 1.0)
+    if w_hi is not None:
+        return min(lo, float(w_hi) - 1.0), float(w_hi)
+    return lo, hi
 
 
 def draw_path_axes(ax: Axes, distance: np.ndarray, label_indices: np.ndarray,

@@ -139,8 +139,9 @@ def comparison_figure(bs: BandStructure,
     (Löwdin) treatment was used, filled blue where trustworthy and hollow orange where not.
     Middle: on a log scale in meV, per band group (:func:`band_groups`), the largest true
     error |E_pert − E_exact| (solid, when the exact bands were computed) and the largest error
-    estimate (dashed), with the tolerance. Bottom: the validity map, one row per band, blue
-    where trustworthy, orange where not, grey where undetermined (:func:`validity_states`).
+    bound or estimate (dashed; gaps where it cannot vouch), with the tolerance. Bottom: the
+    validity map, one row per band, blue where trustworthy, orange where not, grey where
+    undetermined (:func:`validity_states`).
 
     Parameters
     ----------
@@ -194,7 +195,12 @@ def _error_panel(ax: Axes, bs: BandStructure) -> None:
     pb = bs.perturbative
     x = bs.path.distance_invA
     tol_meV = pb.settings.tolerance_eV * 1e3
-    est = pb.error_estimate_eV * 1e3
+    # a proven bound, where the bands carry one, else the estimate; where it cannot vouch
+    # (infinite) nothing is drawn
+    bound = getattr(pb, "error_bound_eV", None)
+    est_name = "error estimate" if bound is None else "proven error bound"
+    est = np.asarray(pb.error_estimate_eV if bound is None else bound, dtype=float) * 1e3
+    est = np.where(np.isfinite(est), est, np.nan)
     true = None if bs.comparison is None else bs.comparison.abs_error_eV * 1e3
     shown = [v[np.isfinite(v) & (v > 0)] for v in (est, true) if v is not None]
     values = np.concatenate(shown) if shown else np.array([tol_meV])
@@ -208,8 +214,8 @@ def _error_panel(ax: Axes, bs: BandStructure) -> None:
     handles = []
     for i, (name, bands) in enumerate(band_groups(bs)):
         colour = style.GROUP_COLOURS[i % len(style.GROUP_COLOURS)]
-        finite_est = np.where(np.isfinite(est[:, bands]), est[:, bands], top)
-        ax.plot(x, np.clip(finite_est.max(axis=1), floor, top), ls="--", lw=1.0, color=colour)
+        ax.plot(x, np.clip(np.fmax.reduce(est[:, bands], axis=1), floor, top), ls="--", lw=1.0,
+                color=colour)
         if true is not None:
             ax.plot(x, np.clip(true[:, bands].max(axis=1), floor, top), ls="-", lw=1.2,
                     color=colour)
@@ -219,7 +225,7 @@ def _error_panel(ax: Axes, bs: BandStructure) -> None:
         handles.append(Line2D([], [], color="0.2", lw=1.2, ls="-",
                               label="|perturbative − exact|\n(largest in the group)"))
     handles.append(Line2D([], [], color="0.2", lw=1.0, ls="--",
-                          label="error estimate\n(largest in the group)"))
+                          label=f"{est_name}\n(largest in the group)"))
     handles.append(Line2D([], [], color=style.WARNING_COLOUR, lw=0.9, ls=":",
                           label=f"tolerance {tol_meV:g} meV"))
     ax.set_yscale("log")

@@ -19,7 +19,7 @@ EXACT_GAP_COLOUR = "#b23a48"
 
 
 def annotate_gaps(ax: Axes, report, energy_zero_eV: float = 0.0, *,
-                  crossings: bool | None = None, label_fraction: float = 0.01) -> None:
+                  crossings: bool | None = None, label_fraction: float = 0.01) -> bool:
     """Mark predicted against exact gaps at the examined points of a band plot.
 
     For every splitting of a free-electron degeneracy that is open in the exact levels
@@ -30,7 +30,9 @@ def annotate_gaps(ax: Axes, report, energy_zero_eV: float = 0.0, *,
     ``label_fraction`` of the energy axis are labelled ``exact (2nd order)`` in eV where the
     label fits: inside the axes, off the band lines (lines with gid ``"band"``) and off the
     labels already placed; the largest gaps are placed first, the others stay unlabelled.
-    Crossings between labelled points are drawn thinner and unlabelled.
+    Crossings between labelled points are drawn thinner and unlabelled. Where the group
+    carries verdicts (``verdicts``: one per order, ``holds``), a failing order is drawn
+    dotted with crosses and its label says "fails".
 
     Parameters
     ----------
@@ -43,11 +45,17 @@ def annotate_gaps(ax: Axes, report, energy_zero_eV: float = 0.0, *,
         Draw the crossings of the report (default: every point the report holds).
     label_fraction : float
         Smallest exact gap labelled, as a fraction of the energy axis.
+
+    Returns
+    -------
+    bool
+        Whether any order failed its verdict.
     """
     x_lo, x_hi = ax.get_xlim()
     y_lo, y_hi = ax.get_ylim()
     dx = 0.012 * (x_hi - x_lo)
     candidates = []
+    failing = False
     for p in report.points:
         crossing = p.kind == KIND_CROSSING
         if crossing and crossings is False:
@@ -61,25 +69,33 @@ def annotate_gaps(ax: Axes, report, energy_zero_eV: float = 0.0, *,
             elif right > x_hi:
                 left, right = x - 2 * dx, x - dx
             for g in p.groups:
+                verdicts = getattr(g, "verdicts", None)
+                holds = (True, True) if verdicts is None else tuple(v.holds for v in verdicts)
+                failing |= not all(holds)
                 for j in np.flatnonzero(g.open_gaps):
                     ex = g.exact_eV[j:j + 2] - energy_zero_eV
                     ax.plot([x, x], ex, color=EXACT_GAP_COLOUR, lw=2.4 * scale, alpha=0.75,
                             solid_capstyle="butt", zorder=6)
-                    for xs, lev, colour in ((left, g.first_order_eV, FIRST_ORDER_COLOUR),
-                                            (right, g.second_order_eV, SECOND_ORDER_COLOUR)):
+                    for xs, lev, colour, ok in (
+                            (left, g.first_order_eV, FIRST_ORDER_COLOUR, holds[0]),
+                            (right, g.second_order_eV, SECOND_ORDER_COLOUR, holds[1])):
                         e = lev[j:j + 2] - energy_zero_eV
-                        ax.plot([xs, xs], e, color=colour, lw=0.7 * scale, zorder=6)
-                        ax.plot([xs, xs], e, ls="none", marker="_", ms=6 * scale, mew=1.2,
-                                color=colour, zorder=6)
+                        # an order whose verdict fails: dotted, with crosses at its levels
+                        ax.plot([xs, xs], e, color=colour, lw=0.7 * scale, zorder=6,
+                                ls="-" if ok else ":")
+                        ax.plot([xs, xs], e, ls="none", marker="_" if ok else "x",
+                                ms=(6 if ok else 4) * scale, mew=1.2, color=colour, zorder=6)
                     gap = ex[1] - ex[0]
                     if not crossing and gap > label_fraction * (y_hi - y_lo) \
                             and y_lo < ex.mean() < y_hi:
                         pred = g.second_order_eV[j + 1] - g.second_order_eV[j]
                         candidates.append((gap, x, left, right, ex.mean(),
-                                           f"{gap:.2f} ({pred:.2f})"))
+                                           f"{gap:.2f} ({pred:.2f}"
+                                           + (")" if holds[1] else ", fails)")))
     ax.set_xlim(x_lo, x_hi)
     ax.set_ylim(y_lo, y_hi)
     _place_labels(ax, sorted(candidates, key=lambda c: -c[0]), dx)
+    return failing
 
 
 def _place_labels(ax: Axes, candidates: list, dx: float) -> None:
@@ -165,9 +181,13 @@ def gap_figure(bs: BandStructure, report,
     ]
     if crossings is False or not any(p.kind == KIND_CROSSING for p in report.points):
         del handles[2]
-    style.legend_outside(ax, handles, title="labels: exact (second-order)\ngap in eV, "
-                         "where they fit")
     ax.set_title(f"{bs.material.name}: gaps at free-electron degeneracies",
                  fontsize=style.TITLE_SIZE)
+    if any(not v.holds for p in report.points for g in p.groups
+           for v in getattr(g, "verdicts", ())):
+        handles.append(Line2D([], [], color="0.3", marker="x", ms=4, mew=1.2, lw=0.7, ls=":",
+                              label="an order that fails\nits verdict"))
+    style.legend_outside(ax, handles, title="labels: exact (second-order)\ngap in eV, "
+                         "where they fit")
     annotate_gaps(ax, report, bs.energy_zero_eV, crossings=crossings)
     return fig
