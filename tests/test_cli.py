@@ -76,18 +76,19 @@ OPTIONS = {
               "--no-exact", "--exact-only", "--help"],
     "check": ["--cutoff-eV", "--help"],
     "gaps": ["--json", "--name", "--point", "--crossings", "--bands", "--cutoff-eV", "--out",
-             "--k-points", "--format", "--help"],
+             "--k-points", "--format", "--emin", "--emax", "--help"],
     "masses": ["--point", "--band", "--temperature", "--cutoff-eV", "--json", "--name", "--out",
                "--write-kp", "--help"],
-    "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--name", "--help"],
+    "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--name", "--emin",
+           "--emax", "--help"],
     "fullzone": ["--basis", "--k-points", "--bands", "--out", "--format", "--json", "--name",
-                 "--help"],
+                 "--emin", "--emax", "--help"],
     "sweep": ["--vary", "--quantity", "--point", "--between", "--form-factors", "--basis",
               "--alloy-end", "--k-points", "--bands", "--cutoff-eV", "--temperature", "--engine",
               "--workers", "--scheduler", "--out", "--format", "--json", "--name", "--help"],
     "dos": ["--mesh", "--method", "--smearing-eV", "--step-meV", "--bands", "--cutoff-eV",
             "--engine", "--workers", "--scheduler", "--out", "--format", "--json", "--name",
-            "--help"],
+            "--emin", "--emax", "--help"],
 }
 
 

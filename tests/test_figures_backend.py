@@ -13,10 +13,10 @@ SCRIPT = """
 import sys
 import matplotlib
 matplotlib.use("svg")                      # the user's choice, e.g. a notebook's backend
-import bandpert.output.plotting, bandpert.cli.app
+import bandpert.output.figures, bandpert.cli.app
 from bandpert.input.material import load_material
 from bandpert.physics.bands import compute_band_structure
-from bandpert.output.plotting import band_figure
+from bandpert.output.figures import band_figure
 m = load_material("cosine-chain")
 fig = band_figure(compute_band_structure(m, n_k=8, n_bands=3))
 assert matplotlib.get_backend() == "svg", matplotlib.get_backend()

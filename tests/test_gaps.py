@@ -415,7 +415,7 @@ def test_gaps_command_points_and_errors(tmp_path):
 
 
 def test_annotation_marks_exact_and_predicted_gaps():
-    from bandpert.output.plotting import EXACT_GAP_COLOUR, gap_figure
+    from bandpert.output.figures.gaps import EXACT_GAP_COLOUR, gap_figure
     from bandpert.physics.bands import compute_band_structure
 
     m = cosine_chain(0.5)

@@ -48,6 +48,12 @@ BandsOption = Annotated[int | None, typer.Option(
     "--bands", help="Bands computed (default: the file's basis.bands, else occupied + 4).",
     show_default=False)]
 PlotCsvJsonDir = Annotated[Path, typer.Option("--out", help="Folder for the plot, CSV and JSON.")]
+EMinOption = Annotated[float | None, typer.Option(
+    "--emin", help="Lower energy limit of the plot (eV from the energy zero).",
+    show_default=False)]
+EMaxOption = Annotated[float | None, typer.Option(
+    "--emax", help="Upper energy limit of the plot (eV from the energy zero).",
+    show_default=False)]
 CutoffOption = Annotated[float | None, typer.Option(
     "--cutoff-eV", help="Plane-wave kinetic-energy cutoff in eV (default: the file's, else a "
     "converged one).", show_default=False)]
@@ -179,3 +185,13 @@ def require_kind(file: Path, wanted: str, command: str) -> None:
         raise InputError(f"this is a {KIND_NAMES[got]}, but `bandpert {command}` reads "
                          f"{KIND_NAMES[wanted]}s; give it to bandpert {COMMANDS_BY_KIND[got]}",
                          str(file))
+
+
+def energy_window(e_min: float | None, e_max: float | None
+                  ) -> tuple[float | None, float | None] | None:
+    """The plot's energy window from --emin/--emax (an end left out follows the data)."""
+    if e_min is None and e_max is None:
+        return None
+    if e_min is not None and e_max is not None and e_min >= e_max:
+        raise InputError(f"--emin {e_min} must be below --emax {e_max}", key="--emin")
+    return e_min, e_max

@@ -1,6 +1,6 @@
 """The figure of k·p bands along L–Γ–X | Γ–K near Γ (:func:`bandpert.kp.bands_along_path`).
 
-Kept beside :mod:`bandpert.output.plotting` (same object API, colours and line styles of the
+Kept beside :mod:`bandpert.output.figures.kp` (same object API, colours and line styles of the
 k·p models) so the two can be merged when the house style settles.
 """
 
@@ -12,7 +12,8 @@ import numpy as np
 from matplotlib.figure import Figure
 
 from ..kp.bands import BAND_SHORT_NAMES, PathBands
-from .plotting import KP_STYLES, draw_leg_lines, draw_path_axes
+from .figures.kp import KP_STYLES
+from .style import draw_leg_lines, draw_path_axes
 
 __all__ = ["kp_path_figure"]
 
@@ -39,7 +40,7 @@ def kp_path_figure(bands: PathBands, material_name: str, source: str,
     ax = fig.subplots()
     x = bands.distance_2pi_a
     for name in bands.models:
-        colour, style = KP_STYLES.get(name, ("0.3", "-"))
+        colour, style, _ = KP_STYLES.get(name, ("0.3", "-", 1.2))
         draw_leg_lines(ax, x, bands.energies_eV[name], bands.leg_starts, color=colour, ls=style,
                        lw=1.3, label=name)
     draw_path_axes(ax, x, bands.label_indices, bands.labels)

@@ -14,7 +14,7 @@ from ...errors import InputError
 from ...input.file_kind import file_kind
 from ...input.material import load_material
 from ...io import write_csv, write_json, write_table
-from ...output.plotting import band_figure
+from ...output.figures import band_figure
 from ...output.report import (
     band_structure_results,
     band_structure_table,
@@ -33,11 +33,14 @@ from ...physics.perturbative_bands import (
 from ..options import (
     DEFAULT_OUT,
     CutoffOption,
+    EMaxOption,
+    EMinOption,
     FormatOption,
     ImageFormat,
     MaterialFile,
     PlotCsvJsonDir,
     check_count,
+    energy_window,
     json_option,
     name_option,
     out,
@@ -69,12 +72,8 @@ def bands(
     name: Annotated[str | None, name_option("<file>-bands; with --exact-only "
                                             "<file>-exact-bands; with --no-exact "
                                             "<file>-perturbative-bands")] = None,
-    e_min: Annotated[float | None, typer.Option("--emin", help="Lower energy limit of the plot "
-                                                "(eV from the energy zero).",
-                                                show_default=False)] = None,
-    e_max: Annotated[float | None, typer.Option("--emax", help="Upper energy limit of the plot "
-                                                "(eV from the energy zero).",
-                                                show_default=False)] = None,
+    e_min: EMinOption = None,
+    e_max: EMaxOption = None,
     order: Annotated[int, typer.Option("--order", help="Perturbation order in λ (1 to 6).")]
     = 2,
     threshold: Annotated[float, typer.Option("--threshold", help="Coupling ratio |V_mn|/|E_m−E_n| "
@@ -117,18 +116,12 @@ def bands(
     settings_p = None if exact_only else PerturbationSettings(
         order=order, coupling_threshold=threshold, tolerance_eV=tolerance_meV * 1e-3,
         radius_points=radius_points)
+    window = energy_window(e_min, e_max)
     material = load_material(file)
     with progress_bar("diagonalising") as progress:
         bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV,
                                     progress=progress, exact=not no_exact,
                                     perturbation=settings_p)
-    window = None
-    if e_min is not None or e_max is not None:
-        e = bs.relative_energies_eV
-        window = (e.min() - 0.5 if e_min is None else e_min, e.max() + 0.5 if e_max is None
-                  else e_max)
-        if window[0] >= window[1]:
-            raise InputError(f"--emin {window[0]} must be below --emax {window[1]}", key="--emin")
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "real_hamiltonian": bs.model.is_real, "exact": not no_exact,

@@ -11,13 +11,15 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_csv, write_json
-from ...output.plotting import dos_figure
+from ...output.figures import dos_figure, smearing_warning
 from ...output.report import document, dos_results, dos_table
 from ...runs.mesh_dos import compute_dos
 from ..options import (
     DEFAULT_OUT,
     BandsOption,
     CutoffOption,
+    EMaxOption,
+    EMinOption,
     EngineKind,
     EngineOption,
     FormatOption,
@@ -27,7 +29,9 @@ from ..options import (
     SchedulerOption,
     WorkersOption,
     check_count,
+    energy_window,
     engine_from_options,
+    err,
     json_option,
     name_option,
     out,
@@ -57,6 +61,8 @@ def dos(
     scheduler: SchedulerOption = None,
     out_dir: PlotCsvJsonDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
+    e_min: EMinOption = None,
+    e_max: EMaxOption = None,
     json_path: Annotated[Path | None, json_option("dos")] = None,
     name: Annotated[str | None, name_option("<file>-dos")] = None,
 ) -> None:
@@ -74,6 +80,7 @@ def dos(
     if not smearing_eV > 0:
         raise InputError(f"must be positive, got {smearing_eV}", key="--smearing-eV")
     run_on = engine_from_options(engine, workers, scheduler)
+    window = energy_window(e_min, e_max)
     material = load_material(file)
     with progress_bar("diagonalising on the mesh") as progress:
         result = compute_dos(material, mesh, method=method, smearing_eV=smearing_eV,
@@ -86,7 +93,7 @@ def dos(
                 "engine": result.engine}
     image, csv_path, json_path = output_paths(output_base(out_dir, name, f"{file.stem}-dos"),
                                               image_format, json_path)
-    fig = dos_figure(result)
+    fig = dos_figure(result, window)
     save_figure(fig, image, image_format)
     write_csv(csv_path, *dos_table(result))
     write_json(json_path, document("dos", material, settings, dos_results(result)))
@@ -107,5 +114,7 @@ def dos(
     table.add_row("complete below", f"{result.complete_below_eV:.3f} eV (absolute)")
     table.add_row("ran on", result.engine)
     out.print(table)
+    if smearing_warning(result):
+        err.print(f"bandpert: warning: {smearing_warning(result)}", highlight=False)
     out.print(f"wrote {image}, {csv_path}, {json_path}")
 

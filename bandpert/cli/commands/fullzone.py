@@ -11,16 +11,19 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_json
-from ...output.plotting import fullzone_figure
+from ...output.figures import fullzone_figure
 from ...output.report import document, fullzone_results
 from ...physics.fullzone import full_zone_kp
 from ..options import (
     DEFAULT_OUT,
+    EMaxOption,
+    EMinOption,
     FormatOption,
     ImageFormat,
     MaterialFile,
     OutDir,
     check_count,
+    energy_window,
     json_option,
     name_option,
     out,
@@ -44,6 +47,8 @@ def fullzone(
                                                 show_default=False)] = None,
     out_dir: OutDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
+    e_min: EMinOption = None,
+    e_max: EMaxOption = None,
     json_path: Annotated[Path | None, json_option("fullzone")] = None,
     name: Annotated[str | None, name_option("<file>-fullzone")] = None,
 ) -> None:
@@ -59,10 +64,11 @@ def fullzone(
         raise InputError("expected positive numbers of states", key="--basis")
     check_count(k_points, "--k-points", 2)
     require_kind(file, "planewave", "fullzone")
+    window = energy_window(e_min, e_max)
     material = load_material(file)
     result = full_zone_kp(material, sizes, n_k=k_points, n_bands=n_bands)
     bs, conv = result.exact, result.convergence
-    fig = fullzone_figure(bs, conv)
+    fig = fullzone_figure(bs, conv, energy_window_eV=window)
     image, _, json_path = output_paths(output_base(out_dir, name, f"{file.stem}-fullzone"),
                                        image_format, json_path)
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,

@@ -12,17 +12,20 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_json
-from ...output.plotting import gap_figure
+from ...output.figures import gap_figure
 from ...output.report import document, gap_results, gap_table
 from ...physics.bands import compute_band_structure
 from ...physics.nfe_gaps import gap_analysis, resolve_points
 from ..options import (
     DEFAULT_OUT,
     CutoffOption,
+    EMaxOption,
+    EMinOption,
     FormatOption,
     ImageFormat,
     MaterialFile,
     check_count,
+    energy_window,
     json_option,
     name_option,
     out,
@@ -58,6 +61,8 @@ def gaps(
     = DEFAULT_OUT,
     k_points: Annotated[int, typer.Option("--k-points", help="k-points of the band plot.")] = 200,
     image_format: FormatOption = ImageFormat.png,
+    e_min: EMinOption = None,
+    e_max: EMaxOption = None,
 ) -> None:
     """Gaps at free-electron degeneracies: degenerate perturbation theory against exact levels.
 
@@ -71,6 +76,7 @@ def gaps(
     check_count(n_bands, "--bands", 1)
     if cutoff_eV is not None and not cutoff_eV > 0:
         raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
+    window = energy_window(e_min, e_max)
     material = load_material(file)
     resolve_points(material, point)  # refuse a bad --point before the diagonalisation
     search = (not point) if crossings is None else crossings
@@ -87,7 +93,7 @@ def gaps(
     doc = document("gaps", material, settings, gap_results(report, bs))
     image, _, json_path = output_paths(output_base(out_dir, name, f"{file.stem}-gaps"),
                                        image_format, json_path)
-    fig = gap_figure(bs, report)
+    fig = gap_figure(bs, report, window)
     save_figure(fig, image, image_format)
     write_json(json_path, doc)
 

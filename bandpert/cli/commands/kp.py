@@ -13,14 +13,17 @@ from ...input.kp_file import load_kp_material
 from ...input.material import load_material
 from ...io import write_json
 from ...kp import CUBIC_DIRECTIONS, MODEL_NAMES, analyse_kp_material
-from ...output.plotting import kp_figure
+from ...output.figures import kp_figure
 from ...output.report import document, kp_results
 from ...physics.kp_from_planewave import exact_lines_from_gamma
 from ..options import (
     DEFAULT_OUT,
+    EMaxOption,
+    EMinOption,
     FormatOption,
     ImageFormat,
     OutDir,
+    energy_window,
     json_option,
     name_option,
     out,
@@ -47,6 +50,8 @@ def kp(
                                          "of 2π/a.")] = 0.1,
     out_dir: OutDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
+    e_min: EMinOption = None,
+    e_max: EMaxOption = None,
     json_path: Annotated[Path | None, json_option("kp")] = None,
     name: Annotated[str | None, name_option("<file>-kp, without a doubled -kp")] = None,
 ) -> None:
@@ -60,6 +65,7 @@ def kp(
     if model_name is not None and model_name not in MODEL_NAMES:
         raise InputError(f"'{model_name}' is not one of {', '.join(MODEL_NAMES)}", key="--model")
     require_kind(file, "kp", "kp")
+    window = energy_window(e_min, e_max)
     kpm = load_kp_material(file)
     analysis = analyse_kp_material(kpm, (model_name,) if model_name else None, k_max)
     lines = None if compare is None else exact_lines_from_gamma(load_material(compare), k_max)
@@ -68,7 +74,8 @@ def kp(
     doc = document("kp", kpm, settings, results)
     exact = None if lines is None else {d: (lines.k_frac, e) for d, e in lines.energies_eV.items()}
     fig = kp_figure(kpm.name, kpm.source, {n: m.lines for n, m in analysis.models.items()}, exact,
-                    "" if compare is None else f"{Path(compare).stem} (plane-wave, exact)")
+                    "" if compare is None else f"{Path(compare).stem} (plane-wave, exact)",
+                    energy_window_eV=window)
     default = file.stem if file.stem.endswith("-kp") else f"{file.stem}-kp"
     image, _, json_path = output_paths(output_base(out_dir, name, default), image_format,
                                        json_path)

@@ -13,7 +13,7 @@ from ...data import find_material
 from ...errors import InputError
 from ...input.material import read_toml_document
 from ...io import write_json, write_table
-from ...output.plotting import sweep_figure
+from ...output.figures import sweep_figure
 from ...output.report import column_unit, document, sweep_results, sweep_table
 from ...runs.sweep import prepare, run_sweep
 from ...runs.sweep_spec import parse_axis

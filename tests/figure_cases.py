@@ -1,0 +1,143 @@
+"""Figures of every command, built small (few k-points) for the text-layout tests.
+
+Each builder returns a :class:`matplotlib.figure.Figure` drawn the way the command draws it.
+``python tests/figure_cases.py DIR`` writes them all as PNG files for a look.
+"""
+
+from __future__ import annotations
+
+import sys
+from pathlib import Path
+
+import numpy as np
+from conftest import MATERIALS, bundled, make_material
+
+from bandpert.input.kp_file import load_kp_material
+from bandpert.input.material import Material, read_toml_document
+from bandpert.kp.bands import bands_along
+from bandpert.output import figures
+from bandpert.physics.bands import compute_band_structure
+from bandpert.physics.fullzone import kp_convergence
+from bandpert.physics.nfe_gaps import gap_analysis
+from bandpert.physics.perturbative_bands import PerturbationSettings
+from bandpert.runs.execution import SERIAL
+from bandpert.runs.mesh_dos import compute_dos
+from bandpert.runs.sweep import prepare, run_sweep
+from bandpert.runs.sweep_spec import parse_axis
+
+
+def own_crystal() -> Material:
+    """A bcc crystal of the tests' own with a strong local potential (two Fourier shells)."""
+    return make_material({"type": "bcc", "a_A": 3.3}, [{"species": "X", "position": [0, 0, 0]}],
+                         {"form": "fourier", "unit": "eV", "coefficients": [
+                             {"miller": [1, 1, 0], "value": -1.2},
+                             {"miller": [2, 0, 0], "value": 0.6}]},
+                         electrons={"valence": 2})
+
+
+def bands_exact(m: Material, n_k: int = 30, window=None):
+    return figures.band_figure(compute_band_structure(m, n_k=n_k), window)
+
+
+def bands_comparison(m: Material, n_k: int = 30, window=None):
+    bs = compute_band_structure(m, n_k=n_k, perturbation=PerturbationSettings(radius_points=4))
+    return figures.band_figure(bs, window)
+
+
+def gaps(m: Material, n_k: int = 30, crossings: bool = False, cutoff_eV: float | None = None):
+    bs = compute_band_structure(m, n_k=n_k, cutoff_eV=cutoff_eV)
+    report = gap_analysis(m, model=bs.model, n_bands=bs.n_bands, crossings=crossings)
+    return figures.gap_figure(bs, report)
+
+
+def kp(name: str = "gallium-arsenide", window=None):
+    kpm = load_kp_material(name)
+    dirs = {"[001]": "001", "[110]": "110", "[111]": "111"}
+    plotted = {name: {label: bands_along(kpm.model(name), d, k_max_frac=0.1, n_k=41)
+                      for label, d in dirs.items()} for name in kpm.models}
+    return figures.kp_figure(kpm.name, kpm.source, plotted, energy_window_eV=window)
+
+
+def fullzone(m: Material, n_k: int = 30):
+    bs = compute_band_structure(m, n_k=n_k)
+    conv = kp_convergence(bs.model, np.zeros(m.dimension), bs.path.k_cart_invA, bs.n_bands,
+                          (10, 20), exact_eV=bs.energies_eV)
+    return figures.fullzone_figure(bs, conv)
+
+
+def sweep(stem: str, vary: tuple[str, ...], quantities=("edges", "gaps"), n_k: int = 12,
+          **options):
+    path = MATERIALS / f"{stem}.toml"
+    spec, _, note = prepare(read_toml_document(path), str(path),
+                            tuple(parse_axis(v) for v in vary), quantities=quantities, n_k=n_k,
+                            **options)
+    return figures.sweep_figure(run_sweep(spec, SERIAL, None, note))
+
+
+def dos(m: Material, mesh: int = 6, method: str = "tetrahedron", smearing_eV: float = 0.05):
+    return figures.dos_figure(compute_dos(m, mesh, method=method, smearing_eV=smearing_eV,
+                                          energy_step_eV=0.02))
+
+
+def all_cases() -> dict:
+    """Name → zero-argument builder of every command's figure on a few crystals."""
+    own = own_crystal
+    return {
+        "bands-silicon": lambda: bands_exact(bundled("silicon")),
+        "bands-own": lambda: bands_exact(own()),
+        "comparison-silicon": lambda: bands_comparison(bundled("silicon")),
+        "comparison-aluminium": lambda: bands_comparison(bundled("aluminium")),
+        "comparison-chain": lambda: bands_comparison(bundled("cosine-chain"), 60),
+        "comparison-own": lambda: bands_comparison(own()),
+        # a small basis keeps the gap search fast; the layout is what is tested
+        "gaps-silicon": lambda: gaps(bundled("silicon"), cutoff_eV=60.0),
+        "gaps-gaas": lambda: gaps(bundled("gallium-arsenide"), cutoff_eV=60.0),
+        "gaps-own": lambda: gaps(own(), crossings=True),
+        "kp-gaas": lambda: kp("gallium-arsenide"),
+        "kp-inp": lambda: kp("indium-phosphide"),
+        "fullzone-chain": lambda: fullzone(bundled("cosine-chain")),
+        "fullzone-own": lambda: fullzone(own()),
+        "sweep-silicon": lambda: sweep("silicon", ("lattice.a_A=5.3:5.5:3",)),
+        "sweep-chain": lambda: sweep("cosine-chain",
+                                     ("potential.coefficients[0].value=0.2:2.0:4",),
+                                     ("gaps",), 12, lower_band=1),
+        "dos-aluminium": lambda: dos(bundled("aluminium")),
+        "dos-silicon": lambda: dos(bundled("silicon"), method="gaussian", smearing_eV=0.01),
+        "dos-own": lambda: dos(own()),
+    }
+
+
+def text_problems(fig) -> list[str]:
+    """Pairs of overlapping text labels, and labels that leave the figure (none is allowed).
+
+    Every visible text is measured by matplotlib's renderer
+    (:func:`bandpert.output.style.text_boxes`): tick labels, axis labels, titles, legend
+    entries, annotations and notes. A 0.5-pixel tolerance absorbs rounding.
+    """
+    from bandpert.output.style import text_boxes
+
+    boxes = text_boxes(fig)
+    w, h = fig.canvas.get_width_height()
+    problems = []
+    for t, b in boxes:
+        if b.x0 < -0.5 or b.y0 < -0.5 or b.x1 > w + 0.5 or b.y1 > h + 0.5:
+            problems.append(f"{t.get_text()!r} leaves the figure ({b.bounds} in {w}×{h})")
+    for i, (t1, b1) in enumerate(boxes):
+        for t2, b2 in boxes[i + 1:]:
+            dx = min(b1.x1, b2.x1) - max(b1.x0, b2.x0)
+            dy = min(b1.y1, b2.y1) - max(b1.y0, b2.y0)
+            if dx > 0.5 and dy > 0.5:
+                problems.append(f"{t1.get_text()!r} overlaps {t2.get_text()!r}")
+    return problems
+
+
+if __name__ == "__main__":
+    out = Path(sys.argv[1] if len(sys.argv) > 1 else "figs")
+    out.mkdir(exist_ok=True)
+    only = sys.argv[2:]
+    for name, build in all_cases().items():
+        if only and not any(o in name for o in only):
+            continue
+        fig = build()
+        fig.savefig(out / f"{name}.png", dpi=110)
+        print("wrote", out / f"{name}.png", *text_problems(fig), sep="\n  ")
