@@ -14,6 +14,7 @@ from .. import __version__
 from ..input.material import Material
 from ..kp.parameters import dkk_with_free_electron
 from ..physics.bands import BandStructure
+from ..physics.nfe_gaps import POOR_MATCH_WEIGHT, REASON_COUPLED, REASON_TAGS, VERDICT_RULE
 
 
 def document(command: str, material: Material, settings: dict[str, Any],
@@ -203,7 +204,6 @@ def gap_results(report, bs: BandStructure | None = None) -> dict[str, Any]:
     ``report`` is a :class:`bandpert.gaps.GapReport`; with ``bs`` (the band structure drawn
     beside it) its energy zero is stated too. Energies are absolute (the model's zero).
     """
-    from ..physics.nfe_gaps import VERDICT_RULE
 
     a = report.material.a_A
     points = []
@@ -252,7 +252,6 @@ def _gap_list(values: np.ndarray) -> str:
 
 def _coupling_summary(group, a_A: float) -> str:
     """Distinct couplings of a group by shell: ``(1,1,1) 0.244`` or ``(2,0,0) 0 SF``."""
-    from ..physics.nfe_gaps import REASON_COUPLED, REASON_TAGS
 
     seen: dict[tuple, str] = {}
     for m, g, s, v, r in zip(group.coupling_miller, group.coupling_g_cart_invA,
@@ -283,7 +282,6 @@ def gap_table(report) -> tuple[list[tuple[str, list[str], list[list[str]]]], lis
     splitting error in eV and in % of the exact splitting), the exact multiplets and the lowest
     order that opens every open splitting.
     """
-    from ..physics.nfe_gaps import POOR_MATCH_WEIGHT, REASON_TAGS, VERDICT_RULE
 
     ccols = ["point", "E0 (eV)", "g", "V(G−G′) (eV)", "why closed"]
     gcols = ["point", "E0 (eV)", "g", "1st", "2nd", "exact", "1st verdict", "2nd verdict",
