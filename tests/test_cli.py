@@ -505,7 +505,7 @@ def test_mass_points_get_their_own_default_names(tmp_path):
 def test_readme_figures_are_the_ones_the_script_regenerates():
     # Every figure the README shows is written by docs/figures/regenerate.py under that name,
     # with the very command the README prints beside it.
-    root = pathlib.Path(cli.__file__).parents[2]
+    root = pathlib.Path(__file__).resolve().parents[1]  # the checkout, also when installed
     spec = importlib.util.spec_from_file_location("regenerate",
                                                   root / "docs" / "figures" / "regenerate.py")
     regenerate = importlib.util.module_from_spec(spec)
@@ -539,7 +539,7 @@ def test_help_lists_choices_and_hides_flag_metavars():
 
 def test_the_readme_python_example_uses_the_top_level_api():
     # Every `bp.NAME` the README's notebook example calls is exported by `bandpert` itself.
-    readme = (pathlib.Path(cli.__file__).parents[2] / "README.md").read_text(encoding="utf-8")
+    readme = (pathlib.Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
     used = set(re.findall(r"\bbp\.(\w+)\(", readme))
     assert {"load_material", "compute_band_structure", "edge_masses", "gap_analysis"} <= used
     assert used <= set(bandpert.__all__), used - set(bandpert.__all__)
