@@ -58,5 +58,7 @@ if __name__ == "__main__":
     with tempfile.TemporaryDirectory() as tmp:
         for case in CASES:
             doc = run_case(case, Path(tmp))
-            (HERE / f"{case}.json").write_text(json.dumps(doc, indent=1, ensure_ascii=False))
+            text = json.dumps(doc, indent=1, ensure_ascii=False)
+            text = text.replace(str(HERE.parent.parent) + "/", "")  # repository-relative paths
+            (HERE / f"{case}.json").write_text(text)
             print("wrote", case)
