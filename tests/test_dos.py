@@ -14,7 +14,7 @@ from scipy.integrate import quad
 from bandpert.crystal.kmesh import KMesh, full_grid_frac, reciprocal_mesh
 from bandpert.crystal.lattice import point_group_rotations
 from bandpert.errors import InputError
-from bandpert.physics import dos
+from bandpert.physics import dos, tetrahedra
 from bandpert.planewave.model import build_model
 from bandpert.planewave.solver import exact_energies
 from bandpert.units import HBAR2_OVER_2M0_EV_A2 as C
@@ -332,20 +332,20 @@ def test_one_simplex_integrates_to_its_weight(m, corners):
     # ∫ D dε over a simplex = 1 (its whole weight) and D = dN/dε (Blöchl, Jepsen & Andersen,
     # Phys. Rev. B 49, 16223 (1994), Appendix A: the formulas are a CDF and its density).
     e = np.sort(np.array(corners[:m]))
-    f_lo, _ = dos.simplex_occupation(e, e[0] - 1e-9)
-    f_hi, _ = dos.simplex_occupation(e, e[-1])
+    f_lo, _ = tetrahedra.simplex_occupation(e, e[0] - 1e-9)
+    f_hi, _ = tetrahedra.simplex_occupation(e, e[-1])
     assert f_lo == 0.0 and f_hi == 1.0
     if e[-1] - e[0] < 1e-6:
         return  # a flat simplex: a δ-function, nothing to integrate on a grid
-    density = lambda x: float(dos.simplex_occupation(e, x)[1])
+    density = lambda x: float(tetrahedra.simplex_occupation(e, x)[1])
     inner = [x for x in e[1:-1] if e[0] < x < e[-1]]
     total, _ = quad(density, e[0], e[-1], points=inner or None, limit=200)
     assert total == pytest.approx(1.0, abs=1e-8)
     x = np.linspace(e[0], e[-1], 41)
-    f, dens = dos.simplex_occupation(np.broadcast_to(e, (41, m)), x)
+    f, dens = tetrahedra.simplex_occupation(np.broadcast_to(e, (41, m)), x)
     assert np.all(np.diff(f) >= -1e-15) and np.all(dens >= 0)
     # the fast polynomial path used on grids agrees with the formulas
-    f2, d2 = dos._accumulate(np.broadcast_to(e, (1, m)).copy(), x)
+    f2, d2 = tetrahedra.accumulate(np.broadcast_to(e, (1, m)).copy(), x)
     np.testing.assert_allclose(f2, f, atol=1e-12)
     np.testing.assert_allclose(d2[x < e[-1]], dens[x < e[-1]], rtol=1e-9, atol=1e-9)
 
@@ -380,7 +380,7 @@ def test_grid_simplices_tile_the_cell():
     # Andersen (1994), Sec. III).
     m = empty("fcc", A_AL, 3)
     mesh = reciprocal_mesh(m, 4)
-    corners = dos._simplex_corners(mesh)
+    corners = tetrahedra.simplex_corners(mesh)
     assert corners.shape == (6 * 64, 4)
     assert len(np.unique(np.sort(corners, axis=1), axis=0)) == 6 * 64
     k = mesh.full_k_frac @ mesh.reciprocal_invA
@@ -401,7 +401,7 @@ def test_triangles_use_the_shorter_diagonal():
     m = make_material({"type": "hexagonal-2d", "a_A": 2.5},
                       [{"species": "X", "position": [0.0, 0.0]}], {"form": "empty"})
     mesh = reciprocal_mesh(m, 4)
-    corners = dos._simplex_corners(mesh)
+    corners = tetrahedra.simplex_corners(mesh)
     assert corners.shape == (2 * 16, 3)
     k = mesh.full_k_frac @ mesh.reciprocal_invA
     shared = k[corners[0, 2]] - k[corners[0, 0]]
