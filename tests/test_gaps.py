@@ -13,6 +13,7 @@ import scipy.special
 from conftest import MATERIALS, bundled, make_material
 from test_cli import run
 
+from bandpert.cli.options import parse_point
 from bandpert.crystal.lattice import standard_path
 from bandpert.errors import InputError
 from bandpert.physics.nfe_gaps import (
@@ -361,14 +362,21 @@ def test_resolve_points():
     si = bundled("silicon")
     labels = [lab for lab, _, _ in resolve_points(si)]
     assert labels[0] == "Γ" and len(labels) == len(set(labels)) and "L" in labels
-    (lab, k, kind), = resolve_points(si, ["0.5, 0.5, 0.5"])
+    (lab, k, kind), = resolve_points(si, [[0.5, 0.5, 0.5]])
     assert lab == "L" and kind == "labelled point"
     assert resolve_points(si, ["Gamma"])[0][0] == "Γ"
-    assert resolve_points(si, ["0.1 0 0"])[0][2] == "given point"
+    assert resolve_points(si, [np.array([0.1, 0, 0])])[0][2] == "given point"
     with pytest.raises(InputError, match="points"):
         resolve_points(si, ["Q"])
     with pytest.raises(InputError, match="points"):
-        resolve_points(si, ["0.5,0.5"])
+        resolve_points(si, [[0.5, 0.5]])
+
+
+def test_point_syntax_is_parsed_by_the_command_line():
+    # the library takes points as data; the text syntax belongs to the CLI
+    assert parse_point("0.5, 0, 0.5") == [0.5, 0.0, 0.5]
+    assert parse_point("0.1 0 0") == [0.1, 0.0, 0.0]
+    assert parse_point("Gamma") == "Gamma" and parse_point("") == ""
 
 
 # --------------------------------------------------------------------------------------------

@@ -137,6 +137,19 @@ def check_cutoff(cutoff_eV: float | None) -> None:
         raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
 
 
+def parse_point(text: str) -> str | list[float]:
+    """``--point`` syntax: fractional coordinates (``'0.5,0,0.5'`` or ``'0.5 0 0.5'``) or a label.
+
+    Returns the coordinates as floats, or the text itself (a label for the library to check).
+    """
+    parts = text.replace(",", " ").split()
+    try:
+        coords = [float(x) for x in parts]
+    except ValueError:
+        return text
+    return coords if parts else text
+
+
 def engine_from_options(kind: EngineKind, workers: int | None, scheduler: str | None) -> Engine:
     """The engine named by ``--engine``, ``--workers`` and ``--scheduler``."""
     check_count(workers, "--workers", 1)

@@ -31,6 +31,7 @@ from ..options import (
     out,
     output_base,
     output_paths,
+    parse_point,
     progress_bar,
     save_figure,
 )
@@ -78,12 +79,13 @@ def gaps(
         raise InputError(f"must be positive, got {cutoff_eV}", key="--cutoff-eV")
     window = energy_window(e_min, e_max)
     material = load_material(file)
-    resolve_points(material, point)  # refuse a bad --point before the diagonalisation
+    points = [parse_point(p) for p in point] if point else None
+    resolve_points(material, points)  # refuse a bad --point before the diagonalisation
     search = (not point) if crossings is None else crossings
     with progress_bar("diagonalising") as progress:
         bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV,
                                     progress=progress)
-    report = gap_analysis(material, model=bs.model, n_bands=bs.n_bands, points=point,
+    report = gap_analysis(material, model=bs.model, n_bands=bs.n_bands, points=points,
                           crossings=search)
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,

@@ -29,6 +29,7 @@ from ..options import (
     name_option,
     out,
     output_base,
+    parse_point,
     progress_bar,
 )
 
@@ -79,7 +80,7 @@ def masses(
             deformation = material_deformation_potentials(material, read_toml_document(file),
                                                           bs, edges)
     else:
-        label, k_frac, _ = resolve_points(material, [point or "Γ"])[0]
+        label, k_frac, _ = resolve_points(material, [parse_point(point or "Γ")])[0]
         n_el = material.valence_electrons
         b = band - 1 if band is not None else (n_el // 2 if n_el else 0)
         entry = band_masses(material, bs.model, k_frac @ bs.model.reciprocal_invA, b,
