@@ -423,9 +423,11 @@ def deformation_entry(dp, note: str) -> dict[str, Any]:
         "b_eV": dp.b_eV,
         "d_eV": dp.d_eV,
         "form_factors": note,
+        "internal_strain_zeta": dp.internal_strain_zeta,
+        "internal_strain_source": dp.internal_strain_source,
         "strain": "first order at the reference lattice (where the continuous v(q) equals the "
-                  "tabulated form factors); atoms at fixed fractional positions (no internal "
-                  "relaxation)",
+                  "tabulated form factors); under shear the two atoms of a diamond or "
+                  "zincblende cell shift by Kleinman's internal strain (internal_strain_zeta)",
     }
 
 

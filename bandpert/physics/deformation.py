@@ -40,6 +40,11 @@ from ..input.material import Material, parse_material
 from ..physics.bands import compute_band_structure, default_bands
 from ..physics.critical_points import centred_model, degenerate_group
 from ..physics.extrema import EdgeLocation, levels, locate_edges
+from ..physics.internal_strain import (
+    internal_displacements,
+    internal_strain_parameter,
+    internal_strain_potential,
+)
 from ..planewave.cutoff import choose_cutoff
 from ..planewave.formfactor import (
     ContinuousFit,
@@ -82,6 +87,11 @@ class DeformationPotentials:
         shift a_v = (l + 2m)/3; only b and d are reported as physical).
     b_eV, d_eV : float or None
         b = (l − m)/3 and d = n/√3.
+    internal_strain_zeta : float
+        Kleinman's ζ used for the shear potentials (d, and Ξ_u of valleys off the cube axes);
+        0 where no measured value is known (:mod:`bandpert.physics.internal_strain`).
+    internal_strain_source : str
+        Where ζ comes from, or why it is 0.
     """
 
     gap_hydrostatic_eV: dict[str, float]
@@ -91,21 +101,28 @@ class DeformationPotentials:
     valence_lmn_eV: tuple[float, float, float] | None
     b_eV: float | None
     d_eV: float | None
+    internal_strain_zeta: float = 0.0
+    internal_strain_source: str = ""
 
 
 def strain_hamiltonian(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
                        strain: np.ndarray, slopes: dict | None = None,
-                       shell_of: np.ndarray | None = None) -> np.ndarray:
+                       shell_of: np.ndarray | None = None, zeta: float = 0.0) -> np.ndarray:
     """Σ_ij ε_ij ∂H(k)/∂ε_ij on the model's basis (eV; module docstring).
 
     ``slopes``/``shell_of`` are passed to
     :func:`~bandpert.planewave.formfactor.strain_derivative_of_potential` (fit conditions).
+    ``zeta`` is Kleinman's internal-strain parameter: the shift of the atoms under a shear
+    (:mod:`bandpert.physics.internal_strain`) adds its δV(G).
     """
     eps = np.asarray(strain, dtype=float)
     kg = np.asarray(k_cart_invA, dtype=float)[None, :] + model.basis.g_cart_invA
     diff = model.basis.miller[:, None, :] - model.basis.miller[None, :, :]
-    dv = strain_derivative_of_potential(material, diff @ model.reciprocal_invA, eps, slopes,
-                                        shell_of)
+    g_diff = diff @ model.reciprocal_invA
+    dv = strain_derivative_of_potential(material, g_diff, eps, slopes, shell_of)
+    moves = internal_displacements(material, eps, zeta)
+    if np.any(moves):
+        dv = dv + internal_strain_potential(material, g_diff, moves)
     h = dv.real if model.is_real else dv
     h = np.array(h, copy=True)
     idx = np.arange(model.size)
@@ -184,7 +201,8 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
         k = np.asarray(k_frac, dtype=float) @ b
         gaps[label] = (_hydrostatic_shift(material, k, n_val, cutoff, model)
                        - _hydrostatic_shift(material, k, n_val - 1, cutoff, model))
-    xi_u = _xi_u(material, model, cond, rotations)
+    zeta, zeta_source = internal_strain_parameter(material)
+    xi_u = _xi_u(material, model, cond, rotations, zeta)
     lmn = b_ev = d_ev = None
     k_v = val.k_cart_invA
     sym = centred_model(material, k_v, cutoff)
@@ -192,7 +210,8 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
     if group.size == 3:
         ex = np.zeros((3, 3))
         ex[0, 0] = 1.0
-        uni, shear = set_shifts(material, sym, k_v, group, [ex, np.full((3, 3), 1.0 / 3.0)])
+        uni, shear = set_shifts(material, sym, k_v, group, [ex, np.full((3, 3), 1.0 / 3.0)],
+                                zeta=zeta)
         big_l, big_m = _single_and_double(uni)
         single, double = _single_and_double(shear)
         big_n = single - double
@@ -201,11 +220,12 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
     return DeformationPotentials(gap_hydrostatic_eV={k: float(v) for k, v in gaps.items()},
                                  conduction_valley=cond.where, xi_u_eV=xi_u,
                                  xi_d_plus_xi_u_over_3_minus_a_v_eV=float(gaps["indirect"]),
-                                 valence_lmn_eV=lmn, b_eV=b_ev, d_eV=d_ev)
+                                 valence_lmn_eV=lmn, b_eV=b_ev, d_eV=d_ev,
+                                 internal_strain_zeta=zeta, internal_strain_source=zeta_source)
 
 
 def _xi_u(material: Material, model: PlaneWaveModel, cond: EdgeLocation,
-          rotations: np.ndarray | None) -> float | None:
+          rotations: np.ndarray | None, zeta: float = 0.0) -> float | None:
     """Ξ_u = (δ1 − δ2)/(1 − (k̂1·k̂2)²) under the uniaxial strain ε = k̂1 k̂1ᵀ along the valley
     k1, δ2 the shift of an equivalent valley k2 (E shifts by Ξ_d tr ε + Ξ_u k̂·ε·k̂;
     Herring & Vogt, Phys. Rev. 101, 944 (1956))."""
@@ -229,7 +249,7 @@ def _xi_u(material: Material, model: PlaneWaveModel, cond: EdgeLocation,
     for k in (k1, k2):
         sym = centred_model(material, k, cutoff)
         shifts.append(float(np.mean(set_shifts(material, sym, k, np.array([cond.band]),
-                                               [strain])[0])))
+                                               [strain], zeta=zeta)[0])))
     return (shifts[0] - shifts[1]) / (1.0 - (u1 @ u2) ** 2)
 
 
@@ -241,7 +261,8 @@ def describe(dp: DeformationPotentials) -> list[str]:
                      f"{dp.xi_u_eV:+.3f} eV")
     lines.append(f"Ξ_d + Ξ_u/3 − a_v: {dp.xi_d_plus_xi_u_over_3_minus_a_v_eV:+.3f} eV")
     if dp.b_eV is not None:
-        lines.append(f"valence top b = (l − m)/3: {dp.b_eV:+.3f} eV, d = n/√3: {dp.d_eV:+.3f} eV")
+        lines.append(f"valence top b = (l − m)/3: {dp.b_eV:+.3f} eV, d = n/√3: {dp.d_eV:+.3f} eV "
+                     f"(internal strain ζ = {dp.internal_strain_zeta:.2f})")
     return lines
 
 

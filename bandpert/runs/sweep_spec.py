@@ -1,7 +1,8 @@
 """What a parameter sweep varies and the material document at each of its points.
 
 The keys a sweep may vary (``KEY=START:STOP:COUNT``), the document operations (dotted keys,
-homogeneous strain of the lattice vectors, the virtual crystal between two files), the picklable
+homogeneous strain of the lattice vectors (the atoms of a diamond or zincblende cell shifted by
+Kleinman's internal strain under shear), the virtual crystal between two files), the picklable
 :class:`SweepSpec` sent to the workers, and the material and cutoff of one parameter point. The
 sweep itself is described in :mod:`bandpert.runs.sweep`.
 """
@@ -19,6 +20,7 @@ import numpy as np
 
 from ..errors import InputError
 from ..input.material import Material, parse_material
+from ..physics.internal_strain import internal_displacements, internal_strain_parameter
 
 QUANTITIES = ("edges", "gaps", "masses", "deformation")
 FORM_FACTOR_MODES = ("tabulated", "continuous")
@@ -325,6 +327,12 @@ def point_document(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, Any]
         vectors = reference.vectors_A @ deform.T
         doc["lattice"] = {"type": "vectors", "vectors_A": vectors.tolist(),
                           "a_A": reference.a_A}
+        # the sublattices of a diamond/zincblende cell shift under shear (Kleinman's ζ)
+        moves = internal_displacements(reference, strain, internal_strain_parameter(reference)[0])
+        if np.any(moves):
+            shift = moves[:, :d] @ np.linalg.inv(vectors)
+            for atom, ref, s in zip(doc["atoms"], reference.atoms, shift, strict=True):
+                atom["position"] = (np.asarray(ref.position_frac) + s).tolist()
     return doc
 
 

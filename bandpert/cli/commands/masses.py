@@ -77,8 +77,8 @@ def masses(
         edges, entries = edge_masses(bs, temperature_K)
         locations = [e.where for e in edges]
         if material.dimension == 3 and material.potential.form in STRAIN_FOLLOWING_FORMS:
-            deformation = material_deformation_potentials(material, read_toml_document(file),
-                                                          bs, edges)
+            source_doc = read_toml_document(material.file)  # the resolved path, not the name
+            deformation = material_deformation_potentials(material, source_doc, bs, edges)
     else:
         label, k_frac, _ = resolve_points(material, [parse_point(point or "Γ")])[0]
         n_el = material.valence_electrons
