@@ -145,7 +145,7 @@ def test_bands_json_layout(chain_run):
     assert doc["material"]["file"] == str(CHAIN)
     res = doc["results"]
     for key in ("k_frac", "k_cart_invA", "path_distance_invA", "labels", "energies_eV",
-                "energy_zero_eV", "energy_zero_kind", "basis_size"):
+                "energies_absolute_eV", "energy_zero", "basis_size"):
         assert key in res, key
     e = np.array(res["energies_eV"])
     n_k = len(res["k_frac"])
@@ -155,7 +155,8 @@ def test_bands_json_layout(chain_run):
     assert np.all(np.diff(res["path_distance_invA"]) >= 0)
     assert np.all(np.diff(e, axis=1) >= -1e-12)  # ascending at each k
     assert [lab["label"] for lab in res["labels"]] == ["Γ", "X"]
-    assert res["energy_zero_kind"] == "absolute" and res["energy_zero_eV"] == 0.0
+    assert res["energy_zero"] == {"name": "model zero", "absolute_eV": 0.0}
+    assert np.array(res["energies_absolute_eV"]) == pytest.approx(e + 0.0)
     assert res["basis_size"] == doc["settings"]["basis_size"]
     assert doc["settings"]["bands"] == 6
     pert = res["perturbative"]
@@ -211,7 +212,7 @@ def test_bands_csv_layout(chain_run):
     doc = json.loads((out_dir / "cosine-chain-bands.json").read_text())["results"]
     assert rows.shape == (len(doc["k_frac"]), len(columns))
     assert rows[:, 0].tolist() == list(range(len(rows)))
-    energies = np.array(doc["energies_eV"]) - doc["energy_zero_eV"]
+    energies = np.array(doc["energies_absolute_eV"]) - doc["energy_zero"]["absolute_eV"]
     assert rows[:, -6:] == pytest.approx(energies, abs=1e-8)
 
 

@@ -132,7 +132,7 @@ def test_dos_writes_plot_csv_and_json(tmp_path):
     doc = json.loads((tmp_path / "aluminium-dos.json").read_text())
     res = doc["results"]
     assert doc["command"] == "dos" and res["method"] == "tetrahedron"
-    assert res["energy_zero_kind"] == "Fermi level" and res["gap_eV"] is None
+    assert res["energy_zero"]["name"] == "Fermi level" and res["gap_eV"] is None
     assert res["mesh"] == {"shape": [10, 10, 10], "full_points": 1000,
                            "irreducible_points": res["mesh"]["irreducible_points"]}
     assert 10 < res["mesh"]["irreducible_points"] < 1000
@@ -143,7 +143,7 @@ def test_dos_writes_plot_csv_and_json(tmp_path):
     assert np.interp(res["fermi_level_eV"], e, res["integrated_electrons"]) == pytest.approx(
         3.0, abs=0.02)
     csv = (tmp_path / "aluminium-dos.csv").read_text().splitlines()
-    assert csv[3] == "energy_eV,energy_relative_eV,dos_per_eV,integrated_electrons"
+    assert csv[3] == "energy_eV,energy_absolute_eV,dos_per_eV,integrated_electrons"
     assert (tmp_path / "aluminium-dos.png").read_bytes()[:4] == b"\x89PNG"
     assert "Fermi level" in out
 

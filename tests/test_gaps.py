@@ -406,7 +406,7 @@ def test_gaps_command_writes_json_and_figure(tmp_path):
     assert g["first_order_gaps_eV"][0] == pytest.approx(2.0, rel=1e-10)  # 2 V1, V1 = 1 eV
     assert g["couplings"][0]["reason"] == "coupled"
     assert g["couplings"][0]["value_eV"] == pytest.approx([1.0, 0.0])
-    assert res["energy_zero_kind"] == "absolute"
+    assert res["energy_zero"]["name"] == "model zero"
 
 
 def test_gaps_command_points_and_errors(tmp_path):

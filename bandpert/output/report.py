@@ -15,6 +15,7 @@ from ..input.material import Material
 from ..kp.parameters import dkk_with_free_electron
 from ..physics.bands import BandStructure
 from ..physics.nfe_gaps import POOR_MATCH_WEIGHT, REASON_COUPLED, REASON_TAGS, VERDICT_RULE
+from .energy_zero import energies_note, from_zero, with_absolute, zero_entry
 
 
 def document(command: str, material: Material, settings: dict[str, Any],
@@ -32,6 +33,7 @@ def document(command: str, material: Material, settings: dict[str, Any],
 def band_structure_results(bs: BandStructure) -> dict[str, Any]:
     """The ``results`` of ``bandpert bands`` (keys documented in the README)."""
     p = bs.path
+    zero = bs.energy_zero_eV
     edges = None
     if bs.edges is not None:
         g = bs.edges
@@ -39,14 +41,14 @@ def band_structure_results(bs: BandStructure) -> dict[str, Any]:
             "gap_eV": g.gap_eV,
             "direct_gap_eV": g.direct_gap_eV,
             "direct_gap_k_index": g.direct_gap_index,
-            "valence_max_eV": g.valence_max_eV,
             "valence_max_k_index": g.valence_max_index,
             "valence_max_k_frac": p.k_frac[g.valence_max_index],
-            "conduction_min_eV": g.conduction_min_eV,
             "conduction_min_k_index": g.conduction_min_index,
             "conduction_min_k_frac": p.k_frac[g.conduction_min_index],
         }
-    return {
+        with_absolute(edges, "valence_max", g.valence_max_eV, zero)
+        with_absolute(edges, "conduction_min", g.conduction_min_eV, zero)
+    results = {
         "perturbative": None if bs.perturbative is None else perturbative_results(bs),
         "k_frac": p.k_frac,
         "k_cart_invA": p.k_cart_invA,
@@ -54,14 +56,14 @@ def band_structure_results(bs: BandStructure) -> dict[str, Any]:
         "labels": [{"label": lab, "k_index": int(i), "path_distance_invA": p.distance_invA[i]}
                    for i, lab in zip(p.label_indices, p.labels, strict=True)],
         "leg_starts": p.leg_starts,
-        "energies_eV": bs.energies_eV,
-        "energy_zero_eV": bs.energy_zero_eV,
-        "energy_zero_kind": bs.energy_zero_kind,
+        "energy_zero": zero_entry(bs.energy_zero_kind, zero),
         "band_edges": edges,
         "basis_size": bs.model.size,
         "symmetry": {"space_group_number": bs.symmetry.number,
                      "space_group_symbol": bs.symmetry.international},
     }
+    with_absolute(results, "energies", bs.energies_eV, zero)
+    return results
 
 
 def _finite_or_none(a: np.ndarray) -> list:
@@ -84,7 +86,8 @@ def perturbative_results(bs: BandStructure) -> dict[str, Any]:
         "coupling_threshold": s.coupling_threshold,
         "tolerance_eV": s.tolerance_eV,
         "lambda": s.lam,
-        "energies_eV": pb.energies_eV,
+        "energies_eV": from_zero(pb.energies_eV, bs.energy_zero_eV),
+        "energies_absolute_eV": pb.energies_eV,
         "treatment": pb.treatment,
         "treatment_names": list(pb.treatment_names),
         "error_estimate_eV": pb.error_estimate_eV,
@@ -117,8 +120,7 @@ def perturbative_table(bs: BandStructure) -> tuple[list[str], list[str], np.ndar
     header = [
         f"bandpert {__version__} perturbative bands (order {pb.settings.order}): "
         f"{bs.material.name}",
-        f"energies in eV relative to the {bs.energy_zero_kind} "
-        f"(add {bs.energy_zero_eV:.6f} eV for absolute energies); error estimates in meV; "
+        energies_note(bs.energy_zero_kind, bs.energy_zero_eV) + "; error estimates in meV; "
         "treatment 0 = non-degenerate (Rayleigh-Schrodinger), 1 = subspace (Lowdin); "
         "bound = proven bound on |E_pert - E_exact| in meV (-1: cannot vouch); "
         "trustworthy 1 = bound below the tolerance",
@@ -143,8 +145,7 @@ def band_structure_table(bs: BandStructure) -> tuple[list[str], list[str], np.nd
     kind = "exact" if bs.energies_eV is not None else "perturbative (exact bands skipped)"
     header = [
         f"bandpert {__version__} bands ({kind}): {bs.material.name}",
-        f"energies in eV relative to the {bs.energy_zero_kind} "
-        f"(add {bs.energy_zero_eV:.6f} eV for the model's absolute energies); "
+        energies_note(bs.energy_zero_kind, bs.energy_zero_eV) + "; "
         "wave vectors in 1/Angstrom (Cartesian, 2*pi included) and as reciprocal fractions",
     ]
     cols = (["k_index", "path_distance_invA"] + [f"k{a}_invA" for a in axes]
@@ -163,16 +164,18 @@ def _vector_label(g_cart_invA: np.ndarray, miller: np.ndarray, a_A: float) -> st
     return "m(" + ",".join(str(int(x)) for x in miller) + ")"
 
 
-def _group_results(group, a_A: float) -> dict[str, Any]:
-    return {
+def _group_results(group, a_A: float, zero_eV: float) -> dict[str, Any]:
+    entry: dict[str, Any] = {
         "first_index": group.first_index,
         "degeneracy": group.degeneracy,
-        "free_electron_energy_eV": group.free_electron_eV,
         "miller": group.miller,
         "g_cart_invA": group.g_cart_invA,
-        "first_order_eV": group.first_order_eV,
-        "second_order_eV": group.second_order_eV,
-        "exact_eV": group.exact_eV,
+    }
+    with_absolute(entry, "free_electron_energy", group.free_electron_eV, zero_eV)
+    with_absolute(entry, "first_order", group.first_order_eV, zero_eV)
+    with_absolute(entry, "second_order", group.second_order_eV, zero_eV)
+    with_absolute(entry, "exact", group.exact_eV, zero_eV)
+    return entry | {
         "exact_weight": group.exact_weight,
         "poor_match": group.poor_match,
         "first_order_gaps_eV": group.first_order_gaps_eV,
@@ -201,13 +204,17 @@ def _group_results(group, a_A: float) -> dict[str, Any]:
 def gap_results(report, bs: BandStructure | None = None) -> dict[str, Any]:
     """The ``results`` of ``bandpert gaps`` (keys documented in the README).
 
-    ``report`` is a :class:`bandpert.gaps.GapReport`; with ``bs`` (the band structure drawn
-    beside it) its energy zero is stated too. Energies are absolute (the model's zero).
+    ``report`` is a :class:`bandpert.physics.nfe_gaps.GapReport`; ``bs`` the band structure
+    drawn beside it, whose energy zero every energy is given from (the model's zero without
+    it); the absolute energies are kept as ``…_absolute_eV``.
     """
 
     a = report.material.a_A
+    kind, zero = ("absolute", 0.0) if bs is None else (bs.energy_zero_kind, bs.energy_zero_eV)
     points = []
     for p in report.points:
+        levels: dict[str, Any] = {}
+        with_absolute(levels, "energies", p.level_energies_eV, zero)
         points.append({
             "label": p.label,
             "kind": p.kind,
@@ -216,10 +223,9 @@ def gap_results(report, bs: BandStructure | None = None) -> dict[str, Any]:
             "path_distance_invA": p.path_distance_invA,
             "segment": None if p.segment is None else {
                 "from": p.segment[0], "to": p.segment[1], "fraction": p.segment_fraction},
-            "free_electron_levels": {"energies_eV": p.level_energies_eV,
-                                     "degeneracies": p.level_degeneracies,
-                                     "first_indices": p.level_first_indices},
-            "groups": [_group_results(g, a) for g in p.groups],
+            "free_electron_levels": levels | {"degeneracies": p.level_degeneracies,
+                                              "first_indices": p.level_first_indices},
+            "groups": [_group_results(g, a, zero) for g in p.groups],
         })
     return {
         "matched": "exact levels by sorted position: a group at free-electron positions "
@@ -230,8 +236,7 @@ def gap_results(report, bs: BandStructure | None = None) -> dict[str, Any]:
         "closed_tolerance_eV": report.closed_tolerance_eV,
         "verdict_rule": VERDICT_RULE,
         "crossings": report.crossings,
-        "energy_zero_eV": None if bs is None else bs.energy_zero_eV,
-        "energy_zero_kind": None if bs is None else bs.energy_zero_kind,
+        "energy_zero": zero_entry(kind, zero),
         "points": points,
     }
 
@@ -244,6 +249,11 @@ def _gap_value(x: float) -> str:
     if x != 0.0 and abs(x) < 5e-4:
         return f"{x:.1e}"
     return f"{round(float(x), 3) + 0.0:.3f}"  # + 0.0 turns -0.000 into 0.000
+
+
+def _energy_cell(x: float) -> str:
+    """An energy in eV to three decimals, without a negative zero."""
+    return f"{round(float(x), 3) + 0.0:.3f}"
 
 
 def _gap_list(values: np.ndarray) -> str:
@@ -271,10 +281,13 @@ def _verdict_cell(v) -> str:
     return f"{'holds' if v.holds else 'FAILS'}\n{_gap_value(v.error_eV)}{rel}"
 
 
-def gap_table(report) -> tuple[list[tuple[str, list[str], list[list[str]]]], list[str]]:
+def gap_table(report, energy_zero_eV: float = 0.0
+              ) -> tuple[list[tuple[str, list[str], list[list[str]]]], list[str]]:
     """The terminal tables of ``bandpert gaps``: couplings, then gaps with verdicts; footnotes.
 
-    Returns ``([(title, columns, rows), …], notes)``. The first table lists, per degenerate
+    Returns ``([(title, columns, rows), …], notes)``. E0, the free-electron energy of a group,
+    is given from ``energy_zero_eV`` (absolute); splittings are differences and need no zero.
+    The first table lists, per degenerate
     group, the Fourier coefficients V(G − G′) that couple it (or why they vanish). The second
     lists, for every splitting that is open in the exact levels, the first-order, second-order
     and exact splitting (eV) at the same position in the group, each order's verdict
@@ -314,7 +327,8 @@ def gap_table(report) -> tuple[list[tuple[str, list[str], list[list[str]]]], lis
             if g.poor_match:
                 levels += " ?"
                 doubtful = True
-            head = [label if i == 0 else "", f"{g.free_electron_eV:.3f}", str(g.degeneracy)]
+            head = [label if i == 0 else "", _energy_cell(g.free_electron_eV - energy_zero_eV),
+                    str(g.degeneracy)]
             crows.append([*head, _coupling_summary(g, report.material.a_A), why])
             grows.append([*head, *cells, *(_verdict_cell(v) for v in g.verdicts), levels, opens])
     groups = [g for p in report.points for g in p.groups]
@@ -348,8 +362,8 @@ def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any
         "location": location,
         "k_frac": m.k_frac,
         "k_cart_invA": m.k_cart_invA,
-        "energy_eV": m.energy_eV,
-        "energy_from_zero_eV": m.energy_eV - energy_zero_eV,
+        "energy_eV": m.energy_eV - energy_zero_eV,
+        "energy_absolute_eV": m.energy_eV,
         "degenerate_bands": (m.degenerate_bands + 1).tolist(),
         "valleys": m.valleys,
         "dos_mass_m0": m.dos_mass,
@@ -360,7 +374,7 @@ def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any
         "finite_difference": None,
         "convergence": None,
         "degenerate_edge": None,
-        "critical_point": _critical_point_entry(m.critical_point),
+        "critical_point": _critical_point_entry(m.critical_point, energy_zero_eV),
         "summary": m.summary,
     }
     if m.tensor is not None:
@@ -392,7 +406,7 @@ def _band_masses_entry(m, energy_zero_eV: float, location: str) -> dict[str, Any
     return entry
 
 
-def _critical_point_entry(cp) -> dict[str, Any]:
+def _critical_point_entry(cp, energy_zero_eV: float) -> dict[str, Any]:
     near = cp.nearest
     return {
         "kind": cp.kind,
@@ -405,7 +419,8 @@ def _critical_point_entry(cp) -> dict[str, Any]:
         "gradient_eV_A": cp.gradient_eV_A,
         "nearest_extremum": None if near is None else {
             "kind": near.kind, "k_frac": near.k_frac, "k_cart_invA": near.k_cart_invA,
-            "energy_eV": near.energy_eV, "beyond_point_eV": near.below_eV,
+            "energy_eV": near.energy_eV - energy_zero_eV,
+            "energy_absolute_eV": near.energy_eV, "beyond_point_eV": near.below_eV,
             "distance_invA": near.distance_invA, "along_fraction": near.along_fraction},
         "warning": cp.warning or None,
     }
@@ -431,14 +446,14 @@ def deformation_entry(dp, note: str) -> dict[str, Any]:
     }
 
 
-def masses_results(entries, energy_zero_eV: float, locations: list[str],
-                   kp_parameters: dict[str, Any] | None,
+def masses_results(entries, energy_zero_eV: float, energy_zero_kind: str,
+                   locations: list[str], kp_parameters: dict[str, Any] | None,
                    deformation: tuple | None = None) -> dict[str, Any]:
     """The ``results`` of ``bandpert masses`` (keys documented in the README)."""
     return {
         "deformation_potentials": None if deformation is None else deformation_entry(
             *deformation),
-        "energy_zero_eV": energy_zero_eV,
+        "energy_zero": zero_entry(energy_zero_kind, energy_zero_eV),
         "masses": [_band_masses_entry(m, energy_zero_eV, loc)
                    for m, loc in zip(entries, locations, strict=True)],
         "kp_parameters": kp_parameters,
@@ -465,7 +480,7 @@ def kp_results(analysis, exact=None) -> dict[str, Any]:
     results: dict[str, Any] = {"models": models,
                                "reference_masses_m0": analysis.reference_masses_m0,
                                "parameters": analysis.parameters.as_dict(),
-                               "energy_zero": "valence-band top at Γ"}
+                               "energy_zero": zero_entry(analysis.energy_zero, 0.0)}
     if exact is not None:
         lines, file = exact
         results["compared_with"] = {"file": file, "name": lines.name}
@@ -476,18 +491,20 @@ def fullzone_results(result) -> dict[str, Any]:
     """The ``results`` of ``bandpert fullzone`` (a
     :class:`bandpert.physics.fullzone.FullZoneResult`; keys documented in the README)."""
     bs, conv = result.exact, result.convergence
-    return {"basis_sizes": conv.basis_sizes, "requested_basis_sizes": conv.requested_sizes,
-            "shown_basis_size": int(conv.basis_sizes[conv.shown_index]),
-            "max_error_eV": conv.max_error_eV,
-            "rms_error_eV": conv.rms_error_eV, "k_frac": bs.path.k_frac,
-            "exact_energies_eV": bs.energies_eV, "kp_energies_eV": conv.energies_eV,
-            "energy_zero_eV": bs.energy_zero_eV}
+    out = {"basis_sizes": conv.basis_sizes, "requested_basis_sizes": conv.requested_sizes,
+           "shown_basis_size": int(conv.basis_sizes[conv.shown_index]),
+           "max_error_eV": conv.max_error_eV,
+           "rms_error_eV": conv.rms_error_eV, "k_frac": bs.path.k_frac,
+           "energy_zero": zero_entry(bs.energy_zero_kind, bs.energy_zero_eV)}
+    with_absolute(out, "exact_energies", bs.energies_eV, bs.energy_zero_eV)
+    with_absolute(out, "kp_energies", conv.energies_eV, bs.energy_zero_eV)
+    return out
 
 
 def kp_path_results(bands) -> dict[str, Any]:
     """The ``results`` of ``bandpert bands`` on a k·p file (a :class:`bandpert.kp.PathBands`;
     keys documented in the README)."""
-    return {"kind": "kp", "energy_zero": "valence-band top at Γ",
+    return {"kind": "kp", "energy_zero": zero_entry(bands.energy_zero, 0.0),
             "path": {"labels": list(bands.labels), "label_indices": bands.label_indices,
                      "fraction": bands.fraction, "k_max_invA": bands.k_max_invA},
             "k_cart_invA": bands.k_cart_invA, "k_2pi_a": bands.k_2pi_a,
@@ -499,8 +516,8 @@ def kp_path_results(bands) -> dict[str, Any]:
 def kp_path_table(bands, material_name: str) -> tuple[list[str], list[str], np.ndarray]:
     """Header lines, column names and rows of the CSV of k·p bands along the path."""
     header = [f"bandpert {__version__} bands (k·p models along the path): {material_name}",
-              "energies in eV from the valence-band top at Γ; wave vectors in 1/Angstrom "
-              "(Cartesian, 2*pi included) and in units of 2*pi/a; path "
+              f"energies in eV from the {bands.energy_zero} (the models' own zero); "
+              "wave vectors in 1/Angstrom (Cartesian, 2*pi included) and in units of 2*pi/a; path "
               + " – ".join(bands.labels)]
     cols = (["k_index", "path_distance_2pi_a", "kx_invA", "ky_invA", "kz_invA", "kx_2pi_a",
              "ky_2pi_a", "kz_2pi_a"]
@@ -529,41 +546,87 @@ def column_unit(name: str) -> str:
     return ""
 
 
+def is_sweep_level(name: str) -> bool:
+    """Whether a sweep column is an energy level (band edge, level at a point)."""
+    return name in ("valence_max_eV", "conduction_min_eV") or (
+        name.startswith(("lower_", "upper_")) and name.endswith("_eV")
+        and not name.endswith("_absolute_eV"))
+
+
+def sweep_columns(result) -> dict[str, np.ndarray]:
+    """The numeric columns of a sweep as every output gives them.
+
+    Energy levels (:func:`is_sweep_level`) are measured from each point's own energy zero
+    (column ``energy_zero_absolute_eV``, kind in the text column ``energy_zero``: the
+    valence-band maximum on the path for a semiconductor, by the rule of every command), and
+    kept absolute as ``<name>_absolute_eV`` beside them.
+    """
+    cols = dict(result.columns)
+    zero = cols.get("energy_zero_absolute_eV")
+    if zero is None:
+        return cols
+    out: dict[str, np.ndarray] = {}
+    for name, v in cols.items():
+        if is_sweep_level(name):
+            out[name] = v - zero
+            out[name.removesuffix("_eV") + "_absolute_eV"] = v
+        else:
+            out[name] = v
+    return out
+
+
+def sweep_zero_note(result) -> str:
+    """The sweep's energy zero in words (terminal, CSV header, JSON, figure)."""
+    kinds = [k for k in dict.fromkeys(result.text.get("energy_zero", [])) if k]
+    if not kinds:
+        return "no energy levels (masses only)"
+    if kinds == ["absolute"]:
+        return ("energies in eV from the model's own zero (V(G = 0) as given; no electron "
+                "count, so no band edge to measure from)")
+    named = " or ".join("model zero" if k == "absolute" else k for k in kinds)
+    return (f"energy levels in eV from each point's own {named} (text column energy_zero; its "
+            "absolute value in energy_zero_absolute_eV); the absolute levels are kept as "
+            "*_absolute_eV; gaps are differences")
+
+
 def sweep_results(result) -> dict[str, Any]:
     """The ``results`` of ``bandpert sweep`` (keys documented in the README)."""
     spec = result.spec
     keys = [a.key for a in spec.axes]
-    numeric = {k: _finite_or_none(v)[0] for k, v in result.columns.items()}
+    columns = sweep_columns(result)
+    numeric = {k: _finite_or_none(v)[0] for k, v in columns.items()}
     return {
         "parameters": [{"key": a.key, "values": a.values} for a in spec.axes],
         "points": result.n_points,
         "values": result.values,
         "columns": numeric,
-        "units": {k: column_unit(k) for k in result.columns},
+        "units": {k: column_unit(k) for k in columns},
         "text": result.text,
         "failures": [{"values": dict(zip(keys, f.values, strict=True)), "error": f.error,
                       "input_error": f.user_error} for f in result.failures],
         "form_factors": result.form_factor_note,
         "virtual_crystal": any(a.kind == "alloy" for a in spec.axes),
-        "energy_reference": "absolute: the model's own zero (V(G = 0) = 0 unless the file "
-                            "gives it)",
+        "energy_zero": {"name": "each point's own (text.energy_zero)",
+                        "absolute_eV": numeric.get("energy_zero_absolute_eV"),
+                        "note": sweep_zero_note(result)},
     }
 
 
 def sweep_table(result) -> tuple[list[str], list[str], list[list[str]]]:
     """Header lines, column names and formatted rows of the sweep CSV (empty = no value)."""
     spec = result.spec
-    names = list(result.columns)
+    columns = sweep_columns(result)
+    names = list(columns)
     units = "; ".join(f"{n} [{column_unit(n)}]" for n in names if column_unit(n))
     header = [f"bandpert {__version__} sweep: {spec.source}",
               f"varied: {', '.join(a.key for a in spec.axes)}; {result.form_factor_note}",
-              f"energies absolute (the model's zero), eV; units: {units}",
+              f"{sweep_zero_note(result)}; units: {units}",
               f"{len(result.failures)} of {result.n_points} points failed (empty cells)"]
     cols = [a.key for a in spec.axes] + names + list(result.text)
     rows = []
     for i in range(result.n_points):
         row = [f"{x:.10g}" for x in result.values[i]]
-        row += ["" if not np.isfinite(result.columns[n][i]) else f"{result.columns[n][i]:.10g}"
+        row += ["" if not np.isfinite(columns[n][i]) else f"{columns[n][i]:.10g}"
                 for n in names]
         row += [result.text[t][i] for t in result.text]
         rows.append(row)
@@ -573,36 +636,38 @@ def sweep_table(result) -> tuple[list[str], list[str], list[list[str]]]:
 def dos_results(result) -> dict[str, Any]:
     """The ``results`` of ``bandpert dos`` (keys documented in the README)."""
     d = result.dos
-    return {
-        "energy_zero_eV": result.energy_zero_eV,
-        "energy_zero_kind": result.energy_zero_kind,
-        "fermi_level_eV": result.fermi_level_eV,
-        "valence_max_eV": result.valence_max_eV,
-        "conduction_min_eV": result.conduction_min_eV,
+    zero = result.energy_zero_eV
+    out: dict[str, Any] = {"energy_zero": zero_entry(result.energy_zero_kind, zero)}
+    for key, value in (("fermi_level", result.fermi_level_eV),
+                       ("valence_max", result.valence_max_eV),
+                       ("conduction_min", result.conduction_min_eV),
+                       ("complete_below", result.complete_below_eV)):
+        with_absolute(out, key, value, zero)
+    out |= {
         "gap_eV": result.gap_eV,
-        "complete_below_eV": result.complete_below_eV,
         "mesh": {"shape": list(result.mesh.shape), "full_points": result.mesh.n_full,
                  "irreducible_points": len(result.mesh.k_frac)},
         "method": d.method,
         "smearing_eV": d.smearing_eV,
-        "energies_eV": d.energies_eV,
-        "dos_per_eV": d.dos_per_eV,
-        "integrated_electrons": d.integrated,
     }
+    with_absolute(out, "energies", d.energies_eV, zero)
+    return out | {"dos_per_eV": d.dos_per_eV, "integrated_electrons": d.integrated}
 
 
 def dos_table(result) -> tuple[list[str], list[str], np.ndarray]:
-    """Header lines, column names and rows of the DOS CSV."""
+    """Header lines, column names and rows of the DOS CSV (energies from the energy zero,
+    absolute beside them)."""
     d = result.dos
     how = d.method + ("" if d.smearing_eV is None else f", sigma = {d.smearing_eV:g} eV")
     header = [f"bandpert {__version__} density of states ({how}): {result.material.name}",
               f"mesh {'x'.join(str(n) for n in result.mesh.shape)} "
-              f"({len(result.mesh.k_frac)} irreducible points); energies in eV, absolute and "
-              f"relative to the {result.energy_zero_kind} ({result.energy_zero_eV:.6f} eV)",
+              f"({len(result.mesh.k_frac)} irreducible points); "
+              + energies_note(result.energy_zero_kind, result.energy_zero_eV)
+              + " (energy_eV; absolute in energy_absolute_eV)",
               "dos in states per eV per primitive cell, both spins; integrated in electrons per "
               "cell"]
-    cols = ["energy_eV", "energy_relative_eV", "dos_per_eV", "integrated_electrons"]
-    rows = np.column_stack([d.energies_eV, d.energies_eV - result.energy_zero_eV, d.dos_per_eV,
+    cols = ["energy_eV", "energy_absolute_eV", "dos_per_eV", "integrated_electrons"]
+    rows = np.column_stack([d.energies_eV - result.energy_zero_eV, d.energies_eV, d.dos_per_eV,
                             d.integrated])
     return header, cols, rows
 

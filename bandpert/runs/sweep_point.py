@@ -33,8 +33,10 @@ def evaluate_point(task: tuple[SweepSpec, tuple[float, ...]]) -> dict[str, float
     gives the same numbers serially and on any worker (energies and refined positions).
     Keys (all energies absolute, the model's own zero; masses in m0; see the README for the
     full list): ``cutoff_eV``,
-    ``basis_size``; with "gaps" ``lower_<P>_eV``, ``upper_<P>_eV``, ``gap_<P>_eV`` for every
-    label P; with "edges" ``valence_max_eV``, ``conduction_min_eV``, ``gap_eV``,
+    ``basis_size``, ``energy_zero_absolute_eV`` and ``energy_zero`` (the point's energy zero
+    and its kind, :func:`bandpert.physics.bands.choose_energy_zero`); with "gaps"
+    ``lower_<P>_eV``, ``upper_<P>_eV``, ``gap_<P>_eV`` for every label P; with "edges"
+    ``valence_max_eV``, ``conduction_min_eV``, ``gap_eV``,
     ``direct_gap_eV``, ``valence_max_k{1,2,3}_frac``, ``conduction_min_k{1,2,3}_frac``,
     ``valence_max_at``, ``conduction_min_at``; with "masses" ``conduction_m{1,2,3}``,
     ``conduction_valleys``, ``conduction_dos_mass``, ``conduction_conductivity_mass``,
@@ -52,7 +54,10 @@ def _plane_wave_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, f
     cutoff = point_cutoff(spec, material)
     bs = compute_band_structure(material, n_k=spec.n_k, n_bands=spec.n_bands, cutoff_eV=cutoff,
                                 check_cutoff=False)
-    row: dict[str, float | str] = {"cutoff_eV": cutoff, "basis_size": float(bs.model.size)}
+    row: dict[str, float | str] = {"cutoff_eV": cutoff, "basis_size": float(bs.model.size),
+                                   # the point's energy zero, by the rule of every command
+                                   "energy_zero_absolute_eV": bs.energy_zero_eV,
+                                   "energy_zero": bs.energy_zero_kind}
     if "gaps" in spec.quantities:
         row.update(_gaps_at_points(bs, spec.points, spec.lower_band))
     if {"edges", "masses", "deformation"} & set(spec.quantities):

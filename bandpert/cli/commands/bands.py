@@ -14,6 +14,7 @@ from ...errors import InputError
 from ...input.file_kind import file_kind
 from ...input.material import load_material
 from ...io import write_csv, write_json, write_table
+from ...output.energy_zero import zero_phrase
 from ...output.figures import band_figure
 from ...output.report import (
     band_structure_results,
@@ -153,7 +154,8 @@ def _summary(bs) -> None:
     if sym.number is not None:
         table.add_row("space group", f"{sym.international} ({sym.number})")
     table.add_row("basis", f"{bs.model.size} plane waves, cutoff {bs.model.basis.cutoff_eV:.2f} eV")
-    table.add_row("energy zero", f"{bs.energy_zero_kind} = {bs.energy_zero_eV:.4f} eV (absolute)")
+    table.add_row("energy zero", zero_phrase(bs.energy_zero_kind, bs.energy_zero_eV)
+                  + " (every output: terminal, CSV, JSON, figure)")
     if bs.edges is None and bs.material.valence_electrons:
         table.add_row("kind", "metal (no gap between occupied and empty bands on the path)")
     if bs.edges is not None:

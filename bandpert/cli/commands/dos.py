@@ -11,8 +11,10 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_csv, write_json
+from ...output.energy_zero import zero_phrase
 from ...output.figures import dos_figure, smearing_warning
 from ...output.report import document, dos_results, dos_table
+from ...output.text import fixed
 from ...runs.mesh_dos import compute_dos
 from ..options import (
     DEFAULT_OUT,
@@ -106,12 +108,20 @@ def dos(
     table.add_row("basis", f"{result.basis_size} plane waves, cutoff {result.cutoff_eV:.2f} eV")
     table.add_row("method", method + (f", σ = {smearing_eV:g} eV" if method == "gaussian"
                                       else ""))
+    zero = result.energy_zero_eV
+    table.add_row("energy zero", zero_phrase(result.energy_zero_kind, zero))
+    kind = ("" if result.fermi_level_eV is None else
+            "semiconductor or insulator (a gap on the mesh)" if result.gap_eV is not None
+            else "metal (no gap between occupied and empty bands on the mesh)")
+    if kind:
+        table.add_row("kind", kind)
     if result.fermi_level_eV is not None:
         note = " (mid-gap)" if result.gap_eV is not None else ""
-        table.add_row("Fermi level", f"{result.fermi_level_eV:.4f} eV (absolute){note}")
+        table.add_row("Fermi level", f"{fixed(result.fermi_level_eV - zero)} eV from the "
+                      f"zero ({result.fermi_level_eV:.4f} eV absolute){note}")
     if result.gap_eV is not None:
         table.add_row("gap on the mesh", f"{result.gap_eV:.3f} eV")
-    table.add_row("complete below", f"{result.complete_below_eV:.3f} eV (absolute)")
+    table.add_row("complete below", f"{fixed(result.complete_below_eV - zero, 3)} eV from the zero")
     table.add_row("ran on", result.engine)
     out.print(table)
     if smearing_warning(result):

@@ -11,6 +11,7 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_json
+from ...output.energy_zero import zero_phrase
 from ...output.figures import fullzone_figure
 from ...output.report import document, fullzone_results
 from ...physics.fullzone import full_zone_kp
@@ -89,6 +90,7 @@ def fullzone(
     if rounded:
         out.print("basis sizes rounded up to close degenerate Γ multiplets (a cut multiplet "
                   "breaks the cubic symmetry): " + ", ".join(rounded))
-    out.print(f"figure: {conv.basis_sizes[conv.shown_index]} Γ states beside the exact bands")
+    out.print(f"figure: {conv.basis_sizes[conv.shown_index]} Γ states beside the exact bands; "
+              f"energies from {zero_phrase(bs.energy_zero_kind, bs.energy_zero_eV)}")
     out.print(f"wrote {image}, {json_path}")
 

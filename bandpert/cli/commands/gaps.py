@@ -12,6 +12,7 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_json
+from ...output.energy_zero import zero_phrase
 from ...output.figures import gap_figure
 from ...output.report import document, gap_results, gap_table
 from ...physics.bands import compute_band_structure
@@ -99,7 +100,7 @@ def gaps(
     save_figure(fig, image, image_format)
     write_json(json_path, doc)
 
-    tables, notes = gap_table(report)
+    tables, notes = gap_table(report, bs.energy_zero_eV)
     out.print(f"{material.name}: free-electron degeneracies and their gaps")
     for title, cols, rows in tables:
         table = Table(title=title, title_justify="left", box=box.SIMPLE_HEAD, pad_edge=False)
@@ -111,10 +112,9 @@ def gaps(
         out.print(table)
     for note in notes:
         out.print(note)
-    zero = ("" if bs.energy_zero_kind == "absolute" else
-            f"; the {bs.energy_zero_kind} is at {bs.energy_zero_eV:.4f} eV")
-    out.print(f"energies absolute (the model's zero{zero}); gaps in eV between consecutive "
-              "levels of a group, "
+    zero = zero_phrase(bs.energy_zero_kind, bs.energy_zero_eV)
+    out.print(f"E0 (the free-electron level of a group) from {zero}, "
+              "as in the figure and the JSON; gaps in eV between consecutive levels of a group, "
               "shown where the exact splitting is open; exact levels matched by sorted position; "
               f"{report.n_bands} lowest levels, {report.basis_size} plane waves at "
               f"{report.cutoff_eV:.2f} eV")

@@ -92,6 +92,9 @@ def kp(
             table.add_row(name, band_name, *(f"{entry['masses_m0'][d][band_name]:.4f}"
                                              for d in directions))
     out.print(table)
+    out.print(f"energies from the {analysis.energy_zero}"
+              + ("; the plane-wave bands drawn beside from their own valence-band maximum"
+                 if lines is not None else ""))
     if kpm.parameters.Delta_so_eV == 0:
         out.print("Delta_so_eV = 0: Γ8 and Γ7 coincide, so the heavy/light/split-off names only "
                   "label the sorted curvatures of the threefold (spinless) valence top")

@@ -14,7 +14,9 @@ from ...errors import InputError
 from ...input.material import load_material
 from ...input.reader import read_toml_document
 from ...io import atomic_path, write_json
+from ...output.energy_zero import zero_phrase
 from ...output.report import document, masses_results
+from ...output.text import fixed
 from ...physics.bands import compute_band_structure
 from ...physics.deformation import STRAIN_FOLLOWING_FORMS, material_deformation_potentials
 from ...physics.deformation import describe as describe_deformation
@@ -105,8 +107,8 @@ def masses(
     settings = {"cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "temperature_K": temperature_K, "point": point, "band": band}
     doc = document("masses", material, settings,
-                   masses_results(entries, bs.energy_zero_eV, locations, kp_params,
-                                  deformation))
+                   masses_results(entries, bs.energy_zero_eV, bs.energy_zero_kind, locations,
+                                  kp_params, deformation))
     default = f"{file.stem}-masses"
     if point is not None or band is not None:
         default += f"-{locations[0]}-band{entries[0].band + 1}"
@@ -119,7 +121,7 @@ def masses(
             tmp.write_text(kp_text, encoding="utf-8")
         written.append(kp_file)
     for entry, location in zip(entries, locations, strict=True):
-        _masses_table(entry, location, bs.energy_zero_eV)
+        _masses_table(entry, location, bs.energy_zero_eV, bs.energy_zero_kind)
     if deformation is not None:
         out.print("deformation potentials at the reference lattice ("
                   + deformation[1] + "):")
@@ -132,12 +134,13 @@ def masses(
     out.print("wrote " + ", ".join(str(w) for w in written))
 
 
-def _masses_table(m, location: str, zero_eV: float) -> None:
+def _masses_table(m, location: str, zero_eV: float, zero_kind: str) -> None:
     table = Table(title=f"{m.label}: {location}", show_header=False, title_justify="left")
     table.add_column(style="bold")
     table.add_column()
     table.add_row("k (fractional)", _vec(m.k_frac))
-    table.add_row("energy", f"{m.energy_eV - zero_eV:.4f} eV from the zero; band(s) "
+    table.add_row("energy", f"{fixed(m.energy_eV - zero_eV)} eV from "
+                  f"{zero_phrase(zero_kind, zero_eV)}; band(s) "
                   + ", ".join(str(b + 1) for b in m.degenerate_bands))
     cp = m.critical_point
     table.add_row("point", cp.kind + (f" (index {cp.saddle_index})" if cp.kind == "saddle"

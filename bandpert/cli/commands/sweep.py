@@ -14,7 +14,14 @@ from ...errors import InputError
 from ...input.material import read_toml_document
 from ...io import write_json, write_table
 from ...output.figures import sweep_figure
-from ...output.report import column_unit, document, sweep_results, sweep_table
+from ...output.report import (
+    column_unit,
+    document,
+    sweep_columns,
+    sweep_results,
+    sweep_table,
+    sweep_zero_note,
+)
 from ...runs.sweep import prepare, run_sweep
 from ...runs.sweep_spec import parse_axis
 from ..options import (
@@ -157,8 +164,8 @@ def _sweep_summary(result) -> None:
     table.add_column("min", justify="right")
     table.add_column("max", justify="right")
 
-    for name, v in result.columns.items():
-        if name.startswith(("lower_", "upper_")) or name.endswith("_frac"):
+    for name, v in sweep_columns(result).items():
+        if name.startswith(("lower_", "upper_")) or name.endswith(("_frac", "_absolute_eV")):
             continue
         ok = np.isfinite(v)
         if not ok.any():
@@ -167,6 +174,7 @@ def _sweep_summary(result) -> None:
         table.add_row(name, column_unit(name), f"{good[0]:.5g}", f"{good[-1]:.5g}",
                       f"{good.min():.5g}", f"{good.max():.5g}")
     out.print(table)
+    out.print(sweep_zero_note(result))
     out.print(f"{result.n_points} points, {len(result.failures)} failed; ran on {result.engine}")
     outside = [t for t in result.text.get("faithful_window", []) if t.startswith("no")]
     if outside:

@@ -11,6 +11,7 @@ from matplotlib.patches import Patch
 
 from ...physics.bands import BandStructure
 from .. import style
+from ..energy_zero import zero_phrase
 
 
 def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None = None) -> Figure:
@@ -37,8 +38,14 @@ def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None 
     ax = fig.subplots()
     draw_bands_panel(ax, bs, energy_window_eV)
     ax.set_xlabel("Wave vector along the path", fontsize=style.LABEL_SIZE)
-    style.footer(fig, f"Parameters: {bs.material.source}")
+    style.footer(fig, source_note(bs))
     return fig
+
+
+def source_note(bs: BandStructure) -> str:
+    """The note beneath a band figure: where the parameters come from, and the energy zero."""
+    return (f"Parameters: {bs.material.source}. Energy zero: "
+            f"{zero_phrase(bs.energy_zero_kind, bs.energy_zero_eV)}.")
 
 
 def draw_bands_panel(ax: Axes, bs: BandStructure,
@@ -187,7 +194,7 @@ def comparison_figure(bs: BandStructure,
     ax_err.tick_params(labelbottom=False)
     style.draw_path_axes(ax_map, x, bs.path.label_indices, bs.path.labels)
     ax_map.set_xlabel("Wave vector along the path", fontsize=style.LABEL_SIZE)
-    style.footer(fig, f"Parameters: {bs.material.source}")
+    style.footer(fig, source_note(bs))
     return fig
 
 

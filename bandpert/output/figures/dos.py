@@ -6,6 +6,8 @@ import numpy as np
 from matplotlib.figure import Figure
 
 from .. import style
+from ..energy_zero import zero_phrase
+from ..text import fixed
 
 
 def smearing_warning(result) -> str | None:
@@ -76,7 +78,9 @@ def dos_figure(result, energy_window_eV: tuple[float, float] | None = None) -> F
             a.axvline(ef, color=style.WARNING_COLOUR, lw=0.9, ls="--")
         right = ef < lo + 0.65 * (hi - lo)
         y_label = 0.72 if smearing_warning(result) else 0.96
-        ax.annotate(rf"$E_\mathrm{{F}}$ = {result.fermi_level_eV:.3f} eV (absolute)" + gap_note,
+        ef_text = (r"$E_\mathrm{F}$ (the energy zero)" if result.energy_zero_kind == "Fermi level"
+                   else rf"$E_\mathrm{{F}}$ = {fixed(ef, 3)} eV")
+        ax.annotate(ef_text + gap_note,
                     (ef, y_label), xycoords=("data", "axes fraction"),
                     xytext=(4 if right else -4, 0), textcoords="offset points",
                     ha="left" if right else "right", va="top",
@@ -103,5 +107,6 @@ def dos_figure(result, energy_window_eV: tuple[float, float] | None = None) -> F
                       "alpha": 0.9})
     style.footer(fig, f"{result.basis_size} plane waves; the DOS is complete below "
                  f"{result.complete_below_eV - zero:.2f} eV (the bottom of the highest band "
-                 "computed).", width=110)
+                 "computed). Energy zero: "
+                 f"{zero_phrase(result.energy_zero_kind, zero)}.", width=110)
     return fig

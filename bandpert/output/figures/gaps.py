@@ -11,7 +11,7 @@ from matplotlib.transforms import Bbox
 from ...physics.bands import BandStructure
 from ...physics.nfe_gaps import KIND_CROSSING
 from .. import style
-from .bands import draw_bands_panel
+from .bands import draw_bands_panel, source_note
 
 FIRST_ORDER_COLOUR = "#D55E00"
 SECOND_ORDER_COLOUR = "#009E73"
@@ -167,7 +167,7 @@ def gap_figure(bs: BandStructure, report,
     ax = fig.subplots()
     draw_bands_panel(ax, bs, energy_window_eV, gap_label=False)
     ax.set_xlabel("Wave vector along the path", fontsize=style.LABEL_SIZE)
-    style.footer(fig, f"Parameters: {bs.material.source}", width=150)
+    style.footer(fig, source_note(bs), width=150)
     handles = [
         Line2D([], [], color=style.EXACT_COLOUR, lw=1.3, label="exact bands"),
         Line2D([], [], color=EXACT_GAP_COLOUR, lw=2.4, alpha=0.75,

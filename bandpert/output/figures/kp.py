@@ -9,7 +9,7 @@ from matplotlib.ticker import MaxNLocator, NullLocator
 
 from ...physics.bands import BandStructure
 from .. import style
-from .bands import draw_bands_panel
+from .bands import draw_bands_panel, source_note
 
 #: Colour, line style and width of each parameter-file model: the richest model solid and
 #: drawn first, the simpler ones dashed and dotted on top of it.
@@ -162,5 +162,5 @@ def fullzone_figure(bs: BandStructure, convergence, shown_index: int | None = No
     handles = [h for a in (ax, ax_c) for h in a.get_legend_handles_labels()[0]]
     fig.legend(handles=handles, loc="outside right center",
                fontsize=style.LEGEND_SIZE, frameon=False)
-    style.footer(fig, f"Parameters: {bs.material.source}", width=160)
+    style.footer(fig, source_note(bs), width=160)
     return fig

@@ -9,15 +9,16 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import MaxNLocator
 
 from .. import style
+from ..report import sweep_columns
 
 #: Panels of the sweep figure: title, y label, and which columns go in (by name pattern).
 SWEEP_PANELS = (
     ("gaps", "gap (eV)", lambda n: n == "gap_eV" or n == "direct_gap_eV"
      or (n.startswith("gap_") and n.endswith("_eV"))),
-    ("band edges", "energy (eV, model zero)", lambda n: n in ("valence_max_eV",
-                                                              "conduction_min_eV")),
-    ("levels at the points", "energy (eV, model zero)",
-     lambda n: n.startswith(("lower_", "upper_")) and n.endswith("_eV")),
+    ("band edges", "{energy}", lambda n: n in ("valence_max_eV", "conduction_min_eV")),
+    ("levels at the points", "{energy}",
+     lambda n: n.startswith(("lower_", "upper_")) and n.endswith("_eV")
+     and not n.endswith("_absolute_eV")),
     ("edge positions", "k (reciprocal fractions)", lambda n: n.endswith("_frac")),
     ("conduction-band masses", "mass (m0)", lambda n: re.fullmatch(r"conduction_m\d", n)
      or n in ("conduction_dos_mass", "conduction_conductivity_mass")),
@@ -58,6 +59,16 @@ def parameter_axis(key: str) -> tuple[str, float]:
     return key, 1.0
 
 
+def level_axis_label(result) -> str:
+    """The y label of energy levels in a sweep: from each point's own energy zero."""
+    kinds = [k for k in dict.fromkeys(result.text.get("energy_zero", [])) if k]
+    if kinds == ["absolute"]:
+        return "energy (eV, model zero)"
+    if len(kinds) == 1:
+        return f"energy − {style.ZERO_NAMES.get(kinds[0], kinds[0])} (eV)"
+    return "energy − each point's zero (eV)"
+
+
 def _constant(v: np.ndarray) -> bool:
     good = v[np.isfinite(v)]
     return good.size > 0 and np.ptp(good) <= 1e-9 * max(1.0, float(np.abs(good).max()))
@@ -82,6 +93,8 @@ def sweep_figure(result) -> Figure:
     matplotlib.figure.Figure
     """
     spec = result.spec
+    columns = sweep_columns(result)
+    energy_label = level_axis_label(result)
     xlabel, factor = parameter_axis(spec.axes[0].key)
     x = result.values[:, 0] * factor
     others = result.values[:, 1:]
@@ -89,19 +102,20 @@ def sweep_figure(result) -> Figure:
     constant_notes = []
     panels = []
     for title, ylabel, rule in SWEEP_PANELS:
-        names = [n for n in result.columns if rule(n)]
+        ylabel = ylabel.format(energy=energy_label)
+        names = [n for n in columns if rule(n)]
         if not names:
             continue
-        if result.n_points > 1 and all(_constant(result.columns[n]) for n in names):
-            values = ", ".join(f"{_sweep_label(n)} {_first(result.columns[n]):.6g}"
+        if result.n_points > 1 and all(_constant(columns[n]) for n in names):
+            values = ", ".join(f"{_sweep_label(n)} {_first(columns[n]):.6g}"
                                for n in names[:4])
             constant_notes.append(f"Constant over the sweep: {title} ({values}"
                                   + (", …" if len(names) > 4 else "") + ")")
             continue
         panels.append((title, ylabel, names))
     if not panels:  # everything constant: still draw the first panel
-        panels = [(t, y, [n for n in result.columns if r(n)]) for t, y, r in SWEEP_PANELS
-                  if any(r(n) for n in result.columns)][:1]
+        panels = [(t, y.format(energy=energy_label), [n for n in columns if r(n)])
+                  for t, y, r in SWEEP_PANELS if any(r(n) for n in columns)][:1]
     n_col = 2 if len(panels) > 1 else 1
     n_row = max(1, -(-len(panels) // n_col))
     fig = style.new_figure(6.6 * n_col, 2.9 * n_row + 1.0)
@@ -120,7 +134,7 @@ def sweep_figure(result) -> Figure:
             marker = None if dense else style.MARKERS[j % len(style.MARKERS)]
             for c, combo in enumerate(combos):
                 sel = np.all(others == combo, axis=1) if len(combo) else np.ones(len(x), bool)
-                ax.plot(x[sel], result.columns[name][sel], ls=ls, marker=marker, ms=3.2,
+                ax.plot(x[sel], columns[name][sel], ls=ls, marker=marker, ms=3.2,
                         lw=1.2, color=colour, alpha=1.0 / (1 + 0.6 * c),
                         label=_sweep_label(name) if c == 0 else "_nolegend_")
         if failed is not None:
@@ -140,12 +154,16 @@ def sweep_figure(result) -> Figure:
                  fontsize=style.TITLE_SIZE)
     more = ("One line per value of " + ", ".join(a.key for a in spec.axes[1:]) + ". "
             if len(spec.axes) > 1 else "")
+    zero = ""
+    if any(t.startswith(("band edges", "levels")) for t, _, _ in panels):
+        zero = ("Energy levels from each point's own energy zero (absolute values in the CSV "
+                "and JSON)." if energy_label != "energy (eV, model zero)" else "")
     note = " ".join(s for s in (result.form_factor_note.rstrip(".") + "." if
-                                result.form_factor_note else "", more,
+                                result.form_factor_note else "", zero, more,
                                 "; ".join(constant_notes) + ("." if constant_notes else ""),
                                 f"{result.n_points} points, {len(result.failures)} failed.")
                     if s)
-    style.footer(fig, note, width=int(22 * 6.6 * n_col))
+    style.footer(fig, note, width=int(19 * 6.6 * n_col))
     return fig
 
 
