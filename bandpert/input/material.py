@@ -13,7 +13,7 @@ from __future__ import annotations
 
 import itertools
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any
 
@@ -33,6 +33,7 @@ from .reader import (
     show_complex,
     show_list,
 )
+from .spin_orbit import SpinOrbit, read_spin_orbit
 
 #: Lattice types by name, their dimension and the constants they take.
 LATTICE_TYPES: dict[str, tuple[int, tuple[str, ...]]] = {
@@ -196,6 +197,9 @@ class Material:
         Default number of bands to compute.
     path : CustomPath or None
         A custom k-path; None means the standard path of the lattice.
+    spin_orbit : SpinOrbit or None
+        Spin–orbit parameters per species (:mod:`bandpert.input.spin_orbit`); None for the
+        spinless model.
     """
 
     name: str
@@ -212,11 +216,21 @@ class Material:
     valence_electrons: int | None = None
     n_bands: int | None = None
     path: CustomPath | None = None
+    spin_orbit: SpinOrbit | None = None
 
     @property
     def volume_A(self) -> float:
         """Cell volume (Å³), area (Å²) or length (Å) of the primitive cell."""
         return float(abs(np.linalg.det(self.vectors_A)))
+
+    @property
+    def electrons_per_band(self) -> int:
+        """2 for spinless bands, 1 for spinor bands (with spin–orbit)."""
+        return 2 if self.spin_orbit is None else 1
+
+    def without_spin_orbit(self) -> Material:
+        """The same material without its spin–orbit term (the spinless model)."""
+        return replace(self, spin_orbit=None)
 
 
 def _to_ev(value: complex, to_ev: float, reader: TableReader, name: str) -> complex:
@@ -656,10 +670,14 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
         el.finish()
     path_r = r.sub("path", required=False)
     path = _read_path(path_r, dim) if path_r is not None else None
+    so_r = r.sub("spin_orbit", required=False)
+    spin_orbit = (None if so_r is None
+                  else read_spin_orbit(so_r, {a.species for a in atoms}, dim))
     r.finish()
     return Material(name=name, source=src, note=note, file=source, lattice_type=kind,
                     dimension=dim, vectors_A=vectors, a_A=a, atoms=atoms, potential=pot,
-                    cutoff_eV=cutoff, valence_electrons=electrons, n_bands=n_bands, path=path)
+                    cutoff_eV=cutoff, valence_electrons=electrons, n_bands=n_bands, path=path,
+                    spin_orbit=spin_orbit)
 
 
 def load_material(path: str | Path) -> Material:

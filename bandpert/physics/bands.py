@@ -31,11 +31,14 @@ from ..planewave.solver import Progress, exact_energies
 
 
 def default_bands(material: Material) -> int:
-    """Default number of bands: the file's ``basis.bands``, else the occupied bands plus four."""
+    """Default number of bands: the file's ``basis.bands``, else the occupied bands plus four.
+
+    With spin–orbit coupling bands are spinor bands (one electron each), so both counts double.
+    """
     if material.n_bands is not None:
         return material.n_bands
     occupied = (material.valence_electrons or 8) // 2 + (material.valence_electrons or 8) % 2
-    return occupied + 4
+    return (occupied + 4) * (2 // material.electrons_per_band)
 
 
 @dataclass(frozen=True)
@@ -194,7 +197,10 @@ def energy_reference(material: Material, path_energies_eV: np.ndarray,
     -------
     zero_eV, kind, edges
     """
-    n_el = material.valence_electrons
+    # spinor bands hold one electron each: the count of spinless-equivalent electrons (two per
+    # band) fills the same number of bands
+    n_el = None if material.valence_electrons is None else (
+        material.valence_electrons * 2 // material.electrons_per_band)
 
     def fermi() -> float:
         n = fermi_mesh or {1: 600, 2: 60, 3: 24}[material.dimension]
@@ -255,8 +261,15 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
                          "bands were asked for", key="exact")
     nb = default_bands(material) if n_bands is None else n_bands
-    k_centred = build_k_centred_model(material,
-                                      choose_cutoff(material, nb, cutoff_eV, check_cutoff))
+    if material.spin_orbit is not None and perturbation is not None:
+        raise InputError("the perturbative series expands a spinless H0 + V and the material has "
+                         "spin-orbit parameters; expected the exact bands only for it",
+                         material.file, "spin_orbit")
+    # the cutoff rule converges the spinless bands (spin-orbit coupling shifts them by
+    # a few tenths of an eV at most, and the rule's bands are the spinless count)
+    spinless_bands = -(-nb * material.electrons_per_band // 2)
+    k_centred = build_k_centred_model(material, choose_cutoff(
+        material.without_spin_orbit(), spinless_bands, cutoff_eV, check_cutoff))
     model = k_centred.gamma
     points, legs = standard_path(material)
     path = sample_path(model.reciprocal_invA, points, legs, n_k)

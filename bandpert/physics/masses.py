@@ -90,6 +90,10 @@ def eigenstates(model: PlaneWaveModel, k0_cart_invA: np.ndarray,
     -------
     Eigenstates
     """
+    if model.n_components != 1:
+        raise InputError("the sum over states here is spinless and the model has spin-orbit "
+                         "coupling; expected a material without a spin_orbit table",
+                         key="spin_orbit")
     k0 = np.asarray(k0_cart_invA, dtype=float)
     n = model.size if n_states is None else min(n_states, model.size)
     h = model.hamiltonian(k0)

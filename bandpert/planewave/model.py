@@ -19,8 +19,10 @@ Two bases serve two purposes:
   jumps of the basis.
 
 Basis layout: the Hamiltonian index runs over (component, G) with the component index slowest;
-``n_components`` is 1 for the spinless models here, so a spinor extension only adds a second
-component block and a spin–orbit term without changing the G bookkeeping.
+``n_components`` is 1 for a spinless model and 2 (spin up, spin down) when the material has a
+``spin_orbit`` table: then H(k) = 1₂ ⊗ (H0 + V) + H_so(k) (:mod:`bandpert.planewave.spinorbit`),
+with the same G bookkeeping. H_so depends on k, so V stays the spinless potential and the
+spin–orbit term is built per k (:meth:`PlaneWaveModel.spin_orbit_coupling`).
 """
 
 from __future__ import annotations
@@ -35,6 +37,13 @@ from ..input.material import Material
 from ..units import HBAR2_OVER_2M0_EV_A2
 from .basis import MAX_BASIS, PlaneWaveBasis, k_centred_basis, plane_wave_basis
 from .potential import check_shells_exist, fourier_coefficients
+from .spinorbit import (
+    SpinOrbitTerm,
+    require_spinless,
+    spin_orbit_term,
+    spinor_hamiltonian,
+    structure_factors,
+)
 
 
 @dataclass(frozen=True)
@@ -49,21 +58,42 @@ class PlaneWaveModel:
     potential_eV : numpy.ndarray
         (n, n) Hermitian V(G − G'); real symmetric (float64) when every V(G) is real, which
         happens for a centrosymmetric crystal with the origin at an inversion centre.
+    spin_orbit : SpinOrbitTerm or None
+        The spin–orbit parameters; None for a spinless model.
+    structure : numpy.ndarray or None
+        (n_species, n, n) S_s(G_i − G_j) of the spin–orbit term.
     """
 
     basis: PlaneWaveBasis
     reciprocal_invA: np.ndarray
     potential_eV: np.ndarray
+    spin_orbit: SpinOrbitTerm | None = None
+    structure: np.ndarray | None = field(default=None, repr=False)
 
     @property
     def size(self) -> int:
-        """Basis size."""
+        """Basis size (plane waves)."""
         return self.basis.size
+
+    @property
+    def n_components(self) -> int:
+        """1 for a spinless model, 2 for spinor plane waves."""
+        return 1 if self.spin_orbit is None else 2
+
+    @property
+    def matrix_size(self) -> int:
+        """Order of H(k): plane waves times components."""
+        return self.n_components * self.size
 
     @property
     def is_real(self) -> bool:
         """True when H(k) is real symmetric at every k."""
-        return not np.iscomplexobj(self.potential_eV)
+        return self.spin_orbit is None and not np.iscomplexobj(self.potential_eV)
+
+    def spin_orbit_coupling(self, k_cart_invA: np.ndarray) -> np.ndarray:
+        """W(k) (3, n, n) of H_so = −i W·σ at one k (:mod:`~bandpert.planewave.spinorbit`)."""
+        k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
+        return self.spin_orbit.coupling(k + self.basis.g_cart_invA, self.structure)
 
     def kinetic_eV(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """H0: ħ²|k+G|²/2m0 for each k (rows) and G (columns), shape (n_k, n) in eV."""
@@ -72,14 +102,22 @@ class PlaneWaveModel:
         return HBAR2_OVER_2M0_EV_A2 * np.einsum("kgi,kgi->kg", kg, kg)
 
     def hamiltonian(self, k_cart_invA: np.ndarray) -> np.ndarray:
-        """Full H(k) = H0(k) + V for one k-point, shape (n, n)."""
+        """Full H(k) = H0(k) + V (+ H_so(k)) for one k-point, shape (matrix_size, matrix_size).
+
+        With spin–orbit the matrix is the spinor one, spin index slowest
+        (:func:`~bandpert.planewave.spinorbit.spinor_hamiltonian`); its eigenvectors are the
+        spinor states: component s·n + i is the amplitude of |k + G_i, s⟩, s = 0 (↑), 1 (↓).
+        """
         h = self.potential_eV.copy()
         idx = np.arange(self.size)
         h[idx, idx] += self.kinetic_eV(k_cart_invA)[0]
-        return h
+        if self.spin_orbit is None:
+            return h
+        return spinor_hamiltonian(h, self.spin_orbit_coupling(k_cart_invA))
 
 
-def build_model(material: Material, cutoff_eV: float) -> PlaneWaveModel:
+def build_model(material: Material, cutoff_eV: float, spin_orbit: bool = False
+                ) -> PlaneWaveModel:
     """Build the plane-wave model of a material at a given cutoff.
 
     The potential matrix V_{GG'} = V(G − G') is built once, vectorised over all pairs.
@@ -89,11 +127,16 @@ def build_model(material: Material, cutoff_eV: float) -> PlaneWaveModel:
     material : Material
     cutoff_eV : float
         Kinetic-energy cutoff.
+    spin_orbit : bool
+        The caller handles spinor models (2n × 2n, :attr:`PlaneWaveModel.n_components`).
+        Without it a material with a ``spin_orbit`` table is refused, so that no computation
+        returns spinless numbers for a material that asks for spin–orbit coupling.
 
     Returns
     -------
     PlaneWaveModel
     """
+    _check_spinless(material, spin_orbit)
     b = reciprocal_vectors(material.vectors_A)
     basis = plane_wave_basis(b, cutoff_eV)
     if basis.size > MAX_BASIS:
@@ -102,13 +145,30 @@ def build_model(material: Material, cutoff_eV: float) -> PlaneWaveModel:
                          f"(matrices of {gib:.1f} GiB each; the limit is {MAX_BASIS}); expected a "
                          "smaller cutoff", material.file, "basis.cutoff_eV")
     check_shells_exist(material, basis)
-    return PlaneWaveModel(basis=basis, reciprocal_invA=b,
-                          potential_eV=_potential_matrix(material, basis.miller))
+    return _model(material, basis, b)
+
+
+def _check_spinless(material: Material, spin_orbit: bool) -> None:
+    """Refuse spin–orbit parameters unless the caller handles spinor models."""
+    if not spin_orbit:
+        require_spinless(material)
+
+
+def _model(material: Material, basis: PlaneWaveBasis, b: np.ndarray) -> PlaneWaveModel:
+    """The model on a given basis: V always, the spin–orbit term when the material has one."""
+    v = _potential_matrix(material, basis.miller)
+    term = spin_orbit_term(material)
+    if term is None:
+        return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v)
+    diff = basis.miller[:, None, :] - basis.miller[None, :, :]
+    return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v, spin_orbit=term,
+                          structure=structure_factors(material, diff)[1])
 
 
 def _potential_matrix(material: Material, miller: np.ndarray) -> np.ndarray:
     """V(G − G') on a basis given by Miller indices: Hermitian, real when every V(G) is."""
-    v = fourier_coefficients(material, miller[:, None, :] - miller[None, :, :])
+    v = fourier_coefficients(material.without_spin_orbit(),
+                             miller[:, None, :] - miller[None, :, :])
     if not np.allclose(v, v.conj().T, atol=1e-12):
         raise InputError("the potential matrix is not Hermitian; expected V(-G) = V(G)*",
                          material.file, "potential")
@@ -117,8 +177,8 @@ def _potential_matrix(material: Material, miller: np.ndarray) -> np.ndarray:
     return v
 
 
-def centred_model(material: Material, cutoff_eV: float, k0_cart_invA: np.ndarray
-                  ) -> PlaneWaveModel:
+def centred_model(material: Material, cutoff_eV: float, k0_cart_invA: np.ndarray,
+                  spin_orbit: bool = False) -> PlaneWaveModel:
     """The fixed-basis model {G : ħ²|k0+G|²/2m0 ≤ cutoff}, centred on k0.
 
     For derivative stencils around k0: every point k0 + δ of the stencil is diagonalised in
@@ -133,20 +193,22 @@ def centred_model(material: Material, cutoff_eV: float, k0_cart_invA: np.ndarray
         Kinetic-energy cutoff on ħ²|k0+G|²/2m0 (eV).
     k0_cart_invA : numpy.ndarray
         (d,) Cartesian centre (Å⁻¹).
+    spin_orbit : bool
+        The caller handles spinor models (as in :func:`build_model`).
 
     Returns
     -------
     PlaneWaveModel
         Its ``kinetic_eV`` may be evaluated at any k; it is symmetric at k0.
     """
+    _check_spinless(material, spin_orbit)
     b = reciprocal_vectors(material.vectors_A)
     basis = k_centred_basis(b, cutoff_eV, np.asarray(k0_cart_invA, dtype=float))
     if basis.size > MAX_BASIS:
         raise InputError(f"a cutoff of {cutoff_eV:.4g} eV gives {basis.size} plane waves (the "
                          f"limit is {MAX_BASIS}); expected a smaller cutoff", material.file,
                          "basis.cutoff_eV")
-    return PlaneWaveModel(basis=basis, reciprocal_invA=b,
-                          potential_eV=_potential_matrix(material, basis.miller))
+    return _model(material, basis, b)
 
 
 @dataclass(frozen=True)
@@ -176,6 +238,16 @@ class KCentredModel:
     _tables: dict = field(default_factory=dict, compare=False, repr=False)
 
     @property
+    def spin_orbit(self) -> SpinOrbitTerm | None:
+        """The spin–orbit term (None for a spinless model)."""
+        return self.gamma.spin_orbit
+
+    @property
+    def n_components(self) -> int:
+        """1 for a spinless model, 2 for spinor plane waves."""
+        return self.gamma.n_components
+
+    @property
     def size(self) -> int:
         """Basis size at Γ (at other k the size differs by a few plane waves)."""
         return self.gamma.size
@@ -185,9 +257,12 @@ class KCentredModel:
         """True when H(k) is real symmetric at every k."""
         return self.gamma.is_real
 
-    def at(self, k0_cart_invA: np.ndarray) -> PlaneWaveModel:
-        """The fixed basis centred on k0, for stencils around k0 (:func:`centred_model`)."""
-        return centred_model(self.material, self.cutoff_eV, k0_cart_invA)
+    def at(self, k0_cart_invA: np.ndarray, spin_orbit: bool = False) -> PlaneWaveModel:
+        """The fixed basis centred on k0, for stencils around k0 (:func:`centred_model`).
+
+        ``spin_orbit``: the caller handles spinor models (else a spin–orbit model is refused).
+        """
+        return centred_model(self.material, self.cutoff_eV, k0_cart_invA, spin_orbit)
 
     def candidates(self, reach_invA: float
                    ) -> tuple[PlaneWaveBasis, np.ndarray, np.ndarray, int]:
@@ -206,6 +281,16 @@ class KCentredModel:
         origin : int
             Index of G = 0 in ``table``.
         """
+        return self._cached(reach_invA)[:4]
+
+    def structure_table(self, reach_invA: float) -> np.ndarray:
+        """(n_species, len(table)) S_s over the box of :meth:`candidates`, same indexing.
+
+        S_s(G_i − G_j) = row_s[origin + flat_i − flat_j]; the last entry is a padding 0.
+        """
+        return self._cached(reach_invA)[4]
+
+    def _cached(self, reach_invA: float) -> tuple:
         key = float(np.ceil(reach_invA * 8.0) / 8.0)  # reuse a table for nearby reaches
         found = [r for r in self._tables if r >= key]
         if found:
@@ -218,15 +303,19 @@ class KCentredModel:
         strides = np.cumprod(np.r_[1, width[::-1][:-1]])[::-1]
         axes = [np.arange(-(s - 1), s) for s in span]
         box = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, len(span))
-        table = fourier_coefficients(self.material, box)
+        table = fourier_coefficients(self.material.without_spin_orbit(), box)
         if np.max(np.abs(table.imag), initial=0.0) <= 1e-12 * max(
                 1.0, np.max(np.abs(table), initial=0.0)):
             table = np.ascontiguousarray(table.real)
         table = np.append(table, 0.0)
+        structure = None
+        if self.spin_orbit is not None:
+            s = structure_factors(self.material, box)[1]
+            structure = np.concatenate([s, np.zeros((len(s), 1))], axis=1)
         origin = int(np.sum((span - 1) * strides))
         flat = basis.miller @ strides
         self._tables.clear()
-        self._tables[key] = (basis, flat, table, origin)
+        self._tables[key] = (basis, flat, table, origin, structure)
         return self._tables[key]
 
 
@@ -243,6 +332,6 @@ def build_k_centred_model(material: Material, cutoff_eV: float) -> KCentredModel
     -------
     KCentredModel
     """
-    gamma = build_model(material, cutoff_eV)
+    gamma = build_model(material, cutoff_eV, spin_orbit=True)
     return KCentredModel(material=material, cutoff_eV=float(cutoff_eV),
                          reciprocal_invA=gamma.reciprocal_invA, gamma=gamma)

@@ -24,6 +24,7 @@ from ..crystal.lattice import reciprocal_vectors
 from ..errors import InputError
 from ..input.material import Material
 from .basis import PlaneWaveBasis
+from .spinorbit import require_spinless
 
 #: Relative tolerance for matching |G|² to a form-factor shell.
 SHELL_TOLERANCE = 1e-6
@@ -152,6 +153,7 @@ def fourier_coefficients(material: Material, miller: np.ndarray) -> np.ndarray:
     numpy.ndarray
         Complex V(G) with the leading shape of ``miller``.
     """
+    require_spinless(material)  # V(G) alone would silently drop the spin–orbit term
     pot = material.potential
     miller = np.asarray(miller)
     shape = miller.shape[:-1]

@@ -6,7 +6,7 @@ Only the bands asked for are computed; BLAS runs on one thread per process for t
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Iterator
 from contextlib import AbstractContextManager
 
 import numpy as np
@@ -16,6 +16,7 @@ from threadpoolctl import ThreadpoolController
 from ..errors import InputError
 from ..units import HBAR2_OVER_2M0_EV_A2
 from .model import KCentredModel, PlaneWaveModel
+from .spinorbit import spinor_hamiltonian
 
 #: Below this basis size the eigenvalues of a block of k-points come from one batched numpy call
 #: (all eigenvalues, divide and conquer); above it, LAPACK's MRRR driver per k-point, only the
@@ -82,7 +83,9 @@ def exact_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarra
 
     A :class:`~bandpert.planewave.model.KCentredModel` is diagonalised at each k in its own
     basis ħ²|k+G|²/2m0 ≤ cutoff (:func:`_k_centred_energies`); a
-    :class:`~bandpert.planewave.model.PlaneWaveModel` in its one fixed basis.
+    :class:`~bandpert.planewave.model.PlaneWaveModel` in its one fixed basis. A model with
+    spin–orbit coupling is diagonalised in spinor plane waves (:func:`_spinor_energies`): then
+    ``n_bands`` counts spinor bands (a Kramers pair is two bands).
 
     Parameters
     ----------
@@ -90,7 +93,7 @@ def exact_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarra
     k_cart_invA : numpy.ndarray
         (n_k, d) Cartesian wave vectors (Å⁻¹).
     n_bands : int
-        Number of bands; at most the basis size.
+        Number of bands; at most the basis size (twice it for spinor bands).
     progress : callable, optional
         Called as ``progress(done, total)``.
 
@@ -99,6 +102,8 @@ def exact_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarra
     numpy.ndarray
         (n_k, n_bands) energies in eV (absolute: the model's own zero).
     """
+    if model.n_components == 2:
+        return _spinor_energies(model, k_cart_invA, n_bands, progress)
     if isinstance(model, KCentredModel):
         return _k_centred_energies(model, k_cart_invA, n_bands, progress)
     n = model.size
@@ -215,3 +220,94 @@ def _k_centred_energies(model: KCentredModel, k_cart_invA: np.ndarray, n_bands: 
                 if progress and (i % step == 0 or i == n_k - 1):
                     progress(i + 1, n_k)
     return out
+
+
+def _spinor_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray,
+                     n_bands: int, progress: Progress | None = None) -> np.ndarray:
+    """Lowest ``n_bands`` eigenvalues of the 2n × 2n spinor H(k) = 1₂ ⊗ (H0 + V) + H_so(k).
+
+    The matrices come from :func:`spinor_hamiltonians`; LAPACK's ``zheevr`` computes the
+    requested eigenvalues of each.
+    """
+    k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+    n_k = len(k)
+    if n_bands > 2 * model.size:
+        raise InputError(f"{n_bands} bands asked for but the spinor basis holds only "
+                         f"{2 * model.size} states; expected fewer bands or a larger cutoff",
+                         key="bands")
+    out = np.empty((n_k, n_bands))
+    step = max(1, n_k // 50)
+    solvers: dict[int, Callable[[np.ndarray], np.ndarray]] = {}
+    with single_blas_thread():
+        for i, h in enumerate(spinor_hamiltonians(model, k, (n_bands + 1) // 2)):
+            n = h.shape[0]
+            if n not in solvers:
+                solvers[n] = _mrrr_solver(n, n_bands, True)
+            out[i] = solvers[n](h)
+            if progress and (i % step == 0 or i == n_k - 1):
+                progress(i + 1, n_k)
+    return out
+
+
+def spinor_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray,
+                        min_plane_waves: int = 1) -> Iterator[np.ndarray]:
+    """The spinor H(k) = 1₂ ⊗ (H0 + V) + H_so(k) at each k in turn (Fortran order, 2n × 2n).
+
+    Per k: V and the structure factors S_s(G_i − G_j) are gathered once per set of plane
+    waves (reused while consecutive k-points share it), the spin–orbit coupling W(k) is built
+    from K = k + G by whole-matrix operations (:meth:`~bandpert.planewave.spinorbit
+    .SpinOrbitTerm.coupling`). A :class:`~bandpert.planewave.model.KCentredModel` uses the
+    basis ħ²|k+G|²/2m0 ≤ cutoff at each k (a k whose basis holds fewer than
+    ``min_plane_waves`` takes whole shells up to its ``min_plane_waves``-th lowest plane
+    wave); a :class:`~bandpert.planewave.model.PlaneWaveModel` its one basis. Only one matrix
+    is held at a time. Component s·n + i of a row index is |k + G_i, s⟩, s = 0 (↑), 1 (↓).
+
+    Parameters
+    ----------
+    model : PlaneWaveModel or KCentredModel
+        With a spin–orbit term.
+    k_cart_invA : numpy.ndarray
+        (n_k, 3) Cartesian wave vectors (Å⁻¹).
+    min_plane_waves : int
+        Fewest plane waves of a k-centred basis.
+
+    Yields
+    ------
+    numpy.ndarray
+        (2n, 2n) complex Hermitian H(k); the caller may overwrite it.
+    """
+    k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+    term = model.spin_orbit
+    centred = isinstance(model, KCentredModel)
+    if centred:
+        reach = float(np.max(np.linalg.norm(k, axis=1), initial=0.0))
+        cand, flat, table, origin = model.candidates(reach)
+        structure_rows = model.structure_table(reach)
+        g_all = cand.g_cart_invA
+        limit = model.cutoff_eV * (1 + 1e-12)
+    else:
+        base, structure = model.potential_eV, model.structure
+        g = model.basis.g_cart_invA
+    members = None
+    for kk in k:
+        if centred:
+            kg_all = kk + g_all
+            kinetic_all = HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", kg_all, kg_all)
+            lowest = np.partition(kinetic_all, min_plane_waves - 1)[min_plane_waves - 1]
+            inside = kinetic_all <= max(limit, lowest * (1 + 1e-12))
+            if members is None or not np.array_equal(inside, members):
+                members = inside
+                sel = np.flatnonzero(inside)
+                codes = flat[sel]
+                diff = origin + codes[:, None] - codes[None, :]
+                base = table[diff]
+                structure = structure_rows[:, diff]
+                g = g_all[sel]
+            kinetic = kinetic_all[sel]
+        else:
+            kinetic = model.kinetic_eV(kk)[0]
+        n = len(g)
+        h = base.astype(complex)
+        h[np.arange(n), np.arange(n)] += kinetic
+        w = term.coupling(kk + g, structure)
+        yield spinor_hamiltonian(h, w, np.empty((2 * n, 2 * n), complex, order="F"))

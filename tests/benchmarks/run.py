@@ -29,6 +29,7 @@ from pathlib import Path
 import numpy as np
 import scipy.linalg
 from perturbation_driver import driver_rows  # sibling script (run.py runs as a script)
+from spin_orbit import spin_orbit_rows  # sibling script
 from threadpoolctl import threadpool_info, threadpool_limits
 
 import bandpert
@@ -455,6 +456,11 @@ def main(argv: list[str] | None = None) -> int:
     results.update(driver_results)
     rows.extend(driver_out)
 
+    # -- 7. the spinor exact path with spin-orbit coupling (spin_orbit.py)
+    so_results, so_rows = spin_orbit_rows(max(3, reps // 2), say)
+    results.update(so_results)
+    rows.extend(so_rows)
+
     # -- Dask: the same jobs on one worker and on two
     dask_results, dask_rows = dask_speedup(reps, say)
     results.update(dask_results)
@@ -474,6 +480,10 @@ def main(argv: list[str] | None = None) -> int:
                                               for n in cases) <= 1.1,
         "k_centred_at_most_1.0_of_bare": max(
             results[f"k_centred_{n}"]["k_centred_over_bare_1_thread"] for n in cases) <= 1.0,
+        "spin_orbit_exact_at_most_1.1_of_bare_zheevr":
+            results["spin_orbit_silicon"]["tool_over_bare"] <= 1.1,
+        "spin_orbit_build_at_most_15_percent":
+            results["spin_orbit_silicon"]["build_over_diagonalisation"] <= 0.15,
         "perturbative_20x_faster_aluminium": al["speed_ratio"] >= 20,
         "perturbative_20x_faster_silicon": si["speed_ratio"] >= 20,
         "max_error_trustworthy_at_most_5meV": max(al["max_error_trustworthy_eV"],

@@ -25,8 +25,9 @@ def check(
     """Validate a material file and print what it describes: lattice, symmetry, path, basis."""
     material = load_material(file)
     nb = default_bands(material)
-    cutoff = choose_cutoff(material, nb, cutoff_eV, check_convergence=False)
-    model = build_model(material, cutoff)
+    spinless = material.without_spin_orbit()
+    cutoff = choose_cutoff(spinless, default_bands(spinless), cutoff_eV, check_convergence=False)
+    model = build_model(material, cutoff, spin_orbit=True)
     sym = crystal_symmetry(material)
     points, legs = standard_path(material)
     table = Table(title=f"{material.name}  ({file})", show_header=False, title_justify="left")
@@ -47,12 +48,19 @@ def check(
         inv = "with" if sym.has_inversion else "without"
         table.add_row("space group", f"{sym.international} ({sym.number}), {inv} inversion")
     table.add_row("potential", _describe_potential(material))
+    if material.spin_orbit is not None:
+        table.add_row("spin-orbit", "; ".join(
+            f"{s}: λ = {p.strength_eV:.6g} eV" + ("" if p.core_shell is None else
+                                                  f", core {p.core_shell}p, ζ = "
+                                                  f"{p.slater_exponent_invA:g} 1/Å")
+            for s, p in material.spin_orbit.species.items()))
     table.add_row("path", " | ".join("–".join(leg) for leg in legs))
     for label in dict.fromkeys(x for leg in legs for x in leg):
         table.add_row(f"  {label}", _vec(points[label]))
     source = "given" if (cutoff_eV or material.cutoff_eV) else "converged default"
     table.add_row("basis", f"{model.size} plane waves at cutoff {cutoff:.2f} eV ({source}); "
-                  f"H(k) {'real symmetric' if model.is_real else 'complex Hermitian'}")
+                  f"H(k) {'real symmetric' if model.is_real else 'complex Hermitian'}"
+                  + (" (spinor, 2 × 2 blocks)" if model.n_components == 2 else ""))
     table.add_row("electrons", "not given (absolute energies)" if material.valence_electrons is None
                   else f"{material.valence_electrons} per cell; {nb} bands by default")
     out.print(table)
