@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import json
+
 import numpy as np
 import pytest
-from conftest import bundled, make_material
+from conftest import MATERIALS, bundled, make_material
+from test_cli import run
 
 from bandpert.crystal.lattice import standard_path
 from bandpert.symmetry import NO_SYMMETRY, label_point, little_group, space_group_frame
@@ -112,3 +115,28 @@ def test_aluminium_has_neutral_labels_where_no_name_is_tabled():
     assert all(n.startswith("W#") for n in names)
     # source: Bouckaert, Smoluchowski & Wigner 1936: Γ1 is the bottom of the fcc band
     assert labels("aluminium", "Γ", 1)[0] == "Γ1"
+
+
+def test_bands_command_writes_and_prints_the_labels(tmp_path):
+    code, out, err = run(["bands", str(MATERIALS / "silicon.toml"), "--k-points", "12",
+                          "--exact-only", "--bands", "6", "--out", str(tmp_path)])
+    assert code == 0, err
+    doc = json.loads((tmp_path / "silicon-exact-bands.json").read_text())
+    irreps = doc["results"]["irreps"]
+    assert irreps["origin"].startswith("bond centre") and irreps["space_group"] == "Fd-3m"
+    gamma = next(p for p in irreps["points"] if p["point"] == "Γ")
+    assert [lv["label"] for lv in gamma["levels"]][:2] == ["Γ1", "Γ25′"]
+    assert gamma["levels"][1]["degeneracy"] == 3 and gamma["little_cogroup_order"] == 48
+    # the Γ25′ level is the valence-band maximum, the run's energy zero
+    assert gamma["levels"][1]["energy_eV"] == pytest.approx(0.0, abs=1e-6)
+    assert gamma["levels"][1]["energy_absolute_eV"] == pytest.approx(
+        doc["results"]["energy_zero"]["absolute_eV"], abs=1e-6)
+    assert "Γ25′" in out and "symmetry labels" in out
+
+
+def test_one_and_two_dimensional_models_are_not_labelled(tmp_path):
+    code, out, err = run(["bands", str(MATERIALS / "cosine-chain.toml"), "--k-points", "8",
+                          "--exact-only", "--out", str(tmp_path)])
+    assert code == 0, err
+    doc = json.loads((tmp_path / "cosine-chain-exact-bands.json").read_text())
+    assert doc["results"]["irreps"]["points"] == [] and "3D" in doc["results"]["irreps"]["note"]

@@ -6,7 +6,7 @@ below does. Group theory from spgrep (irreps of little groups from spglib's oper
 """
 
 from .groups import LittleGroup, SpaceGroupFrame, little_group, space_group_frame
-from .labels import NO_SYMMETRY, LevelLabel, PointSymmetry, label_point
+from .labels import NO_SYMMETRY, LevelLabel, PointSymmetry, label_point, label_points
 
 __all__ = [
     "NO_SYMMETRY",
@@ -15,6 +15,7 @@ __all__ = [
     "PointSymmetry",
     "SpaceGroupFrame",
     "label_point",
+    "label_points",
     "little_group",
     "space_group_frame",
 ]

@@ -213,14 +213,12 @@ def _herring(frame: SpaceGroupFrame, k: np.ndarray, mapping: np.ndarray, chars: 
     """
     W, w = frame.rotations, frame.translations
     total = np.zeros(chars.shape[0], dtype=complex)
-    little_W = W[mapping]
-    for n in range(W.shape[0]):
-        kr = k @ np.linalg.inv(W[n])  # the rotated k, as a row
-        d = kr + k
-        if not np.allclose(d, np.rint(d), atol=ATOL):
-            continue
+    little_W = W[mapping].reshape(mapping.size, 9)
+    kr = np.einsum("j,nji->ni", k, np.linalg.inv(W))  # every rotated k, as rows
+    d = kr + k
+    for n in np.flatnonzero(np.all(np.abs(d - np.rint(d)) < ATOL, axis=1)):
         w2 = W[n] @ w[n] + w[n]
-        j = np.flatnonzero(np.all(little_W == W[n] @ W[n], axis=(1, 2)))[0]
+        j = int(np.flatnonzero(np.all(little_W == (W[n] @ W[n]).ravel(), axis=1))[0])
         t = w2 - w[mapping[j]]
         total += np.exp(-2j * np.pi * (k @ t)) * chars[:, j]
     value = total.real / mapping.size

@@ -19,9 +19,10 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg
 
-from ..crystal.lattice import reciprocal_vectors
 from ..input.material import Material
-from ..planewave.model import centred_model
+from ..planewave.model import KCentredModel, build_k_centred_model
+from ..planewave.solver import single_blas_thread
+from ..units import HBAR2_OVER_2M0_EV_A2
 from .groups import LittleGroup, SpaceGroupFrame, little_group, space_group_frame
 from .names import irrep_names, structure_kind
 
@@ -31,6 +32,7 @@ __all__ = [
     "LevelLabel",
     "PointSymmetry",
     "label_point",
+    "label_points",
     "plane_wave_characters",
 ]
 
@@ -123,7 +125,7 @@ class PointSymmetry:
 
 def plane_wave_characters(frame: SpaceGroupFrame, group: LittleGroup, miller: np.ndarray,
                           vectors: np.ndarray) -> np.ndarray:
-    """Characters χ(g) = tr(U† P(g) U) of the little-group operations on eigenvectors U.
+    """Diagonal elements ⟨u|P(g)|u⟩ of the little-group operations on eigenvectors u.
 
     Parameters
     ----------
@@ -132,12 +134,13 @@ def plane_wave_characters(frame: SpaceGroupFrame, group: LittleGroup, miller: np
     miller : numpy.ndarray
         (n, 3) G of the k-centred basis (reciprocal primitive coordinates).
     vectors : numpy.ndarray
-        (n, d) orthonormal eigenvectors of one level (or any invariant subspace).
+        (n, b) orthonormal eigenvectors (columns).
 
     Returns
     -------
     numpy.ndarray
-        (m,) complex characters, one per little-group operation.
+        (m, b) complex diagonal elements ⟨u|P(g)|u⟩ per operation and eigenvector; the
+        character of a level is the sum over its eigenvectors.
     """
     k = group.k_frac
     miller = np.asarray(miller, dtype=np.int64)
@@ -147,17 +150,19 @@ def plane_wave_characters(frame: SpaceGroupFrame, group: LittleGroup, miller: np
     code = (miller - lo) @ strides
     order = np.argsort(code)
     sorted_code = code[order]
-    out = np.empty(group.order, dtype=complex)
+    vectors = np.asarray(vectors)
+    out = np.empty((group.order, vectors.shape[1]), dtype=complex)
+    inverse = np.linalg.inv(frame.rotations[group.indices])
     for j, n in enumerate(group.indices):
-        q = (k + miller) @ np.linalg.inv(frame.rotations[n])  # rotated k+G (rows)
+        q = (k + miller) @ inverse[j]  # rotated k+G (rows)
         m2 = np.rint(q - k).astype(np.int64)
         phase = np.exp(-2j * np.pi * (q @ frame.translations_user[n]))
         c2 = (m2 - lo) @ strides
         pos = np.clip(np.searchsorted(sorted_code, c2), 0, code.size - 1)
-        target = order[pos]
-        if np.any(sorted_code[pos] != c2) or np.any(np.abs(q - k - m2) > 1e-6):
+        if np.any(sorted_code[pos] != c2):
             raise RuntimeError("the basis is not invariant under the little group of k")
-        out[j] = np.sum(np.conj(vectors[target]) * phase[:, None] * vectors)
+        target = order[pos]
+        out[j] = np.einsum("ij,i,ij->j", np.conj(vectors[target]), phase, vectors)
     return out
 
 
@@ -178,6 +183,7 @@ def _no_symmetry(point: str, k_frac: np.ndarray, energies: np.ndarray, note: str
 
 def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point: str,
                 n_bands: int, *, frame: SpaceGroupFrame | None = None,
+                model: KCentredModel | None = None,
                 origin_atom: int | None = None,
                 level_tol_eV: float = LEVEL_TOLERANCE_EV) -> PointSymmetry:
     """Label the lowest ``n_bands`` bands at k by the irreps of the little group of k.
@@ -200,6 +206,8 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
         Number of bands to label.
     frame : SpaceGroupFrame, optional
         Reuse the operations (:func:`bandpert.symmetry.groups.space_group_frame`).
+    model : KCentredModel, optional
+        Reuse the model's table of V(G) (built at ``cutoff_eV`` otherwise).
     origin_atom : int, optional
         Atom at the origin for crystals without inversion (default the first atom).
     level_tol_eV : float
@@ -210,16 +218,13 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
     PointSymmetry
     """
     k_frac = np.asarray(k_frac, dtype=float)
-    b = reciprocal_vectors(material.vectors_A)
-    k_cart = k_frac @ b
-    model = centred_model(material, cutoff_eV, k_cart)
-    top = min(model.size, n_bands + 12)
-    w, v = scipy.linalg.eigh(model.hamiltonian(k_cart), subset_by_index=(0, top - 1),
-                             driver="evr")
+    model = build_k_centred_model(material, cutoff_eV) if model is None else model
+    miller, w, v = _k_centred_states(model, k_frac @ model.reciprocal_invA, n_bands + 12)
+    top = w.size
     runs = [r for r in _levels(w, level_tol_eV) if r[0] < n_bands]
-    if runs and runs[-1][0] + runs[-1][1] == top and top < model.size:
+    if runs and runs[-1][0] + runs[-1][1] == top and top < miller.shape[0]:
         runs = runs[:-1] or runs  # a level cut by the subset: keep only whole ones
-    if material.dimension != 3 or model.basis.n_components != 1:
+    if material.dimension != 3 or model.gamma.basis.n_components != 1:
         why = ("labels are computed for 3D spinless models only" if material.dimension == 3
                else f"labels are computed for 3D crystals only (this model is "
                f"{material.dimension}D)")
@@ -235,8 +240,10 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
     group = little_group(frame, k_frac)
     names = irrep_names(frame, group, point, structure_kind(frame, material))
     levels = []
+    top_band = runs[-1][0] + runs[-1][1] if runs else 0
+    diag = plane_wave_characters(frame, group, miller, v[:, :top_band])
     for a, g in runs:
-        chi = plane_wave_characters(frame, group, model.basis.miller, v[:, a:a + g])
+        chi = diag[:, a:a + g].sum(axis=1)
         mult = group.characters.conj() @ chi / group.order
         counts = np.rint(mult.real).astype(int)
         if np.max(np.abs(mult - counts)) > 1e-3 or counts @ group.dimensions != g:
@@ -250,6 +257,58 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
     return PointSymmetry(point, k_frac, frame.international, frame.origin, group.order,
                          tuple(names), tuple(int(d) for d in group.dimensions),
                          tuple(int(h) for h in group.herring), tuple(levels), "", cutoff_eV)
+
+
+def label_points(material: Material, cutoff_eV: float, points: dict[str, np.ndarray],
+                 n_bands: int, *, model: KCentredModel | None = None,
+                 origin_atom: int | None = None) -> tuple[PointSymmetry, ...]:
+    """:func:`label_point` at several points, sharing the operations and the V(G) table.
+
+    Parameters
+    ----------
+    material : Material
+    cutoff_eV : float
+    points : dict of str to numpy.ndarray
+        Label → k in fractions of the reciprocal primitive vectors (e.g. the labelled points of
+        :func:`bandpert.crystal.lattice.standard_path`).
+    n_bands : int
+    model : KCentredModel, optional
+        The band structure's model (same cutoff), whose V table is reused.
+    origin_atom : int, optional
+
+    Returns
+    -------
+    tuple of PointSymmetry
+        In the order of ``points``; empty for a 1D or 2D model (labels are for 3D crystals).
+    """
+    if material.dimension != 3:
+        return ()
+    model = build_k_centred_model(material, cutoff_eV) if model is None else model
+    frame = space_group_frame(material, origin_atom)
+    return tuple(label_point(material, cutoff_eV, np.asarray(k, dtype=float), lab, n_bands,
+                             frame=frame, model=model, origin_atom=origin_atom)
+                 for lab, k in points.items())
+
+
+def _k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int
+                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Miller indices of the basis centred on k, and its lowest eigenpairs.
+
+    H_ij = ħ²|k+G_i|²/2m0 δ_ij + V(G_i − G_j), gathered from the model's table of V
+    (:meth:`bandpert.planewave.model.KCentredModel.candidates`), in the basis
+    {G : ħ²|k+G|²/2m0 ≤ cutoff}, which every little-group operation maps onto itself.
+    """
+    cand, flat, table, origin = model.candidates(float(np.linalg.norm(k_cart)))
+    kg = k_cart + cand.g_cart_invA
+    kinetic = HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", kg, kg)
+    inside = np.flatnonzero(kinetic <= model.cutoff_eV * (1 + 1e-12))
+    codes = flat[inside]
+    h = table[origin + codes[:, None] - codes[None, :]]
+    h[np.diag_indices(inside.size)] += kinetic[inside]
+    top = min(inside.size, n_states)
+    with single_blas_thread():  # small matrices: one thread (planewave.solver)
+        w, v = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
+    return cand.miller[inside], w, v
 
 
 def _stuck_by_time_reversal(contained: tuple[int, ...], group: LittleGroup) -> bool:

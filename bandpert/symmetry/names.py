@@ -174,7 +174,7 @@ def _matches(chars: np.ndarray, classes: list, table: dict[Pattern, float]) -> b
     for pattern, value in table.items():
         hit = [i for i, c in enumerate(classes)
                if all(p is None or p == x for p, x in zip(pattern, c, strict=True))]
-        if not hit or not np.allclose(chars[hit], value, atol=1e-6):
+        if not hit or np.max(np.abs(chars[hit] - value)) > 1e-6:
             return False
     return True
 

@@ -9,7 +9,7 @@ import numpy as np
 import typer
 from rich.table import Table
 
-from ...crystal.lattice import describe_position
+from ...crystal.lattice import describe_position, standard_path
 from ...errors import InputError
 from ...input.file_kind import file_kind
 from ...input.material import load_material
@@ -23,6 +23,7 @@ from ...output.report import (
     perturbative_table,
     with_k_labels,
 )
+from ...output.symmetry_report import symmetry_results, symmetry_rows
 from ...perturbation import DEFAULT_COUPLING_THRESHOLD
 from ...physics.bands import compute_band_structure
 from ...physics.perturbative_bands import (
@@ -31,6 +32,7 @@ from ...physics.perturbative_bands import (
     TOLERANCE_RANGE_EV,
     PerturbationSettings,
 )
+from ...symmetry import label_points
 from ..options import (
     DEFAULT_OUT,
     CutoffOption,
@@ -127,7 +129,11 @@ def bands(
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "real_hamiltonian": bs.model.is_real, "exact": not no_exact,
                 "perturbative": not exact_only}
-    doc = document("bands", material, settings, band_structure_results(bs))
+    labels = label_points(material, bs.model.basis.cutoff_eV, standard_path(material)[0],
+                          bs.n_bands, model=bs.k_centred)
+    results = band_structure_results(bs)
+    results["irreps"] = symmetry_results(labels, bs.energy_zero_eV)
+    doc = document("bands", material, settings, results)
     header, cols, rows = band_structure_table(bs)
     fig = band_figure(bs, window)
     mode = "exact-" if exact_only else "perturbative-" if no_exact else ""
@@ -143,6 +149,14 @@ def bands(
     write_json(json_path, doc)
     written.append(json_path)
     _summary(bs)
+    title, cols, rows = symmetry_rows(labels, bs.energy_zero_eV)
+    if rows:
+        table = Table(title=title, title_justify="left")
+        for c in cols:
+            table.add_column(c, overflow="fold")
+        for r in rows:
+            table.add_row(*r)
+        out.print(table)
     out.print("wrote " + ", ".join(str(w) for w in written))
 
 
