@@ -9,18 +9,19 @@ from ..symmetry.labels import PointSymmetry
 __all__ = ["symmetry_results", "symmetry_rows"]
 
 
-def symmetry_results(points: tuple[PointSymmetry, ...], energy_zero_eV: float = 0.0
-                     ) -> dict[str, Any]:
+def symmetry_results(points: tuple[PointSymmetry, ...], energy_zero_eV: float = 0.0,
+                     note: str = "") -> dict[str, Any]:
     """The ``results.irreps`` section: labels of the levels at each labelled point.
 
     Energies from the run's energy zero (``energy_zero_eV``, absolute), the absolute values
-    kept as ``energy_absolute_eV``, as in every document.
+    kept as ``energy_absolute_eV``, as in every document. ``note`` says why there are no
+    points (:func:`bandpert.symmetry.labels.unlabelled_reason`).
     """
     first = points[0] if points else None
     return {
         "space_group": first.space_group if first else None,
         "origin": first.origin if first else None,
-        "note": first.note if first else "no labels: they are computed for 3D crystals only",
+        "note": first.note if first else note,
         "basis": "k-centred: ħ²|k+G|²/2m0 ≤ cutoff at each point",
         "points": [{
             "point": p.point,

@@ -33,6 +33,7 @@ __all__ = [
     "PointSymmetry",
     "label_point",
     "label_points",
+    "unlabelled_reason",
     "plane_wave_characters",
 ]
 
@@ -218,6 +219,9 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
     PointSymmetry
     """
     k_frac = np.asarray(k_frac, dtype=float)
+    if getattr(material, "spin_orbit", None) is not None:
+        return PointSymmetry(point, k_frac, "", "", 1, (), (), (), (),
+                             unlabelled_reason(material), cutoff_eV)
     model = build_k_centred_model(material, cutoff_eV) if model is None else model
     miller, w, v = _k_centred_states(model, k_frac @ model.reciprocal_invA, n_bands + 12)
     top = w.size
@@ -279,15 +283,26 @@ def label_points(material: Material, cutoff_eV: float, points: dict[str, np.ndar
     Returns
     -------
     tuple of PointSymmetry
-        In the order of ``points``; empty for a 1D or 2D model (labels are for 3D crystals).
+        In the order of ``points``; empty where :func:`unlabelled_reason` gives a reason.
     """
-    if material.dimension != 3:
+    if unlabelled_reason(material):
         return ()
     model = build_k_centred_model(material, cutoff_eV) if model is None else model
     frame = space_group_frame(material, origin_atom)
     return tuple(label_point(material, cutoff_eV, np.asarray(k, dtype=float), lab, n_bands,
                              frame=frame, model=model, origin_atom=origin_atom)
                  for lab, k in points.items())
+
+
+def unlabelled_reason(material: Material) -> str:
+    """Why a material gets no labels (``""`` when it gets them): 1D/2D, or spin–orbit."""
+    if material.dimension != 3:
+        return (f"no labels: they are computed for 3D crystals only (this model is "
+                f"{material.dimension}D)")
+    if getattr(material, "spin_orbit", None) is not None:
+        return ("no labels: double-group (spinor) labels are not computed; the spinless labels "
+                "of the same material without spin–orbit apply to its levels before splitting")
+    return ""
 
 
 def _k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int

@@ -33,6 +33,7 @@ from ...physics.perturbative_bands import (
     PerturbationSettings,
 )
 from ...symmetry import label_points
+from ...symmetry.labels import unlabelled_reason
 from ..options import (
     DEFAULT_OUT,
     CutoffOption,
@@ -132,7 +133,7 @@ def bands(
     labels = label_points(material, bs.model.basis.cutoff_eV, standard_path(material)[0],
                           bs.n_bands, model=bs.k_centred)
     results = band_structure_results(bs)
-    results["irreps"] = symmetry_results(labels, bs.energy_zero_eV)
+    results["irreps"] = symmetry_results(labels, bs.energy_zero_eV, unlabelled_reason(material))
     doc = document("bands", material, settings, results)
     header, cols, rows = band_structure_table(bs)
     fig = band_figure(bs, window)
