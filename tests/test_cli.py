@@ -88,7 +88,8 @@ OPTIONS = {
               "--workers", "--scheduler", "--out", "--format", "--json", "--name", "--help"],
     "dos": ["--mesh", "--method", "--smearing-eV", "--step-meV", "--bands", "--cutoff-eV",
             "--engine", "--workers", "--scheduler", "--out", "--format", "--json", "--name",
-            "--emin", "--emax", "--help"],
+            "--emin", "--emax", "--interpolate", "--tolerance-meV",
+            "--basis-tolerance", "--coarse-mesh", "--help"],
 }
 
 

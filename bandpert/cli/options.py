@@ -171,6 +171,8 @@ FLAGS = {
     "address": "--scheduler", "workers": "--workers", "axes": "--vary",
     "lower_band": "--between", "quantities": "--quantity", "form_factors": "--form-factors",
     "basis": "--basis", "alloy_end": "--alloy-end", "model": "--model", "k_max_frac": "--k-max",
+    "interpolation_tolerance_eV": "--tolerance-meV",
+    "basis_tolerance": "--basis-tolerance", "coarse_mesh": "--coarse-mesh",
 }
 
 #: Library wording inside messages → the command line's wording.

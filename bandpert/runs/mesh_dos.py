@@ -24,6 +24,7 @@ from ..physics.dos import (
     gaussian_dos,
     tetrahedron_dos,
 )
+from ..physics.reduced_basis import InterpolatedBands, ReducedBasisSettings, interpolated_bands
 from ..planewave.cutoff import choose_cutoff
 from ..planewave.model import KCentredModel, build_k_centred_model
 from ..planewave.solver import exact_energies, single_blas_thread
@@ -144,6 +145,9 @@ class DosResult:
     energy_zero_kind : str
         "valence-band maximum", "Fermi level" or "absolute".
     engine : str
+    interpolation : InterpolatedBands or None
+        The reduced-basis interpolation that gave ``energies_eV`` (its check included); None
+        when every point was diagonalised exactly.
     """
 
     material: Material
@@ -159,6 +163,7 @@ class DosResult:
     energy_zero_eV: float
     energy_zero_kind: str
     engine: str
+    interpolation: InterpolatedBands | None = None
 
     @property
     def gap_eV(self) -> float | None:
@@ -172,7 +177,8 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
                 method: str = "tetrahedron", smearing_eV: float = DEFAULT_SMEARING_EV,
                 n_bands: int | None = None, cutoff_eV: float | None = None,
                 energy_step_eV: float = 0.01, engine: Engine = SERIAL,
-                progress: Progress | None = None) -> DosResult:
+                progress: Progress | None = None,
+                interpolation: ReducedBasisSettings | None = None) -> DosResult:
     """Density of states and Fermi level of a plane-wave model on a Γ-centred mesh.
 
     Parameters
@@ -195,6 +201,10 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
         Where the diagonalisations run (:mod:`bandpert.execution`).
     progress : callable, optional
         ``progress(done, total)`` in k-points.
+    interpolation : ReducedBasisSettings, optional
+        Interpolate the bands from reduced bases
+        (:func:`~bandpert.physics.reduced_basis.interpolated_bands`, in this process, with its
+        check against exact bands) instead of diagonalising every point exactly.
 
     Returns
     -------
@@ -212,9 +222,17 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
     if nb > model.size:
         raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
                          "waves", material.file, "n_bands")
+    if interpolation is not None:
+        interpolation.checked()
     mesh = reciprocal_mesh(material, n_per_axis)
+    interpolated = None
     with session(engine) as runner:  # one cluster for the bands and the DOS
-        energies = mesh_energies(material, mesh, cutoff, nb, runner, progress)
+        if interpolation is None:
+            energies = mesh_energies(material, mesh, cutoff, nb, runner, progress)
+        else:
+            interpolated = interpolated_bands(material, mesh.k_cart_invA, nb, cutoff,
+                                              interpolation)
+            energies = interpolated.energies_eV
         top = float(energies[:, -1].min())
         lo = float(energies.min()) - 0.5
         grid = np.arange(lo, top + 0.5 * energy_step_eV, energy_step_eV)
@@ -231,4 +249,4 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
                      basis_size=model.size, energies_eV=energies, dos=dos,
                      complete_below_eV=top, fermi_level_eV=e_f, valence_max_eV=vbm,
                      conduction_min_eV=cbm, energy_zero_eV=float(zero), energy_zero_kind=kind,
-                     engine=engine.describe())
+                     engine=engine.describe(), interpolation=interpolated)

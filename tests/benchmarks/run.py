@@ -29,6 +29,7 @@ from pathlib import Path
 import numpy as np
 import scipy.linalg
 from perturbation_driver import driver_rows  # sibling script (run.py runs as a script)
+from reduced_basis import reduced_basis_rows  # sibling script
 from spin_orbit import spin_orbit_rows  # sibling script
 from threadpoolctl import threadpool_info, threadpool_limits
 
@@ -231,6 +232,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--reps", type=int, default=7, help="repetitions per pair (default 7)")
     parser.add_argument("--only-dask", action="store_true",
                         help="run only the Dask section (prints the table, writes no JSON)")
+    parser.add_argument("--only-reduced-basis", action="store_true",
+                        help="run only the reduced-basis section (prints the table, no JSON)")
     args = parser.parse_args(argv)
     reps = args.reps
     started = time.perf_counter()
@@ -239,6 +242,12 @@ def main(argv: list[str] | None = None) -> int:
 
     def say(*a):
         print(*a, file=sys.stderr, flush=True)
+
+    if args.only_reduced_basis:
+        _, rb_rows = reduced_basis_rows(reps, say, side_by_side)
+        for what, figure, detail in rb_rows:
+            print(f"| {what} | {figure} | {detail} |")
+        return 0
 
     if args.only_dask:
         _, dask_rows = dask_speedup(reps, say)
@@ -460,6 +469,11 @@ def main(argv: list[str] | None = None) -> int:
     so_results, so_rows = spin_orbit_rows(max(3, reps // 2), say)
     results.update(so_results)
     rows.extend(so_rows)
+
+    # -- 8. reduced-basis interpolation and the dense-mesh jobs (reduced_basis.py)
+    rb_results, rb_rows = reduced_basis_rows(max(3, reps // 2), say, side_by_side)
+    results.update(rb_results)
+    rows.extend(rb_rows)
 
     # -- Dask: the same jobs on one worker and on two
     dask_results, dask_rows = dask_speedup(reps, say)

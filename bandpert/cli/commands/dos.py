@@ -11,11 +11,22 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_csv, write_json
+from ...output.dense_mesh_report import interpolation_line, interpolation_results
 from ...output.energy_zero import zero_phrase
 from ...output.figures import dos_figure, smearing_warning
 from ...output.report import document, dos_results, dos_table
 from ...output.text import fixed
 from ...runs.mesh_dos import compute_dos
+from ..dense_mesh_options import (
+    DEFAULT_BASIS,
+    DEFAULT_COARSE,
+    DEFAULT_TOLERANCE_MEV,
+    BasisToleranceOption,
+    CoarseMeshOption,
+    InterpolateOption,
+    InterpolationToleranceOption,
+    interpolation_settings,
+)
 from ..options import (
     DEFAULT_OUT,
     BandsOption,
@@ -67,12 +78,18 @@ def dos(
     e_max: EMaxOption = None,
     json_path: Annotated[Path | None, json_option("dos")] = None,
     name: Annotated[str | None, name_option("<file>-dos")] = None,
+    interpolate: InterpolateOption = False,
+    tolerance_meV: InterpolationToleranceOption = DEFAULT_TOLERANCE_MEV,
+    basis_tolerance: BasisToleranceOption = DEFAULT_BASIS,
+    coarse_mesh: CoarseMeshOption = DEFAULT_COARSE,
 ) -> None:
     """Density of states on a dense k-mesh and the Fermi level from the electron count.
 
     The exact bands are computed on the irreducible points of the mesh, spread over a local
     Dask cluster (default), an existing scheduler (--scheduler) or this process (--engine
-    serial); the result does not depend on which.
+    serial); the result does not depend on which. With --interpolate the bands come from
+    reduced bases built on a coarse mesh (in this process), checked against exact bands at 1 %
+    of the points.
     """
 
     check_count(mesh, "--mesh", 2)
@@ -83,11 +100,14 @@ def dos(
         raise InputError(f"must be positive, got {smearing_eV}", key="--smearing-eV")
     run_on = engine_from_options(engine, workers, scheduler)
     window = energy_window(e_min, e_max)
+    interpolation = (interpolation_settings(tolerance_meV, basis_tolerance, coarse_mesh)
+                     if interpolate else None)
     material = load_material(file)
     with progress_bar("diagonalising on the mesh") as progress:
         result = compute_dos(material, mesh, method=method, smearing_eV=smearing_eV,
                              n_bands=n_bands, cutoff_eV=cutoff_eV,
-                             energy_step_eV=step_meV * 1e-3, engine=run_on, progress=progress)
+                             energy_step_eV=step_meV * 1e-3, engine=run_on, progress=progress,
+                             interpolation=interpolation)
     settings = {"mesh": mesh, "method": method,
                 "smearing_eV": smearing_eV if method == "gaussian" else None,
                 "step_eV": step_meV * 1e-3, "bands": int(result.energies_eV.shape[1]),
@@ -98,7 +118,11 @@ def dos(
     fig = dos_figure(result, window)
     save_figure(fig, image, image_format)
     write_csv(csv_path, *dos_table(result))
-    write_json(json_path, document("dos", material, settings, dos_results(result)))
+    results = dos_results(result)
+    if result.interpolation is not None:
+        settings["interpolate"] = True
+        results["interpolation"] = interpolation_results(result.interpolation)
+    write_json(json_path, document("dos", material, settings, results))
     table = Table(title=f"{material.name}: density of states", show_header=False,
                   title_justify="left")
     table.add_column(style="bold")
@@ -122,6 +146,8 @@ def dos(
     if result.gap_eV is not None:
         table.add_row("gap on the mesh", f"{result.gap_eV:.3f} eV")
     table.add_row("complete below", f"{fixed(result.complete_below_eV - zero, 3)} eV from the zero")
+    if result.interpolation is not None:
+        table.add_row("interpolation", interpolation_line(result.interpolation))
     table.add_row("ran on", result.engine)
     out.print(table)
     if smearing_warning(result):

@@ -1,0 +1,504 @@
+"""Reduced-basis interpolation of plane-wave bands: exact states on a coarse mesh, a small basis,
+and the small matrix diagonalised at every point of a dense mesh.
+
+The method is the optimal-basis k·p of E. L. Shirley, Phys. Rev. B 54, 16464 (1996) (after the
+full-zone k·p of M. Cardona and F. H. Pollak, Phys. Rev. 142, 530 (1966)):
+
+1. One fixed set of plane waves for every k: the union of the bases centred on the points of a
+   Γ-centred coarse mesh folded into the first zone, every image of a zone-boundary point
+   included (:func:`fixed_superset_model`). Each coarse point's own symmetric basis
+   ħ²|k+G|²/2m0 ≤ cutoff (:class:`~bandpert.planewave.model.KCentredModel`) is a subset, so the
+   superset is at least as converged there.
+2. The lowest ``n_bands + buffer_bands`` eigenvectors at every coarse point are stacked as the
+   columns of U; the left singular vectors of U with singular value σ ≥ ``basis_tolerance``·σ_max
+   are kept (from the eigenvalues σ² of U U†). The buffer bands above the window keep the top
+   band of the window as accurate as the others.
+3. H(k) = H0 + (ħ²/m0) k·Q + (ħ²/2m0)|k|² is exact on the fixed plane waves for the local spinless
+   model (:mod:`bandpert.planewave.k_polynomial`), so B†H0B and B†QB are built once and the small
+   matrix at any k is a sum of four matrices, diagonalised in batches of k-points.
+4. Error control: a stated share of the dense points is also diagonalised exactly (each in its
+   own k-centred basis, the tool's exact bands); the largest and RMS differences are reported.
+   Above the tolerance the coarse mesh is refined and the basis tolerance tightened
+   (:data:`MAX_REFINEMENTS` times); then the run fails with the numbers.
+
+Spin–orbit and nonlocal terms are not polynomial in k (their radial factors depend on |k + G|):
+they would be projected onto the reduced basis at each k, B† H_SO(k) B, an (n_f × n_r) product per
+k that still leaves the diagonalisation small; this module handles the local spinless model only.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import itertools
+import warnings
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.linalg
+
+from ..crystal.kmesh import full_grid_frac
+from ..errors import InputError, ModelWarning
+from ..input.material import Material
+from ..planewave.basis import MAX_BASIS, PlaneWaveBasis, estimated_basis_size
+from ..planewave.k_polynomial import KPolynomial, k_polynomial
+from ..planewave.model import PlaneWaveModel, build_k_centred_model, build_model
+from ..planewave.solver import exact_energies, single_blas_thread
+from ..units import HBAR2_OVER_2M0_EV_A2
+
+#: Default points per axis of the coarse mesh whose exact states span the basis.
+DEFAULT_COARSE_MESH = 4
+
+#: Default relative singular-value cut: vectors with σ < tolerance·σ_max are dropped.
+DEFAULT_BASIS_TOLERANCE = 3e-3
+
+#: Default bands kept above the window at every coarse point.
+DEFAULT_BUFFER_BANDS = 4
+
+#: Default largest difference allowed between interpolated and exact bands at the check points.
+DEFAULT_TOLERANCE_EV = 0.005
+
+#: Default share of the dense points also diagonalised exactly, and the least number of them.
+DEFAULT_CHECK_SHARE = 0.01
+MIN_CHECK_POINTS = 16
+
+#: Refinements tried when the check fails: coarse mesh + 2 and basis tolerance / 3 each time.
+MAX_REFINEMENTS = 2
+
+#: Largest coarse mesh per axis (the coarse work grows as its cube).
+MAX_COARSE_MESH = 12
+
+#: Largest neighbourhood of a local basis, in coarse-mesh spacings.
+MAX_LOCAL_RADIUS = 3.0
+
+#: Default neighbourhood of the local bases (coarse-mesh spacings), when they are asked for.
+DEFAULT_LOCAL_RADIUS = 1.5
+
+#: Largest stack of coarse eigenvectors held at once (bytes).
+MAX_STACK_BYTES = 2 * 2**30
+
+
+@dataclass(frozen=True)
+class ReducedBasisSettings:
+    """How the reduced basis is built and checked.
+
+    Attributes
+    ----------
+    coarse_mesh : int
+        Points per axis of the Γ-centred coarse mesh (≥ 2).
+    basis_tolerance : float
+        Relative singular-value cut, in (0, 1).
+    buffer_bands : int
+        Bands kept above the window at each coarse point (≥ 0).
+    tolerance_eV : float
+        Largest difference from the exact bands accepted at the check points (> 0).
+    check_share : float
+        Share of the dense points diagonalised exactly as well, in (0, 1].
+    seed : int
+        Seed of the choice of check points (a run is reproducible).
+    local_radius : float
+        0 for one basis over the whole zone (Shirley 1996); > 0 for one basis per coarse point
+        built from the coarse points within this many coarse-mesh spacings (at least 1), used
+        for the dense points nearest that coarse point: smaller matrices, faster.
+    """
+
+    coarse_mesh: int = DEFAULT_COARSE_MESH
+    basis_tolerance: float = DEFAULT_BASIS_TOLERANCE
+    buffer_bands: int = DEFAULT_BUFFER_BANDS
+    tolerance_eV: float = DEFAULT_TOLERANCE_EV
+    check_share: float = DEFAULT_CHECK_SHARE
+    seed: int = 0
+    local_radius: float = 1.5
+
+    def checked(self) -> ReducedBasisSettings:
+        """These settings, or an :class:`InputError` naming the first one out of range."""
+        c = self.coarse_mesh
+        if isinstance(c, bool) or not isinstance(c, int | np.integer) or not (
+                2 <= c <= MAX_COARSE_MESH):
+            raise InputError(f"got {c!r}; expected a whole number of points per axis from 2 to "
+                             f"{MAX_COARSE_MESH}", key="coarse_mesh")
+        t = self.basis_tolerance
+        if not (np.isfinite(t) and 0 < t < 1):
+            raise InputError(f"got {t!r}; expected a relative singular-value cut between 0 and 1 "
+                             "(e.g. 3e-3)", key="basis_tolerance")
+        b = self.buffer_bands
+        if isinstance(b, bool) or not isinstance(b, int | np.integer) or b < 0:
+            raise InputError(f"got {b!r}; expected a whole number ≥ 0", key="buffer_bands")
+        e = self.tolerance_eV
+        if not (np.isfinite(e) and 0 < e <= 1.0):
+            raise InputError(f"got {e!r} eV; expected a tolerance above 0 and at most 1 eV",
+                             key="interpolation_tolerance_eV")
+        s = self.check_share
+        if not (np.isfinite(s) and 0 < s <= 1):
+            raise InputError(f"got {s!r}; expected a share of the points in (0, 1]",
+                             key="check_share")
+        r = self.local_radius
+        if not (np.isfinite(r) and (r == 0 or 1 <= r <= MAX_LOCAL_RADIUS)):
+            raise InputError(f"got {r!r}; expected 0 (one basis for the zone) or a radius from 1 "
+                             f"to {MAX_LOCAL_RADIUS:g} coarse-mesh spacings", key="local_radius")
+        return self
+
+
+def zone_images(k_frac: np.ndarray, reciprocal_invA: np.ndarray) -> np.ndarray:
+    """Every image k + m (m ∈ {−1, 0, 1}^d) of each point as short as its shortest image.
+
+    A zone-boundary point has several images in the closed first zone (X has two, L two, W
+    three in fcc); in one fixed set of plane waves their states are different vectors (shifted
+    coefficients), and dense points near each image need them.
+
+    Returns
+    -------
+    numpy.ndarray
+        (n_images, d) Cartesian points (Å⁻¹).
+    """
+    k = np.asarray(k_frac, dtype=float)
+    d = k.shape[1]
+    k = k - np.floor(k + 0.5)
+    shifts = np.array(list(itertools.product((0, -1, 1), repeat=d)), dtype=float)
+    images = (k[:, None, :] + shifts[None, :, :]) @ reciprocal_invA
+    length = np.linalg.norm(images, axis=-1)
+    shortest = length.min(axis=1, keepdims=True)
+    return images[length <= shortest + 1e-9 * (1.0 + shortest)]
+
+
+def fixed_superset_model(material: Material, cutoff_eV: float, k_cart_invA: np.ndarray
+                         ) -> PlaneWaveModel:
+    """One fixed set of plane waves holding the k-centred basis of every point given.
+
+    {G : ħ²|k+G|²/2m0 ≤ cutoff for some k of ``k_cart_invA``}, with V(G − G') on it. Its size is
+    estimated before anything is built (the sphere |G| ≤ G_max + max|k|) and refused above
+    :data:`~bandpert.planewave.basis.MAX_BASIS`.
+
+    Parameters
+    ----------
+    material : Material
+    cutoff_eV : float
+    k_cart_invA : numpy.ndarray
+        (n_k, d) points whose bases must be included.
+
+    Returns
+    -------
+    PlaneWaveModel
+    """
+    k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+    reach = float(np.max(np.linalg.norm(k, axis=1), initial=0.0))
+    wide = HBAR2_OVER_2M0_EV_A2 * (np.sqrt(cutoff_eV / HBAR2_OVER_2M0_EV_A2) + reach) ** 2
+    gamma = build_model(material, cutoff_eV)
+    estimate = estimated_basis_size(gamma.reciprocal_invA, wide)
+    if estimate > 1.5 * MAX_BASIS:  # the sphere overestimates the union of the bases
+        raise InputError(f"the reduced basis needs the plane waves of the bases centred on every "
+                         f"point of the zone, about {estimate:.0f} at a cutoff of "
+                         f"{cutoff_eV:.4g} eV (the limit is {MAX_BASIS}); expected a smaller "
+                         "cutoff", material.file, "cutoff_eV")
+    full = build_model(material, wide)
+    g = full.basis.g_cart_invA
+    lowest = np.full(len(g), np.inf)
+    for start in range(0, len(k), 64):
+        kg = k[start:start + 64, None, :] + g[None, :, :]
+        lowest = np.minimum(lowest, np.einsum("kgi,kgi->kg", kg, kg).min(axis=0))
+    keep = np.flatnonzero(HBAR2_OVER_2M0_EV_A2 * lowest <= cutoff_eV * (1 + 1e-12))
+    if len(keep) > MAX_BASIS:
+        raise InputError(f"the reduced basis needs {len(keep)} plane waves at a cutoff of "
+                         f"{cutoff_eV:.4g} eV (the limit is {MAX_BASIS}); expected a smaller "
+                         "cutoff", material.file, "cutoff_eV")
+    basis = PlaneWaveBasis(miller=full.basis.miller[keep], g_cart_invA=g[keep],
+                           cutoff_eV=float(cutoff_eV))
+    return PlaneWaveModel(basis=basis, reciprocal_invA=full.reciprocal_invA,
+                          potential_eV=np.ascontiguousarray(full.potential_eV[np.ix_(keep, keep)]))
+
+
+@dataclass(frozen=True)
+class ReducedBasisModel:
+    """H(k) on reduced bases: polynomials in k on a few vectors, and how they were built.
+
+    Attributes
+    ----------
+    patches : tuple of KPolynomial
+        B†H0B and B†QB on each basis: one for the whole zone, or one per coarse point.
+    centres_cart_invA : numpy.ndarray
+        (n_patches, d) the point each basis serves: a dense point takes the basis of the
+        nearest centre (Γ alone for one basis over the zone).
+    n_bands : int
+        Bands of the window (the ones interpolated).
+    settings : ReducedBasisSettings
+    fixed : PlaneWaveModel
+        The fixed superset of plane waves the bases are expanded in.
+    coarse_points : int
+        Coarse points diagonalised exactly (zone-boundary images included).
+    """
+
+    patches: tuple[KPolynomial, ...]
+    centres_cart_invA: np.ndarray
+    n_bands: int
+    settings: ReducedBasisSettings
+    fixed: PlaneWaveModel = field(repr=False)
+    coarse_points: int
+
+    @property
+    def fixed_size(self) -> int:
+        """Plane waves of the fixed superset."""
+        return self.fixed.size
+
+    @property
+    def sizes(self) -> np.ndarray:
+        """Dimension of each reduced basis."""
+        return np.array([p.size for p in self.patches])
+
+    @property
+    def size(self) -> int:
+        """Largest reduced basis."""
+        return int(self.sizes.max())
+
+    def nearest_patch(self, k_cart_invA: np.ndarray) -> np.ndarray:
+        """(n_k,) index of the basis serving each point (the nearest centre, in blocks)."""
+        k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+        if len(self.patches) == 1:
+            return np.zeros(len(k), dtype=np.int64)
+        c = self.centres_cart_invA
+        out = np.empty(len(k), dtype=np.int64)
+        c2 = np.einsum("ci,ci->c", c, c)
+        for s in range(0, len(k), 8192):
+            kb = k[s:s + 8192]
+            out[s:s + len(kb)] = np.argmin(c2[None, :] - 2.0 * kb @ c.T, axis=1)
+        return out
+
+    def groups(self, k_cart_invA: np.ndarray):
+        """(patch, row indices) pairs: the points each basis serves."""
+        near = self.nearest_patch(k_cart_invA)
+        order = np.argsort(near, kind="stable")
+        cuts = np.flatnonzero(np.diff(near[order])) + 1
+        for rows in np.split(order, cuts):
+            if len(rows):
+                yield self.patches[near[rows[0]]], rows
+
+    def energies(self, k_cart_invA: np.ndarray, n_bands: int | None = None) -> np.ndarray:
+        """Interpolated (n_k, n_bands) absolute energies at any k (eV), one BLAS thread."""
+        k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+        nb = n_bands or self.n_bands
+        out = np.empty((len(k), nb))
+        with single_blas_thread():
+            for patch, rows in self.groups(k):
+                out[rows] = patch.eigenvalues(k[rows], nb)
+        return out
+
+
+def _compress(states: np.ndarray, tolerance: float, least: int) -> np.ndarray:
+    """Orthonormal basis of the span of the columns, singular values σ ≥ tolerance·σ_max."""
+    u, sigma, _ = np.linalg.svd(states, full_matrices=False)
+    kept = max(least, int(np.count_nonzero(sigma >= tolerance * sigma[0])))
+    return u[:, :kept]
+
+
+def build_reduced_basis(material: Material, cutoff_eV: float, n_bands: int,
+                        settings: ReducedBasisSettings = ReducedBasisSettings()
+                        ) -> ReducedBasisModel:
+    """Reduced bases of a material from the exact states on a coarse mesh (Shirley 1996).
+
+    Parameters
+    ----------
+    material : Material
+    cutoff_eV : float
+        Plane-wave cutoff of the k-centred bases the fixed set must hold.
+    n_bands : int
+        Bands of the window; ``settings.buffer_bands`` more are kept at each coarse point.
+    settings : ReducedBasisSettings
+
+    Returns
+    -------
+    ReducedBasisModel
+    """
+    s = settings.checked()
+    b = build_k_centred_model(material, cutoff_eV).reciprocal_invA
+    coarse = zone_images(full_grid_frac((s.coarse_mesh,) * material.dimension), b)
+    n_keep = n_bands + s.buffer_bands
+    fixed = fixed_superset_model(material, cutoff_eV, coarse)
+    if n_keep > fixed.size:
+        raise InputError(f"{n_bands} bands and {s.buffer_bands} buffer bands asked for but the "
+                         f"fixed basis holds only {fixed.size} plane waves", material.file,
+                         "buffer_bands")
+    stack_bytes = fixed.size * len(coarse) * n_keep * (8 if fixed.is_real else 16)
+    if stack_bytes > MAX_STACK_BYTES:
+        raise InputError(f"a coarse mesh of {s.coarse_mesh} per axis stacks {len(coarse)} × "
+                         f"{n_keep} states of {fixed.size} plane waves "
+                         f"({stack_bytes / 2**30:.1f} GiB; the limit is "
+                         f"{MAX_STACK_BYTES / 2**30:.0f} GiB); expected a smaller coarse mesh "
+                         "or fewer bands", material.file, "coarse_mesh")
+    full = k_polynomial(fixed)
+    states = np.empty((len(coarse), fixed.size, n_keep), dtype=fixed.potential_eV.dtype)
+    with single_blas_thread():
+        for i, k in enumerate(coarse):
+            _, states[i] = scipy.linalg.eigh(fixed.hamiltonian(k),
+                                             subset_by_index=(0, n_keep - 1), driver="evr",
+                                             check_finite=False)
+        if s.local_radius == 0:
+            stacked = states.transpose(1, 0, 2).reshape(fixed.size, -1)
+            patches = (full.project(_compress(stacked, s.basis_tolerance, n_keep)),)
+            centres = np.zeros((1, material.dimension))
+        else:
+            dist = np.linalg.norm(coarse[:, None, :] - coarse[None, :, :], axis=-1)
+            spacing = float(np.min(dist[dist > 1e-9]))
+            patches = []
+            for i in range(len(coarse)):
+                near = np.flatnonzero(dist[i] <= s.local_radius * spacing * (1 + 1e-9))
+                stacked = states[near].transpose(1, 0, 2).reshape(fixed.size, -1)
+                patches.append(full.project(_compress(stacked, s.basis_tolerance, n_keep)))
+            patches, centres = tuple(patches), coarse
+    return ReducedBasisModel(patches=patches, centres_cart_invA=centres, n_bands=n_bands,
+                             settings=s, fixed=fixed, coarse_points=len(coarse))
+
+
+@dataclass(frozen=True)
+class InterpolationCheck:
+    """Interpolated against exact bands at the check points.
+
+    Two exact references: the same fixed set of plane waves the interpolation works in (what
+    the tolerance controls), and each point's own k-centred basis (the tool's exact bands; the
+    two exact results differ only by basis convergence, which the cutoff controls).
+
+    Attributes
+    ----------
+    point_indices : numpy.ndarray
+        Indices of the check points among the dense points.
+    max_error_eV, rms_error_eV : float
+        Largest and root-mean-square |E_interpolated − E_exact, fixed set| over check points and
+        bands: the interpolation error.
+    max_basis_difference_eV : float
+        Largest |E_exact, fixed set − E_exact, k-centred|.
+    max_error_vs_k_centred_eV, rms_error_vs_k_centred_eV : float
+        Largest and RMS |E_interpolated − E_exact, k-centred|: the error against the tool's
+        exact bands.
+    tolerance_eV : float
+    share : float
+        Share of the dense points checked.
+    """
+
+    point_indices: np.ndarray
+    max_error_eV: float
+    rms_error_eV: float
+    max_basis_difference_eV: float
+    max_error_vs_k_centred_eV: float
+    rms_error_vs_k_centred_eV: float
+    tolerance_eV: float
+    share: float
+
+    @property
+    def passed(self) -> bool:
+        """True when the largest interpolation error is within the tolerance."""
+        return self.max_error_eV <= self.tolerance_eV
+
+
+@dataclass(frozen=True)
+class InterpolatedBands:
+    """Bands on many k-points by reduced-basis interpolation, with their check.
+
+    Attributes
+    ----------
+    energies_eV : numpy.ndarray
+        (n_k, n_bands) absolute energies.
+    model : ReducedBasisModel
+        The basis that passed (the last one tried).
+    check : InterpolationCheck
+    attempts : tuple of (int, float, int, float)
+        Every basis tried: (coarse mesh, basis tolerance, largest reduced size, largest
+        interpolation error in eV).
+    exact_energies_eV : numpy.ndarray
+        (n_check, n_bands) exact energies at ``check.point_indices`` in their k-centred bases
+        (kept apart: the interpolated ones stay in ``energies_eV`` so that every point has the
+        same method).
+    """
+
+    energies_eV: np.ndarray
+    model: ReducedBasisModel
+    check: InterpolationCheck
+    attempts: tuple
+    exact_energies_eV: np.ndarray = field(repr=False)
+
+    @property
+    def refined(self) -> bool:
+        """True when the first basis failed its check and a finer one was built."""
+        return len(self.attempts) > 1
+
+
+def check_points(n_points: int, share: float, seed: int = 0) -> np.ndarray:
+    """Indices of the dense points diagonalised exactly: a seeded random sample, sorted.
+
+    max(:data:`MIN_CHECK_POINTS`, ⌈share·n⌉) points (all of them when fewer exist).
+    """
+    n = min(n_points, max(MIN_CHECK_POINTS, int(np.ceil(share * n_points))))
+    rng = np.random.default_rng(seed)
+    return np.sort(rng.choice(n_points, size=n, replace=False))
+
+
+def interpolated_bands(material: Material, k_cart_invA: np.ndarray, n_bands: int,
+                       cutoff_eV: float,
+                       settings: ReducedBasisSettings = ReducedBasisSettings()
+                       ) -> InterpolatedBands:
+    """Bands at many k-points by reduced-basis interpolation, checked against exact ones.
+
+    Builds :func:`build_reduced_basis`, diagonalises the check points (:func:`check_points`)
+    exactly, both in the fixed set of plane waves and in their own k-centred bases
+    (:func:`~bandpert.planewave.solver.exact_energies`), and compares
+    (:class:`InterpolationCheck`). When the interpolation error exceeds
+    ``settings.tolerance_eV`` the coarse mesh grows by 2 and the basis tolerance shrinks by 3,
+    up to :data:`MAX_REFINEMENTS` times; only then is every point interpolated. A basis
+    difference above the tolerance (an unconverged cutoff) is reported by a
+    :class:`~bandpert.errors.ModelWarning`.
+
+    Parameters
+    ----------
+    material : Material
+    k_cart_invA : numpy.ndarray
+        (n_k, d) Cartesian points, best folded into the first zone
+        (:func:`~bandpert.crystal.kmesh.fold_to_first_zone`).
+    n_bands : int
+    cutoff_eV : float
+    settings : ReducedBasisSettings
+
+    Returns
+    -------
+    InterpolatedBands
+
+    Raises
+    ------
+    InputError
+        Key ``interpolation_tolerance_eV`` when even the last refinement misses the tolerance
+        (the message gives every attempt's largest error).
+    """
+    s = settings.checked()
+    k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+    idx = check_points(len(k), s.check_share, s.seed)
+    centred = exact_energies(build_k_centred_model(material, cutoff_eV), k[idx], n_bands)
+    attempts = []
+    current = s
+    for step in range(MAX_REFINEMENTS + 1):
+        if step:
+            current = dataclasses.replace(
+                current, coarse_mesh=min(MAX_COARSE_MESH, current.coarse_mesh + 2),
+                basis_tolerance=current.basis_tolerance / 3.0)
+        model = build_reduced_basis(material, cutoff_eV, n_bands, current)
+        interpolated = model.energies(k[idx])
+        exact = exact_energies(model.fixed, k[idx], n_bands)
+        diff = interpolated - exact
+        err_max = float(np.max(np.abs(diff)))
+        attempts.append((current.coarse_mesh, current.basis_tolerance, model.size, err_max))
+        if err_max <= s.tolerance_eV:
+            overall = interpolated - centred
+            check = InterpolationCheck(
+                point_indices=idx, max_error_eV=err_max,
+                rms_error_eV=float(np.sqrt(np.mean(diff**2))),
+                max_basis_difference_eV=float(np.max(np.abs(exact - centred))),
+                max_error_vs_k_centred_eV=float(np.max(np.abs(overall))),
+                rms_error_vs_k_centred_eV=float(np.sqrt(np.mean(overall**2))),
+                tolerance_eV=s.tolerance_eV, share=len(idx) / len(k))
+            if check.max_basis_difference_eV > s.tolerance_eV:
+                warnings.warn(f"the fixed set of {model.fixed_size} plane waves and the bases "
+                              "centred on each k give bands differing by up to "
+                              f"{check.max_basis_difference_eV * 1e3:.3g} meV at the check "
+                              f"points: the cutoff of {cutoff_eV:.4g} eV is not converged",
+                              ModelWarning, stacklevel=2)
+            return InterpolatedBands(model.energies(k), model, check, tuple(attempts), centred)
+    tried = "; ".join(f"coarse mesh {c}, basis tolerance {t:.1e}, {n} states: "
+                      f"{e * 1e3:.2f} meV" for c, t, n, e in attempts)
+    raise InputError(f"the interpolated bands differ from the exact ones by more than "
+                     f"{s.tolerance_eV * 1e3:.3g} meV at the {len(idx)} check points ({tried}); "
+                     "expected a looser tolerance, a finer coarse mesh or a smaller basis "
+                     "tolerance", material.file, "interpolation_tolerance_eV")
