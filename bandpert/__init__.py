@@ -18,6 +18,7 @@ from .errors import InputError  # noqa: E402
 from .input.kp_file import KPMaterial, load_kp_material  # noqa: E402
 from .input.material import Material, load_material, parse_material  # noqa: E402
 from .physics.bands import BandStructure, compute_band_structure  # noqa: E402
+from .physics.mass_analysis import MassesResult, compute_masses  # noqa: E402
 from .physics.masses import BandMasses, band_masses, edge_masses  # noqa: E402
 from .physics.nfe_gaps import GapReport, gap_analysis  # noqa: E402
 from .physics.perturbative_bands import PerturbationSettings  # noqa: E402
@@ -34,6 +35,7 @@ __all__ = [
     "GapReport",
     "InputError",
     "KPMaterial",
+    "MassesResult",
     "Material",
     "PerturbationSettings",
     "PlaneWaveModel",
@@ -43,6 +45,7 @@ __all__ = [
     "bundled_names",
     "compute_band_structure",
     "compute_dos",
+    "compute_masses",
     "edge_masses",
     "exact_energies",
     "find_material",

@@ -14,7 +14,7 @@ from conftest import MATERIALS, bundled, make_material
 
 from bandpert.input.kp_file import load_kp_material
 from bandpert.input.material import Material, read_toml_document
-from bandpert.kp.bands import bands_along
+from bandpert.kp.bands import bands_along, bands_along_path
 from bandpert.output import figures
 from bandpert.physics.bands import compute_band_structure
 from bandpert.physics.fullzone import kp_convergence
@@ -58,6 +58,12 @@ def kp(name: str = "gallium-arsenide", window=None):
     return figures.kp_figure(kpm.name, kpm.source, plotted, energy_window_eV=window)
 
 
+def kp_path(name: str = "gallium-arsenide", window=None):
+    kpm = load_kp_material(name)
+    b = bands_along_path([kpm.model(n) for n in kpm.models], kpm.a_A)
+    return figures.kp_path_figure(b, kpm.name, kpm.source, window)
+
+
 def fullzone(m: Material, n_k: int = 30):
     bs = compute_band_structure(m, n_k=n_k)
     conv = kp_convergence(bs.model, np.zeros(m.dimension), bs.path.k_cart_invA, bs.n_bands,
@@ -95,6 +101,8 @@ def all_cases() -> dict:
         "gaps-own": lambda: gaps(own(), crossings=True),
         "kp-gaas": lambda: kp("gallium-arsenide"),
         "kp-inp": lambda: kp("indium-phosphide"),
+        "kp-path-gaas": lambda: kp_path("gallium-arsenide"),
+        "kp-path-inp": lambda: kp_path("indium-phosphide"),
         "fullzone-chain": lambda: fullzone(bundled("cosine-chain")),
         "fullzone-own": lambda: fullzone(own()),
         "sweep-silicon": lambda: sweep("silicon", ("lattice.a_A=5.3:5.5:3",)),

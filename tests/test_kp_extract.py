@@ -12,8 +12,9 @@ from hypothesis import strategies as st
 
 from bandpert.input.kp_file import parse_kp_material
 from bandpert.kp import dkk_from_luttinger, luttinger_from_dkk, unit_vector
+from bandpert.physics.degenerate_edge import degenerate_edge
 from bandpert.physics.kp_from_planewave import extract_kp_parameters, kp_material_text
-from bandpert.physics.masses import degenerate_edge, eigenstates
+from bandpert.physics.mass_tensor import eigenstates
 from bandpert.planewave.cutoff import converged_cutoff
 from bandpert.planewave.model import build_model
 from bandpert.planewave.solver import exact_energies

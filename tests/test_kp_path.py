@@ -16,7 +16,7 @@ from bandpert.data import MATERIALS_DIR
 from bandpert.input.file_kind import file_kind, kind_of_document
 from bandpert.input.kp_file import load_kp_material
 from bandpert.kp import bands_along, bands_along_path
-from bandpert.output.kp_path_figure import kp_path_figure
+from bandpert.output.figures import kp_path_figure
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
 GAAS = load_kp_material("gallium-arsenide")

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 import spglib
@@ -10,6 +12,8 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from bandpert.errors import InputError
+from bandpert.output.masses_report import masses_notes, masses_results, masses_rows
+from bandpert.output.text import fixed, vector
 from bandpert.physics.bands import compute_band_structure
 from bandpert.physics.extrema import (
     conductivity_mass,
@@ -18,16 +22,19 @@ from bandpert.physics.extrema import (
     effective_density_of_states_cm3,
     star_size,
 )
-from bandpert.physics.masses import (
-    C,
-    band_masses,
+from bandpert.physics.mass_analysis import compute_masses
+from bandpert.physics.mass_tensor import (
+    canonical_axis,
     degenerate_set,
+    distinct_principal,
     eigenstates,
     finite_difference_inverse_mass,
     inverse_mass_tensor,
 )
+from bandpert.physics.masses import band_masses
 from bandpert.planewave.model import build_model
 from bandpert.planewave.solver import exact_energies
+from bandpert.units import HBAR2_OVER_2M0_EV_A2 as C
 
 
 def _rotations(material):
@@ -274,3 +281,91 @@ def test_a_band_the_basis_does_not_hold_is_an_input_error():
     model = build_model(material, 40.0)
     with pytest.raises(InputError, match="does not exist"):
         band_masses(material, model, np.zeros(3), model.size + 3)
+
+
+# --- what the masses outputs say: distinct principal masses, frames, warnings -------------------
+
+
+def _rotation(seed: int) -> np.ndarray:
+    q, _ = np.linalg.qr(np.random.default_rng(seed).normal(size=(3, 3)))
+    return q
+
+
+def test_distinct_principal_values_keep_only_the_axes_the_tensor_fixes():
+    # A symmetric tensor R diag(w) Rᵀ has the columns of R as axes; where two w are equal
+    # only their plane is fixed, and where all three are, no direction at all (common
+    # practice, no source: eigenvectors of a repeated eigenvalue span a subspace).
+    r = _rotation(3)
+    iso = distinct_principal(np.array([2.0, 2.0, 2.0]), r)
+    assert len(iso) == 1 and iso[0].axis is None and iso[0].multiplicity == 3
+    uni = distinct_principal(np.array([5.0, 1.0, 5.0 * (1 + 1e-7)]), r)
+    assert [p.multiplicity for p in uni] == [1, 2]
+    assert abs(abs(uni[0].axis @ r[:, 1]) - 1.0) < 1e-12
+    assert uni[1].axis is None and abs(abs(uni[1].normal @ r[:, 1]) - 1.0) < 1e-12
+    aniso = distinct_principal(np.array([1.0, 2.0, 3.0]), r)
+    assert [p.multiplicity for p in aniso] == [1, 1, 1]
+    for p, col in zip(aniso, r.T, strict=True):
+        assert abs(abs(p.axis @ col) - 1.0) < 1e-12
+        assert p.axis[np.argmax(np.abs(p.axis))] > 0  # one sign, always the same
+
+
+def test_axes_print_without_negative_zero():
+    axis = canonical_axis(np.array([-1e-17, -1.0, 0.0]))
+    assert vector(axis) == "(0.0000, 1.0000, 0.0000)"
+    assert fixed(-4e-9) == "0.0000" and fixed(-4e-9, 4, sign=True) == "+0.0000"
+
+
+def test_silicon_valley_tensor_is_uniaxial_along_its_valley(silicon_edges):
+    # Si conduction valleys on Δ: m_l along the valley's <100> axis, m_t twice across it
+    # (Sze, Physics of Semiconductor Devices, 2nd ed. 1981, App. G; from memory).
+    _, cond, _ = silicon_edges
+    t = cond.tensor
+    assert t.anisotropy == "uniaxial"
+    single, pair = sorted(t.distinct, key=lambda p: p.multiplicity)
+    k_dir = cond.k_cart_invA / np.linalg.norm(cond.k_cart_invA)
+    assert abs(single.axis @ k_dir) == pytest.approx(1.0, abs=1e-6)
+    assert abs(1.0 / single.value) > abs(1.0 / pair.value)  # the longitudinal mass is heavier
+    assert pair.normal is not None and pair.axis is None
+
+
+@pytest.fixture(scope="module")
+def gaas_gamma():
+    # The conduction band at Γ of GaAs, at a modest cutoff (point request: no band-edge search,
+    # no deformation potentials, no implied k·p parameters).
+    return compute_masses(bundled("gallium-arsenide"), point="G", band=5, cutoff_eV=60.0)
+
+
+def test_gaas_gamma_mass_is_one_number_without_axes(gaas_gamma):
+    # In a cubic crystal a second-rank tensor is isotropic (Nye, Physical Properties of
+    # Crystals, 1957, ch. 1; from memory): one mass at Γ, no principal axes.
+    m = gaas_gamma.entries[0]
+    assert m.tensor.anisotropy == "isotropic"
+    rows = dict(masses_rows(m, "Γ", gaas_gamma.energy_zero_eV, gaas_gamma.energy_zero_kind))
+    assert "mass (isotropic)" in rows and not any(k.startswith("principal mass") for k in rows)
+    assert "along" not in rows["mass (isotropic)"]
+    assert "fractions of b1, b2, b3" in " ".join(rows) and "Cartesian, 1/Å" in " ".join(rows)
+    doc = masses_results(gaas_gamma)
+    entry = doc["masses"][0]["sum_over_states"]
+    assert entry["anisotropy"] == "isotropic" and len(entry["principal"]) == 1
+    assert entry["principal"][0]["axis"] is None
+    assert doc["frames"]["k_frac"].startswith("fractions of the reciprocal")
+
+
+def test_masses_text_has_no_negative_zero_and_no_unrelated_lines(gaas_gamma):
+    m = gaas_gamma.entries[0]
+    text = "\n".join(f"{a} {b}" for a, b in masses_rows(m, "Γ", gaas_gamma.energy_zero_eV,
+                                                        gaas_gamma.energy_zero_kind))
+    notes = masses_notes(gaas_gamma)
+    assert "-0.0000" not in text + "\n".join(notes)
+    # a point request implies nothing about k·p parameters at Γ's edges: no such line
+    assert gaas_gamma.implied_kp is None
+    assert not any("k·p parameters implied" in n for n in notes)
+
+
+def test_each_warning_is_printed_once(gaas_gamma):
+    m = gaas_gamma.entries[0]
+    cp = dataclasses.replace(m.critical_point, warning="band far from the gap")
+    warned = dataclasses.replace(m, critical_point=cp)
+    twice = dataclasses.replace(gaas_gamma, entries=(warned, warned), locations=("Γ", "Γ"))
+    assert [n for n in masses_notes(twice) if n.startswith("warning")] == [
+        "warning: band far from the gap"]

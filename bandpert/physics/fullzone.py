@@ -4,9 +4,9 @@ In the basis of the lowest N eigenstates |n⟩ of H(k0), the plane-wave Hamilton
 
     H_nm(k0 + q) = E_n(k0) δ_nm + 2C q·π_nm + C q² δ_nm,      C = ħ²/2m0,
 
-with π_nm = p_nm/ħ (see :mod:`bandpert.physics.masses`). Keeping every basis state it is a unitary
-transform of the plane-wave H(k0 + q) and gives the exact bands; truncating to N states is the
-full-zone k·p method of Cardona & Pollak, Phys. Rev. 142, 530 (1966).
+with π_nm = p_nm/ħ (see :mod:`bandpert.physics.mass_tensor`). Keeping every basis state it is a
+unitary transform of the plane-wave H(k0 + q) and gives the exact bands; truncating to N states is
+the full-zone k·p method of Cardona & Pollak, Phys. Rev. 142, 530 (1966).
 
 A truncated basis must hold whole multiplets of H(k0): keeping part of a degenerate level picks
 an arbitrary combination of its states and breaks the crystal's symmetry (silicon at Γ: levels
@@ -24,7 +24,7 @@ import numpy as np
 from ..errors import InputError
 from ..input.material import Material
 from ..physics.bands import BandStructure, compute_band_structure
-from ..physics.masses import eigenstates
+from ..physics.mass_tensor import eigenstates
 from ..planewave.model import PlaneWaveModel
 from ..planewave.solver import exact_energies
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²

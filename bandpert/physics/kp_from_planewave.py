@@ -1,6 +1,6 @@
 """k·p parameters implied by a plane-wave model, and the k·p parameter file that carries them.
 
-From the eigenstates at Γ (:mod:`bandpert.physics.masses`):
+From the eigenstates at Γ (:mod:`bandpert.physics.mass_tensor`):
 
 - Eg = E(s-like conduction state) − E(valence top), the s-like state being the lowest
   non-degenerate conduction state at Γ that couples to the valence triplet through p;
@@ -24,7 +24,8 @@ from ..input.material import Material
 from ..kp.analysis import CUBIC_DIRECTIONS
 from ..kp.parameters import KPParameters, unit_vector
 from ..physics.bands import compute_band_structure
-from ..physics.masses import degenerate_edge, degenerate_set, eigenstates, inverse_mass_tensor
+from ..physics.degenerate_edge import degenerate_edge
+from ..physics.mass_tensor import degenerate_set, eigenstates, inverse_mass_tensor
 from ..planewave.model import PlaneWaveModel
 from ..planewave.solver import exact_energies
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²

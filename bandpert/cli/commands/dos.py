@@ -12,9 +12,10 @@ from ...errors import InputError
 from ...input.material import load_material
 from ...io import write_csv, write_json
 from ...output.dense_mesh_report import interpolation_line, interpolation_results
+from ...output.dos_report import dos_results, dos_table
 from ...output.energy_zero import zero_phrase
 from ...output.figures import dos_figure, smearing_warning
-from ...output.report import document, dos_results, dos_table
+from ...output.report import document
 from ...output.text import fixed
 from ...runs.mesh_dos import compute_dos
 from ..dense_mesh_options import (

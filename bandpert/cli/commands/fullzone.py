@@ -13,7 +13,8 @@ from ...input.material import load_material
 from ...io import write_json
 from ...output.energy_zero import zero_phrase
 from ...output.figures import fullzone_figure
-from ...output.report import document, fullzone_results
+from ...output.kp_report import fullzone_results
+from ...output.report import document
 from ...physics.fullzone import full_zone_kp
 from ..options import (
     DEFAULT_OUT,

@@ -14,7 +14,8 @@ from ...input.material import load_material
 from ...io import write_json
 from ...output.energy_zero import zero_phrase
 from ...output.figures import gap_figure
-from ...output.report import document, gap_results, gap_table
+from ...output.gaps_report import gap_results, gap_table
+from ...output.report import document
 from ...physics.bands import compute_band_structure
 from ...physics.nfe_gaps import gap_analysis, resolve_points
 from ..options import (

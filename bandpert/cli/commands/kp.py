@@ -14,7 +14,8 @@ from ...input.material import load_material
 from ...io import write_json
 from ...kp import CUBIC_DIRECTIONS, MODEL_NAMES, analyse_kp_material
 from ...output.figures import kp_figure
-from ...output.report import document, kp_results
+from ...output.kp_report import kp_results
+from ...output.report import document
 from ...physics.kp_from_planewave import exact_lines_from_gamma
 from ..options import (
     DEFAULT_OUT,

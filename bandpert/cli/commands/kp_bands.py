@@ -10,8 +10,9 @@ from ...errors import InputError
 from ...input.kp_file import load_kp_material
 from ...io import write_csv, write_json
 from ...kp import BAND_SHORT_NAMES, bands_along_path
-from ...output.kp_path_figure import kp_path_figure
-from ...output.report import document, kp_path_results, kp_path_table
+from ...output.figures import kp_path_figure
+from ...output.kp_report import kp_path_results, kp_path_table
+from ...output.report import document
 from ..options import ImageFormat, out, output_base, output_paths, save_figure
 
 

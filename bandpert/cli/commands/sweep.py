@@ -14,9 +14,9 @@ from ...errors import InputError
 from ...input.material import read_toml_document
 from ...io import write_json, write_table
 from ...output.figures import sweep_figure
-from ...output.report import (
+from ...output.report import document
+from ...output.sweep_report import (
     column_unit,
-    document,
     sweep_columns,
     sweep_results,
     sweep_table,

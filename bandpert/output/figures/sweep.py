@@ -9,7 +9,7 @@ from matplotlib.figure import Figure
 from matplotlib.ticker import MaxNLocator
 
 from .. import style
-from ..report import sweep_columns
+from ..sweep_report import sweep_columns
 
 #: Panels of the sweep figure: title, y label, and which columns go in (by name pattern).
 SWEEP_PANELS = (

@@ -1,21 +1,16 @@
-"""The figure of k·p bands along L–Γ–X | Γ–K near Γ (:func:`bandpert.kp.bands_along_path`).
-
-Kept beside :mod:`bandpert.output.figures.kp` (same object API, colours and line styles of the
-k·p models) so the two can be merged when the house style settles.
-"""
+"""The figure of k·p bands along L–Γ–X | Γ–K near Γ (:func:`bandpert.kp.bands_along_path`),
+in the house style (:mod:`bandpert.output.style`), with the models' colours and line styles of
+:mod:`bandpert.output.figures.kp`."""
 
 from __future__ import annotations
 
-import textwrap
-
 import numpy as np
 from matplotlib.figure import Figure
+from matplotlib.lines import Line2D
 
-from ..kp.bands import BAND_SHORT_NAMES, PathBands
-from .figures.kp import KP_STYLES
-from .style import draw_leg_lines, draw_path_axes
-
-__all__ = ["kp_path_figure"]
+from ...kp.bands import BAND_SHORT_NAMES, PathBands
+from .. import style
+from .kp import KP_STYLES
 
 
 def kp_path_figure(bands: PathBands, material_name: str, source: str,
@@ -36,29 +31,32 @@ def kp_path_figure(bands: PathBands, material_name: str, source: str,
         Band names (CB, HH, LH, SO) are written beside the largest model's curves near Γ, on
         the Γ–X side, where the names hold (bands mix further out).
     """
-    fig = Figure(figsize=(6.4, 4.8), layout="constrained")
+    fig = style.new_figure(6.8, 4.8)
     ax = fig.subplots()
     x = bands.distance_2pi_a
-    for name in bands.models:
-        colour, style, _ = KP_STYLES.get(name, ("0.3", "-", 1.2))
-        draw_leg_lines(ax, x, bands.energies_eV[name], bands.leg_starts, color=colour, ls=style,
-                       lw=1.3, label=name)
-    draw_path_axes(ax, x, bands.label_indices, bands.labels)
-    ax.axhline(0.0, color="0.6", lw=0.6, ls="--", zorder=0)
+    order = sorted(bands.models, key=lambda m: list(KP_STYLES).index(m)
+                   if m in KP_STYLES else len(KP_STYLES))
+    handles = []
+    for name in order:
+        colour, ls, lw = KP_STYLES.get(name, ("0.3", "-.", 1.2))
+        style.draw_leg_lines(ax, x, bands.energies_eV[name], bands.leg_starts, color=colour,
+                             ls=ls, lw=lw)
+        handles.append(Line2D([], [], color=colour, ls=ls, lw=lw, label=name))
+    style.draw_path_axes(ax, x, bands.label_indices, bands.labels)
+    ax.axhline(0.0, color=style.REFERENCE_LINE_COLOUR, lw=0.8, ls="--", zorder=0)
     every = np.concatenate([e.ravel() for e in bands.energies_eV.values()])
-    if window_eV is None:
-        span = every.max() - every.min()
-        window_eV = (every.min() - 0.06 * span, every.max() + 0.06 * span)
+    window_eV = style.energy_limits(every, window_eV, margin=0.06)
     ax.set_ylim(*window_eV)
+    style.energy_ticks(ax)
+    style.style_axes(ax)
     _name_bands(ax, bands, window_eV)
-    ax.set_ylabel("Energy − valence-band top at Γ (eV)")
-    ax.set_xlabel(f"k along Γ–L, Γ–X, Γ–K (units of 2π/a), |k| ≤ {bands.k_max_invA:.3f} Å⁻¹")
-    ax.legend(fontsize=7, title=_short(material_name, 28), title_fontsize=7, loc="upper left",
-              bbox_to_anchor=(1.01, 1.0), borderaxespad=0.0)
-    fig.suptitle(f"{material_name}: k·p bands near Γ", fontsize=10)
-    fig.text(0.01, 0.002, _short(f"Parameters: {source}"), fontsize=6, color="0.35",
-             va="bottom")
-    fig.get_layout_engine().set(rect=(0, 0.04, 1, 0.96))
+    ax.set_ylabel("Energy − valence-band top at Γ (eV)", fontsize=style.LABEL_SIZE)
+    ax.set_xlabel(f"k along Γ–L, Γ–X, Γ–K (units of 2π/a), |k| ≤ {bands.k_max_invA:.3f} Å⁻¹",
+                  fontsize=style.LABEL_SIZE)
+    style.legend_outside(ax, handles, title=style.wrap(material_name, 24))
+    ax.set_title(f"{material_name}: k·p bands near Γ", fontsize=style.TITLE_SIZE)
+    style.footer(fig, f"Parameters: {source}. Energy zero: the valence-band top at Γ (the "
+                 "models' own zero).", width=120)
     return fig
 
 
@@ -103,10 +101,6 @@ def _name_bands(ax, bands: PathBands, window_eV: tuple[float, float]) -> None:
             continue
         at, y = best
         written.append((float(x[at]), y))
-        ax.annotate(BAND_SHORT_NAMES.get(name, name), (x[at], y), fontsize=8, ha="center",
-                    va="center", color="0.1",
+        ax.annotate(BAND_SHORT_NAMES.get(name, name), (x[at], y), fontsize=style.LABEL_SIZE - 1,
+                    ha="center", va="center", color="0.1",
                     bbox={"boxstyle": "round,pad=0.15", "fc": "white", "ec": "0.6", "lw": 0.5})
-
-
-def _short(text: str, width: int = 110) -> str:
-    return "\n".join(textwrap.wrap(text, width))
