@@ -6,12 +6,18 @@ import json
 
 import numpy as np
 import pytest
-from conftest import MATERIALS, bundled
+from conftest import MATERIALS, bundled, make_material
 from test_cli import run
 from test_gaps import cosine_chain, group_at, point_named
 
 import bandpert.cli.options as options
+from bandpert.perturbation import lowdin_effective_hamiltonian
+from bandpert.physics.nfe_crossings import free_electron_groups
 from bandpert.physics.nfe_gaps import VERDICT_RULE, gap_analysis, gap_verdict
+from bandpert.physics.nfe_symmetry import decompose
+from bandpert.planewave.model import centred_model
+from bandpert.symmetry import little_group, space_group_frame
+from bandpert.symmetry.names import irrep_names, structure_kind
 
 
 @pytest.fixture(autouse=True)
@@ -86,3 +92,96 @@ def test_gaps_json_and_table_carry_the_verdicts(tmp_path):
     assert "(0,0,2) 0.680" in out[couplings:gaps] and "(0,0,2)" not in out[gaps:]
     x_row = next(line for line in out[gaps:].splitlines() if line.lstrip().startswith("X "))
     assert x_row.count("FAILS") == 2 and "6.164" in x_row and "4.052" in x_row
+
+
+# --------------------------------------------------------------------------------------------
+# symmetry: closed by symmetry against closed by the potential
+# --------------------------------------------------------------------------------------------
+
+RY = 13.605693122994
+
+
+def test_diamond_lowest_x_pair_is_closed_by_symmetry():
+    # source: Herring, J. Franklin Inst. 233, 525 (1942): every small irrep at X of the diamond
+    # structure is two-dimensional, so the lowest X pair (one irrep, X1) cannot split at any
+    # order, whatever the potential
+    for name in ("silicon", "germanium"):
+        report = gap_analysis(bundled(name), cutoff_eV=6 * RY, points=["X"], crossings=False)
+        g = group_at(point_named(report, "X"), 0)
+        assert g.symmetry.irreps == ("X1",) and g.symmetry.dimensions == (2,)
+        assert g.closed_by == ("symmetry",)
+        assert g.symmetry_verdict == "closed by symmetry (X1)"
+
+
+def test_zincblende_lowest_x_pair_may_open_and_does():
+    # the same pair in zincblende is X1 + X3 (two one-dimensional irreps; Parmenter, Phys. Rev.
+    # 100, 573 (1955)): symmetry allows the splitting and V_A opens it
+    report = gap_analysis(bundled("gallium-arsenide"), cutoff_eV=6 * RY, points=["X"],
+                          crossings=False)
+    g = group_at(point_named(report, "X"), 0)
+    assert sorted(g.symmetry.irreps) == ["X1", "X3"] and g.closed_by == (None,)
+
+
+def test_closed_by_the_potential_is_told_apart_from_closed_by_symmetry():
+    # aluminium without its U(200): the lowest X pair carries two different irreps, so
+    # symmetry allows the splitting; first order leaves it closed (no form factor on (200);
+    # Ashcroft & Mermin 1976, ch. 9: the first-order X gap is 2|U(200)|) and second order
+    # opens it through U(111) twice. In the empty lattice it stays closed, by the potential.
+    def fcc(values):
+        return make_material({"type": "fcc", "a_A": 4.05},
+                             [{"species": "Al", "position": [0.0, 0.0, 0.0]}],
+                             {"form": "per-species", "unit": "Ry", "shells": [3, 4],
+                              "species": {"Al": values}})
+
+    g = group_at(point_named(gap_analysis(fcc([0.0179, 0.0]), cutoff_eV=5 * RY, points=["X"],
+                                          crossings=False), "X"), 0)
+    assert len(set(g.symmetry.irreps)) == 2 and g.symmetry.dimensions == (1, 1)
+    assert g.uncoupled and g.gap_opens_at == ("second order",) and g.closed_by == (None,)
+    empty = group_at(point_named(gap_analysis(fcc([0.0, 0.0]), cutoff_eV=5 * RY, points=["X"],
+                                              crossings=False), "X"), 0)
+    assert empty.closed_by == ("no potential (empty lattice)",)
+    assert empty.symmetry_verdict.endswith("closed by no potential (empty lattice)")
+    assert "symmetry" not in empty.symmetry_verdict
+
+
+def test_aluminium_w_group_first_order_eigenvectors_carry_the_predicted_irreps():
+    # the four plane waves at W of the fcc lattice decompose into a two-dimensional irrep and
+    # two one-dimensional ones (Bouckaert, Smoluchowski & Wigner, Phys. Rev. 50, 58 (1936),
+    # W point of the empty fcc lattice: W3 + W1 + W2′, from memory); each irrep appears once,
+    # so the first-order block is diagonal in the symmetry-adapted combinations: its
+    # eigenvectors are those combinations and its levels have the irreps' degeneracies
+    al = bundled("aluminium")
+    report = gap_analysis(al, cutoff_eV=5 * RY, points=["W"], crossings=False)
+    w = point_named(report, "W")
+    g = group_at(w, 0)
+    assert g.degeneracy == 4 and sorted(g.symmetry.dimensions) == [1, 1, 2]
+    assert g.exact_multiplets in ((2, 1, 1), (1, 2, 1), (1, 1, 2))
+    frame = space_group_frame(al)
+    lg = little_group(frame, w.k_frac)
+    names = irrep_names(frame, lg, "W", structure_kind(frame, al))
+    model = centred_model(al, 5 * RY, w.k_cart_invA)
+    e0 = model.kinetic_eV(w.k_cart_invA)[0]
+    order, first, sizes = free_electron_groups(e0, 4)
+    members = order[:4]
+    h1 = lowdin_effective_hamiltonian(e0, model.potential_eV, members, order=1)
+    vals, vecs = np.linalg.eigh(h1)
+    assert vals == pytest.approx(g.first_order_eV)
+    found = []
+    runs = np.split(np.arange(4), np.flatnonzero(np.diff(vals) > 1e-9) + 1)
+    for level in runs:
+        full = np.zeros((model.size, level.size), dtype=complex)
+        full[members] = vecs[:, level]
+        counts = decompose(frame, lg, model.basis.miller, full)
+        assert counts is not None and counts.sum() == 1  # one irrep per first-order level
+        found.append(names[int(np.argmax(counts))])
+    assert sorted(found) == sorted(g.symmetry.irreps)
+
+
+def test_gaps_json_and_table_carry_the_symmetry_verdict(tmp_path):
+    code, out, err = run(["gaps", str(MATERIALS / "silicon.toml"), "--point", "X",
+                          "--k-points", "10", "--cutoff-eV", "80", "--out", str(tmp_path)])
+    assert code == 0, err
+    doc = json.loads((tmp_path / "silicon-gaps.json").read_text())
+    sym = doc["results"]["points"][0]["groups"][0]["symmetry"]
+    assert sym["irreps"] == ["X1"] and sym["closed_by"] == ["symmetry"]
+    assert "closed by symmetry (X1)" in out

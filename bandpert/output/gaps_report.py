@@ -45,6 +45,14 @@ def _group_results(group, a_A: float, zero_eV: float) -> dict[str, Any]:
         "exact_multiplets": list(group.exact_multiplets),
         "uncoupled": group.uncoupled,
         "uncoupled_reason": group.uncoupled_reason,
+        "symmetry": None if group.symmetry is None else {
+            "irreps": list(group.symmetry.irreps),
+            "dimensions": list(group.symmetry.dimensions),
+            "allowed_levels": group.symmetry.allowed_levels,
+            "exact_labels": list(group.symmetry.exact_labels),
+            "closed_by": list(group.closed_by),
+            "verdict": group.symmetry_verdict,
+        },
         "couplings": [
             {"delta_miller": m, "delta_g_cart_invA": g,
              "delta_g_label": _vector_label(g, m, a_A), "shell_g2": s,
@@ -151,7 +159,7 @@ def gap_table(report, energy_zero_eV: float = 0.0
     order that opens every open splitting.
     """
 
-    ccols = ["point", "E0 (eV)", "g", "V(G−G′) (eV)", "why closed"]
+    ccols = ["point", "E0 (eV)", "g", "V(G−G′) (eV)", "why closed", "symmetry"]
     gcols = ["point", "E0 (eV)", "g", "1st", "2nd", "exact", "1st verdict", "2nd verdict",
              "exact levels", "opens at"]
     crows: list[list[str]] = []
@@ -162,7 +170,7 @@ def gap_table(report, energy_zero_eV: float = 0.0
         if p.kind == "crossing":
             label = f"{p.segment[0]}→{p.segment[1]} {p.segment_fraction:.3f}"
         if not p.groups:
-            crows.append([label, "—", "1", "", "no degeneracy"])
+            crows.append([label, "—", "1", "", "no degeneracy", ""])
             grows.append([label, "—", "1", "", "", "", "", "", "", "no degeneracy"])
             continue
         for i, g in enumerate(p.groups):
@@ -184,7 +192,8 @@ def gap_table(report, energy_zero_eV: float = 0.0
                 doubtful = True
             head = [label if i == 0 else "", _energy_cell(g.free_electron_eV - energy_zero_eV),
                     str(g.degeneracy)]
-            crows.append([*head, _coupling_summary(g, report.material.a_A), why])
+            crows.append([*head, _coupling_summary(g, report.material.a_A), why,
+                          "" if g.symmetry is None else g.symmetry_verdict])
             grows.append([*head, *cells, *(_verdict_cell(v) for v in g.verdicts), levels, opens])
     groups = [g for p in report.points for g in p.groups]
     used = {r for g in groups for r in g.coupling_reason}
@@ -202,6 +211,11 @@ def gap_table(report, energy_zero_eV: float = 0.0
     if any(g.status == "closed" for g in groups):
         notes.append(f"closed: every exact splitting below {report.closed_tolerance_eV * 1e6:g} "
                      "µeV")
+    if any(g.symmetry is not None for g in groups):
+        notes.append("symmetry: the irreps of the group's plane waves; the potential mixes only "
+                     "states of one irrep, so a splitting inside an irrep is closed by symmetry at "
+                     "every order, and one between irreps that stays closed is closed by the "
+                     "potential (structure factor, range) or accidental")
     if doubtful:
         notes.append(f"?: a matched exact state has less than {POOR_MATCH_WEIGHT:g} of its "
                      "weight on the group's plane waves (the match by sorted position is "

@@ -53,6 +53,8 @@ from ..perturbation import lowdin_effective_hamiltonian
 from ..physics.bands import default_bands
 from ..planewave.cutoff import choose_cutoff
 from ..planewave.model import PlaneWaveModel, build_model, centred_model
+from ..symmetry.groups import SpaceGroupFrame, little_group, space_group_frame
+from ..symmetry.names import irrep_names, structure_kind
 from .nfe_crossings import (
     DEGENERACY_TOLERANCE_EV,
     PathCrossing,
@@ -86,6 +88,7 @@ from .nfe_results import (
     GapVerdict,
     gap_verdict,
 )
+from .nfe_symmetry import group_symmetry
 
 __all__ = [
     "CLOSED_TOLERANCE_EV",
@@ -177,7 +180,8 @@ def examine_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, labe
                   segment: tuple[str, str] | None = None, segment_fraction: float = np.nan,
                   only_miller: np.ndarray | None = None,
                   degeneracy_tol_eV: float = DEGENERACY_TOLERANCE_EV,
-                  closed_tol_eV: float = CLOSED_TOLERANCE_EV) -> GapPoint:
+                  closed_tol_eV: float = CLOSED_TOLERANCE_EV,
+                  frame: SpaceGroupFrame | None = None) -> GapPoint:
     """Free-electron degeneracies at one k-point, predicted and exact splittings.
 
     For each group A of plane waves with equal |k+G|² (:func:`free_electron_groups`):
@@ -209,6 +213,10 @@ def examine_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, labe
         (m, d) integer G: keep only the degenerate groups containing one of them (a crossing).
     degeneracy_tol_eV, closed_tol_eV : float
         Tolerances (eV).
+    frame : SpaceGroupFrame, optional
+        The crystal's operations (:func:`bandpert.symmetry.space_group_frame`): each group then
+        carries the irreps of its plane waves and exact levels
+        (:func:`bandpert.physics.nfe_symmetry.group_symmetry`).
 
     Returns
     -------
@@ -223,8 +231,17 @@ def examine_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, labe
     e0 = model.kinetic_eV(k_cart)[0]
     order, first, sizes = free_electron_groups(e0, n_levels, degeneracy_tol_eV)
     top = int((first + sizes).max())
-    w, vecs = scipy.linalg.eigh(model.hamiltonian(k_cart), subset_by_index=(0, top - 1),
-                                driver="evr")
+    h = model.hamiltonian(k_cart)
+    w, vecs = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
+    lg = names = None
+    if frame is not None:
+        # a few states more than the groups need, so that the top level is whole for its
+        # irreps (a separate solve: the reported exact levels stay those of the subset above)
+        w_sym, v_sym = scipy.linalg.eigh(h, subset_by_index=(0, min(model.size, top + 6) - 1),
+                                         driver="evr")
+        lg = little_group(frame, k_frac)
+        names = irrep_names(frame, lg, "k" if kind == KIND_CROSSING else label,
+                            structure_kind(frame, material))
     groups = []
     for i0, g in zip(first, sizes, strict=True):
         if g < 2:
@@ -249,7 +266,9 @@ def examine_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, labe
             coupling_miller=cm, coupling_g_cart_invA=cg,
             coupling_shell_g2=np.einsum("ij,ij->i", cg, cg) / (2 * np.pi / material.a_A) ** 2,
             coupling_eV=cv, coupling_reason=coupling_reasons(material, cm, cv),
-            closed_tolerance_eV=closed_tol_eV))
+            closed_tolerance_eV=closed_tol_eV,
+            symmetry=None if lg is None else group_symmetry(
+                frame, lg, names, model.basis.miller, members, w_sym, v_sym, int(i0))))
     return GapPoint(
         label=label, kind=kind, k_frac=k_frac, k_cart_invA=k_cart,
         path_distance_invA=np.asarray([] if path_distance_invA is None else path_distance_invA,
@@ -362,6 +381,7 @@ def gap_analysis(material: Material, model: PlaneWaveModel | None = None,
     cutoff = float(model.basis.cutoff_eV)
     b = model.reciprocal_invA
     segs = _segments(material, b)
+    frame = _frame(material)
     found = []
     for label, k_frac, kind in resolve_points(material, points):
         dist = sorted({round(x, 12) for s, e, k0, k1, x0, length in segs
@@ -370,7 +390,7 @@ def gap_analysis(material: Material, model: PlaneWaveModel | None = None,
         found.append(examine_point(material, cutoff, k_frac, label, kind, nb,
                                    path_distance_invA=np.array(dist),
                                    degeneracy_tol_eV=degeneracy_tol_eV,
-                                   closed_tol_eV=closed_tol_eV))
+                                   closed_tol_eV=closed_tol_eV, frame=frame))
     if crossings:
         for c in path_crossings(model, material, nb, degeneracy_tol_eV):
             label = f"{c.fraction:.3f} of {c.start}→{c.end}"
@@ -378,7 +398,7 @@ def gap_analysis(material: Material, model: PlaneWaveModel | None = None,
                                path_distance_invA=np.array([c.path_distance_invA]),
                                segment=(c.start, c.end), segment_fraction=c.fraction,
                                only_miller=c.miller, degeneracy_tol_eV=degeneracy_tol_eV,
-                               closed_tol_eV=closed_tol_eV)
+                               closed_tol_eV=closed_tol_eV, frame=frame)
             if pt.groups:
                 found.append(pt)
     return GapReport(material=material, points=tuple(found), n_bands=nb,
@@ -386,3 +406,10 @@ def gap_analysis(material: Material, model: PlaneWaveModel | None = None,
                      degeneracy_tolerance_eV=degeneracy_tol_eV, closed_tolerance_eV=closed_tol_eV,
                      crossings=crossings)
 
+
+def _frame(material: Material) -> SpaceGroupFrame | None:
+    """The operations for the symmetry of the groups (3D spinless primitive cells only)."""
+    if material.dimension != 3 or getattr(material, "spin_orbit", None) is not None:
+        return None
+    frame = space_group_frame(material)
+    return frame if frame.primitive else None

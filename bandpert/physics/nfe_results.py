@@ -12,6 +12,7 @@ import numpy as np
 
 from ..input.material import Material
 from .nfe_reasons import REASON_COUPLED
+from .nfe_symmetry import CLOSED_BY_SYMMETRY, GroupSymmetry
 
 __all__ = [
     "CLOSED_TOLERANCE_EV",
@@ -142,6 +143,10 @@ class DegenerateGroup:
         Per coupling: ``"coupled"`` or why it is zero (``REASON_*`` constants).
     closed_tolerance_eV : float
         Splittings below this count as closed.
+    symmetry : GroupSymmetry or None
+        Irreps of the group's plane waves and of its exact levels
+        (:func:`bandpert.physics.nfe_symmetry.group_symmetry`); None without point symmetry
+        information (1D/2D models, non-primitive cells).
     """
 
     first_index: int
@@ -158,6 +163,52 @@ class DegenerateGroup:
     coupling_eV: np.ndarray
     coupling_reason: tuple[str, ...]
     closed_tolerance_eV: float = CLOSED_TOLERANCE_EV
+    symmetry: GroupSymmetry | None = None
+
+    @property
+    def closed_by(self) -> tuple[str | None, ...]:
+        """Per consecutive exact splitting: None when open, else why it is closed.
+
+        ``"symmetry"`` when both states belong to one irreducible level (closed at every
+        order); otherwise the potential: the reasons every V(G − G′) of the group vanishes
+        (structure factor, range, …) when it is uncoupled, else ``"accidental"``. Without
+        symmetry information (or a level that could not be reduced), ``"unknown"``.
+        """
+        potential = ("accidental" if not self.uncoupled else
+                     "; ".join(dict.fromkeys(r for r in self.coupling_reason)))
+        out: list[str | None] = []
+        for i, is_open in enumerate(self.open_gaps):
+            if is_open:
+                out.append(None)
+            elif self.symmetry is None or self.symmetry.same_level[i] is None:
+                out.append("unknown")
+            else:
+                out.append(CLOSED_BY_SYMMETRY if self.symmetry.same_level[i] else potential)
+        return tuple(out)
+
+    @property
+    def symmetry_verdict(self) -> str:
+        """One line: how the group's irreps bound its splitting, and why closed levels stay so.
+
+        E.g. ``"closed by symmetry (X1)"``, ``"X1 + X4: may split into 2 levels; opens"``,
+        ``"L1 + L2′: may split into 2 levels; closed by structure factor zero"``.
+        """
+        if self.symmetry is None:
+            return "no symmetry information"
+        s = self.symmetry
+        irreps = " + ".join(s.irreps)
+        closed = [c for c in self.closed_by if c is not None]
+        if closed and all(c == CLOSED_BY_SYMMETRY for c in closed) and not self.open_gaps.any():
+            return f"closed by symmetry ({irreps})"
+        head = f"{irreps}: may split into {s.allowed_levels} level" + (
+            "s" if s.allowed_levels != 1 else "")
+        other = list(dict.fromkeys(c for c in closed if c != CLOSED_BY_SYMMETRY))
+        parts = []
+        if self.open_gaps.any():
+            parts.append("opens")
+        if other:
+            parts.append("closed by " + ", ".join(other))
+        return head + ("; " + "; ".join(parts) if parts else "")
 
     @property
     def degeneracy(self) -> int:

@@ -35,6 +35,7 @@ __all__ = [
     "label_points",
     "unlabelled_reason",
     "plane_wave_characters",
+    "stuck_by_time_reversal",
 ]
 
 #: Eigenvalues closer than this (eV) form one level (symmetric degeneracies hold to ~1e-10 eV
@@ -254,7 +255,7 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
             raise RuntimeError(f"characters at {point} do not reduce to whole irreps: "
                                f"{np.round(mult, 4)}")
         contained = tuple(int(i) for i in np.repeat(np.arange(counts.size), counts))
-        tr = _stuck_by_time_reversal(contained, group)
+        tr = stuck_by_time_reversal(contained, group)
         label = "+".join(names[i] for i in contained)
         levels.append(LevelLabel(float(w[a:a + g].mean()), a, g, contained, label,
                                  len(contained) > 1 and not tr, tr))
@@ -326,8 +327,13 @@ def _k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int
     return cand.miller[inside], w, v
 
 
-def _stuck_by_time_reversal(contained: tuple[int, ...], group: LittleGroup) -> bool:
-    """True when the irreps of a level are exactly a time-reversal pair (Herring 0 or −1)."""
+def stuck_by_time_reversal(contained: tuple[int, ...], group: LittleGroup) -> bool:
+    """True when the irreps of a level are exactly a time-reversal pair (Herring's test).
+
+    One irrep twice with indicator −1, or two irreps with indicator 0: where −k ≡ k the second
+    must be the complex conjugate of the first; inside the zone (−k ≢ k) the partner is the
+    irrep conjugated by an operation taking k to −k, which is not checked here.
+    """
     if len(contained) != 2:
         return False
     i, j = contained
@@ -336,5 +342,7 @@ def _stuck_by_time_reversal(contained: tuple[int, ...], group: LittleGroup) -> b
         return bool(hi == -1)
     if hi != 0 or hj != 0:
         return False
-    # partners: χ_j(h) = χ_i(h)* for the operations of the little group when −k ≡ k
+    k2 = 2 * group.k_frac
+    if not np.allclose(k2, np.rint(k2), atol=1e-9):
+        return True
     return bool(np.allclose(group.characters[j], np.conj(group.characters[i]), atol=1e-6))
