@@ -11,6 +11,9 @@ import scipy.constants as _c
 #: ħ²/(2 m0) in eV·Å², so that E = HBAR2_OVER_2M0_EV_A2 * |k|² with k in Å⁻¹.
 HBAR2_OVER_2M0_EV_A2: float = _c.hbar**2 / (2.0 * _c.m_e) / _c.e * 1.0e20
 
+#: e²/(4πε0) in eV·Å (the Coulomb constant times e², for the optical spectrum).
+COULOMB_EV_A: float = _c.e / (4.0 * _c.pi * _c.epsilon_0) * 1.0e10
+
 #: One rydberg (R∞ h c) in eV.
 RYDBERG_EV: float = _c.physical_constants["Rydberg constant times hc in eV"][0]
 

@@ -90,6 +90,9 @@ OPTIONS = {
             "--engine", "--workers", "--scheduler", "--out", "--format", "--json", "--name",
             "--emin", "--emax", "--interpolate", "--tolerance-meV",
             "--basis-tolerance", "--coarse-mesh", "--help"],
+    "optics": ["--mesh", "--broadening-meV", "--step-meV", "--exact", "--all-bands", "--bands",
+               "--cutoff-eV", "--tolerance-meV", "--basis-tolerance", "--coarse-mesh", "--out",
+               "--format", "--json", "--name", "--help"],
 }
 
 

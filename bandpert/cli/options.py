@@ -173,6 +173,7 @@ FLAGS = {
     "basis": "--basis", "alloy_end": "--alloy-end", "model": "--model", "k_max_frac": "--k-max",
     "interpolation_tolerance_eV": "--tolerance-meV",
     "basis_tolerance": "--basis-tolerance", "coarse_mesh": "--coarse-mesh",
+    "broadening_eV": "--broadening-meV",
 }
 
 #: Library wording inside messages → the command line's wording.

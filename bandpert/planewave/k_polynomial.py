@@ -51,16 +51,6 @@ class KPolynomial:
         """Dimension of the basis."""
         return int(self.h0_eV.shape[0])
 
-    @property
-    def q_matrices(self) -> np.ndarray:
-        """(d, n, n) matrices of G, diagonal ones expanded."""
-        if self.q_invA.ndim == 3:
-            return self.q_invA
-        q = np.zeros((self.q_invA.shape[0], self.size, self.size))
-        idx = np.arange(self.size)
-        q[:, idx, idx] = self.q_invA
-        return q
-
     def hamiltonians(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """(n_k, n, n) H(k) without the |k|² term (a shift of every level, added by callers)."""
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
@@ -123,7 +113,10 @@ class KPolynomial:
         this basis (H is quadratic in k with the free-electron k² term).
         """
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
-        qc = np.einsum("iab,kbm->kiam", self.q_matrices, vectors)
+        if self.q_invA.ndim == 2:  # plane waves: Q diagonal
+            qc = self.q_invA[None, :, :, None] * vectors[:, None, :, :]
+        else:
+            qc = np.einsum("iab,kbm->kiam", self.q_invA, vectors)
         out = np.einsum("kan,kiam->kinm", vectors.conj(), qc)
         eye = np.eye(vectors.shape[2])
         return out + k[:, :, None, None] * eye

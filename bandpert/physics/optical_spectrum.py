@@ -1,0 +1,269 @@
+"""The optical spectrum of a material on a k-mesh: bands and momentum matrix elements from the
+reduced-basis interpolation (:mod:`bandpert.physics.reduced_basis`) or from the exact fixed
+plane-wave basis, summed into ε2, the joint DOS, ε1 and the f-sum (:mod:`bandpert.physics.optics`).
+
+One-electron spectrum: no excitonic or local-field effects; spinless local model only.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..crystal.kmesh import KMesh, fold_to_first_zone, reciprocal_mesh
+from ..crystal.lattice import standard_path
+from ..errors import InputError
+from ..input.material import Material
+from ..planewave.cutoff import choose_cutoff
+from ..planewave.k_polynomial import k_polynomial
+from ..planewave.model import build_k_centred_model
+from ..planewave.solver import exact_energies, single_blas_thread
+from ..planewave.spinorbit import require_spinless
+from .dos import fermi_level_from_count
+from .optics import (
+    HBAR2_OVER_M0_EV_A2,
+    OpticalSums,
+    accumulate,
+    eps2_prefactor,
+    fermi_surface_average,
+    gaussian_broaden,
+    kramers_kronig,
+    n_eff_factor,
+    occupations,
+)
+from .reduced_basis import (
+    InterpolatedBands,
+    ReducedBasisSettings,
+    fixed_superset_model,
+    interpolated_bands,
+)
+
+#: Default Gaussian broadening σ of the spectrum (eV).
+DEFAULT_BROADENING_EV = 0.1
+
+#: Conduction bands computed above the occupied ones by default.
+DEFAULT_EXTRA_BANDS = 8
+
+#: The interpolation used unless another (or none) is asked for.
+DEFAULT_INTERPOLATION = ReducedBasisSettings()
+
+#: Largest number of irreducible points diagonalised with every band of the fixed basis.
+MAX_ALL_BAND_POINTS = 2000
+
+#: Largest energy grid (points).
+MAX_GRID = 200_000
+
+#: The interband transitions named E0, E1, E2 by where they occur (Yu & Cardona, Fundamentals
+#: of Semiconductors, Sec. 6.2: E0 at Γ, E1 along Λ near L, E2 near X).
+CRITICAL_LABELS = (("E0", "Γ"), ("E1", "L"), ("E2", "X"))
+
+
+@dataclass(frozen=True)
+class OpticalSpectrum:
+    """ε2, ε1, joint DOS and f-sum of a material on a mesh (direction-averaged, one-electron).
+
+    Attributes
+    ----------
+    material : Material
+    mesh : KMesh
+    cutoff_eV : float
+    n_bands : int
+        Bands used at each k (every band of the basis with ``all_bands``).
+    all_bands : bool
+    energies_eV : numpy.ndarray
+        (n_E,) photon energies from 0.
+    eps2, eps1 : numpy.ndarray
+        (n_E,) imaginary and real parts of ε (ε1 by Kramers–Kronig from ε2).
+    jdos_per_eV : numpy.ndarray
+        (n_E,) joint density of states per cell, both spins, occupation-weighted.
+    n_eff : numpy.ndarray
+        (n_E,) effective electron number below each energy (interband).
+    n_eff_interband, n_eff_intraband : float
+        Interband f-sum of every pair (no broadening) and the Drude weight.
+    eps1_zero_direct : float
+        1 + (2/π)∫ε2/E dE from the transitions directly (to check Kramers–Kronig).
+    broadening_eV : float
+    complete_below_eV : float
+        Photon energy below which every transition is among the bands computed.
+    fermi_level_eV : float or None
+        None for an insulator (filled bands).
+    critical_points_eV : dict
+        E0, E1, E2: lowest conduction minus highest valence level at Γ, L, X (exact bands),
+        where the path has those points and the crystal has a gap.
+    peaks_eV : numpy.ndarray
+        Local maxima of ε2 above a fifth of its largest value, below ``complete_below_eV``.
+    interpolation : InterpolatedBands or None
+    """
+
+    material: Material
+    mesh: KMesh
+    cutoff_eV: float
+    n_bands: int
+    all_bands: bool
+    energies_eV: np.ndarray
+    eps2: np.ndarray
+    eps1: np.ndarray
+    jdos_per_eV: np.ndarray
+    n_eff: np.ndarray
+    n_eff_interband: float
+    n_eff_intraband: float
+    eps1_zero_direct: float
+    broadening_eV: float
+    complete_below_eV: float
+    fermi_level_eV: float | None
+    critical_points_eV: dict
+    peaks_eV: np.ndarray
+    interpolation: InterpolatedBands | None
+
+    @property
+    def n_eff_total(self) -> float:
+        """Interband plus intraband effective electron number (the f-sum)."""
+        return self.n_eff_interband + self.n_eff_intraband
+
+
+def _check(material: Material, broadening_eV: float, energy_step_eV: float) -> None:
+    require_spinless(material)
+    if material.dimension != 3:
+        raise InputError(f"a {material.dimension}-dimensional crystal; expected a 3D one (ε "
+                         "is a bulk property)", material.file, "lattice")
+    if material.valence_electrons is None:
+        raise InputError("no electron count; expected electrons.valence (the occupied bands "
+                         "decide the transitions)", material.file, "electrons.valence")
+    if not (np.isfinite(broadening_eV) and broadening_eV > 0):
+        raise InputError(f"got {broadening_eV!r} eV; expected a positive width",
+                         key="broadening_eV")
+    if not (np.isfinite(energy_step_eV) and 0 < energy_step_eV <= broadening_eV):
+        raise InputError(f"got {energy_step_eV!r} eV; expected a positive step no larger than "
+                         f"the broadening ({broadening_eV:g} eV)", key="energy_step_eV")
+
+
+def _labelled_transitions(material: Material, cutoff_eV: float, n_occupied: int) -> dict:
+    points, _ = standard_path(material)
+    found = [(name, label) for name, label in CRITICAL_LABELS if label in points]
+    if not found:
+        return {}
+    b = build_k_centred_model(material, cutoff_eV)
+    frac = np.array([points[label] for _, label in found], dtype=float)
+    k = fold_to_first_zone(frac, b.reciprocal_invA) @ b.reciprocal_invA
+    e = exact_energies(b, k, n_occupied + 1)
+    return {name: float(e[i, n_occupied] - e[i, n_occupied - 1])
+            for i, (name, _) in enumerate(found)}
+
+
+def _states(source, k: np.ndarray, n_bands: int, block: int):
+    """(rows, energies, momentum) blocks: from reduced bases (grouped) or one polynomial."""
+    groups = source.groups(k) if hasattr(source, "groups") else [(source, np.arange(len(k)))]
+    for poly, rows in groups:
+        for s in range(0, len(rows), block):
+            r = rows[s:s + block]
+            e, v = poly.eigensystem(k[r], n_bands)
+            yield r, e, poly.momentum(k[r], v)
+
+
+def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
+                     n_bands: int | None = None, cutoff_eV: float | None = None,
+                     broadening_eV: float = DEFAULT_BROADENING_EV,
+                     energy_step_eV: float = 0.01,
+                     interpolation: ReducedBasisSettings | None = DEFAULT_INTERPOLATION,
+                     all_bands: bool = False) -> OpticalSpectrum:
+    """ε2(E), ε1(E), the joint DOS and the f-sum of a material on a Γ-centred mesh.
+
+    Parameters
+    ----------
+    material : Material
+        3D, spinless, with ``electrons.valence``.
+    n_per_axis : int or tuple of int
+        Mesh points per reciprocal axis (its irreducible points are used: the direction average
+        of ε is invariant under the point group).
+    n_bands : int, optional
+        Bands at each k (default: occupied + :data:`DEFAULT_EXTRA_BANDS`).
+    cutoff_eV : float, optional
+    broadening_eV : float
+        Gaussian width σ of every transition.
+    energy_step_eV : float
+        Grid step (at most σ).
+    interpolation : ReducedBasisSettings or None
+        Reduced-basis interpolation with its check (default); None diagonalises every point in
+        the fixed set of plane waves that holds all their k-centred bases.
+        A metal's Fermi level comes from the tetrahedron count
+        (:func:`~bandpert.physics.dos.fermi_level_from_count`).
+    all_bands : bool
+        Every band of the fixed basis (no interpolation; at most :data:`MAX_ALL_BAND_POINTS`
+        irreducible points): the f-sum is then complete.
+    Returns
+    -------
+    OpticalSpectrum
+    """
+    _check(material, broadening_eV, energy_step_eV)
+    n_e = material.valence_electrons
+    g = material.electrons_per_band
+    n_half = int(np.ceil(n_e / g))
+    nb = n_bands or n_half + DEFAULT_EXTRA_BANDS
+    cutoff = choose_cutoff(material, nb, cutoff_eV)
+    mesh = reciprocal_mesh(material, n_per_axis)
+    k = mesh.k_cart_invA
+    run = None
+    if all_bands or interpolation is None:
+        if all_bands and len(k) > MAX_ALL_BAND_POINTS:
+            raise InputError(f"{len(k)} irreducible points with every band of the basis; "
+                             f"expected at most {MAX_ALL_BAND_POINTS} (a smaller mesh)",
+                             material.file, "mesh")
+        fixed = fixed_superset_model(material, cutoff, k)
+        source, block = k_polynomial(fixed), 4
+        energies = exact_energies(fixed, k, nb)
+        nb = fixed.size if all_bands else nb
+    else:
+        run = interpolated_bands(material, k, nb, cutoff, interpolation)
+        source, energies, block = run.model, run.energies_eV, 256
+    window = energies
+    insulator = (n_e % g == 0 and window.shape[1] > n_half
+                 and window[:, n_half - 1].max() < window[:, n_half].min())
+    e_f = None if insulator else fermi_level_from_count(mesh, window, n_e)
+    top = float(window[:, -1].min())
+    occupied_top = float(window[:, n_half - 1].max()) if insulator else e_f
+    complete = top - occupied_top if not all_bands else np.inf
+    span = (float(window[:, -1].max() - window[:, 0].min()) if not all_bands else None)
+    sums: OpticalSums | None = None
+    grid = None
+    n_window = window.shape[1]
+    speed2 = np.zeros((len(k), n_window))  # |⟨n|k+G|n⟩|²/3 of the window bands (Drude)
+    with single_blas_thread():
+        for rows, e, q in _states(source, k, nb, block):
+            if grid is None:
+                reach = span if span is not None else 1.05 * float(e[:, -1].max() - e[:, 0].min())
+                n_grid = int(np.ceil((reach + KERNEL_PAD * broadening_eV) / energy_step_eV)) + 1
+                if n_grid > MAX_GRID:
+                    raise InputError(f"an energy grid of {n_grid} points; expected at most "
+                                     f"{MAX_GRID} (a larger step)", key="energy_step_eV")
+                grid = np.arange(n_grid) * energy_step_eV
+            f = occupations(e, e_f, n_half if insulator else None)
+            sums = accumulate(grid, e, q, mesh.weights[rows], f, g, sums)
+            diag = np.einsum("kinn->kin", q[:, :, :n_window, :n_window])
+            speed2[rows] = np.sum(np.abs(diag) ** 2, axis=1) / q.shape[1]
+    eps2 = eps2_prefactor(material.volume_A, g) * gaussian_broaden(grid, sums.strength,
+                                                                    broadening_eV)
+    jdos = g * gaussian_broaden(grid, sums.joint, broadening_eV)
+    integrand = grid * eps2
+    n_eff = n_eff_factor(material.volume_A) * np.concatenate(
+        [[0.0], np.cumsum(0.5 * (integrand[1:] + integrand[:-1]) * energy_step_eV)])
+    eps1 = kramers_kronig(grid, eps2)
+    drude = 0.0 if insulator else g * HBAR2_OVER_M0_EV_A2 * fermi_surface_average(
+        mesh, window, speed2, e_f)
+    eps1_zero = 1.0 + (2.0 / np.pi) * eps2_prefactor(material.volume_A, g) * sums.inverse_cube
+    shown = grid < min(complete, grid[-1])
+    peaks = np.flatnonzero((eps2[1:-1] > eps2[:-2]) & (eps2[1:-1] >= eps2[2:])
+                           & (eps2[1:-1] > 0.2 * eps2[shown].max(initial=0.0))
+                           & shown[1:-1]) + 1
+    critical = _labelled_transitions(material, cutoff, n_half) if insulator else {}
+    return OpticalSpectrum(
+        material=material, mesh=mesh, cutoff_eV=float(cutoff), n_bands=int(nb),
+        all_bands=all_bands, energies_eV=grid, eps2=eps2, eps1=eps1, jdos_per_eV=jdos,
+        n_eff=n_eff, n_eff_interband=sums.f_sum, n_eff_intraband=drude,
+        eps1_zero_direct=float(eps1_zero), broadening_eV=float(broadening_eV),
+        complete_below_eV=float(complete), fermi_level_eV=e_f, critical_points_eV=critical,
+        peaks_eV=grid[peaks], interpolation=run)
+
+
+#: The grid runs this many widths past the largest transition.
+KERNEL_PAD = 8.0

@@ -1,0 +1,107 @@
+"""The optical spectrum: the f-sum rule, ε2 = 0 for the empty lattice, ε2 ∝ V² for a weak
+potential, Kramers–Kronig against an exact oscillator and against ε1(0) from the transitions,
+the figure's text, and ``bandpert optics``."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+from conftest import bundled, make_material
+from figure_cases import text_problems
+from test_cli import assert_user_error, run
+
+from bandpert.output.figures.optics import optics_figure
+from bandpert.physics.optical_spectrum import optical_spectrum
+from bandpert.physics.optics import kramers_kronig
+
+
+@pytest.fixture(scope="module")
+def silicon_all_bands():
+    return optical_spectrum(bundled("silicon"), 12, cutoff_eV=60.0, all_bands=True)
+
+
+def test_f_sum_rule_counts_the_valence_electrons(silicon_all_bands):
+    # Thomas–Reiche–Kuhn f-sum rule ∫ω ε2 dω = (π/2) ω_p² with every band of the basis:
+    # n_eff = 8 valence electrons per cell of silicon (Yu & Cardona, Fundamentals of
+    # Semiconductors, Sec. 6.2, the f-sum rule); to 0.5 %
+    r = silicon_all_bands
+    assert r.n_eff_total == pytest.approx(8.0, rel=0.005)
+    assert r.n_eff[-1] == pytest.approx(r.n_eff_interband, rel=1e-6)  # grid = discrete sum
+    assert r.n_eff_intraband == 0.0
+
+
+def test_kramers_kronig_eps1_at_zero_matches_the_transitions(silicon_all_bands):
+    # ε1(0) − 1 = (2/π)∫ ε2/E dE (Kramers–Kronig at E = 0; Yu & Cardona Eq. 6.51): the
+    # numerical transform of the broadened ε2 against the sum over transitions
+    r = silicon_all_bands
+    assert r.eps1[0] == pytest.approx(r.eps1_zero_direct, rel=0.005)
+
+
+def test_kramers_kronig_of_a_lorentz_oscillator():
+    # ε(E) = 1 + A/(E0² − E² − iγE): ε2 and ε1 in closed form (J. D. Jackson, Classical
+    # Electrodynamics, 3rd ed. (1999), Eq. 7.51); the transform of ε2 must return ε1
+    e = np.arange(0.0, 100.0, 0.01)
+    a, e0, gamma = 10.0, 3.0, 0.2
+    denom = (e0**2 - e**2) ** 2 + (gamma * e) ** 2
+    eps2 = a * gamma * e / denom
+    eps1 = 1.0 + a * (e0**2 - e**2) / denom
+    got = kramers_kronig(e, eps2)
+    window = e < 10.0
+    assert np.max(np.abs(got[window] - eps1[window])) < 0.01 * np.max(np.abs(eps1 - 1))
+
+
+def test_empty_lattice_has_no_interband_absorption():
+    # with V = 0 the momentum ħ(k + G) is diagonal in plane waves: no interband matrix
+    # element, ε2 = 0 (common practice, no source); the free-electron Drude weight then holds
+    # every electron (f-sum rule, Yu & Cardona Sec. 6.2), up to the error of linear tetrahedra
+    # on the sorted, crossing free-electron bands of a 12³ mesh (measured 2.77, 8 % low)
+    m = make_material({"type": "fcc", "a_A": 4.05}, [{"species": "X", "position": [0, 0, 0]}],
+                      {"form": "empty"}, electrons={"valence": 3})
+    r = optical_spectrum(m, 12, cutoff_eV=40.0, interpolation=None)
+    assert np.max(np.abs(r.eps2)) < 1e-10 and r.n_eff_interband < 1e-10
+    assert r.n_eff_intraband == pytest.approx(3.0, rel=0.1)
+
+
+def test_weak_potential_absorption_grows_as_v_squared():
+    # second-order perturbation theory: interband matrix elements are first order in V, so
+    # the absorption strength is ∝ V² (Yu & Cardona Sec. 6.2; common practice)
+    strengths = []
+    for scale in (0.05, 0.1):
+        m = make_material({"type": "fcc", "a_A": 4.05},
+                          [{"species": "Al", "position": [0, 0, 0]}],
+                          {"form": "per-species", "unit": "Ry", "shells": [3, 4],
+                           "species": {"Al": [0.0179 * scale, 0.0562 * scale]}},
+                          electrons={"valence": 3})
+        r = optical_spectrum(m, 10, cutoff_eV=40.0, interpolation=None)
+        strengths.append(r.n_eff_interband)
+    assert strengths[1] / strengths[0] == pytest.approx(4.0, rel=0.1)
+
+
+def test_optics_figure_text_neither_overlaps_nor_leaves_the_figure():
+    r = optical_spectrum(bundled("silicon"), 8, cutoff_eV=100.0)
+    assert text_problems(optics_figure(r)) == []
+    assert set(r.critical_points_eV) == {"E0", "E1", "E2"}
+
+
+def test_optics_command_writes_its_outputs(tmp_path):
+    code, out, err = run(["optics", "silicon", "--mesh", "6", "--exact", "--cutoff-eV", "60",
+                          "--out", str(tmp_path)])
+    assert code == 0, err
+    doc = json.loads((tmp_path / "silicon-optics.json").read_text())
+    assert doc["command"] == "optics"
+    res = doc["results"]
+    assert len(res["eps2"]) == len(res["photon_energies_eV"]) == len(res["eps1"])
+    assert "no excitonic" in res["spectrum"]
+    assert (tmp_path / "silicon-optics.png").exists() and (tmp_path / "silicon-optics.csv").exists()
+
+
+@pytest.mark.parametrize("flags, fragment", [(["--broadening-meV", "0"], "--broadening-meV"),
+                                             (["--step-meV", "500"], "--step-meV"),
+                                             (["--tolerance-meV", "-1"], "--tolerance-meV")])
+def test_bad_optics_options_are_one_line_errors(tmp_path, flags, fragment):
+    code, _, err = run(["optics", "silicon", "--mesh", "4", "--cutoff-eV", "40", "--out",
+                        str(tmp_path / "o"), *flags])
+    assert_user_error(code, err, fragment)
+    assert not (tmp_path / "o").exists()
