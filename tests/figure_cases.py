@@ -12,6 +12,7 @@ from pathlib import Path
 import numpy as np
 from conftest import MATERIALS, bundled, make_material
 
+from bandpert.crystal.lattice import standard_path
 from bandpert.input.kp_file import load_kp_material
 from bandpert.input.material import Material, read_toml_document
 from bandpert.kp.bands import bands_along, bands_along_path
@@ -24,6 +25,7 @@ from bandpert.runs.execution import SERIAL
 from bandpert.runs.mesh_dos import compute_dos
 from bandpert.runs.sweep import prepare, run_sweep
 from bandpert.runs.sweep_spec import parse_axis
+from bandpert.symmetry import label_points
 
 
 def own_crystal() -> Material:
@@ -37,6 +39,15 @@ def own_crystal() -> Material:
 
 def bands_exact(m: Material, n_k: int = 30, window=None):
     return figures.band_figure(compute_band_structure(m, n_k=n_k), window)
+
+
+def bands_labelled(m: Material, n_k: int = 30, window=None, comparison: bool = False):
+    """A band figure with the symmetry labels beside the levels (as ``bandpert bands``)."""
+    bs = compute_band_structure(
+        m, n_k=n_k, perturbation=PerturbationSettings(radius_points=4) if comparison else None)
+    labels = label_points(m, bs.k_centred.cutoff_eV, standard_path(m)[0], bs.n_bands,
+                          model=bs.k_centred)
+    return figures.band_figure(bs, window, labels)
 
 
 def bands_comparison(m: Material, n_k: int = 30, window=None):
@@ -91,6 +102,12 @@ def all_cases() -> dict:
     return {
         "bands-silicon": lambda: bands_exact(bundled("silicon")),
         "bands-own": lambda: bands_exact(own()),
+        "bands-labelled-silicon": lambda: bands_labelled(bundled("silicon")),
+        "bands-labelled-gaas": lambda: bands_labelled(bundled("gallium-arsenide")),
+        "bands-labelled-germanium-window": lambda: bands_labelled(bundled("germanium"),
+                                                                  window=(-4.0, 4.0)),
+        "comparison-labelled-silicon": lambda: bands_labelled(bundled("silicon"),
+                                                              comparison=True),
         "comparison-silicon": lambda: bands_comparison(bundled("silicon")),
         "comparison-aluminium": lambda: bands_comparison(bundled("aluminium")),
         "comparison-chain": lambda: bands_comparison(bundled("cosine-chain"), 60),

@@ -136,7 +136,7 @@ def bands(
     results["irreps"] = symmetry_results(labels, bs.energy_zero_eV, unlabelled_reason(material))
     doc = document("bands", material, settings, results)
     header, cols, rows = band_structure_table(bs)
-    fig = band_figure(bs, window)
+    fig = band_figure(bs, window, labels)
     mode = "exact-" if exact_only else "perturbative-" if no_exact else ""
     base = output_base(out_dir, name, f"{file.stem}-{mode}bands")
     image, csv_path, json_path = output_paths(base, image_format, json_path)

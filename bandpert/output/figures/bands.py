@@ -10,11 +10,14 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
 from ...physics.bands import BandStructure
+from ...symmetry.labels import PointSymmetry
 from .. import style
 from ..energy_zero import zero_phrase
+from .level_labels import draw_level_labels
 
 
-def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None = None) -> Figure:
+def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None = None,
+                level_labels: tuple[PointSymmetry, ...] = ()) -> Figure:
     """The exact bands of ``bs`` along its path, energies from the energy zero.
 
     The energy zero is drawn as a dashed line; for a semiconductor the gap is shaded and the
@@ -27,19 +30,30 @@ def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None 
     energy_window_eV : (float, float), optional
         Limits of the energy axis (energies from the energy zero); default: all bands with a
         margin.
+    level_labels : tuple of PointSymmetry, optional
+        Symmetry labels written beside the levels at the labelled points
+        (:func:`~bandpert.output.figures.level_labels.draw_level_labels`).
 
     Returns
     -------
     matplotlib.figure.Figure
     """
     if bs.perturbative is not None:
-        return comparison_figure(bs, energy_window_eV)
+        return comparison_figure(bs, energy_window_eV, level_labels)
     fig = style.new_figure(6.4, 4.8)
     ax = fig.subplots()
     draw_bands_panel(ax, bs, energy_window_eV)
     ax.set_xlabel("Wave vector along the path", fontsize=style.LABEL_SIZE)
     style.footer(fig, source_note(bs))
+    _level_labels(ax, bs, level_labels)
     return fig
+
+
+def _level_labels(ax: Axes, bs: BandStructure, level_labels: tuple[PointSymmetry, ...]) -> None:
+    """Symmetry labels beside the levels, drawn last so that they avoid every other text."""
+    if level_labels:
+        draw_level_labels(ax, bs.path.distance_invA, bs.path.label_indices, bs.path.labels,
+                          bs.energy_zero_eV, level_labels)
 
 
 def source_note(bs: BandStructure) -> str:
@@ -137,7 +151,8 @@ def validity_states(bs: BandStructure) -> np.ndarray:
 
 
 def comparison_figure(bs: BandStructure,
-                      energy_window_eV: tuple[float, float] | None = None) -> Figure:
+                      energy_window_eV: tuple[float, float] | None = None,
+                      level_labels: tuple[PointSymmetry, ...] = ()) -> Figure:
     """Perturbative bands beside exact bands, with the error panel and the validity map.
 
     Top: exact bands as lines; perturbative energies as markers (at most
@@ -195,6 +210,7 @@ def comparison_figure(bs: BandStructure,
     style.draw_path_axes(ax_map, x, bs.path.label_indices, bs.path.labels)
     ax_map.set_xlabel("Wave vector along the path", fontsize=style.LABEL_SIZE)
     style.footer(fig, source_note(bs))
+    _level_labels(ax, bs, level_labels)
     return fig
 
 
