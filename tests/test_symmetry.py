@@ -140,3 +140,19 @@ def test_one_and_two_dimensional_models_are_not_labelled(tmp_path):
     assert code == 0, err
     doc = json.loads((tmp_path / "cosine-chain-exact-bands.json").read_text())
     assert doc["results"]["irreps"]["points"] == [] and "3D" in doc["results"]["irreps"]["note"]
+
+
+@pytest.mark.parametrize("name,split_off", [("silicon-spin-orbit", "Γ7+"),
+                                            ("germanium-spin-orbit", "Γ7+"),
+                                            ("gallium-arsenide-spin-orbit", "Γ7")])
+def test_double_group_labels_at_the_valence_top(name, split_off):
+    # source: Koster, Dimmock, Wheeler & Statz, Properties of the Thirty-Two Point Groups (1963),
+    # double groups O_h and T_d; Yu & Cardona, Fundamentals of Semiconductors (2010), §2.6
+    # (from memory): with spin–orbit the valence top Γ25′ (Γ15) becomes Γ8 (four-fold) above
+    # the split-off Γ7 (two-fold); the s-like bottom Γ1 becomes Γ6
+    m = bundled(name)
+    ps = label_point(m, CUTOFF, np.zeros(3), "Γ", 8)
+    lv = [(x.label, x.degeneracy) for x in ps.levels]
+    assert lv[0] == ("Γ6+" if "+" in split_off else "Γ6", 2)
+    assert lv[1] == (split_off, 2) and lv[2][1] == 4 and lv[2][0].startswith("Γ8")
+    assert not any(x.accidental for x in ps.levels)

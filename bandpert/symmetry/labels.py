@@ -25,6 +25,7 @@ from ..planewave.solver import single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2
 from .groups import LittleGroup, SpaceGroupFrame, little_group, space_group_frame
 from .names import irrep_names, structure_kind
+from .spinor import spinor_levels
 
 __all__ = [
     "LEVEL_TOLERANCE_EV",
@@ -221,8 +222,8 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
     """
     k_frac = np.asarray(k_frac, dtype=float)
     if getattr(material, "spin_orbit", None) is not None:
-        return PointSymmetry(point, k_frac, "", "", 1, (), (), (), (),
-                             unlabelled_reason(material), cutoff_eV)
+        return _spinor_point(material, cutoff_eV, k_frac, point, n_bands, frame, origin_atom,
+                             level_tol_eV)
     model = build_k_centred_model(material, cutoff_eV) if model is None else model
     miller, w, v = _k_centred_states(model, k_frac @ model.reciprocal_invA, n_bands + 12)
     top = w.size
@@ -264,6 +265,24 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
                          tuple(int(h) for h in group.herring), tuple(levels), "", cutoff_eV)
 
 
+def _spinor_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point: str,
+                  n_bands: int, frame: SpaceGroupFrame | None, origin_atom: int | None,
+                  level_tol_eV: float) -> PointSymmetry:
+    """Double-group labels (:mod:`bandpert.symmetry.spinor`); Herring values not computed (0)."""
+    frame = space_group_frame(material, origin_atom) if frame is None else frame
+    if not frame.primitive or frame.order == 1:
+        note = NO_SYMMETRY if frame.order == 1 else "labels need a primitive cell"
+        return PointSymmetry(point, k_frac, frame.international, "", 1, (), (), (), (), note,
+                             cutoff_eV)
+    raw, names, dims, order = spinor_levels(material, cutoff_eV, frame, k_frac, point, n_bands,
+                                            level_tol_eV)
+    levels = tuple(LevelLabel(e, a, g, c, label, len(c) > 1 and not tr, tr)
+                   for e, a, g, c, label, tr in raw)
+    return PointSymmetry(point, k_frac, frame.international, frame.origin, order, tuple(names),
+                         tuple(int(d) for d in dims), tuple(0 for _ in names), levels,
+                         "double group (spin–orbit)", cutoff_eV)
+
+
 def label_points(material: Material, cutoff_eV: float, points: dict[str, np.ndarray],
                  n_bands: int, *, model: KCentredModel | None = None,
                  origin_atom: int | None = None) -> tuple[PointSymmetry, ...]:
@@ -288,7 +307,8 @@ def label_points(material: Material, cutoff_eV: float, points: dict[str, np.ndar
     """
     if unlabelled_reason(material):
         return ()
-    model = build_k_centred_model(material, cutoff_eV) if model is None else model
+    if getattr(material, "spin_orbit", None) is None:
+        model = build_k_centred_model(material, cutoff_eV) if model is None else model
     frame = space_group_frame(material, origin_atom)
     return tuple(label_point(material, cutoff_eV, np.asarray(k, dtype=float), lab, n_bands,
                              frame=frame, model=model, origin_atom=origin_atom)
@@ -296,13 +316,10 @@ def label_points(material: Material, cutoff_eV: float, points: dict[str, np.ndar
 
 
 def unlabelled_reason(material: Material) -> str:
-    """Why a material gets no labels (``""`` when it gets them): 1D/2D, or spin–orbit."""
+    """Why a material gets no labels (``""`` when it gets them): 1D and 2D models."""
     if material.dimension != 3:
         return (f"no labels: they are computed for 3D crystals only (this model is "
                 f"{material.dimension}D)")
-    if getattr(material, "spin_orbit", None) is not None:
-        return ("no labels: double-group (spinor) labels are not computed; the spinless labels "
-                "of the same material without spin–orbit apply to its levels before splitting")
     return ""
 
 

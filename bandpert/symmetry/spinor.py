@@ -1,0 +1,130 @@
+"""Double-group (spinor) labels of the levels of a model with spin–orbit coupling.
+
+A spinor plane wave |k+G, s⟩ goes under g = {R|t} to e^{−iR(k+G)·t} Σ_s′ U(R)_{s′s} |R(k+G), s′⟩,
+with U(R) the SU(2) matrix of the proper part of R (inversion leaves the spin alone). The lift
+U(R) and the small projective irreps of the little group are spgrep's
+(``get_spacegroup_spinor_irreps_from_primitive_symmetry``, ``get_spinor_unitary_rotation``),
+so the characters traced on the eigenvectors reduce on them directly. Names at Γ follow Koster,
+Dimmock, Wheeler & Statz, *Properties of the Thirty-Two Point Groups* (1963) (from memory): the
+two-dimensional irreps are Γ6 (the spin-½ representation itself: χ(C4 or S4)/χ_{½} = +1) and Γ7
+(−1), the four-dimensional one Γ8; with inversion a ± parity is appended (Γ8+, Γ7+ at the
+valence top of silicon and germanium). Elsewhere the neutral ``<point>#<n>(<dim>)``.
+Time reversal: a level of two one-dimensional irreps with complex-conjugate characters is a
+Kramers pair (not accidental); Herring's test is not run for spinors.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import scipy.linalg
+from spgrep import get_spacegroup_spinor_irreps_from_primitive_symmetry
+
+from ..input.material import Material
+from ..planewave.model import centred_model
+from ..planewave.solver import single_blas_thread
+from .groups import ATOL, SpaceGroupFrame
+
+__all__ = ["spinor_levels"]
+
+
+def _names(frame: SpaceGroupFrame, k: np.ndarray, indices: np.ndarray, chars: np.ndarray,
+           unitary: np.ndarray, dims: np.ndarray, point: str) -> list[str]:
+    """Koster's Γ6/Γ7/Γ8 (± with inversion) at Γ, neutral names elsewhere."""
+    out = []
+    gamma = bool(np.allclose(k, np.rint(k), atol=ATOL))
+    rots = frame.rotations_cart[indices]
+    dets = np.linalg.det(rots)
+    proper = rots * dets[:, None, None]
+    fourfold = np.isclose(np.trace(proper, axis1=1, axis2=2), 1.0)  # C4 or S4 (±R a C4)
+    inversion = np.flatnonzero(np.isclose(np.trace(rots, axis1=1, axis2=2), -3.0))
+    spin_half = np.trace(unitary, axis1=1, axis2=2)
+    for i, chi in enumerate(chars):
+        name = None
+        if gamma and fourfold.any():
+            j = int(np.flatnonzero(fourfold)[0])
+            if dims[i] == 4:
+                name = "Γ8"
+            elif dims[i] == 2 and abs(spin_half[j]) > 1e-6:
+                ratio = (chi[j] / spin_half[j]).real
+                name = "Γ6" if ratio > 0.5 else "Γ7" if ratio < -0.5 else None
+            if name is not None and inversion.size:
+                name += "+" if chi[inversion[0]].real > 0 else "−"
+        out.append(name or f"{point}#{i + 1}({int(dims[i])})")
+    return out
+
+
+def spinor_levels(material: Material, cutoff_eV: float, frame: SpaceGroupFrame,
+                  k_frac: np.ndarray, point: str, n_bands: int, level_tol_eV: float
+                  ) -> tuple[list[tuple[float, int, int, tuple[int, ...], str, bool]], list[str],
+                             np.ndarray, int]:
+    """Levels of the spinor H(k) with their double-group irreps.
+
+    Returns
+    -------
+    levels : list of (energy_eV, first_band, degeneracy, irreps, label, time_reversal)
+        ``time_reversal``: two one-dimensional irreps with complex-conjugate characters, a
+        Kramers pair that time reversal sticks together.
+    names : list of str
+        Name of each small irrep.
+    dims : numpy.ndarray
+    order : int
+        Order of the little co-group.
+    """
+    k = np.asarray(k_frac, dtype=float)
+    model = centred_model(material, cutoff_eV, k @ np.linalg.inv(frame.lattice_t) * 2 * np.pi,
+                          spin_orbit=True)
+    k_cart = k @ model.reciprocal_invA
+    h = model.hamiltonian(k_cart)
+    top = min(h.shape[0], n_bands + 16)
+    with single_blas_thread():
+        w, v = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
+    irreps, _, unitary, mapping = get_spacegroup_spinor_irreps_from_primitive_symmetry(
+        frame.lattice_t.T, frame.rotations, frame.translations, kpoint=k)
+    mapping = np.asarray(mapping, dtype=int)
+    chars = np.array([[np.trace(m) for m in ir] for ir in irreps], dtype=complex)
+    dims = np.array([ir.shape[1] for ir in irreps], dtype=int)
+    names = _names(frame, k, mapping, chars, np.asarray(unitary), dims, point)
+    miller = model.basis.miller.astype(np.int64)
+    n = miller.shape[0]
+    index = {tuple(m): i for i, m in enumerate(miller.tolist())}
+    perms, phases = [], []
+    for op in mapping:
+        q = (k + miller) @ np.linalg.inv(frame.rotations[op])
+        m2 = np.rint(q - k).astype(np.int64)
+        perms.append(np.array([index[tuple(m)] for m in m2.tolist()]))
+        phases.append(np.exp(-2j * np.pi * (q @ frame.translations_user[op])))
+    starts = np.concatenate([[0], np.flatnonzero(np.diff(w) > level_tol_eV) + 1])
+    ends = np.concatenate([starts[1:], [w.size]])
+    levels = []
+    for a, b in zip(starts, ends, strict=True):
+        if a >= n_bands or (b == w.size and top < h.shape[0]):
+            break
+        vec = v[:, a:b].reshape(2, n, b - a)  # component s·n + i
+        chi = np.empty(mapping.size, dtype=complex)
+        for j in range(mapping.size):
+            # (g ψ)(s′, G′) = Σ_s U_{s′s} e^{…} ψ(s, G): trace against ψ(s′, G′)
+            moved = np.einsum("ts,sgb->tgb", unitary[j], vec * phases[j][None, :, None])
+            target = np.empty_like(moved)
+            target[:, perms[j], :] = moved
+            chi[j] = np.sum(np.conj(vec) * target)
+        mult = chars.conj() @ chi / mapping.size
+        counts = np.rint(mult.real).astype(int)
+        if np.max(np.abs(mult - counts)) > 1e-3 or counts @ dims != b - a:
+            raise RuntimeError(f"spinor characters at {point} do not reduce: {np.round(mult, 3)}")
+        contained = tuple(int(i) for i in np.repeat(np.arange(counts.size), counts))
+        levels.append((float(w[a:b].mean()), int(a), int(b - a), contained,
+                       "+".join(names[i] for i in contained),
+                       _kramers_pair(contained, chars, k)))
+    return levels, names, dims, int(mapping.size)
+
+
+def _kramers_pair(contained: tuple[int, ...], chars: np.ndarray, k: np.ndarray) -> bool:
+    """Two distinct irreps stuck by time reversal (θ² = −1): complex-conjugate characters
+    where −k ≡ k; where −k ≢ k the partner (conjugated by an operation taking k to −k) is not
+    checked."""
+    if len(contained) != 2 or contained[0] == contained[1]:
+        return False
+    if not np.allclose(2 * k, np.rint(2 * k), atol=ATOL):
+        return True
+    i, j = contained
+    return bool(np.allclose(chars[j], np.conj(chars[i]), atol=1e-6))
