@@ -15,6 +15,7 @@ from conftest import MATERIALS, bundled, make_material
 from bandpert.crystal.lattice import standard_path
 from bandpert.input.kp_file import load_kp_material
 from bandpert.input.material import Material, read_toml_document
+from bandpert.kp import material_model
 from bandpert.kp.bands import bands_along, bands_along_path
 from bandpert.output import figures
 from bandpert.physics.bands import compute_band_structure
@@ -64,14 +65,14 @@ def gaps(m: Material, n_k: int = 30, crossings: bool = False, cutoff_eV: float |
 def kp(name: str = "gallium-arsenide", window=None):
     kpm = load_kp_material(name)
     dirs = {"[001]": "001", "[110]": "110", "[111]": "111"}
-    plotted = {name: {label: bands_along(kpm.model(name), d, k_max_frac=0.1, n_k=41)
+    plotted = {name: {label: bands_along(material_model(kpm, name), d, k_max_frac=0.1, n_k=41)
                       for label, d in dirs.items()} for name in kpm.models}
     return figures.kp_figure(kpm.name, kpm.source, plotted, energy_window_eV=window)
 
 
 def kp_path(name: str = "gallium-arsenide", window=None):
     kpm = load_kp_material(name)
-    b = bands_along_path([kpm.model(n) for n in kpm.models], kpm.a_A)
+    b = bands_along_path([material_model(kpm, n) for n in kpm.models], kpm.a_A)
     return figures.kp_path_figure(b, kpm.name, kpm.source, window)
 
 

@@ -80,7 +80,7 @@ OPTIONS = {
     "masses": ["--point", "--band", "--temperature", "--cutoff-eV", "--json", "--name", "--out",
                "--write-kp", "--help"],
     "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--name", "--emin",
-           "--emax", "--help"],
+           "--emax", "--strain", "--hydro", "--on", "--growth", "--help"],
     "fullzone": ["--basis", "--k-points", "--bands", "--out", "--format", "--json", "--name",
                  "--emin", "--emax", "--help"],
     "sweep": ["--vary", "--quantity", "--point", "--between", "--form-factors", "--basis",

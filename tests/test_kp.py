@@ -36,6 +36,7 @@ from bandpert.kp import (
     luttinger_from_modified,
     luttinger_inverse_masses,
     masses_at_gamma,
+    material_model,
     modified_luttinger,
     nonparabolicity,
     six_band_model,
@@ -93,7 +94,7 @@ def test_bundled_files_hold_the_recalled_values():
 @pytest.mark.parametrize("material", BOTH, ids=IDS)
 def test_eight_band_conduction_mass_matches_the_table(material):
     p = material.parameters
-    model = material.model("eight-band")
+    model = material_model(material, "eight-band")
     for method in ("analytic", "finite-difference"):
         m_e = masses_at_gamma(model, "001", method).of("conduction")
         # Vurgaftman 2001 (from memory): m_e = 0.067 (GaAs), 0.0795 (InP), within 2 %
@@ -110,7 +111,7 @@ def test_eight_band_conduction_mass_matches_the_table(material):
 @pytest.mark.parametrize("material", BOTH, ids=IDS)
 def test_eight_band_split_off_mass_matches_the_table(material):
     p = material.parameters
-    m_so = masses_at_gamma(material.model("eight-band"), "001", "finite-difference").of(
+    m_so = masses_at_gamma(material_model(material, "eight-band"), "001", "finite-difference").of(
         "split-off")
     # Vurgaftman 2001 (from memory): m_so = 0.172 (GaAs), 0.21 (InP), within 2 %
     # (measured: 0.1718 and 0.2111, i.e. -0.1 % and +0.5 %)
@@ -129,7 +130,7 @@ SIX_BAND_SO_MISS = {"GaAs": -0.167, "InP": -0.062}
 @pytest.mark.parametrize("material", BOTH, ids=IDS)
 def test_six_band_split_off_mass_is_one_over_gamma1_and_misses_the_table(material):
     p = material.parameters
-    m_so = masses_at_gamma(material.model("six-band"), "111", "finite-difference").of(
+    m_so = masses_at_gamma(material_model(material, "six-band"), "111", "finite-difference").of(
         "split-off")
     # six-band model: m0/m_so = γ1 exactly (the Γ8–Γ7 coupling is of order k²; Luttinger &
     # Kohn, Phys. Rev. 97, 869 (1955), from memory)
@@ -147,7 +148,7 @@ def test_six_band_split_off_mass_is_one_over_gamma1_and_misses_the_table(materia
 def test_hole_masses_along_001_and_111(material, name, direction, gamma):
     p = material.parameters
     g = getattr(p, gamma)
-    model = material.model(name)
+    model = material_model(material, name)
     fd = masses_at_gamma(model, direction, "finite-difference")
     exact = masses_at_gamma(model, direction)
     # Source: Luttinger 1956: m0/m_hh,lh = γ1 ∓ 2γ2 along [001], γ1 ∓ 2γ3 along [111]; in the eight-
@@ -163,7 +164,7 @@ def test_hole_masses_along_001_and_111(material, name, direction, gamma):
 
 def test_eight_band_gaas_heavy_hole_warping():
     p = GAAS.parameters
-    model = GAAS.model("eight-band")
+    model = material_model(GAAS, "eight-band")
     g1, g2, g3 = p.gamma1, p.gamma2, p.gamma3
     # Source: Luttinger 1956 (warping): [100] γ1 − 2γ2, [110] γ1 − √(γ2² + 3γ3²), [111] γ1 − 2γ3
     expected = {"100": g1 - 2 * g2, "110": g1 - math.sqrt(g2**2 + 3 * g3**2), "111": g1 - 2 * g3}
@@ -181,7 +182,7 @@ def test_light_and_heavy_holes_along_110_are_exact(material, name):
     spherical average (Luttinger 1956: the cubic invariant is k⁴/4 there)."""
     p = material.parameters
     root = math.sqrt(p.gamma2**2 + 3 * p.gamma3**2)
-    fd = masses_at_gamma(material.model(name), "110", "finite-difference")
+    fd = masses_at_gamma(material_model(material, name), "110", "finite-difference")
     assert fd.of("heavy hole") == pytest.approx(1 / (p.gamma1 - root), rel=FD_RTOL)
     assert fd.of("light hole") == pytest.approx(1 / (p.gamma1 + root), rel=FD_RTOL)
 
@@ -191,8 +192,8 @@ def test_hole_masses_in_any_direction_follow_luttinger(direction):
     for material in BOTH:
         p = material.parameters
         hh, lh = luttinger_inverse_masses(p.gamma1, p.gamma2, p.gamma3, direction)
-        six = masses_at_gamma(material.model("six-band"), direction)
-        eight = masses_at_gamma(material.model("eight-band"), direction)
+        six = masses_at_gamma(material_model(material, "six-band"), direction)
+        eight = masses_at_gamma(material_model(material, "eight-band"), direction)
         for result in (six, eight):
             # Source: Luttinger 1956, eigenvalues of the 4×4 Γ8 Hamiltonian in any direction
             assert result.of("heavy hole") == pytest.approx(1 / hh, rel=1e-9)
@@ -230,10 +231,10 @@ def test_kane_F_inverts_the_conduction_mass():
 @pytest.mark.parametrize("material", BOTH, ids=IDS)
 def test_gamma_levels_in_the_documented_order(material):
     p = material.parameters
-    eight = material.model("eight-band")
+    eight = material_model(material, "eight-band")
     expected = [p.Eg_eV] * 2 + [0.0] * 4 + [-p.Delta_so_eV] * 2  # Γ6, Γ8, Γ7 (basis order)
     np.testing.assert_allclose(eight.hamiltonian_eV([0, 0, 0])[0], np.diag(expected), atol=1e-14)
-    np.testing.assert_allclose(material.model("six-band").hamiltonian_eV([0, 0, 0])[0],
+    np.testing.assert_allclose(material_model(material, "six-band").hamiltonian_eV([0, 0, 0])[0],
                                np.diag(expected[2:]), atol=1e-14)
     assert eight.basis_labels[0] == "Γ6 +1/2" and eight.basis_labels[-1] == "Γ7 -1/2"
     u = kp.cartesian_basis_matrix("eight-band")
@@ -271,12 +272,13 @@ def _documented_matrix(p: KPParameters, k: np.ndarray) -> np.ndarray:
 
 @given(k=vectors)
 def test_matrix_is_the_documented_one(k):
-    np.testing.assert_allclose(GAAS.model("eight-band").hamiltonian_eV(k)[0],
+    np.testing.assert_allclose(material_model(GAAS, "eight-band").hamiltonian_eV(k)[0],
                                _documented_matrix(GAAS.parameters, k), atol=1e-12)
 
 
 def _models():
-    return [m.model(name) for m in BOTH for name in ("two-band", "six-band", "eight-band")]
+    return [material_model(m, name) for m in BOTH
+            for name in ("two-band", "six-band", "eight-band")]
 
 
 @given(k=st.lists(vectors, min_size=1, max_size=5).map(np.array))
@@ -300,7 +302,7 @@ def test_time_reversal(k):
         u = kp.cartesian_basis_matrix(name)
         t = u.conj().T @ theta[:size, :size] @ u.conj()
         for material in BOTH:
-            model = material.model(name)
+            model = material_model(material, name)
             # Θ H(k) Θ⁻¹ = H(−k) for real orbitals (common practice, no source)
             np.testing.assert_allclose(t @ model.hamiltonian_eV(k)[0].conj() @ t.conj().T,
                                        model.hamiltonian_eV(-k)[0], atol=1e-12)
@@ -322,7 +324,7 @@ def test_cubic_symmetry(k, perm, signs):
 def test_no_level_in_the_gap_out_to_the_zone_edge(material):
     """The module docstring's claim for the bundled values: with 1 + 2F < 0 and γ1' + 2γ2' < 0
     the far bands are unphysical, yet no level enters (0, Eg) for |k| ≤ 2π/a."""
-    model = material.model("eight-band")
+    model = material_model(material, "eight-band")
     rng = np.random.default_rng(7)
     u = rng.normal(size=(4000, 3))
     k = u / np.linalg.norm(u, axis=1)[:, None] * rng.uniform(0, 2 * math.pi / material.a_A,
@@ -339,7 +341,7 @@ def test_no_level_in_the_gap_out_to_the_zone_edge(material):
 @pytest.mark.parametrize("remote", ["fitted", "free-electron"])
 @pytest.mark.parametrize("material", BOTH, ids=IDS)
 def test_two_band_closed_form(material, remote):
-    model = material.model("two-band", remote=remote)
+    model = material_model(material, "two-band", remote=remote)
     k = np.linspace(0, 0.5, 60)[:, None] * unit_vector([1, 2, 2])
     # Kane 1957 (two-band secular equation, from memory)
     closed = two_band_energies_eV(np.linalg.norm(k, axis=1), *two_band_constants(model))
@@ -349,7 +351,7 @@ def test_two_band_closed_form(material, remote):
 @pytest.mark.parametrize("material", BOTH, ids=IDS)
 def test_two_band_masses(material):
     p = material.parameters
-    masses = masses_at_gamma(material.model("two-band"), "111", "finite-difference")
+    masses = masses_at_gamma(material_model(material, "two-band"), "111", "finite-difference")
     # built to carry the eight-band (source: Vurgaftman 2001) conduction mass and the spherical
     # Luttinger light-hole mass 1/(γ1 + 2γ̄), γ̄ = (2γ2 + 3γ3)/5 (Lipari & Baldereschi 1970)
     assert 1 / masses.of("conduction") == pytest.approx(
@@ -360,12 +362,12 @@ def test_two_band_masses(material):
 
 @pytest.mark.parametrize("material", BOTH, ids=IDS)
 def test_two_band_nonparabolicity(material):
-    bare = material.model("two-band", remote="free-electron")
+    bare = material_model(material, "two-band", remote="free-electron")
     fit = nonparabolicity(bare)
     # Kane 1957 (from memory): α = (1 − m*/m0)²/Eg for the bare two-band model
     assert fit.alpha_per_eV == pytest.approx(
         kane_nonparabolicity(fit.edge_mass_m0, material.parameters.Eg_eV), rel=1e-6)
-    fitted = material.model("two-band")
+    fitted = material_model(material, "two-band")
     assert nonparabolicity(fitted).alpha_per_eV == pytest.approx(
         two_band_nonparabolicity(*two_band_constants(fitted)), rel=1e-6)
     # m*(E) = m*(1 + αE + O(E²)) at small E (follows from E(1 + αE) = ħ²k²/2m*)
@@ -380,7 +382,7 @@ def test_eight_band_nonparabolicity():
     two-band (1 − m*/m0)²/Eg = 0.573 /eV (Kane 1957, from memory). Its k⁴ terms are warped by
     the valence anisotropy γ3 − γ2 (measured: 0.560, 0.688, 0.731 /eV along [001], [110],
     [111]); with γ3 = γ2 the model is spherical and α the same in every direction."""
-    model = GAAS.model("eight-band")
+    model = material_model(GAAS, "eight-band")
     alpha = {d: nonparabolicity(model, d).alpha_per_eV for d in ("001", "110", "111")}
     kane = kane_nonparabolicity(0.067, 1.519)
     assert alpha["001"] == pytest.approx(0.560, abs=0.001)
@@ -432,7 +434,7 @@ def test_spherical_parameters_give_isotropic_bands(k, turn):
 
 
 def test_bands_along_a_direction():
-    model = GAAS.model("eight-band")
+    model = material_model(GAAS, "eight-band")
     b = bands_along(model, "[111]", k_max_frac=0.1, n_k=11, both_sides=True)
     assert b.energies_eV.shape == (11, 8) and b.k_cart_invA.shape == (11, 3)
     two_pi_a = 2 * math.pi / 5.65325
@@ -467,7 +469,7 @@ def test_models_refuse_missing_parameters_in_code():
     with pytest.raises(ValueError, match="remote"):
         two_band_model(GAAS.parameters, remote="none")
     with pytest.raises(ValueError, match="no band named"):
-        masses_at_gamma(GAAS.model("six-band"), "001").of("conduction")
+        masses_at_gamma(material_model(GAAS, "six-band"), "001").of("conduction")
 
 
 # ---------------------------------------------------------------------------------------------
@@ -586,12 +588,12 @@ def test_models_default_to_what_the_parameters_complete(tmp_path):
         del doc["parameters"][key]
     material = load_kp_material(_write(tmp_path, doc))
     assert material.models == ("six-band",)
-    assert material.model().name == "six-band"
+    assert material_model(material).name == "six-band"
     with pytest.raises(InputError) as info:
-        material.model("eight-band")
+        material_model(material, "eight-band")
     assert info.value.key == "models" and str(info.value).startswith(str(tmp_path))
     with pytest.raises(InputError, match="unknown k·p model"):
-        material.model("four-band")
+        material_model(material, "four-band")
 
 
 def test_parse_refuses_a_non_table():
@@ -605,7 +607,7 @@ def test_every_bundled_kp_file_loads():
     for path in files:
         material = load_kp_material(path)
         for name in material.models:
-            model = material.model(name)
+            model = material_model(material, name)
             assert model.lattice_constant_A == material.a_A
             for a, b in itertools.pairwise(model.gamma_energies_eV):
                 assert a <= b

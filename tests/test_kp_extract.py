@@ -11,7 +11,7 @@ from hypothesis import given
 from hypothesis import strategies as st
 
 from bandpert.input.kp_file import parse_kp_material
-from bandpert.kp import dkk_from_luttinger, luttinger_from_dkk, unit_vector
+from bandpert.kp import dkk_from_luttinger, luttinger_from_dkk, material_model, unit_vector
 from bandpert.physics.degenerate_edge import degenerate_edge
 from bandpert.physics.kp_from_planewave import extract_kp_parameters, kp_material_text
 from bandpert.physics.mass_tensor import eigenstates
@@ -44,7 +44,7 @@ def test_eight_band_model_reproduces_the_plane_wave_valence_bands(extracted, dir
     # for k ≤ 0.02·2π/a (second-order k·p is exact to O(k²); Luttinger, Phys. Rev. 102, 1030
     # (1956); the plane-wave bands are the reference).
     material, model, ex, kp = extracted
-    eight = kp.model("eight-band")
+    eight = material_model(kp, "eight-band")
     top = exact_energies(model, np.zeros((1, 3)), 4)[0, 3]
     u = unit_vector(direction)
     for frac in (0.005, 0.01, 0.02):
@@ -61,7 +61,7 @@ def test_conduction_mass_of_the_eight_band_model_matches_the_plane_wave_mass(ext
     from bandpert.kp import masses_at_gamma
 
     _, _, ex, kp = extracted
-    masses = masses_at_gamma(kp.model("eight-band"), "001")
+    masses = masses_at_gamma(material_model(kp, "eight-band"), "001")
     e = masses.energies_eV
     conduction = int(np.argmax(e))
     assert masses.mass_m0[conduction] == pytest.approx(ex.conduction_mass_m0, rel=1e-6)

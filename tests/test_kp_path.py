@@ -15,7 +15,7 @@ import bandpert.cli.app as cli
 from bandpert.data import MATERIALS_DIR
 from bandpert.input.file_kind import file_kind, kind_of_document
 from bandpert.input.kp_file import load_kp_material
-from bandpert.kp import bands_along, bands_along_path
+from bandpert.kp import bands_along, bands_along_path, material_model
 from bandpert.output.figures import kp_path_figure
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
@@ -36,7 +36,7 @@ def run(args: list[str]) -> tuple[int, str, str]:
 def test_path_runs_through_gamma_to_the_stated_fractions():
     # fcc zone points L = (½,½,½), X = (1,0,0), K = (¾,¾,0)·2π/a (source: Bouckaert,
     # Smoluchowski & Wigner, Phys. Rev. 50, 58 (1936))
-    models = [GAAS.model(n) for n in GAAS.models]
+    models = [material_model(GAAS, n) for n in GAAS.models]
     b = bands_along_path(models, GAAS.a_A, fraction=0.1, n_per_leg=21)
     first, gamma, end_x, last = b.label_indices
     assert np.allclose(b.k_2pi_a[first], [0.05, 0.05, 0.05])
@@ -93,7 +93,7 @@ def _texts_fit(fig) -> None:
 @pytest.mark.parametrize("kpm", [GAAS, INP], ids=["gaas", "inp"])
 def test_path_figure_names_the_bands_and_its_text_fits(kpm):
     # common practice, no source: band names on the curves, no overlapping or clipped text
-    b = bands_along_path([kpm.model(n) for n in kpm.models], kpm.a_A)
+    b = bands_along_path([material_model(kpm, n) for n in kpm.models], kpm.a_A)
     fig = kp_path_figure(b, kpm.name, kpm.source)
     texts = {t.get_text() for t in fig.axes[0].texts}
     assert {"CB", "HH", "LH", "SO"} <= texts

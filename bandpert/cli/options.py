@@ -174,6 +174,8 @@ FLAGS = {
     "interpolation_tolerance_eV": "--tolerance-meV",
     "basis_tolerance": "--basis-tolerance", "coarse_mesh": "--coarse-mesh",
     "broadening_eV": "--broadening-meV",
+    "strain": "--strain", "hydrostatic": "--hydro", "substrate_a_A": "--on",
+    "growth": "--growth",
 }
 
 #: Library wording inside messages → the command line's wording.

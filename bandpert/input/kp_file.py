@@ -1,9 +1,12 @@
 """k·p parameter files: TOML in, a validated, frozen :class:`KPMaterial` out.
 
 A k·p file holds the band parameters of a cubic crystal at Γ for the models of
-:mod:`bandpert.kp`. It is validated like a material file (:mod:`bandpert.material`): unknown keys
-are refused, types are checked, non-physical values are refused, and every problem is one
-:class:`~bandpert.errors.InputError` naming the file and the dotted key.
+:mod:`bandpert.kp` (which builds them: this layer knows no Hamiltonian), and optionally its
+deformation potentials, elastic constants and valence-band offset (their sign convention:
+:mod:`bandpert.input.kp_parameters`). It is validated like a material file
+(:mod:`bandpert.input.material`): unknown keys are refused, types are checked, non-physical
+values are refused, and every problem is one :class:`~bandpert.errors.InputError` naming the
+file and the dotted key.
 
 Schema
 ------
@@ -33,6 +36,22 @@ Units are in the key names: energies in eV (``_eV``), lengths in Å (``_A``), ma
     m_e_m0 = 0.067                               # > 0: conduction-band mass
     m_so_m0 = 0.172                              # > 0: split-off mass
 
+    [deformation]                                # optional; needed for strain (Bir–Pikus)
+    a_v_convention = "a = a_c - a_v"             # required here: or "a = a_c + a_v" (the
+                                                 # opposite sign of a_v, flipped on reading)
+    a_c_eV = -7.17                               # conduction: ΔE_c = a_c tr ε
+    a_v_eV = 1.16                                # valence: P_ε = −a_v tr ε
+    b_eV = -2.0                                  # shear, tetragonal
+    d_eV = -4.8                                  # shear, rhombohedral
+
+    [elastic]                                    # optional; needed for pseudomorphic strain
+    c11_GPa = 1221                               # > 0, and c11 > c12
+    c12_GPa = 566
+    c44_GPa = 600
+
+    [alignment]                                  # optional; needed in heterostructures
+    valence_band_eV = -0.80                      # valence-band top on a common scale
+
 Models and the parameters they need (:data:`bandpert.kp.REQUIRED_PARAMETERS`): ``six-band``:
 Delta_so_eV, gamma1–3; ``eight-band`` and ``two-band``: all seven. A model listed in ``models``
 whose parameters are missing is refused (naming the missing key); without ``models`` the file
@@ -48,14 +67,13 @@ from pathlib import Path
 from typing import Any
 
 from ..data import find_material
-from ..errors import InputError
-from ..kp import (
+from .kp_parameters import (
     MODEL_NAMES,
     REQUIRED_PARAMETERS,
-    KPModel,
+    DeformationPotentials,
+    ElasticConstants,
     KPParameters,
     conduction_inverse_mass,
-    make_model,
 )
 from .reader import (
     TableReader,
@@ -96,6 +114,19 @@ LATTICE_CONSTANT_RANGE_A = (1.0, 20.0)
 #: Accepted tabulated masses, m0.
 REFERENCE_MASS_RANGE_M0 = (1e-4, 1e3)
 
+#: The two sign conventions of a_v a file may use (``deformation.a_v_convention``): the first
+#: is the one kept (Vurgaftman et al. 2001; Chuang 1995), the second is flipped on reading.
+A_V_CONVENTIONS: tuple[str, ...] = ("a = a_c - a_v", "a = a_c + a_v")
+
+#: Accepted deformation potentials, eV (tabulated values: |a_c| < 12, |b| < 4, |d| < 8).
+DEFORMATION_RANGE_EV = (-50.0, 50.0)
+
+#: Accepted elastic constants, GPa (diamond's c11 is 1079 GPa, soft III–Vs about 30 GPa).
+ELASTIC_RANGE_GPA = (1.0, 2000.0)
+
+#: Accepted valence-band position on the common scale, eV.
+VALENCE_BAND_RANGE_EV = (-20.0, 20.0)
+
 #: Keys of ``[reference]``, all positive masses in m0.
 REFERENCE_KEYS: tuple[str, ...] = ("m_e_m0", "m_so_m0")
 
@@ -118,6 +149,16 @@ class KPMaterial:
         The models the file supports, in the order of :data:`bandpert.kp.MODEL_NAMES`.
     reference_masses_m0 : dict
         Tabulated masses from the file's ``[reference]`` table (keys of :data:`REFERENCE_KEYS`).
+    deformation : DeformationPotentials or None
+        From ``[deformation]``, in the convention a = a_c − a_v whatever the file's.
+    elastic : ElasticConstants or None
+        From ``[elastic]``.
+    valence_band_eV : float or None
+        ``alignment.valence_band_eV``: the unstrained valence-band top on a scale common to
+        all materials (band offsets of heterostructures).
+
+    The models are built by :func:`bandpert.kp.material_model` (the input layer knows no
+    Hamiltonian).
     """
 
     name: str
@@ -129,27 +170,9 @@ class KPMaterial:
     parameters: KPParameters
     models: tuple[str, ...]
     reference_masses_m0: dict[str, float] = field(default_factory=dict)
-
-    def model(self, name: str | None = None, **options: Any) -> KPModel:
-        """Build one of the file's models (default: the largest it supports).
-
-        ``options`` go to the builder (``remote=`` for the two-band model).
-
-        Raises
-        ------
-        InputError
-            If the model is unknown or not among the file's ``models`` (key ``models``).
-        """
-        if name is None:
-            name = self.models[-1]
-        if name not in MODEL_NAMES:
-            raise InputError(f"unknown k·p model '{name}'; expected one of "
-                             f"{', '.join(MODEL_NAMES)}", self.file, "models")
-        if name not in self.models:
-            raise InputError(f"the {name} model is not supported by this file (it supports "
-                             f"{', '.join(self.models)}); expected one of those, or add its "
-                             "parameters", self.file, "models")
-        return make_model(name, self.parameters, lattice_constant_A=self.a_A, **options)
+    deformation: DeformationPotentials | None = None
+    elastic: ElasticConstants | None = None
+    valence_band_eV: float | None = None
 
 
 def _read_models(r: TableReader) -> tuple[str, ...] | None:
@@ -219,6 +242,33 @@ def _check_models(r: TableReader, params: KPParameters, listed: tuple[str, ...] 
     return models
 
 
+def _read_deformation(r: TableReader | None) -> DeformationPotentials | None:
+    if r is None:
+        return None
+    convention = r.string("a_v_convention", choices=A_V_CONVENTIONS)
+    values = {key: r.number(key, bounds=DEFORMATION_RANGE_EV,
+                            meaning="eV; tabulated deformation potentials lie within ±20 eV")
+              for key in ("a_c_eV", "a_v_eV", "b_eV", "d_eV")}
+    r.finish()
+    if convention == A_V_CONVENTIONS[1]:  # the file's a_v has the opposite sign
+        values["a_v_eV"] = -values["a_v_eV"]
+    return DeformationPotentials(**values)
+
+
+def _read_elastic(r: TableReader | None) -> ElasticConstants | None:
+    if r is None:
+        return None
+    values = {key: r.number(key, positive=True, bounds=ELASTIC_RANGE_GPA,
+                            meaning="GPa; tabulated cubic crystals have 10 to 1100 GPa")
+              for key in ("c11_GPa", "c12_GPa", "c44_GPa")}
+    r.finish()
+    if not values["c11_GPa"] > values["c12_GPa"]:
+        raise r.fail("c12_GPa", f"{values['c12_GPa']:g} is not below c11_GPa = "
+                                f"{values['c11_GPa']:g}; expected c11 > c12 (a mechanically "
+                                "stable cubic crystal, Born criteria)")
+    return ElasticConstants(**values)
+
+
 def parse_kp_material(doc: dict[str, Any], source: str = "") -> KPMaterial:
     """Validate a parsed k·p document (the TOML tables) into a :class:`KPMaterial`.
 
@@ -253,9 +303,19 @@ def parse_kp_material(doc: dict[str, Any], source: str = "") -> KPMaterial:
             if value is not None:
                 reference[key] = value
         ref.finish()
+    deformation = _read_deformation(r.sub("deformation", required=False))
+    elastic = _read_elastic(r.sub("elastic", required=False))
+    valence = None
+    al = r.sub("alignment", required=False)
+    if al is not None:
+        valence = al.number("valence_band_eV", bounds=VALENCE_BAND_RANGE_EV,
+                            meaning="eV on a common scale; tabulated III–V values lie within "
+                                    "−3 to 1 eV")
+        al.finish()
     r.finish()
     return KPMaterial(name=name, source=src, note=note, file=source, structure=structure, a_A=a,
-                      parameters=params, models=models, reference_masses_m0=reference)
+                      parameters=params, models=models, reference_masses_m0=reference,
+                      deformation=deformation, elastic=elastic, valence_band_eV=valence)
 
 
 def load_kp_material(path: str | Path) -> KPMaterial:

@@ -4,7 +4,9 @@
   Luttinger parameters, Kane's F, DKK L, M, N, directions);
 - :mod:`.hamiltonians`: the two-, six- and eight-band Hamiltonians H(k);
 - :mod:`.bands`: bands along lines through Γ;
-- :mod:`.analysis`: masses at Γ and nonparabolicity.
+- :mod:`.analysis`: masses at Γ and nonparabolicity;
+- :mod:`.strain`: strain tensors and the Bir–Pikus terms;
+- :mod:`.materials`: the models of a k·p parameter file, strained or not.
 """
 
 from .analysis import (
@@ -44,6 +46,7 @@ from .hamiltonians import (
     two_band_energies_eV,
     two_band_model,
 )
+from .materials import StrainState, material_model, strain_state
 from .parameters import (
     KANE_NONPARABOLICITY_SOURCE,
     MODEL_NAMES,
@@ -63,6 +66,14 @@ from .parameters import (
     two_band_coupling_eV,
     unit_vector,
 )
+from .strain import (
+    GROWTH_DIRECTIONS,
+    bir_pikus_cartesian,
+    hydrostatic_strain,
+    piezoelectric_note,
+    pseudomorphic_strain,
+    strained_model,
+)
 
 __all__ = [
     "BAND_SHORT_NAMES",
@@ -71,12 +82,14 @@ __all__ = [
     "DEFAULT_NONPARABOLICITY_KMAX_INVA",
     "DEFAULT_PATH_FRACTION",
     "EIGHT_BAND_BASIS",
+    "GROWTH_DIRECTIONS",
     "ENERGY_ZERO",
     "KANE_NONPARABOLICITY_SOURCE",
     "MODEL_NAMES",
     "PATH_POINTS_2PI_A",
     "REQUIRED_PARAMETERS",
     "SIX_BAND_BASIS",
+    "StrainState",
     "TWO_BAND_BASIS",
     "TWO_BAND_REMOTE",
     "DirectionalBands",
@@ -90,11 +103,13 @@ __all__ = [
     "analyse_kp_material",
     "bands_along",
     "bands_along_path",
+    "bir_pikus_cartesian",
     "cartesian_basis_matrix",
     "conduction_inverse_mass",
     "dkk_from_luttinger",
     "dkk_with_free_electron",
     "eight_band_model",
+    "hydrostatic_strain",
     "kane_F",
     "kane_nonparabolicity",
     "luttinger_from_dkk",
@@ -102,11 +117,16 @@ __all__ = [
     "luttinger_inverse_masses",
     "make_model",
     "masses_at_gamma",
+    "material_model",
     "modified_luttinger",
     "nonparabolicity",
+    "piezoelectric_note",
+    "pseudomorphic_strain",
     "six_band_model",
     "spherical_gamma",
     "split_off_inverse_mass",
+    "strain_state",
+    "strained_model",
     "two_band_constants",
     "two_band_coupling_eV",
     "two_band_energies_eV",

@@ -9,20 +9,19 @@ valence-band top at Γ), k Å⁻¹, masses m0.
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from ..errors import InputError
+from ..errors import InputError, ModelWarning
+from ..input.kp_file import KPMaterial
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 from .bands import DirectionalBands, bands_along
 from .hamiltonians import ENERGY_ZERO, KPModel
+from .materials import StrainState, material_model
 from .parameters import KANE_NONPARABOLICITY_SOURCE, KPParameters, kane_nonparabolicity, unit_vector
-
-if TYPE_CHECKING:  # annotation only: input.kp_file imports this package to build its models
-    from ..input.kp_file import KPMaterial
 
 __all__ = [
     "CUBIC_DIRECTIONS",
@@ -300,6 +299,10 @@ class ModelAnalysis:
         :data:`~bandpert.kp.parameters.KANE_NONPARABOLICITY_SOURCE`), for comparison.
     lines : dict
         Direction label → :class:`~bandpert.kp.bands.DirectionalBands` from Γ.
+    strain_edges : dict or None
+        Under strain: ``edges_eV`` (band name → Γ energy, Kramers pairs averaged),
+        ``shifts_eV`` (the same minus the unstrained edges) and ``hh_lh_splitting_eV``
+        (E_hh − E_lh at Γ: positive when the heavy hole is on top).
     """
 
     model: str
@@ -309,6 +312,7 @@ class ModelAnalysis:
     kane_alpha_per_eV: float | None
     lines: dict[str, DirectionalBands]
     kane_alpha_source: str = KANE_NONPARABOLICITY_SOURCE
+    strain_edges: dict | None = None
 
 
 @dataclass(frozen=True, eq=False)
@@ -327,6 +331,8 @@ class KPAnalysis:
     k_max_frac : float
         Extent of the lines from Γ, in units of 2π/a.
     energy_zero : str
+    strain : StrainState or None
+        The strain included (energies stay measured from the unstrained valence-band top).
     """
 
     name: str
@@ -336,10 +342,25 @@ class KPAnalysis:
     models: dict[str, ModelAnalysis]
     k_max_frac: float
     energy_zero: str = ENERGY_ZERO
+    strain: StrainState | None = None
+
+
+def _edges_by_name(model: KPModel) -> dict[str, float]:
+    e = model.gamma_energies_eV
+    return {name: float(np.mean([x for x, n in zip(e, model.band_names, strict=True)
+                                 if n == name])) for name in dict.fromkeys(model.band_names)}
+
+
+def _strain_edges(kpm: KPMaterial, name: str, strained: KPModel) -> dict:
+    edges = _edges_by_name(strained)
+    free = _edges_by_name(material_model(kpm, name))
+    return {"edges_eV": edges, "shifts_eV": {n: edges[n] - free[n] for n in edges},
+            "hh_lh_splitting_eV": edges["heavy hole"] - edges["light hole"]}
 
 
 def analyse_kp_material(kpm: KPMaterial, models: tuple[str, ...] | None = None,
-                        k_max_frac: float = 0.1, n_k: int = 121) -> KPAnalysis:
+                        k_max_frac: float = 0.1, n_k: int = 121,
+                        strain: StrainState | None = None) -> KPAnalysis:
     """Masses along [001], [110], [111], the conduction nonparabolicity and bands near Γ.
 
     Parameters
@@ -353,6 +374,9 @@ def analyse_kp_material(kpm: KPMaterial, models: tuple[str, ...] | None = None,
         expansions about Γ; half the distance to X is already far outside their range).
     n_k : int
         Points per line.
+    strain : StrainState, optional
+        A homogeneous strain (:func:`~bandpert.kp.materials.strain_state`); the two-band model
+        is then left out unless asked for (and refused when it is).
 
     Returns
     -------
@@ -367,9 +391,16 @@ def analyse_kp_material(kpm: KPMaterial, models: tuple[str, ...] | None = None,
         raise InputError(f"expected 0 < k_max_frac ≤ 0.5 (a fraction of 2π/a), got {k_max_frac}",
                          key="k_max_frac")
     names = tuple(models) if models else kpm.models
+    if strain is not None and not models:
+        names = tuple(n for n in names if n != "two-band")
+    if strain is not None and strain.note:
+        warnings.warn(strain.note, ModelWarning, stacklevel=2)
     out: dict[str, ModelAnalysis] = {}
     for name in names:
-        model = kpm.model(name)
+        if strain is None:
+            model = material_model(kpm, name)
+        else:
+            model = material_model(kpm, name, strain=strain.tensor, axis=strain.axis)
         masses = {label: masses_at_gamma(model, d).as_dict()
                   for label, d in CUBIC_DIRECTIONS.items()}
         npb = nonparabolicity(model, "001") if "conduction" in model.band_names else None
@@ -377,6 +408,8 @@ def analyse_kp_material(kpm: KPMaterial, models: tuple[str, ...] | None = None,
                 else kane_nonparabolicity(npb.edge_mass_m0, kpm.parameters.Eg_eV))
         lines = {label: bands_along(model, d, k_max_frac=k_max_frac, n_k=n_k)
                  for label, d in CUBIC_DIRECTIONS.items()}
-        out[name] = ModelAnalysis(name, model.gamma_energies_eV, masses, npb, kane, lines)
+        edges = None if strain is None else _strain_edges(kpm, name, model)
+        out[name] = ModelAnalysis(name, model.gamma_energies_eV, masses, npb, kane, lines,
+                                  strain_edges=edges)
     return KPAnalysis(kpm.name, kpm.source, kpm.parameters, dict(kpm.reference_masses_m0),
-                      out, float(k_max_frac))
+                      out, float(k_max_frac), strain=strain)

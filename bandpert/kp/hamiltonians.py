@@ -17,7 +17,8 @@ conversions: modified Luttinger parameters, Kane's F, DKK L, M, N). Energies are
 its light-hole-like band). The conduction-band edge Γ6 is at +Eg, the split-off edge Γ7 at −Δso.
 
 **Left out on purpose:** every term from the lack of an inversion centre in zincblende (Kane's B
-parameter, the k-linear terms of Γ8, the Dresselhaus k³ terms of Γ6), strain, and fields. The
+parameter, the k-linear terms of Γ8, the Dresselhaus k³ terms of Γ6), and fields. Strain is
+added by :mod:`bandpert.kp.strain`. The
 models then have the symmetry of the full cubic group O_h and, with time reversal, every level
 is a Kramers pair (doubly degenerate) at every k; the tests check it.
 
@@ -212,6 +213,8 @@ class KPModel:
         True for a model that depends on |k| only.
     remote : str
         The two-band model's remote-band choice (:data:`TWO_BAND_REMOTE`); "" otherwise.
+    strain : ndarray, shape (3, 3), or None
+        The homogeneous strain included (:func:`bandpert.kp.strain.strained_model`).
     """
 
     name: str
@@ -224,6 +227,7 @@ class KPModel:
     lattice_constant_A: float | None = None
     isotropic: bool = False
     remote: str = ""
+    strain: NDArray | None = None
 
     @property
     def size(self) -> int:

@@ -45,10 +45,17 @@ from __future__ import annotations
 
 import math
 import re
-from dataclasses import dataclass, fields
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
+
+from ..input.kp_parameters import (  # the file's data and the two relations its checks need
+    MODEL_NAMES,
+    REQUIRED_PARAMETERS,
+    KPParameters,
+    conduction_inverse_mass,
+    modified_luttinger,
+)
 
 __all__ = [
     "KANE_NONPARABOLICITY_SOURCE",
@@ -70,86 +77,7 @@ __all__ = [
     "unit_vector",
 ]
 
-#: Model names, in increasing size.
-MODEL_NAMES: tuple[str, ...] = ("two-band", "six-band", "eight-band")
-
-#: The parameters each model needs (the two-band model with ``remote="fitted"``).
-REQUIRED_PARAMETERS: dict[str, tuple[str, ...]] = {
-    "two-band": ("Eg_eV", "Delta_so_eV", "Ep_eV", "F", "gamma1", "gamma2", "gamma3"),
-    "six-band": ("Delta_so_eV", "gamma1", "gamma2", "gamma3"),
-    "eight-band": ("Eg_eV", "Delta_so_eV", "Ep_eV", "F", "gamma1", "gamma2", "gamma3"),
-}
-
 FloatArray = NDArray[np.float64]
-
-
-@dataclass(frozen=True)
-class KPParameters:
-    """The k·p parameters of a zincblende crystal at Γ (None where not given).
-
-    Attributes
-    ----------
-    Eg_eV : float
-        Direct gap Γ6 − Γ8.
-    Delta_so_eV : float
-        Spin–orbit splitting Γ8 − Γ7.
-    Ep_eV : float
-        Kane energy Ep = 2 m0 P²/ħ².
-    F : float
-        Kane's remote-band parameter of the conduction band (dimensionless).
-    gamma1, gamma2, gamma3 : float
-        Luttinger parameters (not the modified ones).
-    """
-
-    Eg_eV: float | None = None
-    Delta_so_eV: float | None = None
-    Ep_eV: float | None = None
-    F: float | None = None
-    gamma1: float | None = None
-    gamma2: float | None = None
-    gamma3: float | None = None
-
-    def missing(self, model: str) -> tuple[str, ...]:
-        """The names of the parameters ``model`` needs that are not given."""
-        if model not in REQUIRED_PARAMETERS:
-            raise ValueError(f"unknown model {model!r}; expected one of {', '.join(MODEL_NAMES)}")
-        return tuple(p for p in REQUIRED_PARAMETERS[model] if getattr(self, p) is None)
-
-    def supports(self, model: str) -> bool:
-        """True when every parameter ``model`` needs is given."""
-        return not self.missing(model)
-
-    def as_dict(self) -> dict[str, float | None]:
-        """The parameters by name (for JSON)."""
-        return {f.name: getattr(self, f.name) for f in fields(self)}
-
-    def _require(self, model: str) -> None:
-        gone = self.missing(model)
-        if gone:
-            raise ValueError(f"the {model} model needs {', '.join(gone)}")
-
-    def modified_gammas(self) -> tuple[float, float, float]:
-        """(γ1', γ2', γ3') of the eight-band model; see :func:`modified_luttinger`."""
-        self._require("eight-band")
-        return modified_luttinger(self.gamma1, self.gamma2, self.gamma3, self.Eg_eV, self.Ep_eV)
-
-
-def modified_luttinger(gamma1: float, gamma2: float, gamma3: float, Eg_eV: float,
-                       Ep_eV: float) -> tuple[float, float, float]:
-    r"""Modified Luttinger parameters of the eight-band model.
-
-    .. math:: \gamma_1' = \gamma_1 - \frac{E_P}{3E_g}, \quad
-              \gamma_{2,3}' = \gamma_{2,3} - \frac{E_P}{6E_g}
-
-    (Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001), Sec. II; Winkler 2003,
-    Sec. 3.3; from memory.) The subtracted parts are the second-order contributions of the Γ6
-    band through P, which the eight-band model treats exactly.
-    """
-    if not Eg_eV > 0:
-        raise ValueError(f"Eg_eV must be positive, got {Eg_eV}")
-    d = Ep_eV / (6.0 * Eg_eV)
-    return gamma1 - 2.0 * d, gamma2 - d, gamma3 - d
-
 
 def luttinger_from_modified(gamma1p: float, gamma2p: float, gamma3p: float, Eg_eV: float,
                             Ep_eV: float) -> tuple[float, float, float]:
@@ -158,18 +86,6 @@ def luttinger_from_modified(gamma1p: float, gamma2p: float, gamma3p: float, Eg_e
         raise ValueError(f"Eg_eV must be positive, got {Eg_eV}")
     d = Ep_eV / (6.0 * Eg_eV)
     return gamma1p + 2.0 * d, gamma2p + d, gamma3p + d
-
-
-def conduction_inverse_mass(Eg_eV: float, Delta_so_eV: float, Ep_eV: float, F: float) -> float:
-    r"""Band-edge m0/m_e of the Γ6 conduction band in the eight-band model.
-
-    .. math:: \frac{m_0}{m_e} = (1 + 2F) + \frac{E_P}{3}\Big(\frac{2}{E_g}
-              + \frac{1}{E_g + \Delta_{so}}\Big)
-
-    (Vurgaftman, Meyer & Ram-Mohan 2001, Sec. II, equivalently
-    E_P (E_g + 2Δ/3)/[E_g (E_g + Δ)]; from memory.)
-    """
-    return (1.0 + 2.0 * F) + Ep_eV / 3.0 * (2.0 / Eg_eV + 1.0 / (Eg_eV + Delta_so_eV))
 
 
 def kane_F(m_e_m0: float, Eg_eV: float, Delta_so_eV: float, Ep_eV: float) -> float:

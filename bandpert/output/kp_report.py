@@ -26,11 +26,15 @@ def kp_results(analysis, exact=None) -> dict[str, Any]:
                                         "kane_alpha_per_eV": m.kane_alpha_per_eV,
                                         "kane_alpha_source": m.kane_alpha_source,
                                         "edge_mass_m0": m.nonparabolicity.edge_mass_m0}
+        if m.strain_edges is not None:
+            entry["strain_edges"] = m.strain_edges
         models[name] = entry
     results: dict[str, Any] = {"models": models,
                                "reference_masses_m0": analysis.reference_masses_m0,
                                "parameters": analysis.parameters.as_dict(),
                                "energy_zero": zero_entry(analysis.energy_zero, 0.0)}
+    if analysis.strain is not None:
+        results["strain"] = analysis.strain.as_dict()
     if exact is not None:
         lines, file = exact
         results["compared_with"] = {"file": file, "name": lines.name}

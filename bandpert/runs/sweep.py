@@ -282,13 +282,16 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
 def _prepare_kp(doc: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                 alloy_end: dict[str, Any] | None, alloy_source: str, form_factors: str):
     """:func:`prepare` for a k·p parameter file: masses at Γ of each model, nothing else."""
-    if any(a.kind == "strain" for a in axes):
-        raise InputError("a k·p parameter file has no lattice vectors to strain (its deformation "
-                         "potentials are not modelled); expected keys of its [parameters]",
-                         source, "axes")
     if form_factors != "tabulated":
         raise InputError("a k·p parameter file has no form factors", source, "form_factors")
     reference = parse_kp_material(doc, source)
+    strained = any(a.kind == "strain" for a in axes)
+    if strained and reference.deformation is None:
+        raise InputError("missing; a strain.* axis on a k·p file needs its deformation "
+                         "potentials (a table with a_v_convention, a_c_eV, a_v_eV, b_eV, d_eV)",
+                         source, "deformation")
+    if strained and reference.models == ("two-band",):
+        raise InputError("strain needs the six- or eight-band model", source, "models")
     if alloy_end is not None:
         alloy_end = copy.deepcopy(alloy_end)
         parse_kp_material(alloy_end, alloy_source)
@@ -301,6 +304,9 @@ def _prepare_kp(doc: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
         parse_kp_material(point_document(spec, tuple(values)), source)
     note = ("k·p parameters as given at every point (masses at Γ of the file's models along "
             "[001], [110], [111])")
+    if strained:
+        note += ("; strain by the file's deformation potentials (Bir–Pikus) in the six- and "
+                 "eight-band models, Γ edges from the unstrained valence-band top")
     return spec, reference, note
 
 

@@ -13,7 +13,7 @@ from ..crystal.lattice import point_group_rotations, reciprocal_vectors
 from ..errors import InputError
 from ..input.kp_file import parse_kp_material
 from ..input.material import Material
-from ..kp import masses_at_gamma
+from ..kp import masses_at_gamma, material_model
 from ..physics.bands import BandStructure, compute_band_structure
 from ..physics.deformation import deformation_potentials
 from ..physics.extrema import locate_edges
@@ -21,7 +21,13 @@ from ..physics.masses import edge_masses
 from ..planewave.basis import plane_wave_basis
 from ..planewave.solver import single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2
-from .sweep_spec import SweepSpec, point_cutoff, point_document, point_material
+from .sweep_spec import (
+    SweepSpec,
+    point_cutoff,
+    point_document,
+    point_material,
+    point_strain,
+)
 
 #: Directions along which a k·p sweep reports the Γ masses.
 KP_DIRECTIONS = ("001", "110", "111")
@@ -86,12 +92,23 @@ def faithful_at(material: Material) -> str:
 
 
 def _kp_point(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, float | str]:
-    """A k·p file at one parameter point: Γ energies and masses of each model along
-    [001], [110], [111] (columns ``<model>_<band>_<direction>_m0``, spaces as ``_``)."""
+    """A k·p file at one parameter point: masses of each model along [001], [110], [111]
+    (columns ``<model>_<band>_<direction>_m0``, spaces as ``_``); with ``strain.*`` axes the
+    six- and eight-band models only, strained (Bir–Pikus), and their Γ edges
+    (``<model>_<band>_gamma_eV``, from the unstrained valence-band top)."""
     kpm = parse_kp_material(point_document(spec, values), spec.source)
+    strained = any(a.kind == "strain" for a in spec.axes)
+    eps = point_strain(spec, values) if strained else None
     row: dict[str, float | str] = {}
     for name in kpm.models:
-        model = kpm.model(name)
+        if strained and name == "two-band":
+            continue
+        model = material_model(kpm, name, strain=eps)
+        if strained:
+            for band in dict.fromkeys(model.band_names):
+                level = np.mean([e for e, n in zip(model.gamma_energies_eV, model.band_names,
+                                                   strict=True) if n == band])
+                row[f"{name}_{band}_gamma_eV".replace(" ", "_").replace("-", "_")] = float(level)
         for direction in KP_DIRECTIONS:
             for band, mass in masses_at_gamma(model, direction).as_dict().items():
                 row[f"{name}_{band}_{direction}_m0".replace(" ", "_").replace("-", "_")] = mass

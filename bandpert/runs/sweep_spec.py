@@ -314,13 +314,11 @@ def point_document(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, Any]
     for axis, value in zip(spec.axes, values, strict=True):
         if axis.kind == "alloy":
             doc = virtual_crystal(doc, spec.alloy_end, value, spec.source, spec.alloy_source)
-    strain = np.zeros((3, 3))
     for axis, value in zip(spec.axes, values, strict=True):
         if axis.kind == "document":
             set_value(doc, axis.key, value, spec.source)
-        elif axis.kind == "strain":
-            strain += strain_tensor(axis.key, value)
-    if np.any(strain):
+    strain = point_strain(spec, values)
+    if np.any(strain) and spec.kind != "k·p":  # a k·p file takes the strain in its model
         reference = parse_material(doc, spec.source)
         d = reference.dimension
         deform = np.eye(d) + strain[:d, :d]
@@ -334,6 +332,15 @@ def point_document(spec: SweepSpec, values: tuple[float, ...]) -> dict[str, Any]
             for atom, ref, s in zip(doc["atoms"], reference.atoms, shift, strict=True):
                 atom["position"] = (np.asarray(ref.position_frac) + s).tolist()
     return doc
+
+
+def point_strain(spec: SweepSpec, values: tuple[float, ...]) -> np.ndarray:
+    """The strain tensor at one parameter point (the sum of the ``strain.*`` axes)."""
+    strain = np.zeros((3, 3))
+    for axis, value in zip(spec.axes, values, strict=True):
+        if axis.kind == "strain":
+            strain += strain_tensor(axis.key, value)
+    return strain
 
 
 def point_material(spec: SweepSpec, values: tuple[float, ...]) -> Material:

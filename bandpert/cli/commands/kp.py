@@ -12,7 +12,7 @@ from ...errors import InputError
 from ...input.kp_file import load_kp_material
 from ...input.material import load_material
 from ...io import write_json
-from ...kp import CUBIC_DIRECTIONS, MODEL_NAMES, analyse_kp_material
+from ...kp import CUBIC_DIRECTIONS, MODEL_NAMES, analyse_kp_material, strain_state
 from ...output.figures import kp_figure
 from ...output.kp_report import kp_results
 from ...output.report import document
@@ -55,6 +55,19 @@ def kp(
     e_max: EMaxOption = None,
     json_path: Annotated[Path | None, json_option("kp")] = None,
     name: Annotated[str | None, name_option("<file>-kp, without a doubled -kp")] = None,
+    strain: Annotated[str | None, typer.Option(
+        "--strain", metavar="E6", help="A homogeneous strain tensor as six numbers "
+        "XX,YY,ZZ,YZ,XZ,XY (cubic axes; needs the file's [deformation] table).",
+        show_default=False)] = None,
+    hydrostatic: Annotated[float | None, typer.Option(
+        "--hydro",  help="Hydrostatic strain ε_xx = ε_yy = ε_zz (negative: compression).",
+        show_default=False)] = None,
+    substrate: Annotated[str | None, typer.Option(
+        "--on", metavar="A", help="Pseudomorphic growth on a substrate: its lattice "
+        "constant in Å, or a k·p file (or bundled name) whose a_A is used.",
+        show_default=False)] = None,
+    growth: Annotated[str, typer.Option("--growth", metavar="HKL",
+                                        help="Growth direction with --on: 001, 110, 111.")] = "001",
 ) -> None:
     """k·p models at Γ from a parameter file: band-edge masses along [001], [110] and [111],
     nonparabolicity, and bands near Γ (beside a plane-wave model's exact bands with --compare).
@@ -68,10 +81,16 @@ def kp(
     require_kind(file, "kp", "kp")
     window = energy_window(e_min, e_max)
     kpm = load_kp_material(file)
-    analysis = analyse_kp_material(kpm, (model_name,) if model_name else None, k_max)
+    state = strain_state(kpm, _strain_components(strain), hydrostatic, _substrate(substrate),
+                         growth)
+    analysis = analyse_kp_material(kpm, (model_name,) if model_name else None, k_max,
+                                   strain=state)
     lines = None if compare is None else exact_lines_from_gamma(load_material(compare), k_max)
     results = kp_results(analysis, None if lines is None else (lines, str(compare)))
     settings = {"models": list(analysis.models), "k_max_frac": k_max}
+    if state is not None:
+        settings["strain"] = {"strain": strain, "hydrostatic": hydrostatic,
+                              "substrate": substrate, "growth": growth}
     doc = document("kp", kpm, settings, results)
     exact = None if lines is None else {d: (lines.k_frac, e) for d, e in lines.energies_eV.items()}
     fig = kp_figure(kpm.name, kpm.source, {n: m.lines for n, m in analysis.models.items()}, exact,
@@ -110,5 +129,46 @@ def kp(
                       f"{npb['kane_alpha_per_eV']:.3f} /eV")
     if kane_source:
         out.print(f"Kane's α: bare free-electron k² terms, {kane_source}")
+    if state is not None:
+        _print_strain(state, results)
     out.print(f"wrote {image}, {json_path}")
 
+
+
+def _strain_components(text: str | None) -> list[float] | None:
+    """``--strain XX,YY,ZZ,YZ,XZ,XY`` as six numbers."""
+    if text is None:
+        return None
+    try:
+        values = [float(x) for x in text.split(",")]
+    except ValueError:
+        values = []
+    if len(values) != 6:
+        raise InputError(f"'{text}' is not six comma-separated numbers; expected "
+                         "XX,YY,ZZ,YZ,XZ,XY, e.g. -0.01,-0.01,0.009,0,0,0", key="--strain")
+    return values
+
+
+def _substrate(text: str | None) -> float | None:
+    """``--on``: a lattice constant in Å, or a k·p file whose a_A is used."""
+    if text is None:
+        return None
+    try:
+        return float(text)
+    except ValueError:
+        return load_kp_material(text).a_A
+
+
+def _print_strain(state, results) -> None:
+    eps = state.tensor
+    how = f", growth [{state.axis}]" if state.kind == "pseudomorphic" else ""
+    out.print(f"strain ({state.kind}{how}): "
+              f"ε_xx, ε_yy, ε_zz = {eps[0, 0]:.5f}, {eps[1, 1]:.5f}, {eps[2, 2]:.5f}; "
+              f"ε_yz, ε_xz, ε_xy = {eps[1, 2]:.5f}, {eps[0, 2]:.5f}, {eps[0, 1]:.5f}")
+    for name, entry in results["models"].items():
+        edges = entry.get("strain_edges")
+        if edges is None:
+            continue
+        shifts = ", ".join(f"{band} {1e3 * v:+.1f}" for band, v in edges["shifts_eV"].items())
+        out.print(f"{name}: band-edge shifts at Γ (meV): {shifts}; E_hh − E_lh = "
+                  f"{1e3 * edges['hh_lh_splitting_eV']:+.1f} meV")

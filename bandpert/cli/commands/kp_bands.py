@@ -9,7 +9,7 @@ from rich.table import Table
 from ...errors import InputError
 from ...input.kp_file import load_kp_material
 from ...io import write_csv, write_json
-from ...kp import BAND_SHORT_NAMES, bands_along_path
+from ...kp import BAND_SHORT_NAMES, bands_along_path, material_model
 from ...output.figures import kp_path_figure
 from ...output.kp_report import kp_path_results, kp_path_table
 from ...output.report import document
@@ -21,7 +21,7 @@ def kp_bands(file: Path, out_dir: Path, name: str | None, image_format: ImageFor
     """Draw and write the bands of every model of a k·p file along the path near Γ (files
     ``OUT/NAME.*``, NAME from ``--name``, else ``<file>-kp-bands``)."""
     kpm = load_kp_material(file)
-    bands = bands_along_path([kpm.model(name) for name in kpm.models], kpm.a_A)
+    bands = bands_along_path([material_model(kpm, name) for name in kpm.models], kpm.a_A)
     window = None
     if e_min is not None or e_max is not None:
         every = [e for e in bands.energies_eV.values()]
