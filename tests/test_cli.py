@@ -86,6 +86,8 @@ OPTIONS = {
     "sweep": ["--vary", "--quantity", "--point", "--between", "--form-factors", "--basis",
               "--alloy-end", "--k-points", "--bands", "--cutoff-eV", "--temperature", "--engine",
               "--workers", "--scheduler", "--out", "--format", "--json", "--name", "--help"],
+    "subbands": ["--levels", "--spacing-nm", "--model", "--in-plane", "--k-points", "--out",
+                 "--format", "--json", "--name", "--help"],
     "dos": ["--mesh", "--method", "--smearing-eV", "--step-meV", "--bands", "--cutoff-eV",
             "--engine", "--workers", "--scheduler", "--out", "--format", "--json", "--name",
             "--emin", "--emax", "--interpolate", "--tolerance-meV",

@@ -16,7 +16,7 @@ import typer
 from .. import __version__
 from ..errors import InputError, ModelWarning
 from ..io import all_or_nothing
-from .commands import bands, check, dos, fullzone, gaps, kp, masses, optics, sweep
+from .commands import bands, check, dos, fullzone, gaps, kp, masses, optics, subbands, sweep
 from .options import error_line
 
 try:  # typer >= 0.26 carries its own copy of click; its exceptions are the ones raised
@@ -48,6 +48,7 @@ app.command()(fullzone.fullzone)
 app.command()(sweep.sweep)
 app.command()(dos.dos)
 app.command()(optics.optics)
+app.command()(subbands.subbands)
 
 
 def main(argv: list[str] | None = None) -> None:

@@ -175,7 +175,8 @@ FLAGS = {
     "basis_tolerance": "--basis-tolerance", "coarse_mesh": "--coarse-mesh",
     "broadening_eV": "--broadening-meV",
     "strain": "--strain", "hydrostatic": "--hydro", "substrate_a_A": "--on",
-    "growth": "--growth",
+    "growth": "--growth", "spacing_nm": "--spacing-nm", "n_levels": "--levels",
+    "k_max_invA": "--in-plane",
 }
 
 #: Library wording inside messages → the command line's wording.
