@@ -239,5 +239,11 @@ def _shift_invert(a: scipy.sparse.csc_matrix, want: int, sigma: float
         _THREADS.append(ThreadpoolController())
     with _THREADS[0].limit(limits=1, user_api="blas"):
         if real:
-            return scipy.sparse.linalg.eigsh(a.real.tocsc(), k=k, sigma=sigma, which="LM")
-        return scipy.sparse.linalg.eigsh(a, k=k, sigma=sigma, which="LM")
+            a = a.real.tocsc()
+        # the natural order keeps the LU inside the band (no fill beyond it)
+        lu = scipy.sparse.linalg.splu(
+            (a - sigma * scipy.sparse.identity(a.shape[0], format="csc")).tocsc(),
+            permc_spec="NATURAL")
+        op = scipy.sparse.linalg.LinearOperator(a.shape, matvec=lu.solve, dtype=a.dtype)
+        return scipy.sparse.linalg.eigsh(a, k=k, sigma=sigma, which="LM", OPinv=op,
+                                         tol=1e-12)

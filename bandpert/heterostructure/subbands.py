@@ -168,7 +168,7 @@ def _multiband(structure, grid, layers, model, n_levels):
     levels: dict[str, list] = {}
     dens: dict[str, list] = {}
     for kind, side, sigma in sides:
-        count = n_levels if kind == "conduction" else 3 * n_levels
+        count = n_levels if kind == "conduction" else 2 * n_levels + 2
         e, psi = multiband_levels(grid, mats, model, count, sigma, side, phase=phase)
         weight = np.sum(np.abs(psi) ** 2, axis=(0, 3))  # (n, pairs)
         names = np.array([_CHARACTER[b] for b in basis])

@@ -31,6 +31,7 @@ import scipy.linalg
 from perturbation_driver import driver_rows  # sibling script (run.py runs as a script)
 from reduced_basis import reduced_basis_rows  # sibling script
 from spin_orbit import spin_orbit_rows  # sibling script
+from subbands import subband_rows  # sibling script
 from symmetry_labels import symmetry_rows  # sibling script
 from threadpoolctl import threadpool_info, threadpool_limits
 
@@ -480,6 +481,11 @@ def main(argv: list[str] | None = None) -> int:
     sym_results, sym_rows = symmetry_rows(max(3, reps // 2), say)
     results["symmetry_labels_silicon"] = sym_results
     rows.extend(sym_rows)
+
+    # -- 10. heterostructure subbands (subbands.py)
+    sb_results, sb_rows = subband_rows(max(3, reps // 2), say)
+    results.update(sb_results)
+    rows.extend(sb_rows)
 
     # -- Dask: the same jobs on one worker and on two
     dask_results, dask_rows = dask_speedup(reps, say)
