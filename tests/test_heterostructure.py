@@ -439,3 +439,16 @@ def test_in_plane_masses_of_a_well():
     # D. A. Broido & L. J. Sham, Phys. Rev. B 31, 888 (1985); from memory)
     assert m100["valence"][0] < 0 < m100["valence"][1]
     assert d.conduction_eV["100"].shape == (3, 2) and d.valence_eV["110"].shape == (3, 2)
+
+
+def test_multiband_superlattice_heavy_holes_match_one_band_miniband_edges():
+    s = _structure([{"material": "gallium-arsenide", "thickness_nm": 5.0},
+                    {"alloy": ALGAAS, "x": 0.3, "thickness_nm": 3.0}], periodic=True)
+    one = compute_subbands(s, 0.1, n_levels=1, model="one-band")
+    four = compute_subbands(s, 0.1, n_levels=1, model="four-band")
+    # at k∥ = 0 along [001] the heavy hole decouples (Luttinger 1956), so the four-band heavy-hole
+    # miniband is the one-band one with m0/(γ1 − 2γ2) at both edges (q = 0 and q = π/d)
+    np.testing.assert_allclose(four.levels_eV["heavy hole"], one.levels_eV["heavy hole"],
+                               atol=1e-9)
+    np.testing.assert_allclose(four.miniband_edge_eV["heavy hole"],
+                               one.miniband_edge_eV["heavy hole"], atol=1e-9)

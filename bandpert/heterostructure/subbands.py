@@ -124,13 +124,17 @@ def compute_subbands(structure: Structure, spacing_nm: float = 0.1, n_levels: in
     levels, densities, bound, labels = {}, {}, {}, {}
     top: dict[str, FloatArray] | None = {} if structure.periodic else None
     if model != "one-band":
-        levels, densities = _multiband(structure, grid, layers, model, n_levels)
+        phase = 0.0 if structure.periodic else None
+        levels, densities = _multiband(structure, grid, layers, model, n_levels, phase)
+        if structure.periodic:  # the other miniband edges, band by band in the same order
+            other = _multiband(structure, grid, layers, model, n_levels, math.pi)[0]
+            top = {b: np.resize(other.get(b, np.full(e.size, np.nan)), e.size)
+                   for b, e in levels.items()}
         for band, e in levels.items():
             labels[band] = tuple(f"{BANDS[band]}{i + 1}" for i in range(e.size))
             outer = edges[band][[0, -1]]
             bound[band] = (np.ones(e.size, dtype=bool) if structure.periodic
                            else e > outer.max() if band != "conduction" else e < outer.min())
-        top = None
     for band, prefix in (BANDS.items() if model == "one-band" else ()):
         hole = band != "conduction"
         phase = 0.0 if structure.periodic else None
@@ -156,11 +160,11 @@ def compute_subbands(structure: Structure, spacing_nm: float = 0.1, n_levels: in
         transitions_eV=transitions, notes=notes)
 
 
-def _multiband(structure, grid, layers, model, n_levels):
-    """Levels (one per Kramers pair) and densities of a multiband model, named by character."""
+def _multiband(structure, grid, layers, model, n_levels, phase):
+    """Levels (one per Kramers pair) and densities of a multiband model, named by character
+    (``phase``: the Bloch phase q·d of a periodic structure, None when bounded)."""
     mats = layer_matrices(structure, model)
     basis = MULTIBAND_MODELS[model]
-    phase = 0.0 if structure.periodic else None
     sides = [("heavy hole", "down", max(max(e.heavy_hole_eV, e.light_hole_eV) for e in layers)
               + 1e-3)]
     if model == "eight-band":
