@@ -20,6 +20,7 @@ from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
 from ..errors import InputError
 from ..input.file_kind import KIND_NAMES, file_kind
+from ..output.style import PNG_DPI
 from ..output.style import save_figure as write_figure
 from ..runs.execution import Engine
 
@@ -120,7 +121,7 @@ def output_paths(base: Path, image_format: ImageFormat,
             base.with_name(f"{base.name}.csv"), json_path or base.with_name(f"{base.name}.json"))
 
 
-def save_figure(fig, image: Path, image_format: ImageFormat, dpi: int = 200) -> None:
+def save_figure(fig, image: Path, image_format: ImageFormat, dpi: int = PNG_DPI) -> None:
     """Write a figure atomically in the chosen format."""
     write_figure(fig, image, image_format.value, dpi)
 

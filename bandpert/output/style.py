@@ -53,6 +53,10 @@ LEGEND_SIZE = 7
 ANNOTATION_SIZE = 7
 NOTE_SIZE = 6.5
 
+#: Resolution of raster figures: sharp on screen and in print at column width, and a PNG of
+#: a few hundred kB at most.
+PNG_DPI = 150
+
 #: Markers drawn per band along a path at most: denser paths are thinned.
 MAX_MARKERS_PER_BAND = 40
 
@@ -180,7 +184,7 @@ def footer(fig: Figure, text: str, width: int = 130) -> None:
     fig.supxlabel(wrap(text, width), fontsize=NOTE_SIZE, color=NOTE_COLOUR, x=0.01, ha="left")
 
 
-def save_figure(fig: Figure, path: Path, image_format: str = "png", dpi: int = 200) -> None:
+def save_figure(fig: Figure, path: Path, image_format: str = "png", dpi: int = PNG_DPI) -> None:
     """Write ``fig`` atomically (temporary file, then rename) in ``image_format``.
 
     Parameters

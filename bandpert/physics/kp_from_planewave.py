@@ -16,6 +16,7 @@ From the eigenstates at Γ (:mod:`bandpert.physics.mass_tensor`):
 from __future__ import annotations
 
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 
@@ -109,7 +110,9 @@ def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
         return '"' + text.replace("\\", "\\\\").replace('"', '\\"') + '"'
 
     title = material.name + ", k·p parameters implied by the plane-wave model"
-    origin = (f"bandpert, extracted at Γ from {material.file or 'a material'}; the plane-wave "
+    # the file's name only: a folder would tie the written file (and figures) to one machine
+    where = Path(material.file).name if material.file else "a material"
+    origin = (f"bandpert, extracted at Γ from {where}; the plane-wave "
               f"parameters come from: {material.source}")
     lines = [
         f"name = {q(title)}",

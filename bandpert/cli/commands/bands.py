@@ -170,7 +170,7 @@ def _summary(bs) -> None:
         table.add_row("space group", f"{sym.international} ({sym.number})")
     table.add_row("basis", f"{bs.model.size} plane waves, cutoff {bs.model.basis.cutoff_eV:.2f} eV")
     table.add_row("energy zero", zero_phrase(bs.energy_zero_kind, bs.energy_zero_eV)
-                  + " (every output: terminal, CSV, JSON, figure)")
+                  + "; the zero of every output (terminal, CSV, JSON, figure)")
     if bs.edges is None and bs.material.valence_electrons:
         table.add_row("kind", "metal (no gap between occupied and empty bands on the path)")
     if bs.edges is not None:

@@ -137,7 +137,7 @@ def sweep(
         out_dir, name, "-".join([f"{file.stem}-sweep", *(a.key for a in spec.axes)])),
         image_format, json_path)
     fig = sweep_figure(result)
-    save_figure(fig, image, image_format, dpi=160)
+    save_figure(fig, image, image_format)
     write_table(csv_path, *sweep_table(result))
     write_json(json_path, document("sweep", reference, settings, sweep_results(result)))
     _sweep_summary(result)

@@ -166,6 +166,16 @@ def gap_figure(bs: BandStructure, report,
     fig = style.new_figure(8.0, 5.2)
     ax = fig.subplots()
     draw_bands_panel(ax, bs, energy_window_eV, gap_label=False)
+    if energy_window_eV is None:  # keep every bar and tick of the open gaps inside the axes
+        levels = [lev[j:j + 2] - bs.energy_zero_eV for p in report.points
+                  if crossings is not False or p.kind != KIND_CROSSING for g in p.groups
+                  for j in np.flatnonzero(g.open_gaps)
+                  for lev in (g.exact_eV, g.first_order_eV, g.second_order_eV)]
+        if levels:
+            lo, hi = ax.get_ylim()
+            every = np.concatenate(levels)
+            margin = 0.03 * (hi - lo)
+            ax.set_ylim(min(lo, every.min() - margin), max(hi, every.max() + margin))
     ax.set_xlabel("Wave vector along the path", fontsize=style.LABEL_SIZE)
     style.footer(fig, source_note(bs), width=150)
     handles = [
