@@ -6,8 +6,8 @@ two things timed alternately in the same run (run.side_by_side), medians of the 
 
 from __future__ import annotations
 
+import resource
 import time
-import tracemalloc
 from collections.abc import Callable
 
 import numpy as np
@@ -16,6 +16,7 @@ from bandpert.crystal.kmesh import reciprocal_mesh
 from bandpert.data import find_material
 from bandpert.input.material import load_material
 from bandpert.physics.bands import default_bands
+from bandpert.physics.optical_spectrum import optical_spectrum
 from bandpert.physics.reduced_basis import (
     ReducedBasisSettings,
     build_reduced_basis,
@@ -24,9 +25,13 @@ from bandpert.physics.reduced_basis import (
 from bandpert.planewave.cutoff import choose_cutoff
 from bandpert.planewave.model import build_k_centred_model
 from bandpert.planewave.solver import exact_energies
+from bandpert.runs.mesh_dos import compute_dos
 
 #: Points per axis of the fine mesh of the interpolated-vs-exact row (its irreducible points).
 FINE_MESH = 32
+
+#: Points per axis of the dense DOS and ε2 rows (10⁶ points, the mesh limit).
+DENSE_MESH = 100
 
 
 def reduced_basis_rows(reps: int, say: Callable[..., None], side_by_side: Callable
@@ -78,11 +83,44 @@ def reduced_basis_rows(reps: int, say: Callable[..., None], side_by_side: Callab
     return results, rows
 
 
-def peak_bytes(f: Callable[[], object]) -> float:
-    """Peak traced allocation of one call (tracemalloc, numpy buffers included)."""
-    tracemalloc.start()
-    try:
-        f()
-        return float(tracemalloc.get_traced_memory()[1])
-    finally:
-        tracemalloc.stop()
+def dense_mesh_rows(say: Callable[..., None], n_per_axis: int = DENSE_MESH
+                    ) -> tuple[dict, list[tuple[str, str, str]]]:
+    """Silicon DOS and ε2 on a 10⁶-point mesh through the interpolation (timed once each).
+
+    The exact path is not run at this size (about 22 000 irreducible points at several ms
+    each); its time per point is the one of the row above. Peak memory is the process's
+    resident high-water mark (``ru_maxrss``) after each job.
+    """
+    material = load_material(find_material("silicon"))
+    results: dict = {}
+    rows = []
+    say(f"silicon DOS, {n_per_axis}³ mesh, interpolated")
+    t0 = time.perf_counter()
+    dos = compute_dos(material, n_per_axis, interpolation=ReducedBasisSettings(),
+                      energy_step_eV=0.01)
+    dos_s = time.perf_counter() - t0
+    dos_rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**10
+    check = dos.interpolation.check
+    say(f"silicon ε2, {n_per_axis}³ mesh, interpolated")
+    t0 = time.perf_counter()
+    spectrum = optical_spectrum(material, n_per_axis)
+    optics_s = time.perf_counter() - t0
+    optics_rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**10
+    results["dense_mesh_silicon"] = {
+        "mesh": n_per_axis, "full_points": dos.mesh.n_full,
+        "irreducible_points": len(dos.mesh.k_frac), "dos_s": dos_s, "optics_s": optics_s,
+        "peak_rss_after_dos_MiB": dos_rss, "peak_rss_after_optics_MiB": optics_rss,
+        "check_max_error_eV": check.max_error_eV, "check_points": len(check.point_indices),
+        "n_eff_interband": spectrum.n_eff_interband, "eps1_zero": float(spectrum.eps1[0]),
+        "critical_points_eV": spectrum.critical_points_eV}
+    rows.append((f"silicon DOS on a {n_per_axis}³ = {dos.mesh.n_full:.2e}-point mesh "
+                 f"(tetrahedra, interpolated, {len(dos.mesh.k_frac)} irreducible k)",
+                 f"{dos_s:.0f} s",
+                 f"whole job in this process (bases, check at {len(check.point_indices)} points:"
+                 f" largest error {check.max_error_eV * 1e3:.2f} meV, DOS, Fermi level); "
+                 f"peak resident memory {dos_rss:.0f} MiB"))
+    rows.append((f"silicon ε2 on the same mesh (interpolated, {spectrum.n_bands} bands)",
+                 f"{optics_s:.0f} s",
+                 f"ε1(0) = {spectrum.eps1[0]:.2f}, n_eff (interband, {spectrum.n_bands} bands) "
+                 f"{spectrum.n_eff_interband:.3f}; peak resident memory {optics_rss:.0f} MiB"))
+    return results, rows

@@ -29,7 +29,7 @@ from pathlib import Path
 import numpy as np
 import scipy.linalg
 from perturbation_driver import driver_rows  # sibling script (run.py runs as a script)
-from reduced_basis import reduced_basis_rows  # sibling script
+from reduced_basis import dense_mesh_rows, reduced_basis_rows  # sibling script
 from spin_orbit import spin_orbit_rows  # sibling script
 from subbands import subband_rows  # sibling script
 from symmetry_labels import symmetry_rows  # sibling script
@@ -247,6 +247,7 @@ def main(argv: list[str] | None = None) -> int:
 
     if args.only_reduced_basis:
         _, rb_rows = reduced_basis_rows(reps, say, side_by_side)
+        rb_rows += dense_mesh_rows(say)[1]
         for what, figure, detail in rb_rows:
             print(f"| {what} | {figure} | {detail} |")
         return 0
@@ -476,6 +477,9 @@ def main(argv: list[str] | None = None) -> int:
     rb_results, rb_rows = reduced_basis_rows(max(3, reps // 2), say, side_by_side)
     results.update(rb_results)
     rows.extend(rb_rows)
+    dense_results, dense_rows = dense_mesh_rows(say)
+    results.update(dense_results)
+    rows.extend(dense_rows)
 
     # -- 9. symmetry labels at the labelled points beside bands alone (symmetry_labels.py)
     sym_results, sym_rows = symmetry_rows(max(3, reps // 2), say)
