@@ -168,7 +168,7 @@ CI_CUTOFF_EV = "150"
 
 def _argv(command: str, name: str, doc: dict, file: Path, out: Path) -> list[str]:
     argv = [command, str(file), *SMALL[command]]
-    if command not in ("kp", "fullzone") and EXAMPLES <= DEFAULT_EXAMPLES and name not in KP_FILES:
+    if command != "kp" and EXAMPLES <= DEFAULT_EXAMPLES and name not in KP_FILES:
         argv += ["--cutoff-eV", CI_CUTOFF_EV]
     if command != "check":
         argv += ["--out", str(out)]
@@ -277,6 +277,9 @@ def test_mutated_inputs_through_every_command(capsys):
     work = Path(tempfile.mkdtemp(prefix="bandpert-fuzz-"))
     started = time.perf_counter()
     slowest = [0.0, ""]
+    per_command: Counter = Counter()
+    per_outcome: Counter = Counter()
+    slow: list = []
 
     @settings(max_examples=EXAMPLES, derandomize=True, database=None, deadline=None,
               suppress_health_check=list(HealthCheck))
@@ -314,6 +317,9 @@ def test_mutated_inputs_through_every_command(capsys):
         code, stdout, stderr, seconds = _run(_argv(command, name, doc, file, out))
         if seconds > slowest[0]:
             slowest[:] = [seconds, f"{command} {name} {what}"]
+        per_command[command] += seconds
+        per_outcome[(command, code)] += seconds
+        slow.append((seconds, f"{command} {name} {what} → {code}"))
         _check(command, file, out, code, stdout, stderr, counts, problems,
                f"{command} {name} {what}")
         shutil.rmtree(case, ignore_errors=True)
@@ -337,6 +343,12 @@ def test_mutated_inputs_through_every_command(capsys):
                f"({slowest[1]}); peak memory {peak:.2f} GiB (before {before:.2f})")
     with capsys.disabled():
         print("\n" + summary)
+        print("seconds per command: " + ", ".join(f"{c} {t:.0f}" for c, t in
+                                                   per_command.most_common()))
+        print("seconds per (command, exit): " + ", ".join(f"{c} {t:.0f}" for c, t in
+                                                   per_outcome.most_common()))
+        for t, what in sorted(slow, reverse=True)[:25]:
+            print(f"  {t:.1f} s {what}")
         for p in problems[:40]:
             print("  " + p)
     assert not problems, f"{len(problems)} problems; first: {problems[0]}"

@@ -14,6 +14,7 @@ from typing import Annotated
 import typer
 
 from .. import __version__
+from ..data import find_material
 from ..errors import InputError, ModelWarning
 from ..io import all_or_nothing
 from .commands import bands, check, dos, fullzone, gaps, kp, masses, optics, subbands, sweep
@@ -51,6 +52,29 @@ app.command()(optics.optics)
 app.command()(subbands.subbands)
 
 
+def _input_file(group: typer.core.TyperGroup, args: list[str]) -> str | None:
+    """The FILE argument of a command line (the bundled file when it names one), or None.
+
+    Every command takes the material file first; an error raised without a file (a limit of
+    the library, a bad option) is reported against it, so every message names the file.
+    """
+    name = next((a for a in args if not a.startswith("-")), None)
+    command = group.commands.get(name) if name else None
+    if command is None:
+        return None
+    try:
+        ctx = command.make_context(name, args[args.index(name) + 1:], resilient_parsing=True)
+    except ClickException:
+        return None
+    file = ctx.params.get("file")
+    if file is None:
+        return None
+    try:
+        return str(find_material(file))
+    except InputError:
+        return str(file)
+
+
 def main(argv: list[str] | None = None) -> None:
     """Entry point: run the CLI and map errors to exit statuses (2 user, 1 internal)."""
     args = list(sys.argv[1:] if argv is None else argv)
@@ -86,6 +110,8 @@ def main(argv: list[str] | None = None) -> None:
     except InputError as exc:
         if debug:
             raise
+        if exc.source is None:  # a library or option error: the file it concerns is the FILE
+            exc.source = _input_file(command, args)
         print(f"bandpert: error: {error_line(exc)}", file=sys.stderr)
         code = 2
     except Exception as exc:

@@ -221,7 +221,8 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
                            progress: Progress | None = None, exact: bool = True,
                            perturbation: PerturbationSettings | None = None,
                            check_cutoff: bool = True, fermi_method: str = "tetrahedron",
-                           smearing_eV: float = DEFAULT_SMEARING_EV) -> BandStructure:
+                           smearing_eV: float = DEFAULT_SMEARING_EV,
+                           fermi_level: bool = True) -> BandStructure:
     """Material → bands along its standard (or custom) path: exact and/or perturbative.
 
     Parameters
@@ -247,6 +248,10 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         once at its reference point and switches it off per point.
     fermi_method, smearing_eV : str, float
         How a metal's Fermi level is found (:func:`energy_reference`).
+    fermi_level : bool
+        Find a metal's Fermi level for the energy zero (default). False leaves a metal's zero
+        absolute and diagonalises no k-mesh, for callers that use absolute energies only (a
+        sweep point: the mesh of a metal with little symmetry costs ten times the path).
 
     Returns
     -------
@@ -303,8 +308,14 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         same_basis = exact_energies(model, path.k_cart_invA, nb)
         comparison = compare(same_basis, pert)
     reference = energies if energies is not None else pert.energies_eV
-    zero, kind, edges = energy_reference(material, reference, mesh_energies, fermi_mesh,
-                                         fermi_method, smearing_eV)
+    if fermi_level:
+        zero, kind, edges = energy_reference(material, reference, mesh_energies, fermi_mesh,
+                                             fermi_method, smearing_eV)
+    else:
+        zero, kind, edges = choose_energy_zero(reference, material.valence_electrons,
+                                               lambda: 0.0)
+        if edges is None:
+            zero, kind = 0.0, "absolute"
     return BandStructure(material=material, symmetry=crystal_symmetry(material), path=path,
                          model=model, energies_eV=energies, energy_zero_eV=float(zero),
                          energy_zero_kind=kind, edges=edges, perturbative=pert,

@@ -187,8 +187,8 @@ class FullZoneResult:
 
 
 def full_zone_kp(material: Material, basis_sizes: tuple[int, ...] = DEFAULT_BASIS_SIZES,
-                 n_k: int = 120,
-                 n_bands: int | None = None) -> FullZoneResult:
+                 n_k: int = 120, n_bands: int | None = None,
+                 cutoff_eV: float | None = None) -> FullZoneResult:
     """Full-zone k·p from the Γ eigenstates along the whole path (Cardona & Pollak 1966).
 
     Parameters
@@ -201,6 +201,10 @@ def full_zone_kp(material: Material, basis_sizes: tuple[int, ...] = DEFAULT_BASI
         Points along the path.
     n_bands : int, optional
         Bands compared (default: the material's).
+    cutoff_eV : float, optional
+        Plane-wave cutoff (default: the file's, else the converged one, by the one cutoff rule
+        :func:`~bandpert.planewave.cutoff.choose_cutoff`); it bounds the work: the whole
+        basis is diagonalised along the path for the exact comparison.
 
     Returns
     -------
@@ -208,7 +212,7 @@ def full_zone_kp(material: Material, basis_sizes: tuple[int, ...] = DEFAULT_BASI
     """
     if not basis_sizes or min(basis_sizes) < 1:
         raise InputError("expected positive numbers of states", key="basis_sizes")
-    bs = compute_band_structure(material, n_k=n_k, n_bands=n_bands)
+    bs = compute_band_structure(material, n_k=n_k, n_bands=n_bands, cutoff_eV=cutoff_eV)
     # errors against the exact bands in the same fixed Γ-centred basis, where the full basis
     # is exact (bs.energies_eV use a basis centred on each k: different by up to a few meV)
     conv = kp_convergence(bs.model, np.zeros(material.dimension), bs.path.k_cart_invA,

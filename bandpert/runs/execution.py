@@ -21,6 +21,7 @@ it; tests hold serial and distributed results equal to 1e-10 eV.
 
 from __future__ import annotations
 
+import logging
 import os
 import socket
 import struct
@@ -29,6 +30,9 @@ from collections.abc import Callable, Iterator, Sequence
 from contextlib import contextmanager
 from dataclasses import dataclass
 from typing import Any
+
+import dask.config
+from distributed import Client, LocalCluster, as_completed
 
 from ..errors import InputError
 
@@ -169,11 +173,6 @@ def local_cluster(n_workers: int) -> Any:
     """A :class:`distributed.LocalCluster` of ``n_workers`` single-threaded processes on
     127.0.0.1, with :data:`WORKER_ENV` in their environment and no dashboard beyond loopback.
     """
-    import logging
-
-    import dask.config
-    from distributed import LocalCluster
-
     environ = dict(dask.config.get("distributed.nanny.pre-spawn-environ", {}) or {})
     environ.update(WORKER_ENV)
     with dask.config.set({"distributed.nanny.pre-spawn-environ": environ}):
@@ -248,11 +247,6 @@ def _receive(conn: socket.socket, n: int) -> bytes:
 @contextmanager
 def dask_client(engine: Engine) -> Iterator[Any]:
     """A :class:`distributed.Client` for the engine; a local cluster is closed on exit."""
-    try:
-        from distributed import Client
-    except ImportError as exc:  # pragma: no cover - dask is a dependency
-        raise InputError("dask.distributed is not installed; install bandpert's dependencies "
-                         "or run serially (Engine(kind='serial'))", key="engine") from exc
     if engine.kind == "scheduler":
         check_scheduler(engine.address)
         try:
@@ -342,8 +336,6 @@ def run(function: Callable[[Any], Any], items: Sequence[Any], engine: Engine | R
 
 def _gather(client: Any, function: Callable[[Any], Any], items: list, parts: list[slice],
             progress: Progress | None) -> list[Outcome]:
-    from distributed import as_completed
-
     futures = {client.submit(run_block, function, items[s], pure=False): s for s in parts}
     results: list[Outcome | None] = [None] * len(items)
     done = 0

@@ -18,6 +18,7 @@ from ...output.report import document
 from ...physics.fullzone import full_zone_kp
 from ..options import (
     DEFAULT_OUT,
+    CutoffOption,
     EMaxOption,
     EMinOption,
     FormatOption,
@@ -25,6 +26,7 @@ from ..options import (
     MaterialFile,
     OutDir,
     check_count,
+    check_cutoff,
     energy_window,
     json_option,
     name_option,
@@ -47,6 +49,7 @@ def fullzone(
     n_bands: Annotated[int | None, typer.Option("--bands", help="Bands compared (default: the "
                                                 "file's basis.bands, else occupied + 4).",
                                                 show_default=False)] = None,
+    cutoff_eV: CutoffOption = None,
     out_dir: OutDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
     e_min: EMinOption = None,
@@ -65,10 +68,11 @@ def fullzone(
     if not sizes or min(sizes) < 1:
         raise InputError("expected positive numbers of states", key="--basis")
     check_count(k_points, "--k-points", 2)
+    check_cutoff(cutoff_eV)
     require_kind(file, "planewave", "fullzone")
     window = energy_window(e_min, e_max)
     material = load_material(file)
-    result = full_zone_kp(material, sizes, n_k=k_points, n_bands=n_bands)
+    result = full_zone_kp(material, sizes, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV)
     bs, conv = result.exact, result.convergence
     fig = fullzone_figure(bs, conv, energy_window_eV=window)
     image, _, json_path = output_paths(output_base(out_dir, name, f"{file.stem}-fullzone"),
