@@ -1,20 +1,22 @@
-"""A mutation fuzz of every bundled file through every command, in this process.
+"""A mutation fuzz of every bundled file through every command, in worker processes.
 
 Each input is a bundled file with one key set to a wrong type, zero, its negative, a tiny or
 denormal number, 1e308, int64 max, NaN or infinity, ×1e6 or ×1e-6, or deleted; or a key
 replaced by deeply nested arrays; or the whole file replaced by garbage. It runs through the
 command line's entry point (``bandpert.cli.app.main``, the function the ``bandpert`` script
 calls, so its error-to-exit-status map and its all-or-nothing output staging are exercised)
-with small settings, and must:
+with small settings, in one of :data:`WORKERS` forked worker processes (no interpreter start
+per input), and must:
 
 - exit 0 or 2 (3 is allowed for ``sweep``, whose failed points are reported and kept);
-- print no traceback, and on exit 2 exactly one ``bandpert: error:`` line of bounded length;
+- print no traceback, and on exit 2 exactly one ``bandpert: error:`` line naming the file,
+  every value in it at most :data:`bandpert.errors.MAX_ECHO` characters;
 - print and write no non-finite number when it succeeds;
 - leave no output at all when it fails, and the complete set when it succeeds;
 - finish within :data:`TIME_BUDGET_S` seconds of CPU time (the process's, all threads: a
   machine busy with other work does not count against a run);
-- keep the process's peak memory under :data:`MEMORY_BOUND_GIB` (an address-space limit makes a
-  runaway allocation fail as an error instead of exhausting the machine).
+- keep each worker's peak memory under :data:`MEMORY_BOUND_GIB` (an address-space limit makes
+  a runaway allocation fail as an error instead of exhausting the machine).
 
 The CI size is :data:`DEFAULT_EXAMPLES` inputs (hypothesis, derandomized: the same inputs on
 every run). ``BANDPERT_FUZZ_EXAMPLES=20000 pytest -m fuzz`` runs the longer mode. The counts are
@@ -28,6 +30,7 @@ import copy
 import io
 import json
 import math
+import multiprocessing
 import os
 import re
 import resource
@@ -36,6 +39,7 @@ import signal
 import tempfile
 import time
 from collections import Counter
+from concurrent.futures import ProcessPoolExecutor
 from pathlib import Path
 
 import pytest
@@ -44,13 +48,16 @@ from hypothesis import strategies as st
 
 from bandpert.cli.app import main
 from bandpert.data import MATERIALS_DIR
+from bandpert.errors import MAX_ECHO, MAX_PROBLEM
 from bandpert.input.reader import read_toml_document
 
 MATERIALS = MATERIALS_DIR
 DEFAULT_EXAMPLES = 2000
 EXAMPLES = int(os.environ.get("BANDPERT_FUZZ_EXAMPLES", DEFAULT_EXAMPLES))
 TIME_BUDGET_S = 30
-#: Peak resident memory allowed for the whole test process, GiB.
+#: Worker processes running the inputs (each input runs in one, through the CLI's entry point).
+WORKERS = int(os.environ.get("BANDPERT_FUZZ_WORKERS", min(2, os.cpu_count() or 1)))
+#: Peak resident memory allowed for each worker process, GiB.
 MEMORY_BOUND_GIB = 3.0
 INT64_MAX = 2**63 - 1
 
@@ -189,8 +196,9 @@ NON_FINITE = re.compile(r"(?<![A-Za-z])(nan|inf|infinity)(?![A-Za-z])", re.IGNOR
 
 
 def _run(argv: list[str]) -> tuple[int, str, str, float]:
+    """Exit status, stdout, stderr and CPU seconds (this process, all threads) of one run."""
     stdout, stderr = io.StringIO(), io.StringIO()
-    start = time.perf_counter()
+    start = time.process_time()
     signal.signal(signal.SIGPROF, _on_alarm)
     signal.setitimer(signal.ITIMER_PROF, TIME_BUDGET_S)
     try:
@@ -203,7 +211,7 @@ def _run(argv: list[str]) -> tuple[int, str, str, float]:
         code = -1
     finally:
         signal.setitimer(signal.ITIMER_PROF, 0)
-    return code, stdout.getvalue(), stderr.getvalue(), time.perf_counter() - start
+    return code, stdout.getvalue(), stderr.getvalue(), time.process_time() - start
 
 
 def _check(command: str, file: Path, out: Path, code: int, stdout: str, stderr: str,
@@ -227,9 +235,10 @@ def _check(command: str, file: Path, out: Path, code: int, stdout: str, stderr: 
         if len(lines) != 1 or not lines[0].startswith("bandpert: error: "):
             counts["messages not one line"] += 1
             problems.append(f"message of {len(lines)} lines: {label}: {stderr[:300]}")
-        elif len(lines[0]) > 400:
+        elif (len(lines[0].replace(str(file), "")) > MAX_PROBLEM + 2 * MAX_ECHO + 40
+              or max(len(w) for w in lines[0].replace(str(file), "").split()) > MAX_ECHO):
             counts["long messages"] += 1
-            problems.append(f"message of {len(lines[0])} characters: {label}")
+            problems.append(f"message of {len(lines[0])} characters: {label}: {lines[0][:200]}")
         elif str(file) not in lines[0]:
             counts["messages without the file"] += 1
             problems.append(f"message without the file name: {label}: {lines[0]}")
@@ -253,33 +262,48 @@ def _check(command: str, file: Path, out: Path, code: int, stdout: str, stderr: 
                             f"...{where[max(0, m.start() - 80):m.end() + 20]}...")
 
 
-@contextlib.contextmanager
-def _address_space_limit(extra_gib: float):
-    """Cap the address space at its current size + ``extra_gib`` for the block."""
-    soft, hard = resource.getrlimit(resource.RLIMIT_AS)
+def _limit_address_space(extra_gib: float) -> None:
+    """Cap this process's address space at its current size + ``extra_gib`` (a worker's)."""
+    _, hard = resource.getrlimit(resource.RLIMIT_AS)
     with open("/proc/self/status", encoding="ascii") as status:
         vm = next(int(line.split()[1]) * 1024 for line in status if line.startswith("VmSize"))
     limit = int(vm + extra_gib * 2**30)
     if hard != resource.RLIM_INFINITY:
         limit = min(limit, hard)
     resource.setrlimit(resource.RLIMIT_AS, (limit, hard))
-    try:
-        yield
-    finally:
-        resource.setrlimit(resource.RLIMIT_AS, (soft, hard))
 
 
-@pytest.mark.fuzz
-def test_mutated_inputs_through_every_command(capsys):
+def _worker_start() -> None:
+    """A worker process: BLAS on one thread (as the CLI's solvers), the memory cap set."""
+    for name in ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS"):
+        os.environ[name] = "1"
+    _limit_address_space(MEMORY_BOUND_GIB)
+
+
+def _one_case(case: tuple[int, str, str, str, str, str]) -> dict:
+    """Run one input in a worker process and check it; a summary for the parent."""
+    index, name, command, text, what, work = case
+    folder = Path(work) / f"case-{index}"
+    folder.mkdir()
+    file = folder / name
+    file.write_text(text, encoding="utf-8", errors="surrogateescape")
+    out = folder / "out"
+    code, stdout, stderr, seconds = _run(_argv(command, name, FILES[name], file, out))
     counts: Counter = Counter()
     problems: list[str] = []
-    seen: dict[tuple[str, str], None] = {}
-    work = Path(tempfile.mkdtemp(prefix="bandpert-fuzz-"))
-    started = time.perf_counter()
-    slowest = [0.0, ""]
-    per_command: Counter = Counter()
-    per_outcome: Counter = Counter()
-    slow: list = []
+    label = f"{command} {name} {what}"
+    _check(command, file, out, code, stdout, stderr, counts, problems, label)
+    shutil.rmtree(folder, ignore_errors=True)
+    return {"counts": counts, "problems": problems, "seconds": seconds, "label": label,
+            "command": command, "code": code,
+            "peak_gib": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20}
+
+
+def _inputs() -> tuple[list[tuple[str, str, str, str]], int]:
+    """The mutated inputs (file name, command, text, what was mutated), drawn by hypothesis
+    (derandomized: the same on every run); identical (command, text) pairs drawn once."""
+    cases: dict[tuple[str, str], tuple[str, str, str, str]] = {}
+    repeats = [0]
 
     @settings(max_examples=EXAMPLES, derandomize=True, database=None, deadline=None,
               suppress_health_check=list(HealthCheck))
@@ -305,51 +329,61 @@ def test_mutated_inputs_through_every_command(capsys):
             what = "garbage text"
         commands = ("kp", "sweep") if name in KP_FILES else PLANE_WAVE_COMMANDS
         command = data.draw(st.sampled_from(commands), label="command")
-        if (command, text) in seen:  # an identical input has the same outcome
-            counts["repeated"] += 1
+        if (command, text) in cases:  # an identical input has the same outcome
+            repeats[0] += 1
             return
-        seen[(command, text)] = None
-        case = work / f"case-{len(seen)}"
-        case.mkdir()
-        file = case / name
-        file.write_text(text, encoding="utf-8", errors="surrogateescape")
-        out = case / "out"
-        code, stdout, stderr, seconds = _run(_argv(command, name, doc, file, out))
-        if seconds > slowest[0]:
-            slowest[:] = [seconds, f"{command} {name} {what}"]
-        per_command[command] += seconds
-        per_outcome[(command, code)] += seconds
-        slow.append((seconds, f"{command} {name} {what} → {code}"))
-        _check(command, file, out, code, stdout, stderr, counts, problems,
-               f"{command} {name} {what}")
-        shutil.rmtree(case, ignore_errors=True)
+        cases[(command, text)] = (name, command, text, what)
 
-    before = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20
+    one()
+    return list(cases.values()), repeats[0]
+
+
+@pytest.mark.fuzz
+def test_mutated_inputs_through_every_command(capsys):
+    started = time.perf_counter()
+    inputs, repeats = _inputs()
+    drawn = time.perf_counter() - started
+    work = tempfile.mkdtemp(prefix="bandpert-fuzz-")
+    counts: Counter = Counter()
+    problems: list[str] = []
+    per_command: Counter = Counter()
+    slow: list[tuple[float, str]] = []
+    peak = 0.0
+    # the costly inputs first (a few metals of low symmetry take 10-25 s): the workers end
+    # together instead of one finishing a long run alone
+    order = sorted(range(len(inputs)), key=lambda i: inputs[i][1] in ("kp", "check"))
+    cases = [(i, *inputs[i], work) for i in order]
     try:
-        with _address_space_limit(MEMORY_BOUND_GIB):
-            one()
+        with ProcessPoolExecutor(WORKERS, mp_context=multiprocessing.get_context("fork"),
+                                 initializer=_worker_start) as pool:
+            for result in pool.map(_one_case, cases, chunksize=4):
+                counts.update(result["counts"])
+                problems += result["problems"]
+                per_command[result["command"]] += result["seconds"]
+                slow.append((result["seconds"], f"{result['label']} → {result['code']}"))
+                peak = max(peak, result["peak_gib"])
     finally:
         shutil.rmtree(work, ignore_errors=True)
-    peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**20  # KiB → GiB
     elapsed = time.perf_counter() - started
-    summary = (f"fuzz: {counts['inputs']} distinct inputs run ({counts['repeated']} repeats "
-               f"skipped) in {elapsed:.0f} s; exit 0: {counts['exit 0']}, exit 2: "
-               f"{counts['exit 2']}, exit 3 (sweep points failed): {counts['exit 3']}, exit 1: "
-               f"{counts['exit 1']}, hangs (> {TIME_BUDGET_S} s): {counts['hangs']}, "
-               f"non-finite: {counts['non-finite']}, partial: {counts['partial']}, "
-               f"tracebacks: {counts['tracebacks']}, messages not one line: "
+    slow.sort(reverse=True)
+    summary = (f"fuzz: {counts['inputs']} distinct inputs run ({repeats} repeats skipped) in "
+               f"{elapsed:.0f} s on {WORKERS} worker processes (drawing them: {drawn:.0f} s; "
+               f"CPU of the runs: {sum(per_command.values()):.0f} s); "
+               f"exit 0: {counts['exit 0']}, exit 2: {counts['exit 2']}, exit 3 (sweep points "
+               f"failed): {counts['exit 3']}, exit 1: {counts['exit 1']}, hangs (> "
+               f"{TIME_BUDGET_S} s of CPU): {counts['hangs']}, non-finite: "
+               f"{counts['non-finite']}, partial: {counts['partial']}, tracebacks: "
+               f"{counts['tracebacks']}, messages not one line: "
                f"{counts['messages not one line']}, long: {counts['long messages']}, without "
-               f"the file: {counts['messages without the file']}; slowest {slowest[0]:.1f} s "
-               f"({slowest[1]}); peak memory {peak:.2f} GiB (before {before:.2f})")
+               f"the file: {counts['messages without the file']}; peak memory of a worker "
+               f"{peak:.2f} GiB (bound {MEMORY_BOUND_GIB:g})")
     with capsys.disabled():
         print("\n" + summary)
-        print("seconds per command: " + ", ".join(f"{c} {t:.0f}" for c, t in
+        print("CPU seconds per command: " + ", ".join(f"{c} {t:.0f}" for c, t in
                                                    per_command.most_common()))
-        print("seconds per (command, exit): " + ", ".join(f"{c} {t:.0f}" for c, t in
-                                                   per_outcome.most_common()))
-        for t, what in sorted(slow, reverse=True)[:25]:
-            print(f"  {t:.1f} s {what}")
+        print("slowest (CPU): " + "; ".join(f"{t:.1f} s {what}" for t, what in slow[:8]))
         for p in problems[:40]:
             print("  " + p)
+    assert counts["inputs"] >= min(EXAMPLES, DEFAULT_EXAMPLES) * 0.9
     assert not problems, f"{len(problems)} problems; first: {problems[0]}"
     assert peak < MEMORY_BOUND_GIB
