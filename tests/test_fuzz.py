@@ -75,10 +75,11 @@ SMALL = {
     "dos": ["--mesh", "3", "--engine", "serial", "--step-meV", "50"],
     "sweep": ["--k-points", "6", "--engine", "serial", "--quantity", "edges"],
     "kp": [],
+    "optics": ["--mesh", "4", "--step-meV", "50"],
 }
-PLANE_WAVE_COMMANDS = ("check", "bands", "gaps", "masses", "fullzone", "dos", "sweep")
+PLANE_WAVE_COMMANDS = ("check", "bands", "gaps", "masses", "fullzone", "dos", "sweep", "optics")
 OUTPUTS = {"bands": 3, "gaps": 2, "masses": 1, "fullzone": 2, "dos": 3, "sweep": 3, "kp": 2,
-           "check": 0}
+           "check": 0, "optics": 3}
 
 
 class Hang(BaseException):
