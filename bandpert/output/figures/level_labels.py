@@ -19,6 +19,10 @@ __all__ = ["draw_level_labels"]
 #: Vertical nudges tried, in points.
 NUDGES_PT = (0.0, 5.0, -5.0, 10.0, -10.0)
 
+#: A light backing so that a label stays readable where band lines leave the point.
+LABEL_BOX = {"boxstyle": "square,pad=0.08", "facecolor": "white", "edgecolor": "none",
+             "alpha": 0.85}
+
 
 def _overlaps(a, b, pad: float = 1.0) -> bool:
     return (min(a.x1, b.x1) - max(a.x0, b.x0) > -pad
@@ -67,11 +71,11 @@ def draw_level_labels(ax: Axes, distance_invA, label_indices, labels, energy_zer
                 if "#" in lv.label or lv.label == p.note or not lo < e < hi:
                     continue
                 for nudge in NUDGES_PT:
-                    t = ax.annotate(lv.label, (x, e), xytext=(3 if right_side else -3, nudge),
+                    t = ax.annotate(lv.label, (x, e), xytext=(4 if right_side else -4, nudge),
                                     textcoords="offset points",
                                     ha="left" if right_side else "right", va="center",
                                     fontsize=style.ANNOTATION_SIZE - 1, color="0.2", zorder=7,
-                                    annotation_clip=False)
+                                    annotation_clip=False, bbox=LABEL_BOX)
                     box = t.get_window_extent(renderer)
                     inside = (box.x0 >= frame.x0 and box.x1 <= frame.x1
                               and box.y0 >= frame.y0 and box.y1 <= frame.y1)
