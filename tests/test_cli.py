@@ -95,6 +95,7 @@ OPTIONS = {
     "optics": ["--mesh", "--broadening-meV", "--step-meV", "--exact", "--all-bands", "--bands",
                "--cutoff-eV", "--tolerance-meV", "--basis-tolerance", "--coarse-mesh", "--out",
                "--format", "--json", "--name", "--help"],
+    "fit": ["--out", "--json", "--name", "--help"],
 }
 
 

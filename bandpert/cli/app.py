@@ -17,7 +17,7 @@ from .. import __version__
 from ..data import find_material
 from ..errors import InputError, ModelWarning
 from ..io import all_or_nothing
-from .commands import bands, check, dos, fullzone, gaps, kp, masses, optics, subbands, sweep
+from .commands import bands, check, dos, fit, fullzone, gaps, kp, masses, optics, subbands, sweep
 from .options import error_line
 
 try:  # typer >= 0.26 carries its own copy of click; its exceptions are the ones raised
@@ -50,6 +50,7 @@ app.command()(sweep.sweep)
 app.command()(dos.dos)
 app.command()(optics.optics)
 app.command()(subbands.subbands)
+app.command()(fit.fit)
 
 
 def _input_file(group: typer.core.TyperGroup, args: list[str]) -> str | None:

@@ -10,7 +10,12 @@ From the eigenstates at Γ (:mod:`bandpert.physics.mass_tensor`):
   (γ1 = −(L + 2M)/3, γ2 = −(L − M)/6, γ3 = −N/6; CONVENTIONS.md);
 - F from the conduction mass by the sum over states, m0/m_e = (1 + 2F) + (Ep/3)(2/Eg +
   1/(Eg + Δso)) (Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001));
-- Δso = 0: the local pseudopotential has no spin–orbit coupling.
+- Δso = 0 for a spinless model. With spin–orbit coupling (a ``spin_orbit`` table) Δso =
+  E(Γ8) − E(Γ7) of the spinor model, Eg = E(Γ6) − E(Γ8), γ1, γ2, γ3 from second differences of
+  the Γ8 bands along [100] and [111] (:func:`spin_orbit_valence_top`: m0/m = γ1 ∓ 2γ2 along
+  [001], γ1 ∓ 2γ3 along [111], CONVENTIONS.md; Kramers pairs averaged), the conduction mass by
+  second differences and F from it by the formula above; Ep from the spinless states (the
+  momentum matrix element of the p-like triplet; the spin–orbit term's own velocity is left out).
 """
 
 from __future__ import annotations
@@ -27,7 +32,7 @@ from ..kp.parameters import KPParameters, unit_vector
 from ..physics.bands import compute_band_structure
 from ..physics.degenerate_edge import degenerate_edge
 from ..physics.mass_tensor import degenerate_set, eigenstates, inverse_mass_tensor
-from ..planewave.model import PlaneWaveModel
+from ..planewave.model import PlaneWaveModel, centred_model
 from ..planewave.solver import exact_energies
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
@@ -71,6 +76,8 @@ def extract_kp_parameters(material: Material, model: PlaneWaveModel) -> Extracte
     if material.dimension != 3 or material.valence_electrons is None:
         raise InputError("k·p parameters need a 3D crystal with electrons.valence",
                          material.file, "electrons.valence")
+    if model.n_components == 2:
+        return _extract_with_spin_orbit(material, model.basis.cutoff_eV)
     states = eigenstates(model, np.zeros(3))
     top = material.valence_electrons // 2 - 1
     triplet = degenerate_set(states, top)
@@ -117,8 +124,11 @@ def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
     lines = [
         f"name = {q(title)}",
         f"source = {q(origin)}",
-        'note = "Delta_so_eV = 0: the local pseudopotential has no spin-orbit coupling. '
-        'Model estimates, not measured values."',
+        ('note = "Delta_so_eV = 0: the local pseudopotential has no spin-orbit coupling. '
+         'Model estimates, not measured values."' if material.spin_orbit is None else
+         'note = "Delta_so_eV, Eg, gamma1-3 and the conduction mass from the spin-orbit model '
+         '(second differences at Gamma, Kramers pairs averaged); Ep from its spinless states. '
+         'Model estimates, not measured values."'),
         'models = ["two-band", "six-band", "eight-band"]',
         "",
         "[lattice]",
@@ -183,3 +193,111 @@ def exact_lines_from_gamma(material: Material, k_max_frac: float, n_k: int = 61,
         k = t[:, None] * unit_vector(d) * 2 * np.pi / material.a_A
         energies[label] = exact_energies(bs.model, k, bs.n_bands) - bs.edges.valence_max_eV
     return ExactLines(material.name, t, energies)
+
+
+#: Step of the second differences at Γ with spin–orbit coupling, in units of 2π/a.
+SPIN_ORBIT_STEP = 0.002
+
+
+@dataclass(frozen=True)
+class SpinOrbitTop:
+    """The valence top at Γ of a model with spin–orbit coupling (second differences).
+
+    Attributes
+    ----------
+    delta_so_eV : float
+        E(Γ8) − E(Γ7).
+    eg_eV : float
+        E(conduction pair) − E(Γ8).
+    gammas : tuple of float
+        γ1, γ2, γ3 from the Γ8 bands along [100] ([111] gives γ3).
+    gamma1_111 : float
+        γ1 from [111] (equal to the [100] value for bands parabolic near Γ).
+    heavy_hole_m0, light_hole_m0 : dict
+        Direction → hole mass (positive at a maximum), [100], [110], [111].
+    split_off_m0 : float
+        Hole mass of the Γ7 pair (mean over [100], [111]).
+    conduction_m0 : float
+        Mass of the conduction pair (mean over [100], [111]).
+    """
+
+    delta_so_eV: float
+    eg_eV: float
+    gammas: tuple[float, float, float]
+    gamma1_111: float
+    heavy_hole_m0: dict[str, float]
+    light_hole_m0: dict[str, float]
+    split_off_m0: float
+    conduction_m0: float
+
+
+def spin_orbit_valence_top(material: Material, cutoff_eV: float,
+                           conduction_pair: int | None = None) -> SpinOrbitTop:
+    """Δso, Γ8 Luttinger parameters and the split-off and conduction masses with spin–orbit.
+
+    Second differences E(±h) − 2E(0) on the fixed spinor basis centred on Γ, h =
+    :data:`SPIN_ORBIT_STEP`·2π/a, each Kramers pair averaged (a zincblende crystal's pairs split
+    linearly and cubically in k away from Γ; the average is analytic). Sorted from the top, the
+    valence pairs along [100] and [111] are heavy hole, light hole, split-off; with
+    m0/m = γ1 ∓ 2γ2 along [001] and γ1 ∓ 2γ3 along [111] (CONVENTIONS.md).
+
+    ``conduction_pair`` is the 0-based index of the Kramers pair whose gap and mass are
+    reported (the spinless index of the s-like state; default the lowest conduction pair).
+
+    Raises
+    ------
+    InputError
+        If the valence top at Γ is not a fourfold Γ8 level above a twofold Γ7.
+    """
+    n_val = material.valence_electrons  # spinor bands: one electron each
+    pair_c = n_val // 2 if conduction_pair is None else conduction_pair
+    n_bands = 2 * pair_c + 2
+    model = centred_model(material, cutoff_eV, np.zeros(3), spin_orbit=True)
+    h = SPIN_ORBIT_STEP * 2.0 * np.pi / material.a_A
+    e0 = exact_energies(model, np.zeros((1, 3)), n_bands)[0]
+    top = e0[n_val - 4:n_val]
+    if np.ptp(top) > 1e-6 or e0[n_val - 5] > top[0] - 1e-6 or abs(e0[n_val - 5]
+                                                                  - e0[n_val - 6]) > 1e-6:
+        raise InputError("the valence top at Γ is not a fourfold Γ8 level above a twofold Γ7; "
+                         "expected a cubic semiconductor with spin-orbit coupling",
+                         material.file, "spin_orbit")
+
+    def inverse_masses(direction: str) -> np.ndarray:
+        d = unit_vector(direction)
+        e = exact_energies(model, np.array([-h * d, h * d]), n_bands)
+        pairs = (e[:, 0::2] + e[:, 1::2]) / 2.0  # Kramers-pair averages
+        mid = (e0[0::2] + e0[1::2]) / 2.0
+        curvature = (pairs[0] + pairs[1] - 2.0 * mid) / h**2
+        return curvature / (2.0 * C)  # m0/m, signed (negative for a valence maximum)
+
+    pair_v = n_val // 2  # index of the first conduction pair
+    inv = {d: inverse_masses(d) for d in ("100", "110", "111")}
+    hh = {d: -inv[d][pair_v - 1] for d in inv}
+    lh = {d: -inv[d][pair_v - 2] for d in inv}
+    g1 = (hh["100"] + lh["100"]) / 2.0
+    g2 = (lh["100"] - hh["100"]) / 4.0
+    g3 = (lh["111"] - hh["111"]) / 4.0
+    return SpinOrbitTop(
+        delta_so_eV=float(top[0] - e0[n_val - 5]), eg_eV=float(e0[2 * pair_c] - top[0]),
+        gammas=(float(g1), float(g2), float(g3)),
+        gamma1_111=float((hh["111"] + lh["111"]) / 2.0),
+        heavy_hole_m0={d: float(1.0 / v) for d, v in hh.items()},
+        light_hole_m0={d: float(1.0 / v) for d, v in lh.items()},
+        split_off_m0=float(2.0 / -(inv["100"][pair_v - 3] + inv["111"][pair_v - 3])),
+        conduction_m0=float(2.0 / (inv["100"][pair_c] + inv["111"][pair_c])))
+
+
+def _extract_with_spin_orbit(material: Material, cutoff_eV: float) -> ExtractedParameters:
+    """:func:`extract_kp_parameters` of a spin–orbit model (module docstring)."""
+    spinless = extract_kp_parameters(material.without_spin_orbit(), centred_model(
+        material.without_spin_orbit(), cutoff_eV, np.zeros(3)))
+    so = spin_orbit_valence_top(material, cutoff_eV, spinless.conduction_band)
+    ep = spinless.parameters.Ep_eV
+    eg, delta = so.eg_eV, so.delta_so_eV
+    f = 0.5 * (1.0 / so.conduction_m0 - 1.0 - ep / 3.0 * (2.0 / eg + 1.0 / (eg + delta)))
+    g1, g2, g3 = so.gammas
+    params = KPParameters(Eg_eV=eg, Delta_so_eV=delta, Ep_eV=ep, F=float(f), gamma1=g1,
+                          gamma2=g2, gamma3=g3)
+    return ExtractedParameters(parameters=params, conduction_band=spinless.conduction_band,
+                               valence_bands=spinless.valence_bands,
+                               conduction_mass_m0=so.conduction_m0, isotropy=spinless.isotropy)

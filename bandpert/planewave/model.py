@@ -335,3 +335,29 @@ def build_k_centred_model(material: Material, cutoff_eV: float) -> KCentredModel
     gamma = build_model(material, cutoff_eV, spin_orbit=True)
     return KCentredModel(material=material, cutoff_eV=float(cutoff_eV),
                          reciprocal_invA=gamma.reciprocal_invA, gamma=gamma)
+
+
+def model_on_miller(material: Material, miller: np.ndarray, cutoff_eV: float = 0.0
+                    ) -> PlaneWaveModel:
+    """The model on a given set of plane waves (Miller indices), spin–orbit included.
+
+    For quantities followed while parameters change (a fit): the same plane waves at every
+    parameter value keep the energies smooth in the parameters, where a cutoff would add and
+    drop plane waves as the lattice constant moves.
+
+    Parameters
+    ----------
+    material : Material
+    miller : numpy.ndarray
+        (n, d) integer reciprocal coordinates of the plane waves.
+    cutoff_eV : float
+        Recorded on the basis only.
+
+    Returns
+    -------
+    PlaneWaveModel
+    """
+    b = reciprocal_vectors(material.vectors_A)
+    miller = np.asarray(miller)
+    basis = PlaneWaveBasis(miller=miller, g_cart_invA=miller @ b, cutoff_eV=float(cutoff_eV))
+    return _model(material, basis, b)

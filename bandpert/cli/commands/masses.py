@@ -25,6 +25,7 @@ from ..options import (
     parse_point,
     progress_bar,
 )
+from .masses_spin_orbit import masses_with_spin_orbit
 
 
 def masses(
@@ -59,6 +60,9 @@ def masses(
     """
 
     material = load_material(file)
+    if material.spin_orbit is not None:  # the spinor valence top (masses_spin_orbit.py)
+        return masses_with_spin_orbit(material, file, cutoff_eV, point, band, out_dir, name,
+                                      json_path, kp_file)
     with progress_bar("diagonalising") as progress:
         result = compute_masses(material, point=None if point is None else parse_point(point),
                                 band=band, temperature_K=temperature_K, cutoff_eV=cutoff_eV,

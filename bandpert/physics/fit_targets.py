@@ -1,0 +1,337 @@
+"""Target quantities of a fit, their values for a material, and their parameter derivatives.
+
+A fit's targets file (TOML, read by :func:`parse_targets`)::
+
+    parameters = ["potential.symmetric[0]", "spin_orbit.species.Si.strength_eV"]
+    cutoff_eV = 150.0                 # optional: default the converged cutoff of the start
+
+    [[targets]]
+    quantity = "energy"               # E(at) − E(from), eV
+    at = "X:c1"                       # point label : band (v1 = top valence, c1 = lowest
+    from = "Γ:v1"                     #   conduction, v2, c2, … counted away from the gap)
+    value = 1.17
+    tolerance = 0.02                  # weight 1/tolerance, same unit as value
+    source = "Madelung, Semiconductors: Data Handbook (2004), from memory"
+
+    [[targets]]
+    quantity = "delta_so"             # E(Γ:v1) − E(Γ:v5): Γ8 − Γ7 (spin–orbit models)
+    value = 0.044
+    tolerance = 0.001
+    source = "..."
+
+    [[targets]]
+    quantity = "mass"                 # m*/m0 of a band along a direction (hole masses of
+    at = "Γ:c1"                       #   valence bands positive at a maximum)
+    direction = [1, 0, 0]
+    value = 0.067
+    tolerance = 0.005
+    source = "..."
+
+Energies are exact eigenvalues of H(k) on a set of plane waves fixed per target point when the
+fit starts (:class:`TargetModel`), so the targets are smooth functions of the parameters. Their
+derivatives by first-order perturbation theory (Hellmann–Feynman: ∂E_n/∂p = ⟨n|∂H/∂p|n⟩; for a
+level of a degenerate group the mean over the group, Tr(P ∂H/∂p P)/d, which is the derivative of
+each member when the parameters keep the crystal's symmetry, as every material parameter does)
+are in :meth:`TargetModel.energy_derivatives`. Masses are second differences of E(k) on the
+same fixed basis, m*/m0 = 2 (ħ²/2m0) / (∂²E/∂k²) (negated for valence bands); with spin–orbit
+coupling the two bands of a Kramers pair are averaged first (without inversion symmetry a single
+branch is not analytic at the point).
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import scipy.linalg
+
+from ..crystal.lattice import reciprocal_vectors, standard_path
+from ..errors import InputError
+from ..input.material import Material, canonical_label
+from ..input.reader import TableReader, describe, number_list
+from ..planewave.model import centred_model, model_on_miller
+from ..units import HBAR2_OVER_2M0_EV_A2
+
+#: Quantities a target may name.
+QUANTITIES = ("energy", "delta_so", "mass")
+
+#: Step of the mass stencil, in units of 2π/a.
+MASS_STEP = 0.01
+
+#: Levels closer than this are one degenerate group (eV).
+DEGENERACY_EV = 1e-6
+
+_BAND = re.compile(r"^([vc])([1-9][0-9]*)$")
+
+
+@dataclass(frozen=True)
+class BandRef:
+    """A band at a labelled point: ``label`` and ``side`` ("v" or "c") and ``rank`` (1, 2, …)."""
+
+    label: str
+    side: str
+    rank: int
+
+    def index(self, n_valence_bands: int) -> int:
+        """0-based sorted band index."""
+        return n_valence_bands - self.rank if self.side == "v" else n_valence_bands - 1 + self.rank
+
+    def __str__(self) -> str:
+        return f"{self.label}:{self.side}{self.rank}"
+
+
+@dataclass(frozen=True)
+class Target:
+    """One target quantity.
+
+    Attributes
+    ----------
+    quantity : str
+        One of :data:`QUANTITIES`.
+    at, start : BandRef
+        E(at) − E(start) for "energy" and "delta_so"; ``start`` is None for "mass".
+    direction : numpy.ndarray or None
+        Unit Cartesian direction of a mass.
+    value, tolerance : float
+        Target and tolerance (eV, or m0 for a mass).
+    source, name : str
+    """
+
+    quantity: str
+    at: BandRef
+    start: BandRef | None
+    direction: np.ndarray | None
+    value: float
+    tolerance: float
+    source: str
+    name: str
+
+    @property
+    def unit(self) -> str:
+        return "m0" if self.quantity == "mass" else "eV"
+
+
+@dataclass(frozen=True)
+class FitSpec:
+    """A fit: dotted keys of the varied parameters, the targets, and the cutoff (or None)."""
+
+    parameters: tuple[str, ...]
+    targets: tuple[Target, ...]
+    cutoff_eV: float | None
+
+
+def _band(text: Any, r: TableReader, key: str, labels: tuple[str, ...]) -> BandRef:
+    if not isinstance(text, str) or ":" not in text:
+        raise r.fail(key, f"expected \"POINT:BAND\" such as \"X:c1\" or \"Γ:v1\", got "
+                          f"{describe(text)}")
+    label, band = text.rsplit(":", 1)
+    label = canonical_label(label.strip())
+    if label not in labels:
+        raise r.fail(key, f"unknown point '{label}'; expected a label of the material's path "
+                          f"({', '.join(labels)})")
+    m = _BAND.match(band.strip())
+    if not m:
+        raise r.fail(key, f"unknown band '{band}'; expected v1, v2, … (valence, from the top) "
+                          "or c1, c2, … (conduction, from the bottom)")
+    return BandRef(label, m.group(1), int(m.group(2)))
+
+
+def parse_targets(doc: dict[str, Any], source: str, material: Material) -> FitSpec:
+    """Validate a targets document (module docstring) against the material it fits.
+
+    Raises
+    ------
+    InputError
+        Naming the file and key: unknown points or bands, unknown quantities, missing sources,
+        non-positive tolerances, a Δso target for a spinless model, no parameters.
+    """
+    r = TableReader(doc, source)
+    if material.valence_electrons is None:
+        raise InputError("a fit needs the electron count to name bands (v1, c1); expected "
+                         "electrons.valence in the material file", material.file,
+                         "electrons.valence")
+    raw = r.raw("parameters")
+    if not isinstance(raw, list) or not raw or not all(isinstance(p, str) for p in raw):
+        raise r.fail("parameters", "expected a non-empty array of dotted keys of the material "
+                                   f"file (e.g. \"potential.symmetric[0]\"), got {describe(raw)}")
+    if len(set(raw)) != len(raw):
+        raise r.fail("parameters", "a key is listed twice; expected each parameter once")
+    cutoff = r.number("cutoff_eV", required=False, positive=True, bounds=(0.0, 1e5),
+                      meaning="a plane-wave cutoff in eV")
+    labels = tuple(standard_path(material)[0])
+    entries = r.raw("targets")
+    if not isinstance(entries, list) or not entries:
+        raise r.fail("targets", f"expected an array of [[targets]] tables, got {describe(entries)}")
+    targets = []
+    for i, entry in enumerate(entries):
+        if not isinstance(entry, dict):
+            raise r.fail(f"targets[{i}]", f"expected a table, got {describe(entry)}")
+        t = TableReader(entry, source, f"targets[{i}].")
+        quantity = t.string("quantity", choices=QUANTITIES)
+        direction = None
+        start = None
+        if quantity == "delta_so":
+            if material.spin_orbit is None:
+                raise t.fail("quantity", "Δso needs a model with spin-orbit coupling; expected a "
+                                         "material file with a spin_orbit table")
+            at, start = BandRef("Γ", "v", 1), BandRef("Γ", "v", 5)
+            if "Γ" not in labels:
+                raise t.fail("quantity", "Δso is taken at Γ, which the material's path lacks")
+        else:
+            at = _band(t.raw("at"), t, "at", labels)
+        if quantity == "energy":
+            start = _band(t.raw("from", required=False) or "Γ:v1", t, "from", labels)
+        if quantity == "mass":
+            d = np.array(number_list(t.raw("direction"), t, "direction", length=3), float)
+            if not np.linalg.norm(d) > 0:
+                raise t.fail("direction", "expected a non-zero direction")
+            direction = d / np.linalg.norm(d)
+        value = t.number("value")
+        if quantity == "mass" and value == 0:
+            raise t.fail("value", "expected a non-zero mass (m*/m0)")
+        tol = t.number("tolerance", positive=True)
+        src = t.string("source")
+        if not src.strip():
+            raise t.fail("source", "expected where the value comes from (authors, year, table)")
+        default = {"energy": f"E({at}) − E({start})", "delta_so": "Δso = E(Γ8) − E(Γ7)",
+                   "mass": f"mass {at} along {np.round(direction, 4).tolist()}"
+                   if direction is not None else ""}[quantity]
+        name = t.string("name", required=False, default=default)
+        t.finish()
+        targets.append(Target(quantity, at, start, direction, float(value), float(tol), src,
+                              name))
+    r.finish()
+    return FitSpec(tuple(raw), tuple(targets), cutoff)
+
+
+class TargetModel:
+    """The plane-wave pieces the targets need, on plane-wave sets fixed at the start.
+
+    Parameters
+    ----------
+    material : Material
+        The starting material: fixes the plane waves of each target point (the basis
+        ħ²|k+G|²/2m0 ≤ cutoff centred on that point).
+    targets : tuple of Target
+    cutoff_eV : float
+    """
+
+    def __init__(self, material: Material, targets: tuple[Target, ...], cutoff_eV: float):
+        self.targets = targets
+        self.cutoff_eV = float(cutoff_eV)
+        self.points_frac = {label: np.asarray(p, float)
+                            for label, p in standard_path(material)[0].items()}
+        self.n_valence = material.valence_electrons // material.electrons_per_band
+        used = {t.at.label for t in targets} | {t.start.label for t in targets if t.start}
+        b = reciprocal_vectors(material.vectors_A)
+        self.miller = {label: centred_model(material, cutoff_eV, self.points_frac[label] @ b,
+                                            spin_orbit=True).basis.miller
+                       for label in sorted(used)}
+        indices = [t.at.index(self.n_valence) for t in targets]
+        indices += [t.start.index(self.n_valence) for t in targets if t.start]
+        if min(indices) < 0:
+            raise InputError(f"a target names a valence band below the lowest one (there are "
+                             f"{self.n_valence} valence bands)", key="targets")
+        self.n_bands = max(indices) + 4
+        self.spinor = material.spin_orbit is not None
+
+    def _k(self, material: Material, label: str) -> np.ndarray:
+        return self.points_frac[label] @ reciprocal_vectors(material.vectors_A)
+
+    def states(self, material: Material, label: str) -> tuple[np.ndarray, np.ndarray, Any]:
+        """Eigenvalues, eigenvectors (columns) and the model at a point."""
+        model = model_on_miller(material, self.miller[label], self.cutoff_eV)
+        h = model.hamiltonian(self._k(material, label))
+        n = min(self.n_bands, h.shape[0])
+        w, c = scipy.linalg.eigh(h, subset_by_index=(0, n - 1), driver="evr",
+                                 check_finite=False)
+        return w, c, model
+
+    def _mass(self, material: Material, target: Target) -> float:
+        label = target.at.label
+        model = model_on_miller(material, self.miller[label], self.cutoff_eV)
+        k0 = self._k(material, label)
+        h = MASS_STEP * 2.0 * np.pi / material.a_A
+        band = target.at.index(self.n_valence)
+        e = np.array([scipy.linalg.eigh(model.hamiltonian(k0 + s * h * target.direction),
+                                        eigvals_only=True, subset_by_index=(0, band + 1),
+                                        driver="evr", check_finite=False)
+                      for s in (-1.0, 0.0, 1.0)])
+        if self.spinor:  # the Kramers pair holding the band
+            first = band - band % 2
+            e_band = e[:, first:first + 2].mean(axis=1)
+        else:
+            e_band = e[:, band]
+        curvature = (e_band[0] - 2.0 * e_band[1] + e_band[2]) / h**2
+        sign = -1.0 if target.at.side == "v" else 1.0
+        return sign * 2.0 * HBAR2_OVER_2M0_EV_A2 / curvature
+
+    def values(self, material: Material) -> np.ndarray:
+        """Every target's model value (eV or m0), in target order."""
+        cache: dict[str, np.ndarray] = {}
+
+        def level(ref: BandRef) -> float:
+            if ref.label not in cache:
+                cache[ref.label] = self.states(material, ref.label)[0]
+            return float(cache[ref.label][ref.index(self.n_valence)])
+
+        out = []
+        for t in self.targets:
+            if t.quantity == "mass":
+                out.append(self._mass(material, t))
+            else:
+                out.append(level(t.at) - level(t.start))
+        return np.array(out)
+
+    def energy_derivatives(self, material: Material, perturbed: list[tuple[Material, Material,
+                                                                             float]]
+                           ) -> np.ndarray:
+        """∂(target)/∂p of the energy targets by Hellmann–Feynman (NaN for mass targets).
+
+        ∂E_n/∂p = ⟨n|∂H/∂p|n⟩, the mean over n's degenerate group (module docstring), with
+        ∂H/∂p = [H(p + δ) − H(p − δ)]/(2δ) on the same plane waves and fractional k (exact
+        for the parameters H is linear in: form factors and spin–orbit strengths).
+
+        Parameters
+        ----------
+        material : Material
+            At the current parameters.
+        perturbed : list of (Material, Material, float)
+            Per parameter: the material at p + δ, at p − δ, and δ.
+
+        Returns
+        -------
+        numpy.ndarray
+            (n_targets, n_parameters).
+        """
+        jac = np.full((len(self.targets), len(perturbed)), np.nan)
+        labels = sorted({t.at.label for t in self.targets if t.quantity != "mass"}
+                        | {t.start.label for t in self.targets if t.start})
+        slopes: dict[str, np.ndarray] = {}
+        for label in labels:
+            w, c, _ = self.states(material, label)
+            groups = _groups(w)
+            rows = []
+            for plus, minus, delta in perturbed:
+                k_p, k_m = self._k(plus, label), self._k(minus, label)
+                dh = (model_on_miller(plus, self.miller[label]).hamiltonian(k_p)
+                      - model_on_miller(minus, self.miller[label]).hamiltonian(k_m)) / (2 * delta)
+                d = np.real(np.einsum("in,ij,jn->n", c.conj(), dh, c))
+                rows.append(np.array([d[g].mean() for g in groups]))
+            slopes[label] = np.array(rows).T  # (n_bands, n_parameters)
+        for i, t in enumerate(self.targets):
+            if t.quantity == "mass":
+                continue
+            jac[i] = (slopes[t.at.label][t.at.index(self.n_valence)]
+                      - slopes[t.start.label][t.start.index(self.n_valence)])
+        return jac
+
+
+def _groups(w: np.ndarray) -> list[np.ndarray]:
+    """For each level the indices of its degenerate group (levels within DEGENERACY_EV)."""
+    out = []
+    for e in w:
+        out.append(np.flatnonzero(np.abs(w - e) < DEGENERACY_EV))
+    return out
