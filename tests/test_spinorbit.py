@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import tomllib
+
 import numpy as np
 import pytest
 from conftest import bundled
@@ -11,8 +13,11 @@ from scipy.integrate import quad
 from scipy.special import spherical_jn
 
 from bandpert.errors import InputError
+from bandpert.input.kp_file import parse_kp_material
 from bandpert.input.material import parse_material
 from bandpert.input.reader import read_toml_document
+from bandpert.kp.hamiltonians import eight_band_model
+from bandpert.kp.parameters import unit_vector
 from bandpert.physics.bands import compute_band_structure
 from bandpert.physics.kp_from_planewave import (
     extract_kp_parameters,
@@ -21,8 +26,8 @@ from bandpert.physics.kp_from_planewave import (
 )
 from bandpert.physics.perturbative_bands import PerturbationSettings
 from bandpert.planewave.cutoff import choose_cutoff
-from bandpert.planewave.model import build_k_centred_model, build_model
-from bandpert.planewave.solver import exact_energies
+from bandpert.planewave.model import build_k_centred_model, build_model, centred_model
+from bandpert.planewave.solver import exact_energies, exact_states
 from bandpert.planewave.spinorbit import radial_factor
 
 #: Slater-type core p orbitals of the bundled files (n, ζ in Å⁻¹; Slater's rules).
@@ -254,3 +259,36 @@ def test_gaas_conduction_mass_and_written_split_off_energy(gaas_top):
     assert extracted.parameters.Delta_so_eV == pytest.approx(0.341, rel=0.02)
     text = kp_material_text(material, extracted)
     assert "Delta_so_eV = 0.34" in text and "spin-orbit model" in text
+
+
+def test_eight_band_model_read_back_reproduces_the_valence_bands(gaas_top):
+    # source: the acceptance check: the eight-band model (Kane; Vurgaftman, Meyer &
+    # Ram-Mohan 2001, Sec. II) read back from the written k·p file reproduces the plane-wave
+    # valence bands (measured from Γ8) within 1 % at k = 0.02·2π/a along [100], [110], [111];
+    # Kramers pairs averaged (the k·p model has no k-linear or cubic zincblende terms)
+    material, cutoff, _ = gaas_top
+    extracted = extract_kp_parameters(material, build_model(material, cutoff, spin_orbit=True))
+    kp = parse_kp_material(tomllib.loads(kp_material_text(material, extracted)), "kp.toml")
+    model = eight_band_model(kp.parameters, kp.a_A)
+    pw = centred_model(material, cutoff, np.zeros(3), spin_orbit=True)
+    top = exact_energies(pw, np.zeros((1, 3)), 8)[0, 7]
+    for direction in ("100", "110", "111"):
+        k = 0.02 * unit(material) * unit_vector(direction)
+        e_pw = exact_energies(pw, k[None], 8)[0, 2:8] - top
+        e_kp = np.sort(np.ravel(model.energies_eV(k[None])))[:6]
+        pairs_pw = (e_pw[0::2] + e_pw[1::2]) / 2
+        pairs_kp = (e_kp[0::2] + e_kp[1::2]) / 2
+        assert np.max(np.abs(pairs_kp / pairs_pw - 1)) < 0.01
+
+
+def test_exact_states_are_spinors_of_the_documented_layout():
+    # common practice, no source: with λ = 0 an eigenvector is a pure spin-up or spin-down
+    # spinor (or a mix within a degenerate pair); the spin-up weight of a pair sums to 1
+    material = with_spin_orbit("silicon", {"Si": 0.0})
+    model = build_k_centred_model(material, SMALL_CUTOFF_EV).at(np.zeros(3), spin_orbit=True)
+    k = np.array([0.11, 0.05, 0.02])
+    w, c = exact_states(model, k, 4)
+    assert c.shape == (2 * model.size, 4)
+    up = np.sum(np.abs(c[:model.size]) ** 2, axis=0)
+    assert up[0] + up[1] == pytest.approx(1.0, abs=1e-10)
+    assert np.allclose(w, exact_energies(model, k[None], 4)[0], atol=1e-10)

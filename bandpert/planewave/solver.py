@@ -10,6 +10,7 @@ from collections.abc import Callable, Iterator
 from contextlib import AbstractContextManager
 
 import numpy as np
+import scipy.linalg
 import scipy.linalg.lapack
 from threadpoolctl import ThreadpoolController
 
@@ -311,3 +312,25 @@ def spinor_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.n
         h[np.arange(n), np.arange(n)] += kinetic
         w = term.coupling(kk + g, structure)
         yield spinor_hamiltonian(h, w, np.empty((2 * n, 2 * n), complex, order="F"))
+
+
+def exact_states(model: PlaneWaveModel, k_cart_invA: np.ndarray, n_bands: int
+                 ) -> tuple[np.ndarray, np.ndarray]:
+    """Lowest ``n_bands`` eigenvalues and eigenvectors of H(k) at one k, spinor or spinless.
+
+    For labels and matrix elements: with spin–orbit coupling the eigenvectors are spinors,
+    row s·n + i the amplitude of |k + G_i, s⟩ (s = 0 up, 1 down; n = ``model.size``, G_i =
+    ``model.basis.g_cart_invA[i]``). Use a fixed basis centred on k
+    (:meth:`~bandpert.planewave.model.KCentredModel.at` with ``spin_orbit=True``) so that the
+    degenerate sets the little group of k requires are exact.
+
+    Returns
+    -------
+    energies_eV : numpy.ndarray
+        (n_bands,) ascending.
+    vectors : numpy.ndarray
+        (matrix_size, n_bands) orthonormal columns.
+    """
+    h = model.hamiltonian(np.asarray(k_cart_invA, dtype=float))
+    return scipy.linalg.eigh(h, subset_by_index=(0, n_bands - 1), driver="evr",
+                             check_finite=False)
