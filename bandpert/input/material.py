@@ -31,6 +31,7 @@ from .lattice_input import (
     read_atoms,
     read_lattice,
 )
+from .nonlocal_input import Nonlocal, read_nonlocal
 from .potential_input import (
     CONTINUOUS_PARAMETERS,
     POTENTIAL_FORMS,
@@ -142,6 +143,9 @@ class Material:
     spin_orbit : SpinOrbit or None
         Spin–orbit parameters per species (:mod:`bandpert.input.spin_orbit`); None for the
         spinless model.
+    nonlocal_terms : Nonlocal or None
+        Square-well l = 0, 2 nonlocal terms per species (:mod:`bandpert.input.nonlocal_input`);
+        None for a local potential.
     """
 
     name: str
@@ -159,6 +163,7 @@ class Material:
     n_bands: int | None = None
     path: CustomPath | None = None
     spin_orbit: SpinOrbit | None = None
+    nonlocal_terms: Nonlocal | None = None
 
     @property
     def volume_A(self) -> float:
@@ -173,6 +178,10 @@ class Material:
     def without_spin_orbit(self) -> Material:
         """The same material without its spin–orbit term (the spinless model)."""
         return replace(self, spin_orbit=None)
+
+    def local_spinless(self) -> Material:
+        """The same material without spin–orbit and nonlocal terms: V(G) alone."""
+        return replace(self, spin_orbit=None, nonlocal_terms=None)
 
 
 def _read_path(r: TableReader, dim: int) -> CustomPath:
@@ -274,11 +283,14 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
     so_r = r.sub("spin_orbit", required=False)
     spin_orbit = (None if so_r is None
                   else read_spin_orbit(so_r, {a.species for a in atoms}, dim))
+    nl_r = r.sub("nonlocal", required=False)
+    nonlocal_terms = (None if nl_r is None
+                      else read_nonlocal(nl_r, {a.species for a in atoms}, dim))
     r.finish()
     return Material(name=name, source=src, note=note, file=source, lattice_type=kind,
                     dimension=dim, vectors_A=vectors, a_A=a, atoms=atoms, potential=pot,
                     cutoff_eV=cutoff, valence_electrons=electrons, n_bands=n_bands, path=path,
-                    spin_orbit=spin_orbit)
+                    spin_orbit=spin_orbit, nonlocal_terms=nonlocal_terms)
 
 
 def load_material(path: str | Path) -> Material:

@@ -266,15 +266,16 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
                          "bands were asked for", key="exact")
     nb = default_bands(material) if n_bands is None else n_bands
-    if material.spin_orbit is not None and perturbation is not None:
+    if perturbation is not None and (material.spin_orbit or material.nonlocal_terms):
+        what = "spin-orbit parameters" if material.spin_orbit else "nonlocal terms"
         raise InputError("the perturbative series expands a spinless H0 + V and the material has "
-                         "spin-orbit parameters; expected the exact bands only for it",
-                         material.file, "spin_orbit")
+                         f"{what}; expected the exact bands only for it", material.file,
+                         "spin_orbit" if material.spin_orbit else "nonlocal")
     # the cutoff rule converges the spinless bands (spin-orbit coupling shifts them by
     # a few tenths of an eV at most, and the rule's bands are the spinless count)
     spinless_bands = -(-nb * material.electrons_per_band // 2)
     k_centred = build_k_centred_model(material, choose_cutoff(
-        material.without_spin_orbit(), spinless_bands, cutoff_eV, check_cutoff))
+        material.local_spinless(), spinless_bands, cutoff_eV, check_cutoff))
     model = k_centred.gamma
     points, legs = standard_path(material)
     path = sample_path(model.reciprocal_invA, points, legs, n_k)

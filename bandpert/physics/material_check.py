@@ -144,7 +144,7 @@ def check_material(material: Material, cutoff_eV: float | None = None) -> Materi
     nb = default_bands(material)
     # the cutoff rule runs on the spinless model (as every command's); the basis reported is
     # the spinor one when the file has spin–orbit coupling
-    spinless = material.without_spin_orbit()
+    spinless = material.local_spinless()
     cutoff = choose_cutoff(spinless, default_bands(spinless), cutoff_eV, check_convergence=False)
     model = build_model(material, cutoff, spin_orbit=True)
     sym = crystal_symmetry(material)

@@ -36,6 +36,7 @@ from ..errors import InputError
 from ..input.material import Material
 from ..units import HBAR2_OVER_2M0_EV_A2
 from .basis import MAX_BASIS, PlaneWaveBasis, k_centred_basis, plane_wave_basis
+from .nonlocal_term import NonlocalTerm, nonlocal_term
 from .potential import check_shells_exist, fourier_coefficients
 from .spinorbit import (
     SpinOrbitTerm,
@@ -61,7 +62,10 @@ class PlaneWaveModel:
     spin_orbit : SpinOrbitTerm or None
         The spin–orbit parameters; None for a spinless model.
     structure : numpy.ndarray or None
-        (n_species, n, n) S_s(G_i − G_j) of the spin–orbit term.
+        (n_species, n, n) S_s(G_i − G_j) of the spin–orbit and nonlocal terms.
+    nonlocal_term : NonlocalTerm or None
+        The nonlocal square wells (:mod:`~bandpert.planewave.nonlocal_term`); None for a local
+        potential.
     """
 
     basis: PlaneWaveBasis
@@ -69,6 +73,12 @@ class PlaneWaveModel:
     potential_eV: np.ndarray
     spin_orbit: SpinOrbitTerm | None = None
     structure: np.ndarray | None = field(default=None, repr=False)
+    nonlocal_term: NonlocalTerm | None = None
+
+    @property
+    def k_dependent(self) -> bool:
+        """True when H(k) − H0(k) depends on k (spin–orbit or nonlocal terms): built per k."""
+        return self.spin_orbit is not None or self.nonlocal_term is not None
 
     @property
     def size(self) -> int:
@@ -88,7 +98,7 @@ class PlaneWaveModel:
     @property
     def is_real(self) -> bool:
         """True when H(k) is real symmetric at every k."""
-        return self.spin_orbit is None and not np.iscomplexobj(self.potential_eV)
+        return not self.k_dependent and not np.iscomplexobj(self.potential_eV)
 
     def spin_orbit_coupling(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """W(k) (3, n, n) of H_so = −i W·σ at one k (:mod:`~bandpert.planewave.spinorbit`)."""
@@ -111,6 +121,9 @@ class PlaneWaveModel:
         h = self.potential_eV.copy()
         idx = np.arange(self.size)
         h[idx, idx] += self.kinetic_eV(k_cart_invA)[0]
+        if self.nonlocal_term is not None:
+            k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
+            h = h + self.nonlocal_term.matrix(k + self.basis.g_cart_invA, self.structure)
         if self.spin_orbit is None:
             return h
         return spinor_hamiltonian(h, self.spin_orbit_coupling(k_cart_invA))
@@ -158,16 +171,18 @@ def _model(material: Material, basis: PlaneWaveBasis, b: np.ndarray) -> PlaneWav
     """The model on a given basis: V always, the spin–orbit term when the material has one."""
     v = _potential_matrix(material, basis.miller)
     term = spin_orbit_term(material)
-    if term is None:
+    wells = nonlocal_term(material)
+    if term is None and wells is None:
         return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v)
     diff = basis.miller[:, None, :] - basis.miller[None, :, :]
     return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v, spin_orbit=term,
-                          structure=structure_factors(material, diff)[1])
+                          structure=structure_factors(material, diff)[1],
+                          nonlocal_term=wells)
 
 
 def _potential_matrix(material: Material, miller: np.ndarray) -> np.ndarray:
     """V(G − G') on a basis given by Miller indices: Hermitian, real when every V(G) is."""
-    v = fourier_coefficients(material.without_spin_orbit(),
+    v = fourier_coefficients(material.local_spinless(),
                              miller[:, None, :] - miller[None, :, :])
     if not np.allclose(v, v.conj().T, atol=1e-12):
         raise InputError("the potential matrix is not Hermitian; expected V(-G) = V(G)*",
@@ -248,6 +263,16 @@ class KCentredModel:
         return self.gamma.n_components
 
     @property
+    def nonlocal_term(self) -> NonlocalTerm | None:
+        """The nonlocal square wells (None for a local potential)."""
+        return self.gamma.nonlocal_term
+
+    @property
+    def k_dependent(self) -> bool:
+        """True when spin–orbit or nonlocal terms make H(k) − H0(k) depend on k."""
+        return self.gamma.k_dependent
+
+    @property
     def size(self) -> int:
         """Basis size at Γ (at other k the size differs by a few plane waves)."""
         return self.gamma.size
@@ -303,13 +328,13 @@ class KCentredModel:
         strides = np.cumprod(np.r_[1, width[::-1][:-1]])[::-1]
         axes = [np.arange(-(s - 1), s) for s in span]
         box = np.stack(np.meshgrid(*axes, indexing="ij"), axis=-1).reshape(-1, len(span))
-        table = fourier_coefficients(self.material.without_spin_orbit(), box)
+        table = fourier_coefficients(self.material.local_spinless(), box)
         if np.max(np.abs(table.imag), initial=0.0) <= 1e-12 * max(
                 1.0, np.max(np.abs(table), initial=0.0)):
             table = np.ascontiguousarray(table.real)
         table = np.append(table, 0.0)
         structure = None
-        if self.spin_orbit is not None:
+        if self.gamma.k_dependent:
             s = structure_factors(self.material, box)[1]
             structure = np.concatenate([s, np.zeros((len(s), 1))], axis=1)
         origin = int(np.sum((span - 1) * strides))

@@ -85,7 +85,8 @@ def exact_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarra
     A :class:`~bandpert.planewave.model.KCentredModel` is diagonalised at each k in its own
     basis ħ²|k+G|²/2m0 ≤ cutoff (:func:`_k_centred_energies`); a
     :class:`~bandpert.planewave.model.PlaneWaveModel` in its one fixed basis. A model with
-    spin–orbit coupling is diagonalised in spinor plane waves (:func:`_spinor_energies`): then
+    spin–orbit coupling or nonlocal terms is built and diagonalised per k
+    (:func:`_per_k_energies`); with spin–orbit coupling in spinor plane waves, and then
     ``n_bands`` counts spinor bands (a Kramers pair is two bands).
 
     Parameters
@@ -103,8 +104,8 @@ def exact_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarra
     numpy.ndarray
         (n_k, n_bands) energies in eV (absolute: the model's own zero).
     """
-    if model.n_components == 2:
-        return _spinor_energies(model, k_cart_invA, n_bands, progress)
+    if model.k_dependent:
+        return _per_k_energies(model, k_cart_invA, n_bands, progress)
     if isinstance(model, KCentredModel):
         return _k_centred_energies(model, k_cart_invA, n_bands, progress)
     n = model.size
@@ -223,24 +224,25 @@ def _k_centred_energies(model: KCentredModel, k_cart_invA: np.ndarray, n_bands: 
     return out
 
 
-def _spinor_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray,
-                     n_bands: int, progress: Progress | None = None) -> np.ndarray:
-    """Lowest ``n_bands`` eigenvalues of the 2n × 2n spinor H(k) = 1₂ ⊗ (H0 + V) + H_so(k).
+def _per_k_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray,
+                    n_bands: int, progress: Progress | None = None) -> np.ndarray:
+    """Lowest ``n_bands`` eigenvalues of H(k) built per k (spin–orbit or nonlocal terms).
 
-    The matrices come from :func:`spinor_hamiltonians`; LAPACK's ``zheevr`` computes the
+    The matrices come from :func:`per_k_hamiltonians`; LAPACK's ``zheevr`` computes the
     requested eigenvalues of each.
     """
     k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
     n_k = len(k)
-    if n_bands > 2 * model.size:
-        raise InputError(f"{n_bands} bands asked for but the spinor basis holds only "
-                         f"{2 * model.size} states; expected fewer bands or a larger cutoff",
+    m = model.n_components
+    if n_bands > m * model.size:
+        raise InputError(f"{n_bands} bands asked for but the basis holds only "
+                         f"{m * model.size} states; expected fewer bands or a larger cutoff",
                          key="bands")
     out = np.empty((n_k, n_bands))
     step = max(1, n_k // 50)
     solvers: dict[int, Callable[[np.ndarray], np.ndarray]] = {}
     with single_blas_thread():
-        for i, h in enumerate(spinor_hamiltonians(model, k, (n_bands + 1) // 2)):
+        for i, h in enumerate(per_k_hamiltonians(model, k, -(-n_bands // m))):
             n = h.shape[0]
             if n not in solvers:
                 solvers[n] = _mrrr_solver(n, n_bands, True)
@@ -250,15 +252,18 @@ def _spinor_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndar
     return out
 
 
-def spinor_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray,
-                        min_plane_waves: int = 1) -> Iterator[np.ndarray]:
-    """The spinor H(k) = 1₂ ⊗ (H0 + V) + H_so(k) at each k in turn (Fortran order, 2n × 2n).
+def per_k_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray,
+                       min_plane_waves: int = 1) -> Iterator[np.ndarray]:
+    """H(k) = H0 + V + V_NL(k) (n × n), or with spin–orbit coupling the spinor
+    1₂ ⊗ (H0 + V + V_NL(k)) + H_so(k) (2n × 2n), at each k in turn (Fortran order).
 
     Per k: V and the structure factors S_s(G_i − G_j) are gathered once per set of plane
-    waves (reused while consecutive k-points share it), the spin–orbit coupling W(k) is built
-    from K = k + G by whole-matrix operations (:meth:`~bandpert.planewave.spinorbit
-    .SpinOrbitTerm.coupling`). A :class:`~bandpert.planewave.model.KCentredModel` uses the
-    basis ħ²|k+G|²/2m0 ≤ cutoff at each k (a k whose basis holds fewer than
+    waves (reused while consecutive k-points share it), the spin–orbit coupling W(k) and the
+    nonlocal wells are built from K = k + G by whole-matrix operations
+    (:meth:`~bandpert.planewave.spinorbit.SpinOrbitTerm.coupling`,
+    :meth:`~bandpert.planewave.nonlocal_term.NonlocalTerm.matrix`). A
+    :class:`~bandpert.planewave.model.KCentredModel` uses the basis ħ²|k+G|²/2m0 ≤ cutoff at
+    each k (a k whose basis holds fewer than
     ``min_plane_waves`` takes whole shells up to its ``min_plane_waves``-th lowest plane
     wave); a :class:`~bandpert.planewave.model.PlaneWaveModel` its one basis. Only one matrix
     is held at a time. Component s·n + i of a row index is |k + G_i, s⟩, s = 0 (↑), 1 (↓).
@@ -275,10 +280,11 @@ def spinor_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.n
     Yields
     ------
     numpy.ndarray
-        (2n, 2n) complex Hermitian H(k); the caller may overwrite it.
+        Complex Hermitian H(k); the caller may overwrite it.
     """
     k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
     term = model.spin_orbit
+    wells = model.nonlocal_term
     centred = isinstance(model, KCentredModel)
     if centred:
         reach = float(np.max(np.linalg.norm(k, axis=1), initial=0.0))
@@ -310,6 +316,11 @@ def spinor_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.n
         n = len(g)
         h = base.astype(complex)
         h[np.arange(n), np.arange(n)] += kinetic
+        if wells is not None:
+            h += wells.matrix(kk + g, structure)
+        if term is None:
+            yield np.asfortranarray(h)
+            continue
         w = term.coupling(kk + g, structure)
         yield spinor_hamiltonian(h, w, np.empty((2 * n, 2 * n), complex, order="F"))
 

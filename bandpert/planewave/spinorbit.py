@@ -48,21 +48,26 @@ from ..input.material import Material
 
 
 def require_spinless(material: Material) -> None:
-    """Refuse a material with spin–orbit parameters where only the spinless model is built.
+    """Refuse spin–orbit or nonlocal parameters where only the local spinless model is built.
 
-    So that no computation returns spinless numbers for a material that asks for spin–orbit
-    coupling.
+    So that no computation returns numbers of the local spinless model for a material that asks
+    for more.
 
     Raises
     ------
     InputError
-        Naming the ``spin_orbit`` key of the file.
+        Naming the ``spin_orbit`` or ``nonlocal`` key of the file.
     """
     if material.spin_orbit is not None:
         raise InputError("this computation uses the spinless model and the material has "
                          "spin-orbit parameters; expected a material without a spin_orbit table "
                          "(spin-orbit coupling is supported by the exact bands only)",
                          material.file, "spin_orbit")
+    if material.nonlocal_terms is not None:
+        raise InputError("this computation uses a local potential and the material has "
+                         "nonlocal terms; expected a material without a nonlocal table "
+                         "(nonlocal terms are supported by the exact bands only)",
+                         material.file, "nonlocal")
 
 
 def radial_factor(k_invA: np.ndarray, core_shell: int | None, zeta_invA: float | None

@@ -112,7 +112,7 @@ class Fit:
         self.start = np.array(start)
         material = self.material(self.start)
         cutoff = spec.cutoff_eV or material.cutoff_eV or converged_cutoff(
-            material.without_spin_orbit(), 8)
+            material.local_spinless(), 8)
         self.targets = TargetModel(material, spec.targets, cutoff)
         self.target_values = np.array([t.value for t in spec.targets])
         self.tolerances = np.array([t.tolerance for t in spec.targets])

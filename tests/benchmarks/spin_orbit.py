@@ -30,7 +30,7 @@ from bandpert.input.material import load_material
 from bandpert.physics.bands import default_bands
 from bandpert.planewave.cutoff import converged_cutoff
 from bandpert.planewave.model import build_k_centred_model
-from bandpert.planewave.solver import exact_energies, spinor_hamiltonians
+from bandpert.planewave.solver import exact_energies, per_k_hamiltonians
 
 N_K = 200
 CHUNK = 25
@@ -52,7 +52,7 @@ def spin_orbit_rows(reps: int, say: Callable[..., None]) -> tuple[dict, list]:
         return exact_energies(model, k, nb)
 
     def build():
-        for _ in spinor_hamiltonians(model, k, half):
+        for _ in per_k_hamiltonians(model, k, half):
             pass
 
     def bare() -> float:
@@ -60,7 +60,7 @@ def spin_orbit_rows(reps: int, say: Callable[..., None]) -> tuple[dict, list]:
         spent = 0.0
         with threadpool_limits(1, user_api="blas"):
             for start in range(0, len(k), CHUNK):
-                hs = list(spinor_hamiltonians(model, k[start:start + CHUNK], half))
+                hs = list(per_k_hamiltonians(model, k[start:start + CHUNK], half))
                 t0 = time.perf_counter()
                 for h in hs:
                     scipy.linalg.eigh(h, eigvals_only=True, subset_by_index=(0, nb - 1),
@@ -81,7 +81,7 @@ def spin_orbit_rows(reps: int, say: Callable[..., None]) -> tuple[dict, list]:
         t_build.append(time.perf_counter() - t0)
     ratio = statistics.median(a / b for a, b in zip(t_tool, t_bare, strict=True))
     share = statistics.median(b / (a - b) for a, b in zip(t_tool, t_build, strict=True))
-    sizes = [h.shape[0] for h in spinor_hamiltonians(model, k[:: max(1, N_K // 20)], half)]
+    sizes = [h.shape[0] for h in per_k_hamiltonians(model, k[:: max(1, N_K // 20)], half)]
     results = {"spin_orbit_silicon": {
         "k_points": len(k), "bands": nb, "gamma_basis_size": model.size,
         "matrix_sizes_min_max": [min(sizes), max(sizes)], "tool_s": statistics.median(t_tool),

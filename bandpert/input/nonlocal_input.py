@@ -1,0 +1,77 @@
+"""The optional ``[nonlocal]`` table of a plane-wave material file.
+
+Schema (energies in eV, radii in Å), per species and for l = 0 and l = 2, each pair optional::
+
+    [nonlocal.species.Ga]
+    A0_eV = 0.0        # square-well depth of the l = 0 channel
+    R0_A = 1.2         # its radius
+    A2_eV = 1.6
+    R2_A = 1.6
+
+Species without a table, and channels without their pair of keys, add nothing. The term is
+documented in :mod:`bandpert.planewave.nonlocal_term`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from .reader import TableReader
+
+#: Angular momenta of the channels.
+CHANNELS = (0, 2)
+
+#: Largest accepted |A_l| (eV) and radius R_l (Å): published depths are a few eV and radii
+#: about 1–2 Å (Chelikowsky & Cohen, Phys. Rev. B 14, 556 (1976); from memory).
+MAX_DEPTH_EV = 100.0
+MAX_RADIUS_A = 5.0
+
+
+@dataclass(frozen=True)
+class Nonlocal:
+    """The ``[nonlocal]`` table: species → ((l, A_l in eV, R_l in Å), …)."""
+
+    species: dict[str, tuple[tuple[int, float, float], ...]]
+
+
+def read_nonlocal(r: TableReader, species_names: set[str], dimension: int = 3) -> Nonlocal:
+    """Validate a ``[nonlocal]`` table (module docstring).
+
+    Raises
+    ------
+    InputError
+        Unknown species, a depth without its radius (or the reverse), a radius that is not
+        positive or above 5 Å, a depth above 100 eV, a lattice that is not 3D.
+    """
+    if dimension != 3:
+        raise r.fail("", f"nonlocal terms need a 3D lattice (spherical harmonics), this one is "
+                         f"{dimension}D; expected no nonlocal table")
+    sp = r.sub("species")
+    for name in sp.table:
+        if name not in species_names:
+            raise sp.fail(name, f"unknown species '{name}'; expected one of the atoms' species "
+                                f"({', '.join(sorted(species_names))})")
+    out: dict[str, tuple[tuple[int, float, float], ...]] = {}
+    for name in sorted(sp.table):
+        s = sp.sub(name)
+        channels = []
+        for l in CHANNELS:  # noqa: E741 - the angular momentum
+            depth = s.number(f"A{l}_eV", required=False, bounds=(-MAX_DEPTH_EV, MAX_DEPTH_EV),
+                             meaning="a square-well depth in eV")
+            radius = s.number(f"R{l}_A", required=False, bounds=(0.0, MAX_RADIUS_A),
+                              meaning="a core radius in Å")
+            if (depth is None) != (radius is None):
+                given, missing = (f"A{l}_eV", f"R{l}_A") if radius is None else (f"R{l}_A",
+                                                                                 f"A{l}_eV")
+                raise s.fail(missing, f"missing while {given} is given; expected both the depth "
+                                      f"and the radius of the l = {l} channel, or neither")
+            if radius is not None and radius <= 0:
+                raise s.fail(f"R{l}_A", f"must be positive, got {radius:g}; expected a radius "
+                                        "in Å")
+            if depth is not None:
+                channels.append((l, float(depth), float(radius)))
+        s.finish()
+        out[name] = tuple(channels)
+    sp.finish()
+    r.finish()
+    return Nonlocal(species=out)

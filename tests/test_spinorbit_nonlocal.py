@@ -1,0 +1,118 @@
+"""Nonlocal square-well l = 0, 2 terms of the plane-wave model (built per k like spin–orbit)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from conftest import bundled
+from scipy.integrate import quad
+from scipy.special import spherical_jn
+
+from bandpert.errors import InputError
+from bandpert.input.material import parse_material
+from bandpert.input.reader import read_toml_document
+from bandpert.physics.bands import compute_band_structure
+from bandpert.physics.perturbative_bands import PerturbationSettings
+from bandpert.planewave.model import build_k_centred_model, build_model
+from bandpert.planewave.nonlocal_term import radial_overlap
+from bandpert.planewave.solver import exact_energies
+
+CUTOFF_EV = 60.0
+
+
+def with_tables(name: str, tables: dict):
+    doc = read_toml_document(bundled(name).file)
+    doc.update(tables)
+    return parse_material(doc, "<test>")
+
+
+def unit(material) -> float:
+    return 2.0 * np.pi / material.a_A
+
+
+@pytest.mark.parametrize("l", [0, 2])
+def test_radial_overlap_is_the_integral(l):  # noqa: E741
+    # source: exact integral F_l = ∫_0^R j_l(Kr) j_l(K'r) r² dr by quadrature (scipy)
+    radius = 1.3
+    for a, b in [(0.0, 0.0), (0.0, 2.0), (1.0, 1.0), (1.0, 2.5), (3.0, 3.0 + 1e-11), (4.0, 0.7)]:
+        exact = quad(lambda r, a=a, b=b: spherical_jn(l, a * r) * spherical_jn(l, b * r) * r * r,
+                     0, radius)[0]
+        assert radial_overlap(l, np.array(a), np.array(b), radius) == pytest.approx(exact,
+                                                                                    abs=1e-12)
+
+
+def test_zero_depths_give_the_local_model():
+    # source: exact identity (A_l = 0 adds nothing)
+    local = bundled("gallium-arsenide")
+    wells = with_tables("gallium-arsenide", {"nonlocal": {"species": {
+        "Ga": {"A0_eV": 0.0, "R0_A": 1.2, "A2_eV": 0.0, "R2_A": 1.5}}}})
+    k = np.random.default_rng(3).uniform(-1, 1, (5, 3)) * unit(local)
+    e0 = exact_energies(build_k_centred_model(local, CUTOFF_EV), k, 8)
+    e1 = exact_energies(build_k_centred_model(wells, CUTOFF_EV), k, 8)
+    assert np.max(np.abs(e1 - e0)) < 1e-10
+
+
+def test_wells_keep_symmetry_and_an_s_well_leaves_gamma25_alone():
+    # source: group theory: the nonlocal term is invariant under the point group, so Γ25',
+    # X and L degeneracies stay (Bouckaert, Smoluchowski & Wigner, Phys. Rev. 50, 58 (1936));
+    # the Γ25' states have no s component about an atom (T2 of the site group Td; common
+    # practice, no source), so an l = 0 well leaves their energy exactly unchanged while the
+    # s-like Γ1 bottom moves up for a repulsive well
+    local = bundled("silicon")
+    wells = with_tables("silicon", {"nonlocal": {"species": {"Si": {"A0_eV": 3.0, "R0_A": 1.1}}}})
+    k = np.array([[0, 0, 0], [1, 0, 0], [0.5, 0.5, 0.5]]) * unit(local)
+    e0 = exact_energies(build_k_centred_model(local, CUTOFF_EV), k, 8)
+    e1 = exact_energies(build_k_centred_model(wells, CUTOFF_EV), k, 8)
+    assert np.ptp(e1[0, 1:4]) < 1e-9                      # Γ25' threefold
+    assert abs(e1[0, 1] - e0[0, 1]) < 1e-9                # and unshifted
+    assert e1[0, 0] - e0[0, 0] > 0.05                     # Γ1 pushed up
+    assert abs(e1[1, 0] - e1[1, 1]) < 1e-9                # X1 twofold
+    assert abs(e1[2, 2] - e1[2, 3]) < 1e-9                # L3' twofold
+    d2 = with_tables("silicon", {"nonlocal": {"species": {"Si": {"A2_eV": -2.0,
+                                                                "R2_A": 1.4}}}})
+    e2 = exact_energies(build_k_centred_model(d2, CUTOFF_EV), k[:1], 8)[0]
+    assert np.ptp(e2[1:4]) < 1e-9 and np.max(np.abs(e2 - e0[0])) > 1e-3
+
+
+def test_wells_with_spin_orbit_keep_kramers_pairs():
+    # source: time reversal and inversion: every band twofold (common practice, no source)
+    m = with_tables("silicon", {
+        "nonlocal": {"species": {"Si": {"A2_eV": -2.0, "R2_A": 1.4}}},
+        "spin_orbit": {"species": {"Si": {"strength_eV": 0.01, "core_shell": 2,
+                                          "slater_exponent_invA": 9.307}}}})
+    k = np.array([[0.13, 0.31, -0.22]]) * unit(m)
+    e = exact_energies(build_k_centred_model(m, CUTOFF_EV), k, 16)[0]
+    assert np.max(np.abs(e[0::2] - e[1::2])) < 1e-9
+    fixed = build_model(m, CUTOFF_EV, spin_orbit=True)
+    h = fixed.hamiltonian(k[0])
+    assert np.max(np.abs(h - h.conj().T)) < 1e-12
+
+
+def test_local_only_computations_refuse_wells():
+    m = with_tables("silicon", {"nonlocal": {"species": {"Si": {"A0_eV": 1.0, "R0_A": 1.0}}}})
+    with pytest.raises(InputError, match="nonlocal terms") as info:
+        build_model(m, CUTOFF_EV)
+    assert info.value.key == "nonlocal"
+    with pytest.raises(InputError, match="nonlocal terms"):
+        compute_band_structure(m, n_k=4, cutoff_eV=CUTOFF_EV, check_cutoff=False,
+                               perturbation=PerturbationSettings())
+    bs = compute_band_structure(m, n_k=6, cutoff_eV=CUTOFF_EV, check_cutoff=False)
+    assert bs.n_bands == 8 and bs.edges is not None
+
+
+@pytest.mark.parametrize("table, key, words", [
+    ({"Ge": {"A0_eV": 1.0, "R0_A": 1.0}}, "nonlocal.species.Ge", "unknown species"),
+    ({"Si": {"A0_eV": 1.0}}, "nonlocal.species.Si.R0_A", "missing while A0_eV"),
+    ({"Si": {"R2_A": 1.0}}, "nonlocal.species.Si.A2_eV", "missing while R2_A"),
+    ({"Si": {"A0_eV": 1.0, "R0_A": -1.0}}, "nonlocal.species.Si.R0_A", "outside"),
+    ({"Si": {"A0_eV": 1.0, "R0_A": 0.0}}, "nonlocal.species.Si.R0_A", "positive"),
+    ({"Si": {"A1_eV": 1.0, "R1_A": 1.0}}, "nonlocal.species.Si", "unknown key"),
+    ({"Si": {"A0_eV": "1", "R0_A": 1.0}}, "nonlocal.species.Si.A0_eV", "expected a number"),
+])
+def test_bad_nonlocal_tables_are_refused_in_one_line(table, key, words):
+    doc = read_toml_document(bundled("silicon").file)
+    doc["nonlocal"] = {"species": table}
+    with pytest.raises(InputError) as info:
+        parse_material(doc, "f.toml")
+    assert info.value.key.startswith(key) and words in str(info.value)
+    assert "\n" not in str(info.value)
