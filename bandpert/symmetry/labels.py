@@ -338,6 +338,10 @@ def _k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int
     codes = flat[inside]
     h = table[origin + codes[:, None] - codes[None, :]]
     h[np.diag_indices(inside.size)] += kinetic[inside]
+    if model.nonlocal_term is not None:  # nonlocal wells, built per k (planewave.nonlocal_term)
+        s = model.structure_table(float(np.linalg.norm(k_cart)))
+        pairs = origin + codes[:, None] - codes[None, :]
+        h = h + model.nonlocal_term.matrix(kg[inside], s[:, pairs])
     top = min(inside.size, n_states)
     with single_blas_thread():  # small matrices: one thread (planewave.solver)
         w, v = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
