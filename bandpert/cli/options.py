@@ -185,12 +185,17 @@ _TEXT = {"form_factors": "--form-factors", "lower_band": "--between N",
          "alloy_end": "--alloy-end FILE", "Engine(kind='serial')": "--engine serial"}
 
 
+def in_flag_terms(text: str) -> str:
+    """Library wording in a message or note rendered in the command line's terms (:data:`_TEXT`)."""
+    for name, flag in _TEXT.items():
+        text = text.replace(name, flag)
+    return text
+
+
 def error_line(exc: InputError) -> str:
     """An input error in the command line's terms: option names rendered as their flags."""
-    problem = exc.problem
-    for name, flag in _TEXT.items():
-        problem = problem.replace(name, flag)
-    return InputError(problem, exc.source, FLAGS.get(exc.key, exc.key)).one_line()
+    return InputError(in_flag_terms(exc.problem), exc.source,
+                      FLAGS.get(exc.key, exc.key)).one_line()
 
 
 #: The commands that read each kind of file (named when a command gets the other kind).

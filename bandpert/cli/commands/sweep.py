@@ -39,6 +39,7 @@ from ..options import (
     check_count,
     engine_from_options,
     err,
+    in_flag_terms,
     json_option,
     name_option,
     out,
@@ -122,6 +123,7 @@ def sweep(
         points=tuple(point) if point else None, n_k=k_points, n_bands=n_bands,
         cutoff_eV=cutoff_eV, lower_band=between, form_factors=form_factors, basis=basis,
         alloy_end=end, alloy_source=str(alloy_end or ""), temperature_K=temperature)
+    note = in_flag_terms(note)  # the note reaches the terminal, the figure and the files
     n_points = int(np.prod([len(a.values) for a in spec.axes]))
     err.print(f"bandpert: {n_points} points on {run_on.describe()}; {note}", highlight=False)
     with progress_bar("sweeping") as progress:
