@@ -19,16 +19,18 @@ from bandpert.input.material import load_material, parse_material
 from bandpert.planewave.formfactor import (
     ContinuousFit,
     continuous_document,
-    continuous_form_factor_slope,
     fit_continuous_potential,
     free_electron_fermi_energy_eV,
     long_wavelength_limit_eV,
-    strain_derivative_of_potential,
-    taper_slope,
 )
 from bandpert.planewave.model import build_model
 from bandpert.planewave.potential import continuous_form_factor, fourier_coefficients, taper_weight
 from bandpert.planewave.solver import exact_energies
+from bandpert.planewave.strain_potential import (
+    continuous_form_factor_slope,
+    strain_derivative_of_potential,
+    taper_slope,
+)
 from bandpert.units import RYDBERG_EV
 
 TABULATED = ["silicon", "germanium", "gallium-arsenide"]

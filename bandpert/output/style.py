@@ -21,6 +21,7 @@ from matplotlib.axes import Axes
 from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 from matplotlib.legend import Legend
+from matplotlib.text import Text
 from matplotlib.ticker import MaxNLocator
 
 from ..io import write_with
@@ -219,8 +220,6 @@ def text_boxes(fig: Figure) -> list:
     -------
     list of (matplotlib.text.Text, matplotlib.transforms.Bbox)
     """
-    from matplotlib.text import Text
-
     renderer = renderer_of(fig)
     hidden: set[int] = set()  # labels of ticks outside the view are not drawn
     for ax in fig.axes:

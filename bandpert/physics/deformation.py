@@ -6,9 +6,9 @@ H(k)_{GG'} = C|k + G|² δ_{GG'} + V(G − G') by
 
     ∂H/∂ε_ij = −2C (k + G)_i (k + G)_j δ_{GG'} + ∂V(G − G')/∂ε_ij,
 
-(:func:`bandpert.planewave.formfactor.strain_derivative_of_potential` for the potential), and the
-shift of a level, or the splitting of a degenerate set, is given by the eigenvalues of P ∂H/∂ε P
-in the set (Hellmann–Feynman / degenerate first-order perturbation theory; Bir & Pikus,
+(:func:`bandpert.planewave.strain_potential.strain_derivative_of_potential` for the potential),
+and the shift of a level, or the splitting of a degenerate set, is given by the eigenvalues of
+P ∂H/∂ε P in the set (Hellmann–Feynman / degenerate first-order perturbation theory; Bir & Pikus,
 Symmetry and Strain-Induced Effects in Semiconductors, 1974). No finite-difference stencil is
 involved, so no basis can change between stencil points; the matrix is built on one basis
 centred on k (:func:`bandpert.physics.critical_points.centred_model`).
@@ -49,12 +49,14 @@ from ..planewave.cutoff import choose_cutoff
 from ..planewave.formfactor import (
     ContinuousFit,
     SlopeCondition,
-    continuous_form_factor_slope,
     fit_continuous_potential,
-    strain_derivative_of_potential,
 )
 from ..planewave.model import PlaneWaveModel
 from ..planewave.solver import single_blas_thread
+from ..planewave.strain_potential import (
+    continuous_form_factor_slope,
+    strain_derivative_of_potential,
+)
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
 
 #: Potential forms whose deformation potentials bandpert computes (tabulated ones are fitted).
@@ -111,7 +113,7 @@ def strain_hamiltonian(material: Material, model: PlaneWaveModel, k_cart_invA: n
     """Σ_ij ε_ij ∂H(k)/∂ε_ij on the model's basis (eV; module docstring).
 
     ``slopes``/``shell_of`` are passed to
-    :func:`~bandpert.planewave.formfactor.strain_derivative_of_potential` (fit conditions).
+    :func:`~bandpert.planewave.strain_potential.strain_derivative_of_potential` (fit conditions).
     ``zeta`` is Kleinman's internal-strain parameter: the shift of the atoms under a shear
     (:mod:`bandpert.physics.internal_strain`) adds its δV(G).
     """
