@@ -8,9 +8,7 @@ without writing any output.
 from __future__ import annotations
 
 import copy
-import json
 import math
-import re
 import tomllib
 from pathlib import Path
 
@@ -32,6 +30,7 @@ from bandpert.input.material import (
     load_material,
     parse_material,
 )
+from bandpert.input.toml_text import to_toml
 from bandpert.units import ENERGY_UNITS_TO_EV
 
 MATERIALS = MATERIALS_DIR / "planewave"
@@ -80,44 +79,6 @@ CONTINUOUS = {"form": "continuous", "unit": "eV", "reference_volume_A3": 20.0,
               "species": {"Si": {"a1": 11.48, "a2_invA2": 8.80, "a3": 13.16, "a4_A2": 0.107}}}
 OBLIQUE = {"type": "oblique", "a_A": 3.0, "b_A": 3.5, "gamma_deg": 75.0}
 ATOMS_2D = [{"species": "X", "position": [0.0, 0.0]}]
-
-_BARE_KEY = re.compile(r"^[A-Za-z0-9_-]+$")
-
-
-def _toml_key(key: str) -> str:
-    return key if _BARE_KEY.match(key) else json.dumps(key)
-
-
-def _toml_value(value) -> str:
-    if isinstance(value, bool):
-        return "true" if value else "false"
-    if isinstance(value, int):
-        return str(value)
-    if isinstance(value, float):
-        if math.isnan(value):
-            return "nan"
-        if math.isinf(value):
-            return "inf" if value > 0 else "-inf"
-        return repr(value)
-    if isinstance(value, str):
-        return json.dumps(value, ensure_ascii=False)
-    if isinstance(value, list):
-        return "[" + ", ".join(_toml_value(v) for v in value) + "]"
-    if isinstance(value, dict):
-        return "{" + ", ".join(f"{_toml_key(k)} = {_toml_value(v)}" for k, v in value.items()) + "}"
-    raise TypeError(value)
-
-
-def to_toml(doc: dict) -> str:
-    """TOML text of a document: top-level values first, then one [table] per top-level dict."""
-    lines = [f"{_toml_key(k)} = {_toml_value(v)}" for k, v in doc.items()
-             if not isinstance(v, dict)]
-    for k, v in doc.items():
-        if isinstance(v, dict):
-            lines.append(f"\n[{_toml_key(k)}]")
-            lines += [f"{_toml_key(kk)} = {_toml_value(vv)}" for kk, vv in v.items()]
-    return "\n".join(lines) + "\n"
-
 
 def test_writer_round_trips_the_valid_document():
     assert tomllib.loads(to_toml(VALID)) == VALID

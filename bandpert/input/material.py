@@ -171,6 +171,11 @@ class Material:
         return float(abs(np.linalg.det(self.vectors_A)))
 
     @property
+    def positions_cart_A(self) -> np.ndarray:
+        """(n_atoms, d) Cartesian positions of the atoms (Å)."""
+        return np.array([a.position_frac for a in self.atoms], dtype=float) @ self.vectors_A
+
+    @property
     def electrons_per_band(self) -> int:
         """2 for spinless bands, 1 for spinor bands (with spin–orbit)."""
         return 2 if self.spin_orbit is None else 1

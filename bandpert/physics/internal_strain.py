@@ -25,7 +25,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..input.material import Material
-from ..planewave.potential import continuous_form_factor, taper_weight
+from ..planewave.potential import continuous_form_factor, continuous_scale, taper_weight
 
 #: Measured Kleinman internal-strain parameters, by the sorted species names of a two-atom cell.
 KLEINMAN_ZETA: dict[tuple[str, ...], tuple[float, str]] = {
@@ -122,9 +122,8 @@ def internal_strain_potential(material: Material, g_cart_invA: np.ndarray,
     pot = material.potential
     g = np.asarray(g_cart_invA, dtype=float)
     q = np.sqrt(np.einsum("...i,...i->...", g, g))
-    positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
-    n_atoms = len(material.atoms)
-    scale = pot.reference_volume_A / (material.volume_A / n_atoms) / n_atoms
+    positions = material.positions_cart_A
+    scale = continuous_scale(material)
     out = np.zeros(q.shape, dtype=complex)
     for atom, r, u in zip(material.atoms, positions, displacements_A, strict=True):
         if not np.any(u):

@@ -109,7 +109,7 @@ def coupling_reasons(material: Material, miller: np.ndarray, values_eV: np.ndarr
         beyond = g2 > reach * (1 + SHELL_TOLERANCE)
         return tuple(REASON_COUPLED if c else REASON_RANGE if x else REASON_NO_COEFFICIENT
                      for c, x in zip(coupled, beyond, strict=True))
-    positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
+    positions = material.positions_cart_A
     if pot.form == "continuous":
         return _continuous_reasons(material, g, positions, coupled, zero_eV)
     shells = np.array(pot.shells_g2, dtype=float)

@@ -83,6 +83,12 @@ def taper_weight(q_invA: np.ndarray | float, q1_invA: float, q2_invA: float) -> 
     return 1.0 - t**3 * (10.0 + t * (-15.0 + 6.0 * t))
 
 
+def continuous_scale(material: Material) -> float:
+    """(Ω0/Ω_atom)/N of the continuous form: the 1/Ω scaling and the cell average (eV per eV)."""
+    n_atoms = len(material.atoms)
+    return material.potential.reference_volume_A / (material.volume_A / n_atoms) / n_atoms
+
+
 def continuous_fourier_coefficients(material: Material, g_cart_invA: np.ndarray,
                                     is_zero: np.ndarray | None = None) -> np.ndarray:
     """V(G) of the "continuous" form at Cartesian G (eV).
@@ -107,16 +113,14 @@ def continuous_fourier_coefficients(material: Material, g_cart_invA: np.ndarray,
     pot = material.potential
     g = np.asarray(g_cart_invA, dtype=float)
     q = np.sqrt(np.einsum("...i,...i->...", g, g))
-    positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
+    positions = material.positions_cart_A
     value = np.zeros(q.shape, dtype=complex)
     cache: dict[str, np.ndarray] = {}
     for atom, r in zip(material.atoms, positions, strict=True):
         if atom.species not in cache:
             cache[atom.species] = continuous_form_factor(q, *pot.continuous[atom.species])
         value += cache[atom.species] * np.exp(-1j * (g @ r))
-    n_atoms = len(material.atoms)
-    scale = pot.reference_volume_A / (material.volume_A / n_atoms) / n_atoms
-    value *= scale
+    value *= continuous_scale(material)
     if pot.taper_invA is not None:
         value *= taper_weight(q, *pot.taper_invA)
     zero = (q == 0.0) if is_zero is None else is_zero
@@ -170,7 +174,7 @@ def fourier_coefficients(material: Material, miller: np.ndarray) -> np.ndarray:
     match = np.abs(g2[..., None] - shells) <= SHELL_TOLERANCE * np.maximum(shells, 1.0)
     on_shell = match.any(axis=-1)
     shell_index = match.argmax(axis=-1)
-    positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
+    positions = material.positions_cart_A
     if pot.form == "symmetric-antisymmetric":
         centre = positions.mean(axis=0)
         tau = positions[0] - centre

@@ -115,7 +115,7 @@ def structure_factors(material: Material, miller: np.ndarray) -> tuple[tuple[str
         (n_species, …) complex.
     """
     g = np.asarray(miller) @ reciprocal_vectors(material.vectors_A)
-    positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
+    positions = material.positions_cart_A
     species = tuple(sorted({a.species for a in material.atoms}))
     out = np.zeros((len(species),) + g.shape[:-1], dtype=complex)
     for atom, r in zip(material.atoms, positions, strict=True):

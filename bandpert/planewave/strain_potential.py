@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..input.material import Material
-from .potential import continuous_form_factor, taper_weight
+from .potential import continuous_form_factor, continuous_scale, taper_weight
 
 
 def continuous_form_factor_slope(q_invA: np.ndarray | float, a1: float, a2_invA2: float,
@@ -73,9 +73,8 @@ def strain_derivative_of_potential(material: Material, g_cart_invA: np.ndarray,
     eps = np.asarray(strain, dtype=float)
     q = np.sqrt(np.einsum("...i,...i->...", g, g))
     safe = np.where(q == 0.0, 1.0, q)
-    positions = np.array([a.position_frac for a in material.atoms]) @ material.vectors_A
-    n_atoms = len(material.atoms)
-    scale = pot.reference_volume_A / (material.volume_A / n_atoms) / n_atoms
+    positions = material.positions_cart_A
+    scale = continuous_scale(material)
     value = np.zeros(q.shape, dtype=complex)
     slope = np.zeros(q.shape, dtype=complex)
     w = np.ones(q.shape) if pot.taper_invA is None else taper_weight(q, *pot.taper_invA)
