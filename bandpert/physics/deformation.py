@@ -456,7 +456,13 @@ def material_deformation_potentials(material: Material, document: dict[str, Any]
         cmat, note = material, "the file's continuous v(q) follows the strain"
     else:
         sf = strain_following_document(document, material.file, bs.model.basis.cutoff_eV)
-        cmat, note = parse_material(sf.document, material.file), sf.note
+        try:
+            cmat, note = parse_material(sf.document, material.file), sf.note
+        except InputError as exc:
+            raise InputError(f"the continuous v(q) fitted to these form factors for the "
+                             f"deformation potentials is unusable ({exc.problem}); expected "
+                             "tabulated form factors that a smooth decaying v(q) can follow",
+                             material.file, "potential") from None
     points = {p: np.asarray(bs.path.points_frac[p]) for p in ("Γ", "X", "L")
               if p in bs.path.points_frac}
     with single_blas_thread():
