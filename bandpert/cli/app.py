@@ -21,8 +21,10 @@ from .commands import bands, check, dos, fit, fullzone, gaps, kp, masses, optics
 from .options import error_line
 
 try:  # typer >= 0.26 carries its own copy of click; its exceptions are the ones raised
+    from typer._click.core import Context
     from typer._click.exceptions import ClickException, UsageError
 except ImportError:  # pragma: no cover - older typer on the public click
+    from click.core import Context
     from click.exceptions import ClickException, UsageError
 
 app = typer.Typer(add_completion=False, no_args_is_help=True, pretty_exceptions_enable=False,
@@ -76,6 +78,14 @@ def _input_file(group: typer.core.TyperGroup, args: list[str]) -> str | None:
         return str(file)
 
 
+def _plain_help_flag(command) -> None:
+    """Show ``--help`` like every other flag of ours: no value metavar (typer adds the option)."""
+    for cmd in [command, *getattr(command, "commands", {}).values()]:
+        option = cmd.get_help_option(Context(cmd))
+        if option is not None:
+            option.metavar = ""
+
+
 def main(argv: list[str] | None = None) -> None:
     """Entry point: run the CLI and map errors to exit statuses (2 user, 1 internal)."""
     args = list(sys.argv[1:] if argv is None else argv)
@@ -83,6 +93,7 @@ def main(argv: list[str] | None = None) -> None:
     if debug:
         args.remove("--debug")
     command = typer.main.get_command(app)
+    _plain_help_flag(command)
 
     held: list[str] = []  # model warnings, printed only if the command succeeds
 

@@ -17,7 +17,8 @@ from ..physics.reduced_basis import (
 )
 
 InterpolateOption = Annotated[bool, typer.Option(
-    "--interpolate", help="Interpolate the bands from reduced bases built on a coarse mesh "
+    "--interpolate", metavar="",
+    help="Interpolate the bands from reduced bases built on a coarse mesh "
     "(Shirley 1996) instead of diagonalising every point; 1 % of the points are checked "
     "exactly and the run fails above the tolerance.")]
 InterpolationToleranceOption = Annotated[float, typer.Option(

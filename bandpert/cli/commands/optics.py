@@ -51,9 +51,11 @@ def optics(
     = DEFAULT_BROADENING_EV * 1e3,
     step_meV: Annotated[float, typer.Option("--step-meV", help="Spacing of the photon-energy "
                                             "grid.")] = 10.0,
-    exact: Annotated[bool, typer.Option("--exact", help="Diagonalise every point in the fixed "
+    exact: Annotated[bool, typer.Option("--exact", metavar="",
+                                        help="Diagonalise every point in the fixed "
                                         "plane-wave set instead of interpolating.")] = False,
-    all_bands: Annotated[bool, typer.Option("--all-bands", help="Every band of the basis "
+    all_bands: Annotated[bool, typer.Option("--all-bands", metavar="",
+                                            help="Every band of the basis "
                                             "(exact, small meshes): the f-sum is complete.")]
     = False,
     n_bands: BandsOption = None,
