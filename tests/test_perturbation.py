@@ -95,7 +95,8 @@ def test_oscillator_linear_perturbation_series(n_states):
 
 
 def test_rs_recursion_matches_batched_2n_plus_1_rule():
-    # internal consistency: the direct recursion and the Wigner 2n+1 evaluation
+    # internal consistency: the direct recursion and the Wigner 2n+1 evaluation (source:
+    # Wigner's 2n+1 rule, e.g. Sakurai & Napolitano, Modern Quantum Mechanics, ch. 5)
     rng = np.random.default_rng(3)
     n = 14
     e0 = np.sort(rng.uniform(0.0, 10.0, n))
@@ -125,8 +126,9 @@ def test_energy_corrections_with_exclusion_and_batch():
 
 
 def test_second_and_third_order_closed_forms():
-    # internal consistency: textbook sums (Sakurai & Napolitano ch. 5 for E2; E3 formula of
-    # the brief) written out with einsum, against the batched implementation
+    # source: textbook sums (Sakurai & Napolitano, Modern Quantum Mechanics, ch. 5: E2, and
+    # E3 = Σ V_nm V_mk V_kn/(Δ_m Δ_k) − V_nn Σ|V_nm|²/Δ_m²) written out with einsum, against
+    # the batched implementation
     rng = np.random.default_rng(5)
     n = 9
     e0 = np.sort(rng.uniform(0.0, 6.0, (2, n)), axis=1)
@@ -289,7 +291,8 @@ def test_mathieu_second_gap_opens_at_second_order():
 
 
 def test_mathieu_driver_against_scipy():
-    # scipy.special.mathieu_a/b use the A&S convention (y'' + (a - 2q cos 2z) y = 0);
+    # source: reference library scipy.special.mathieu_a/b (Abramowitz & Stegun 1964, ch. 20
+    # convention, y'' + (a - 2q cos 2z) y = 0);
     # the perturbative values at order 4 must agree within their error estimate.
     e0k, vk, _ = mathieu(0.0, 12)
     e0b, vb, _ = mathieu(1.0, 12)
