@@ -12,13 +12,12 @@ weak dense random Hermitian ``V``, real and complex; no crystal is involved, so 
 from __future__ import annotations
 
 import argparse
-import statistics
 import sys
-import time
 from collections.abc import Callable
 
 import numpy as np
 import scipy.linalg
+from timing import side_by_side
 
 from bandpert.perturbation import TREATMENT_SUBSPACE, perturbative_levels
 
@@ -33,21 +32,6 @@ def synthetic_batch(n: int = 250, n_k: int = 200) -> np.ndarray:
     gvec = gvec[np.argsort(np.einsum("ij,ij->i", gvec, gvec), kind="stable")][:n]
     ks = np.linspace(0.0, 0.5, n_k)[:, None] * np.array([1.0, 0.7, 0.3])
     return np.einsum("kgi,kgi->kg", ks[:, None, :] + gvec, ks[:, None, :] + gvec)
-
-
-def _alternate(a: Callable[[], object], b: Callable[[], object], reps: int) -> dict:
-    a(), b()
-    ta, tb = [], []
-    for _ in range(reps):
-        t0 = time.perf_counter()
-        a()
-        t1 = time.perf_counter()
-        b()
-        t2 = time.perf_counter()
-        ta.append(t1 - t0)
-        tb.append(t2 - t1)
-    return {"a_s": statistics.median(ta), "b_s": statistics.median(tb),
-            "ratio": statistics.median(x / y for x, y in zip(ta, tb, strict=True))}
 
 
 def driver_rows(reps: int, say: Callable[..., None] = lambda *a: None, n: int = 250,
@@ -67,7 +51,7 @@ def driver_rows(reps: int, say: Callable[..., None] = lambda *a: None, n: int = 
         exact = np.array([np.linalg.eigvalsh(np.diag(r) + v)[:n_levels] for r in e0])
         for kw in VARIANTS:
             say(f"perturbative_levels {kw or 'default'} vs eigh, {kind} V")
-            pair = _alternate(eigh, lambda v=v, kw=kw: perturbative_levels(e0, v, n_levels, **kw),
+            pair = side_by_side(eigh, lambda v=v, kw=kw: perturbative_levels(e0, v, n_levels, **kw),
                               reps)
             res = perturbative_levels(e0, v, n_levels, **kw)
             err = np.abs(res.energies - exact)

@@ -19,7 +19,6 @@ from __future__ import annotations
 import argparse
 import os
 import platform
-import statistics
 import sys
 import time
 import tracemalloc
@@ -34,6 +33,7 @@ from spin_orbit import spin_orbit_rows  # sibling script
 from subbands import subband_rows  # sibling script
 from symmetry_labels import symmetry_rows  # sibling script
 from threadpoolctl import threadpool_info, threadpool_limits
+from timing import median_time, side_by_side
 
 import bandpert
 from bandpert.crystal.lattice import sample_path, standard_path
@@ -73,35 +73,6 @@ def case(name: str, cutoff_eV: float | None, n_k: int = N_K):
 def path_k(material, model, n_k: int) -> np.ndarray:
     points, legs = standard_path(material)
     return sample_path(model.reciprocal_invA, points, legs, n_k).k_cart_invA
-
-
-def side_by_side(a: Callable[[], object], b: Callable[[], object], reps: int,
-                 warm_up: bool = True) -> dict:
-    """Median times of a and b and the median of the per-repetition ratios t_a / t_b."""
-    if warm_up:
-        a(), b()
-    ta, tb = [], []
-    for _ in range(reps):
-        t0 = time.perf_counter()
-        a()
-        t1 = time.perf_counter()
-        b()
-        t2 = time.perf_counter()
-        ta.append(t1 - t0)
-        tb.append(t2 - t1)
-    return {"a_s": statistics.median(ta), "b_s": statistics.median(tb),
-            "ratio": statistics.median(x / y for x, y in zip(ta, tb, strict=True)),
-            "reps": reps}
-
-
-def median_time(f: Callable[[], object], reps: int) -> float:
-    f()
-    times = []
-    for _ in range(reps):
-        t0 = time.perf_counter()
-        f()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def hamiltonians(model, k: np.ndarray) -> np.ndarray:

@@ -15,11 +15,11 @@ points along [100] (serial, 3 levels per side); the peak memory of the eight-ban
 from __future__ import annotations
 
 import argparse
-import statistics
 import sys
-import time
 import tracemalloc
 from collections.abc import Callable
+
+from timing import median_time
 
 from bandpert.heterostructure import compute_subbands, in_plane_dispersion
 from bandpert.input.structure_file import parse_structure
@@ -28,16 +28,6 @@ WELL = {"name": "GaAs/Al0.3Ga0.7As 20 nm well", "source": "issue 19 benchmark",
         "layers": [{"alloy": "aluminium-gallium-arsenide", "x": 0.3, "thickness_nm": 10.0},
                    {"material": "gallium-arsenide", "thickness_nm": 20.0},
                    {"alloy": "aluminium-gallium-arsenide", "x": 0.3, "thickness_nm": 10.0}]}
-
-
-def _time(fn, reps: int) -> float:
-    fn()
-    times = []
-    for _ in range(reps):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def _peak_bytes(fn) -> int:
@@ -52,9 +42,9 @@ def subband_rows(reps: int, say: Callable[..., None]) -> tuple[dict, list]:
     """(results, rows) of the subband solvers on the issue's 20 nm well."""
     say("subbands: 20 nm GaAs/Al0.3Ga0.7As well, 0.1 nm")
     s = parse_structure(WELL, "benchmark")
-    t8 = _time(lambda: compute_subbands(s, 0.1, 10, "eight-band"), reps)
-    t1 = _time(lambda: compute_subbands(s, 0.1, 10, "one-band"), reps)
-    td = _time(lambda: in_plane_dispersion(s, "eight-band", 0.05, 50, 3, 0.1), 1)
+    t8 = median_time(lambda: compute_subbands(s, 0.1, 10, "eight-band"), reps)
+    t1 = median_time(lambda: compute_subbands(s, 0.1, 10, "one-band"), reps)
+    td = median_time(lambda: in_plane_dispersion(s, "eight-band", 0.05, 50, 3, 0.1), 1)
     m1 = _peak_bytes(lambda: compute_subbands(s, 0.1, 10, "eight-band"))
     m2 = _peak_bytes(lambda: compute_subbands(s, 0.05, 10, "eight-band"))
     results = {"subbands_20nm_well": {"eight_band_10_levels_s": t8, "one_band_10_levels_s": t1,

@@ -20,6 +20,8 @@ import time
 import warnings
 from collections.abc import Callable
 
+from timing import side_by_side
+
 from bandpert.crystal.lattice import standard_path
 from bandpert.data import MATERIALS_DIR
 from bandpert.input.material import load_material
@@ -28,21 +30,6 @@ from bandpert.physics.perturbative_bands import PerturbationSettings
 from bandpert.symmetry import label_points
 
 N_K = 200
-
-
-def _side_by_side(a: Callable[[], object], b: Callable[[], object], reps: int) -> dict:
-    a(), b()
-    ta, tb = [], []
-    for _ in range(reps):
-        t0 = time.perf_counter()
-        a()
-        t1 = time.perf_counter()
-        b()
-        t2 = time.perf_counter()
-        ta.append(t1 - t0)
-        tb.append(t2 - t1)
-    return {"a_s": statistics.median(ta), "b_s": statistics.median(tb),
-            "ratio": statistics.median(x / y for x, y in zip(ta, tb, strict=True)), "reps": reps}
 
 
 def symmetry_rows(reps: int, say: Callable[..., None]) -> tuple[dict, list]:
@@ -64,7 +51,7 @@ def symmetry_rows(reps: int, say: Callable[..., None]) -> tuple[dict, list]:
         timed.setdefault("labels_s", []).append(time.perf_counter() - t0)
 
     say("symmetry labels: silicon")
-    pair = _side_by_side(labelled, bands, reps)
+    pair = side_by_side(labelled, bands, reps)
     labels_s = statistics.median(timed["labels_s"])
     results = {"bands_with_labels_s": pair["a_s"], "bands_s": pair["b_s"],
                "ratio": pair["ratio"], "labels_alone_s": labels_s, "points": len(points),
