@@ -154,3 +154,45 @@ def test_cli_fit_writes_a_material_and_refuses_bad_targets(tmp_path, capsys):
     err = capsys.readouterr().err
     assert "targets[0].at" in err and err.count("\n") == 1
     assert not out2.exists() or not any(out2.iterdir())
+
+
+def test_ctrl_c_keeps_the_best_point_so_far(tmp_path, monkeypatch, capsys):
+    # Ctrl-C raises KeyboardInterrupt in the main thread (Python's default SIGINT handler); the
+    # progress callback runs after every residual evaluation, so raising there is an interrupt
+    # in the middle of the least-squares run. Exit 3: the tool's status for a partial result
+    # (README, Reliability).
+    import contextlib
+
+    import bandpert.cli.commands.fit as fit_command
+
+    calls = []
+
+    @contextlib.contextmanager
+    def interrupting_bar(description):
+        def update(done, total):
+            calls.append(done)
+            if len(calls) == 3:
+                raise KeyboardInterrupt
+        yield update
+
+    monkeypatch.setattr(fit_command, "progress_bar", interrupting_bar)
+    doc, _ = silicon_doc()
+    start = doc["spin_orbit"]["species"]["Si"]["strength_eV"]
+    targets = targets_doc(["spin_orbit.species.Si.strength_eV"], [ENERGIES[-1]])
+    (tmp_path / "t.toml").write_text(to_toml(targets), encoding="utf-8")
+    out = tmp_path / "out"
+    capsys.readouterr()
+    assert run(["fit", "silicon-spin-orbit", str(tmp_path / "t.toml"), "--out", str(out),
+                "--name", "si"]) == 3
+    assert len(calls) == 3
+    err = capsys.readouterr().err
+    assert "interrupted" in err and err.count("\n") == 1
+    kept = out / "si-interrupted-best-so-far.toml"
+    assert sorted(p.name for p in out.iterdir()) == [kept.name]  # no fitted file, no JSON
+    best = parse_material(tomllib.loads(kept.read_text(encoding="utf-8")), str(kept))
+    assert "NOT A CONVERGED FIT" in best.source
+    # the kept point is the best of the evaluations made: no worse than the start
+    state = Fit(doc, "si", parse_targets(targets, "t", parse_material(doc, "si")))
+    p_best = np.array([best.spin_orbit.species["Si"].strength_eV])
+    assert state.residuals(p_best) @ state.residuals(p_best) <= (
+        state.residuals(np.array([start])) @ state.residuals(np.array([start])) + 1e-12)

@@ -111,3 +111,26 @@ def test_dkk_and_luttinger_relations_are_inverse(g1, g2, g3):
                        rtol=1e-12, atol=1e-12)
     big_l, big_m, big_n = dkk_from_luttinger(g1, g2, g3)
     assert big_l - big_m == pytest.approx(-6 * g2) and big_n == pytest.approx(-6 * g3)
+
+
+@pytest.mark.parametrize("name, chosen, lowest", [
+    # source: Cohen & Bergstresser, Phys. Rev. 141, 789 (1966), Figs. 2 and 3 (origin at the
+    # bond centre): in silicon the p-like Γ15 lies below the s-like Γ2′; in germanium Γ2′ is
+    # the lowest conduction level at Γ; GaAs (Td, anion at the origin) Γ1 is the lowest.
+    ("silicon", "Γ2′", "Γ15"),
+    ("germanium", "Γ2′", None),
+    ("gallium-arsenide", "Γ1", None),
+])
+def test_written_kp_file_names_its_conduction_state(name, chosen, lowest):
+    material = bundled(name)
+    model = build_model(material, converged_cutoff(material, 8))
+    ex = extract_kp_parameters(material, model)
+    note = tomllib.loads(kp_material_text(material, ex))["note"]
+    assert f"conduction band of these models is {chosen} at Γ" in note
+    if lowest is None:
+        assert "the lowest conduction level at Γ." in note
+    else:
+        assert f"not the lowest conduction level at Γ: {lowest} (3-fold)" in note
+        # the level named below is below: its energy is less than Eg of the file
+        below = float(note.split(f"{lowest} (3-fold) lies ")[1].split(" eV")[0])
+        assert below < ex.parameters.Eg_eV

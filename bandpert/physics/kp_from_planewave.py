@@ -34,6 +34,7 @@ from ..physics.degenerate_edge import degenerate_edge
 from ..physics.mass_tensor import degenerate_set, eigenstates, inverse_mass_tensor
 from ..planewave.model import PlaneWaveModel, centred_model
 from ..planewave.solver import exact_energies
+from ..symmetry.labels import label_point
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
 #: A conduction state couples to the valence triplet when Σ|π|² exceeds this (Å⁻²).
@@ -55,6 +56,10 @@ class ExtractedParameters:
         Its mass by the sum over states.
     isotropy : float
         Largest relative spread of Ep between x, y and z (0 for a cubic crystal).
+    conduction_state : str
+        One sentence naming the conduction state used by its irreducible representation at Γ
+        (:func:`conduction_state_sentence`), and, when it is not the lowest conduction level at
+        Γ (silicon: Γ2′ above Γ15), the lowest one, which the Kane models do not contain.
     """
 
     parameters: KPParameters
@@ -62,6 +67,7 @@ class ExtractedParameters:
     valence_bands: np.ndarray
     conduction_mass_m0: float
     isotropy: float
+    conduction_state: str = ""
 
 
 def extract_kp_parameters(material: Material, model: PlaneWaveModel) -> ExtractedParameters:
@@ -105,7 +111,48 @@ def extract_kp_parameters(material: Material, model: PlaneWaveModel) -> Extracte
                           gamma2=g2, gamma3=g3)
     return ExtractedParameters(parameters=params, conduction_band=conduction,
                                valence_bands=triplet, conduction_mass_m0=1.0 / inv_me,
-                               isotropy=float(np.ptp(per_axis) / ep))
+                               isotropy=float(np.ptp(per_axis) / ep),
+                               conduction_state=conduction_state_sentence(
+                                   material, model.basis.cutoff_eV, top, conduction))
+
+
+def conduction_state_sentence(material: Material, cutoff_eV: float, top: int,
+                              conduction: int) -> str:
+    """Name the conduction state of the extracted Kane models by its irrep at Γ.
+
+    The Kane models' conduction band is an s-like level (Γ1 of Oh, Γ2′ of diamond with the
+    origin at the bond centre, Γ1 of Td: :mod:`bandpert.symmetry.names`). In silicon it is not
+    the lowest conduction level at Γ: the p-like Γ15 triplet lies below Γ2′ (Cohen &
+    Bergstresser, Phys. Rev. 141, 789 (1966), Fig. 2), and a k·p file that calls its Eg
+    "the gap at Γ" would mislead a device model. The sentence names both levels with their
+    energies above the valence top.
+
+    Parameters
+    ----------
+    material : Material
+        The spinless material.
+    cutoff_eV : float
+        Basis cutoff (the labels come from the basis centred on Γ at this cutoff).
+    top, conduction : int
+        0-based band indices of the valence top and of the s-like conduction state.
+
+    Returns
+    -------
+    str
+    """
+    point = label_point(material, cutoff_eV, np.zeros(3), "Γ", conduction + 1)
+    by_band = {lv.first_band + j: lv for lv in point.levels for j in range(lv.degeneracy)}
+    chosen, lowest, vbm = by_band.get(conduction), by_band.get(top + 1), by_band.get(top)
+    if chosen is None or lowest is None or vbm is None:
+        return ""
+    name = chosen.label if not point.note else "the s-like level"
+    text = (f"The conduction band of these models is {name} at Γ, "
+            f"{chosen.energy_eV - vbm.energy_eV:.4f} eV above the valence top")
+    if lowest.first_band == chosen.first_band:
+        return text + ", the lowest conduction level at Γ."
+    return (text + f"; it is not the lowest conduction level at Γ: {lowest.label} "
+            f"({lowest.degeneracy}-fold) lies {lowest.energy_eV - vbm.energy_eV:.4f} eV above "
+            "the valence top and is not in these models.")
 
 
 def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
@@ -124,11 +171,13 @@ def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
     lines = [
         f"name = {q(title)}",
         f"source = {q(origin)}",
-        ('note = "Delta_so_eV = 0: the local pseudopotential has no spin-orbit coupling. '
-         'Model estimates, not measured values."' if material.spin_orbit is None else
-         'note = "Delta_so_eV, Eg, gamma1-3 and the conduction mass from the spin-orbit model '
-         '(second differences at Gamma, Kramers pairs averaged); Ep from its spinless states. '
-         'Model estimates, not measured values."'),
+        "note = " + q(("Delta_so_eV = 0: the local pseudopotential has no spin-orbit coupling. "
+                       if material.spin_orbit is None else
+                       "Delta_so_eV, Eg, gamma1-3 and the conduction mass from the spin-orbit "
+                       "model (second differences at Gamma, Kramers pairs averaged); Ep from "
+                       "its spinless states. ")
+                      + (extracted.conduction_state + " " if extracted.conduction_state else "")
+                      + "Model estimates, not measured values."),
         'models = ["two-band", "six-band", "eight-band"]',
         "",
         "[lattice]",
@@ -300,4 +349,7 @@ def _extract_with_spin_orbit(material: Material, cutoff_eV: float) -> ExtractedP
                           gamma2=g2, gamma3=g3)
     return ExtractedParameters(parameters=params, conduction_band=spinless.conduction_band,
                                valence_bands=spinless.valence_bands,
-                               conduction_mass_m0=so.conduction_m0, isotropy=spinless.isotropy)
+                               conduction_mass_m0=so.conduction_m0, isotropy=spinless.isotropy,
+                               conduction_state=spinless.conduction_state.replace(
+                                   "The conduction band", "Without spin-orbit coupling the "
+                                   "conduction band", 1))

@@ -32,6 +32,11 @@ from ..options import (
     require_kind,
 )
 
+#: Exit status of a fit stopped by Ctrl-C that kept its best point: 3, the tool's status for a
+#: partial result (as a sweep with failed points). 130 would make the CLI discard every staged
+#: file, the kept point included.
+INTERRUPTED_EXIT = 3
+
 
 def fit(
     file: MaterialFile,
@@ -47,7 +52,7 @@ def fit(
     Writes OUT/NAME.toml, the material with the fitted values and a source naming every
     target, and OUT/NAME.json; prints the fitted values with their uncertainties and the
     residual of every target. Ctrl-C keeps the best point so far in
-    OUT/NAME-interrupted-best-so-far.toml.
+    OUT/NAME-interrupted-best-so-far.toml (exit status 3, a partial result).
     """
     require_kind(file, "planewave", "fit")
     path = find_material(file, "planewave")
@@ -72,7 +77,7 @@ def fit(
         write_text(kept, to_toml(best))
         print(f"bandpert: interrupted; the best point so far (cost {state.state.cost:.4g}) is "
               f"in {kept}", file=sys.stderr)
-        return
+        raise typer.Exit(INTERRUPTED_EXIT) from None
     toml_path = base.with_name(f"{base.name}.toml")
     json_path = json_path or base.with_name(f"{base.name}.json")
     write_text(toml_path, to_toml(result.document))
