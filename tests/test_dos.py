@@ -104,6 +104,26 @@ def test_irreducible_silicon_mesh_unfolds_to_the_full_grid(silicon_mesh):
     np.testing.assert_allclose(mesh.unfold(e_irr), e_full, atol=1e-9)
 
 
+def test_grouped_simplices_give_the_dos_of_every_simplex(silicon_mesh):
+    # The irreducible mesh integrates simplices grouped by the irreducible points at their
+    # corners (equal corner energies, added once with their multiplicity); the full grid with
+    # energies computed at every point integrates each of its 6·512 tetrahedra on its own. The
+    # two are the same sum (Blöchl, Jepsen & Andersen, Phys. Rev. B 49, 16223 (1994): the DOS
+    # is a sum over tetrahedra), so DOS, count and Fermi level agree to rounding.
+    mesh, e_irr, full, e_full = silicon_mesh
+    corners, weights = tetrahedra.irreducible_simplices(mesh)
+    assert len(corners) < 6 * 512 / 10 and weights.sum() == pytest.approx(1.0, abs=1e-14)
+    plain, w_plain = tetrahedra.irreducible_simplices(full)
+    assert plain.shape == (6 * 512, 4) and np.all(w_plain == 1 / (6 * 512))
+    grid = np.linspace(e_irr.min() - 0.5, e_irr[:, -1].min(), 400)
+    a, b = dos.tetrahedron_dos(mesh, e_irr, grid), dos.tetrahedron_dos(full, e_full, grid)
+    np.testing.assert_allclose(a.dos_per_eV, b.dos_per_eV, atol=1e-8)
+    np.testing.assert_allclose(a.integrated, b.integrated, atol=1e-9)
+    for n in (3.0, 5.0):  # a partly filled band: a metal-like level inside the bands
+        assert dos.fermi_level_from_count(mesh, e_irr, n) == pytest.approx(
+            dos.fermi_level_from_count(full, e_full, n), abs=1e-8)
+
+
 def symmetry_images(material, mesh: KMesh) -> np.ndarray:
     """For each full-grid point, the image ±R k_irr of its irreducible point that equals it
     modulo a reciprocal lattice vector (R from spglib, acting on fractional reciprocal rows as

@@ -27,7 +27,7 @@ import scipy.special
 
 from ..crystal.kmesh import KMesh
 from ..errors import InputError
-from .tetrahedra import MAX_PAIRS, accumulate, simplex_corners, simplex_occupation
+from .tetrahedra import MAX_PAIRS, accumulate, irreducible_simplices, simplex_occupation
 
 #: Electrons per band and k-point (spin degeneracy of the spinless models).
 SPIN_DEGENERACY = 2
@@ -96,28 +96,30 @@ def _check_grid(energy_grid_eV: np.ndarray) -> np.ndarray:
 
 
 def _band_simplices(mesh: KMesh, energies_eV: np.ndarray, lo_eV: float = -np.inf,
-                    hi_eV: float = np.inf) -> tuple[list[np.ndarray], int, float]:
+                    hi_eV: float = np.inf) -> tuple[list[np.ndarray], int, np.ndarray]:
     """Sorted corner energies of the simplices, band by band, for the bands that matter.
 
-    Bands wholly below ``lo_eV`` are only counted (each adds its full weight at every energy
-    from ``lo_eV`` on); bands wholly at or above ``hi_eV`` are skipped.
+    The simplices are grouped by the irreducible points at their corners
+    (:func:`~bandpert.physics.tetrahedra.irreducible_simplices`): equal corner energies are
+    integrated once and weighted by their multiplicity. Bands wholly below ``lo_eV`` are only
+    counted (each adds its full weight at every energy from ``lo_eV`` on); bands wholly at or
+    above ``hi_eV`` are skipped.
 
     Returns
     -------
     corners : list of numpy.ndarray
-        One (n_simplices, d + 1) array of sorted corner energies per band kept.
+        One (n_groups, d + 1) array of sorted corner energies per band kept.
     n_below : int
         Bands wholly below ``lo_eV``.
-    weight : float
-        Weight of one simplex, 1/n_simplices.
+    weights : numpy.ndarray
+        (n_groups,) share of the zone of each group of simplices (Σ = 1).
     """
-    full = mesh.unfold(energies_eV)  # (N, n_bands)
-    index = simplex_corners(mesh)
-    lowest, highest = full.min(axis=0), full.max(axis=0)
+    index, weights = irreducible_simplices(mesh)
+    lowest, highest = energies_eV.min(axis=0), energies_eV.max(axis=0)
     below = highest < lo_eV
-    kept = [np.sort(full[:, n][index], axis=1) for n in range(full.shape[1])
+    kept = [np.sort(energies_eV[:, n][index], axis=1) for n in range(energies_eV.shape[1])
             if not below[n] and lowest[n] < hi_eV]
-    return kept, int(np.count_nonzero(below)), 1.0 / len(index)
+    return kept, int(np.count_nonzero(below)), weights
 
 
 def tetrahedron_count(mesh: KMesh, energies_eV: np.ndarray,
@@ -151,11 +153,11 @@ def tetrahedron_count(mesh: KMesh, energies_eV: np.ndarray,
     order = np.argsort(flat, kind="stable")
     x_sorted = flat[order]
     simplices, n_below, w = _band_simplices(mesh, e, x_sorted[0], x_sorted[-1] + 1.0)
-    total = np.full(flat.size, float(n_below * round(1.0 / w)))
+    total = np.full(flat.size, float(n_below))
     for band in simplices:  # one band at a time: memory ∝ one band's simplices
-        total += accumulate(band, x_sorted)[0]
+        total += accumulate(band, x_sorted, w)[0]
     out = np.empty(flat.size)
-    out[order] = SPIN_DEGENERACY * w * total
+    out[order] = SPIN_DEGENERACY * total
     return float(out[0]) if x.ndim == 0 else out.reshape(x.shape)
 
 
@@ -188,13 +190,13 @@ def tetrahedron_dos(mesh: KMesh, energies_eV: np.ndarray,
     e = _check_energies(mesh, energies_eV)
     grid = _check_grid(energy_grid_eV)
     simplices, n_below, w = _band_simplices(mesh, e, grid[0], grid[-1] + 1.0)
-    count = np.full(grid.size, float(n_below * round(1.0 / w)))
+    count = np.full(grid.size, float(n_below))
     dos = np.zeros(grid.size)
     for band in simplices:
-        f, dens = accumulate(band, grid)
+        f, dens = accumulate(band, grid, w)
         count += f
         dos += dens
-    return DensityOfStates(grid, SPIN_DEGENERACY * w * dos, SPIN_DEGENERACY * w * count,
+    return DensityOfStates(grid, SPIN_DEGENERACY * dos, SPIN_DEGENERACY * count,
                            "tetrahedron", None)
 
 
@@ -281,24 +283,25 @@ def band_energy_window(energies_eV: np.ndarray, margin_eV: float = 0.0) -> tuple
 class _Counter:
     """N(ε) from a set of sorted simplices, cheap at one ε; shrinks to a bracket as it narrows."""
 
-    def __init__(self, corners_eV: np.ndarray, weight: float, base: float = 0.0):
+    def __init__(self, corners_eV: np.ndarray, weights: np.ndarray, base: float = 0.0):
         self.corners = corners_eV
-        self.weight = weight
+        self.weights = weights
         self.base = base
 
     def __call__(self, energy_eV: float) -> float:
-        c = self.corners
-        below = np.count_nonzero(c[:, -1] <= energy_eV)
+        c, w = self.corners, self.weights
+        below = float(np.sum(w[c[:, -1] <= energy_eV]))
         inside = (c[:, 0] < energy_eV) & (energy_eV < c[:, -1])
         f, _ = simplex_occupation(c[inside], energy_eV)
-        return self.base + SPIN_DEGENERACY * self.weight * (below + float(f.sum()))
+        return self.base + SPIN_DEGENERACY * (below + float(f @ w[inside]))
 
     def restrict(self, lo: float, hi: float) -> None:
         """Keep the simplices overlapping (lo, hi); those below lo go into the base count."""
         c = self.corners
         done = c[:, -1] <= lo
-        self.base += SPIN_DEGENERACY * self.weight * np.count_nonzero(done)
-        self.corners = c[~done & (c[:, 0] < hi)]
+        self.base += SPIN_DEGENERACY * float(np.sum(self.weights[done]))
+        keep = ~done & (c[:, 0] < hi)
+        self.corners, self.weights = c[keep], self.weights[keep]
 
 
 def _find_level(count: Callable[[float], float], lo: float, hi: float, target: float,
@@ -383,7 +386,7 @@ def fermi_level_from_count(mesh: KMesh, energies_eV: np.ndarray, n_electrons: fl
         corners, n_below, w = _band_simplices(mesh, e, lo, hi)
         stacked = (np.concatenate(corners) if corners else
                    np.empty((0, mesh.dimension + 1)))
-        counter = _Counter(stacked, w, SPIN_DEGENERACY * n_below)
+        counter = _Counter(stacked, np.tile(w, len(corners)), SPIN_DEGENERACY * n_below)
         count = counter
     if hi <= lo or count(hi) <= n_electrons:
         limit = ("the bottom of the highest band given" if method == "tetrahedron" else

@@ -27,7 +27,7 @@ import numpy as np
 
 from ..crystal.kmesh import KMesh
 from ..units import COULOMB_EV_A, HBAR2_OVER_2M0_EV_A2
-from .tetrahedra import simplex_corners, simplex_occupation
+from .tetrahedra import irreducible_simplices, simplex_occupation
 
 #: ħ²/m0 in eV·Å².
 HBAR2_OVER_M0_EV_A2 = 2.0 * HBAR2_OVER_2M0_EV_A2
@@ -202,7 +202,7 @@ def fermi_surface_average(mesh: KMesh, energies_eV: np.ndarray, values: np.ndarr
     The density of each simplex at E_F in closed form (Blöchl, Jepsen & Andersen, Phys. Rev. B
     49, 16223 (1994); :func:`~bandpert.physics.tetrahedra.simplex_occupation`) times the mean
     of v over its corners. ``values`` must be invariant under the point group (a direction
-    average), since they are unfolded from the irreducible points like the energies.
+    average), since they live on the irreducible points like the energies.
 
     Parameters
     ----------
@@ -216,8 +216,8 @@ def fermi_surface_average(mesh: KMesh, energies_eV: np.ndarray, values: np.ndarr
     float
         Per unit energy (eV⁻¹), per cell, one spin.
     """
-    index = simplex_corners(mesh)
-    e, v = mesh.unfold(energies_eV), mesh.unfold(values)
+    index, weights = irreducible_simplices(mesh)
+    e, v = np.asarray(energies_eV, dtype=float), np.asarray(values, dtype=float)
     total = 0.0
     for n in range(e.shape[1]):
         if not e[:, n].min() < fermi_level_eV < e[:, n].max():
@@ -225,5 +225,5 @@ def fermi_surface_average(mesh: KMesh, energies_eV: np.ndarray, values: np.ndarr
         c = e[:, n][index]
         cut = (c.min(axis=1) < fermi_level_eV) & (c.max(axis=1) > fermi_level_eV)
         _, density = simplex_occupation(c[cut], fermi_level_eV)
-        total += float(np.sum(density * v[:, n][index[cut]].mean(axis=1)))
-    return total / len(index)
+        total += float(np.sum(weights[cut] * density * v[:, n][index[cut]].mean(axis=1)))
+    return total
