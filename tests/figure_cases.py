@@ -101,6 +101,7 @@ def all_cases() -> dict:
     """Name → zero-argument builder of every command's figure on a few crystals."""
     own = own_crystal
     return {
+        **subband_cases(),
         "bands-silicon": lambda: bands_exact(bundled("silicon")),
         "bands-own": lambda: bands_exact(own()),
         "bands-labelled-silicon": lambda: bands_labelled(bundled("silicon")),
@@ -130,6 +131,35 @@ def all_cases() -> dict:
         "dos-aluminium": lambda: dos(bundled("aluminium")),
         "dos-silicon": lambda: dos(bundled("silicon"), method="gaussian", smearing_eV=0.01),
         "dos-own": lambda: dos(own()),
+    }
+
+
+# --- heterostructure figures (bandpert subbands): the profile and the in-plane dispersion ------
+
+def _well_structure():
+    from bandpert.input.structure_file import parse_structure
+
+    barrier = {"alloy": "aluminium-gallium-arsenide", "x": 0.3, "thickness_nm": 6.0}
+    return parse_structure({"name": "GaAs/Al0.3Ga0.7As 8 nm well", "source": "the tests' own",
+                            "layers": [barrier, {"material": "gallium-arsenide",
+                                                 "thickness_nm": 8.0}, barrier]}, "well.toml")
+
+
+def subband_cases() -> dict:
+    """The subbands command's two figures on a small well (0.2 nm grid, few k∥)."""
+    from bandpert.heterostructure import compute_subbands, in_plane_dispersion
+    from bandpert.output.figures.subband_dispersion import dispersion_figure
+    from bandpert.output.figures.subbands import subband_figure
+
+    return {
+        "subbands-profile-eight-band": lambda: subband_figure(
+            compute_subbands(_well_structure(), 0.2, 3, "eight-band")),
+        "subbands-profile-four-band": lambda: subband_figure(
+            compute_subbands(_well_structure(), 0.2, 3, "four-band")),
+        "subbands-in-plane-eight-band": lambda: dispersion_figure(
+            in_plane_dispersion(_well_structure(), "eight-band", 0.04, 6, 3, 0.2)),
+        "subbands-in-plane-four-band": lambda: dispersion_figure(
+            in_plane_dispersion(_well_structure(), "four-band", 0.04, 6, 4, 0.2)),
     }
 
 

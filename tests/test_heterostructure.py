@@ -452,3 +452,69 @@ def test_multiband_superlattice_heavy_holes_match_one_band_miniband_edges():
                                atol=1e-9)
     np.testing.assert_allclose(four.miniband_edge_eV["heavy hole"],
                                one.miniband_edge_eV["heavy hole"], atol=1e-9)
+
+
+# --- in-plane dispersion on the engine, its figure and the command ------------------------------
+
+def test_in_plane_points_on_the_engine_equal_the_serial_ones(dask_scheduler):
+    from bandpert.runs.execution import Engine
+    from bandpert.runs.in_plane import in_plane_on_engine
+
+    s = _well(6.0, 4.0)
+    serial = in_plane_on_engine(s, "eight-band", 0.03, 4, 2, 0.2)
+    spread = in_plane_on_engine(s, "eight-band", 0.03, 4, 2, 0.2,
+                                Engine("scheduler", address=dask_scheduler))
+    # one BLAS thread per solve either way: the same numbers wherever a point ran
+    for d in ("100", "110"):
+        np.testing.assert_allclose(spread.conduction_eV[d], serial.conduction_eV[d], atol=1e-10)
+        np.testing.assert_allclose(spread.valence_eV[d], serial.valence_eV[d], atol=1e-10)
+    # at k∥ = 0 the dispersion's first row is the k∥ = 0 solver's levels (fewer Lanczos extras)
+    r = compute_subbands(s, 0.2, n_levels=2, model="eight-band")
+    np.testing.assert_allclose(serial.conduction_eV["100"][0], r.levels_eV["conduction"],
+                               atol=1e-9)
+    v = np.sort(np.concatenate([r.levels_eV["heavy hole"], r.levels_eV["light hole"]]))[::-1]
+    np.testing.assert_allclose(serial.valence_eV["110"][0], v[:2], atol=1e-9)
+
+
+def test_in_plane_dispersion_of_a_four_band_well_is_anisotropic_and_figure_is_legible():
+    from figure_cases import text_problems
+
+    from bandpert.heterostructure import in_plane_dispersion
+    from bandpert.output.figures.subband_dispersion import dispersion_figure
+
+    d = in_plane_dispersion(_well(8.0, 6.0), "four-band", 0.04, 5, 2, 0.2)
+    assert d.conduction_eV["100"].shape == (5, 0)
+    # the Luttinger valence band is warped when γ2 ≠ γ3 (Luttinger 1956): at |k∥| = 0.04 1/Å
+    # the highest subband differs between [100] and [110] (common practice, no source)
+    assert abs(d.valence_eV["100"][-1, 0] - d.valence_eV["110"][-1, 0]) > 1e-4
+    np.testing.assert_allclose(d.valence_eV["100"][0], d.valence_eV["110"][0], atol=1e-12)
+    assert text_problems(dispersion_figure(d)) == []
+
+
+def test_subbands_command_in_plane_writes_the_dispersion(tmp_path):
+    path = tmp_path / "well.toml"
+    path.write_text(STRUCTURE, encoding="utf-8")
+    code, out, err = _cli(["subbands", str(path), "--out", str(tmp_path / "o"), "--model",
+                           "four-band", "--in-plane", "0.03", "--k-points", "3", "--levels",
+                           "2", "--engine", "serial"])
+    assert code == 0, err
+    doc = json.loads((tmp_path / "o" / "well-subbands.json").read_text("utf-8"))
+    ip = doc["results"]["in_plane"]
+    assert ip["k_invA"] == pytest.approx([0.0, 0.015, 0.03])
+    assert len(ip["directions"]["110"]["valence_eV"]) == 3
+    assert doc["settings"]["engine"].startswith("serial")
+    assert (tmp_path / "o" / "well-subbands-in-plane.png").stat().st_size > 0
+    assert "in-plane masses" in out
+
+
+def test_bundled_example_structure_is_found_by_name():
+    from bandpert.input.structure_file import load_structure
+
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", ModelWarning)  # x = 0.3: Γ is the lowest valley
+        s = load_structure("gallium-arsenide-well")
+    assert [layer.thickness_nm for layer in s.layers] == [10.0, 10.0, 10.0]
+    a = compute_subbands(s, 0.1, 2).levels_eV
+    b = compute_subbands(_well(10.0, 10.0), 0.1, 2).levels_eV
+    for band in a:
+        np.testing.assert_allclose(a[band], b[band], atol=1e-12)

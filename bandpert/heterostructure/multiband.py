@@ -185,7 +185,8 @@ def _operator(grid: Grid, layers: list[LayerMatrices], k_par: FloatArray,
 
 def multiband_levels(grid: Grid, layers: list[LayerMatrices], model: str, n_pairs: int,
                      sigma_eV: float, side: str, k_par_invA=(0.0, 0.0),
-                     phase: float | None = None) -> tuple[FloatArray, NDArray]:
+                     phase: float | None = None, extra_pairs: int = 4
+                     ) -> tuple[FloatArray, NDArray]:
     """Levels nearest a shift on one side of it, as Kramers pairs.
 
     Parameters
@@ -201,6 +202,9 @@ def multiband_levels(grid: Grid, layers: list[LayerMatrices], model: str, n_pair
     k_par_invA : (kx, ky)
     phase : float, optional
         Bloch phase of a periodic structure.
+    extra_pairs : int
+        Lanczos pairs asked for beyond ``n_pairs`` (more converge the wanted ones in fewer
+        steps when levels crowd near the shift; fewer make each step cheaper).
 
     Returns
     -------
@@ -212,7 +216,7 @@ def multiband_levels(grid: Grid, layers: list[LayerMatrices], model: str, n_pair
     a = _operator(grid, layers, np.asarray(k_par_invA, dtype=float), model, phase)
     n = layers[0].h0.shape[0]
     want = 2 * n_pairs
-    vals, vecs = _shift_invert(a, want, sigma_eV)
+    vals, vecs = _shift_invert(a, want, sigma_eV, 2 * extra_pairs)
     pick = vals >= sigma_eV if side == "up" else vals <= sigma_eV
     vals, vecs = vals[pick], vecs[:, pick]
     order = np.argsort(vals if side == "up" else -vals)[:want]
@@ -225,7 +229,7 @@ def multiband_levels(grid: Grid, layers: list[LayerMatrices], model: str, n_pair
     return 0.5 * (vals[0::2] + vals[1::2]), vecs.reshape(grid.size, n, n_pairs, 2)
 
 
-def _shift_invert(a: scipy.sparse.csc_matrix, want: int, sigma: float
+def _shift_invert(a: scipy.sparse.csc_matrix, want: int, sigma: float, extra: int = 8
                   ) -> tuple[FloatArray, NDArray]:
     """Eigenpairs of a sparse Hermitian matrix nearest ``sigma`` (shift-invert Lanczos, a
     sparse LU of the block-tridiagonal matrix: memory and work linear in the grid).
@@ -233,7 +237,7 @@ def _shift_invert(a: scipy.sparse.csc_matrix, want: int, sigma: float
     BLAS runs on one thread: the factors are narrow, and on a busy two-core machine a second
     thread only waits (measured: 0.4 s instead of 13 s for the 20 nm well at k∥ ≠ 0).
     """
-    k = min(a.shape[0] - 2, want + 8)
+    k = min(a.shape[0] - 2, want + extra)
     real = a.nnz == 0 or abs(a.imag).max() < 1e-14 * max(1.0, abs(a).max())
     if not _THREADS:
         _THREADS.append(ThreadpoolController())

@@ -47,7 +47,12 @@ from .alloy_file import ALLOYS_KIND, parse_alloy
 from .kp_file import KPMaterial, parse_kp_material
 from .reader import TableReader, describe, read_header, read_toml_document
 
-__all__ = ["GROWTH_AXES", "Layer", "Structure", "load_structure", "parse_structure"]
+__all__ = ["GROWTH_AXES", "STRUCTURES_KIND", "Layer", "Structure", "load_structure",
+           "parse_structure"]
+
+#: Folder of the bundled structure files (``find_material(name, STRUCTURES_KIND)``): example
+#: structures found by name, e.g. ``load_structure("gallium-arsenide-well")``.
+STRUCTURES_KIND = "structures"
 
 #: Growth directions a structure file may name.
 GROWTH_AXES: tuple[str, ...] = ("001",)
@@ -209,7 +214,8 @@ def parse_structure(doc: dict[str, Any], source: str = "", folder: Path | None =
 
 
 def load_structure(path: str | Path) -> Structure:
-    """Read and validate a structure file (module docstring)."""
-    path = Path(path)
+    """Read and validate a structure file (module docstring), or a bundled one by name
+    (:data:`STRUCTURES_KIND`; a path that exists always wins)."""
+    path = find_material(path, STRUCTURES_KIND)
     doc = read_toml_document(path, "a heterostructure TOML file")
     return parse_structure(doc, str(path), path.parent)

@@ -16,8 +16,10 @@ __all__ = ["ENERGY_ZERO", "subband_document", "subband_table"]
 ENERGY_ZERO = "common band-offset scale"
 
 
-def subband_document(result, settings: dict[str, Any]) -> dict[str, Any]:
-    """The JSON document (the common envelope of every command; ``material`` is the structure).
+def subband_document(result, settings: dict[str, Any], dispersion=None) -> dict[str, Any]:
+    """The JSON document (the common envelope of every command; ``material`` is the structure),
+    with ``results.in_plane`` when an :class:`~bandpert.heterostructure.InPlaneDispersion` is
+    given.
     """
     bands = {}
     for band in result.levels_eV:
@@ -31,7 +33,7 @@ def subband_document(result, settings: dict[str, Any]) -> dict[str, Any]:
         if result.miniband_edge_eV is not None:
             entry["miniband_edge_eV"] = result.miniband_edge_eV[band]
         bands[band] = entry
-    return {
+    doc = {
         "command": "subbands",
         "tool": {"name": "bandpert", "version": __version__},
         "material": {"name": result.name, "source": result.source, "file": result.file},
@@ -48,6 +50,14 @@ def subband_document(result, settings: dict[str, Any]) -> dict[str, Any]:
             "notes": list(result.notes),
         },
     }
+    if dispersion is not None:
+        doc["results"]["in_plane"] = {
+            "k_invA": dispersion.k_invA,
+            "directions": {d: {"conduction_eV": dispersion.conduction_eV[d],
+                               "valence_eV": dispersion.valence_eV[d],
+                               "in_plane_mass_m0": dispersion.in_plane_mass_m0[d]}
+                           for d in dispersion.conduction_eV}}
+    return doc
 
 
 def subband_table(result) -> tuple[list[str], list[str], list[list[str]]]:

@@ -9,29 +9,38 @@ import typer
 from rich.table import Table
 
 from ...errors import InputError
-from ...heterostructure import MODELS, compute_subbands, in_plane_dispersion
+from ...heterostructure import MODELS, compute_subbands
 from ...input.structure_file import load_structure
 from ...io import write_json, write_table
+from ...output.figures.subband_dispersion import dispersion_figure
 from ...output.figures.subbands import subband_figure
 from ...output.subbands_report import subband_document, subband_table
+from ...runs.in_plane import in_plane_on_engine
 from ..options import (
     DEFAULT_OUT,
+    EngineKind,
+    EngineOption,
     FormatOption,
     ImageFormat,
     PlotCsvJsonDir,
+    SchedulerOption,
+    WorkersOption,
+    engine_from_options,
     json_option,
     name_option,
     out,
     output_base,
     output_paths,
+    progress_bar,
     save_figure,
 )
 
 
 def subbands(
-    file: Annotated[Path, typer.Argument(metavar="FILE", show_default=False,
+    file: Annotated[Path, typer.Argument(metavar="FILE|NAME", show_default=False,
                                          help="Heterostructure file (TOML): layers of k·p "
-                                         "files or alloys.")],
+                                         "files or alloys; or a bundled one by name "
+                                         "(gallium-arsenide-well).")],
     levels: Annotated[int, typer.Option("--levels", help="Levels per band.")] = 3,
     spacing_nm: Annotated[float, typer.Option("--spacing-nm", help="Grid spacing along z, nm "
                                               "(each layer a whole number of it).")] = 0.1,
@@ -42,35 +51,44 @@ def subbands(
         "(1/Å) and their in-plane masses (multiband models).", show_default=False)] = None,
     k_points: Annotated[int, typer.Option("--k-points", help="Points along each in-plane "
                                           "direction.")] = 21,
+    engine: EngineOption = EngineKind.local,
+    workers: WorkersOption = None,
+    scheduler: SchedulerOption = None,
     out_dir: PlotCsvJsonDir = DEFAULT_OUT,
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("subbands")] = None,
     name: Annotated[str | None, name_option("<file>-subbands")] = None,
 ) -> None:
     """Subbands of a heterostructure at k∥ = 0: levels, envelope functions, transitions, and
-    the band-edge profile with |ψ|² drawn at each level."""
+    the band-edge profile with |ψ|² drawn at each level.
+
+    With --in-plane also the subbands along [100] and [110] (a second figure, NAME-in-plane);
+    their k∥ points run on a local Dask cluster by default, on an existing scheduler with
+    --scheduler, or in this process with --engine serial.
+    """
+    run_on = engine_from_options(engine, workers, scheduler)
+    if in_plane is not None and model == "one-band":
+        raise InputError("the in-plane dispersion needs a multiband model (four-band, "
+                         "six-band or eight-band)", key="--in-plane")
     structure = load_structure(file)
     result = compute_subbands(structure, spacing_nm, levels, model)
     settings = {"model": model, "levels": levels, "spacing_nm": spacing_nm,
                 "in_plane_k_max_invA": in_plane, "k_points": k_points}
-    doc = subband_document(result, settings)
     dispersion = None
     if in_plane is not None:
-        if model == "one-band":
-            raise InputError("the in-plane dispersion needs a multiband model (four-band, "
-                             "six-band or eight-band)", key="--in-plane")
-        dispersion = in_plane_dispersion(structure, model, in_plane, k_points, levels,
-                                         spacing_nm)
-        doc["results"]["in_plane"] = {
-            "k_invA": dispersion.k_invA,
-            "directions": {d: {"conduction_eV": dispersion.conduction_eV[d],
-                               "valence_eV": dispersion.valence_eV[d],
-                               "in_plane_mass_m0": dispersion.in_plane_mass_m0[d]}
-                           for d in dispersion.conduction_eV}}
+        settings["engine"] = run_on.describe()
+        with progress_bar("in-plane points") as progress:
+            dispersion = in_plane_on_engine(structure, model, in_plane, k_points, levels,
+                                            spacing_nm, run_on, progress)
+    doc = subband_document(result, settings, dispersion)
     fig = subband_figure(result)
-    image, csv_path, json_path = output_paths(
-        output_base(out_dir, name, f"{Path(file).stem}-subbands"), image_format, json_path)
+    base = output_base(out_dir, name, f"{Path(file).stem}-subbands")
+    image, csv_path, json_path = output_paths(base, image_format, json_path)
     save_figure(fig, image, image_format)
+    written = [image]
+    if dispersion is not None:
+        written.append(base.with_name(f"{base.name}-in-plane.{image_format.value}"))
+        save_figure(dispersion_figure(dispersion), written[-1], image_format)
     write_table(csv_path, *subband_table(result))
     write_json(json_path, doc)
     table = Table(title=f"{structure.name}: {model} subbands at k∥ = 0 (eV, common scale)",
@@ -91,4 +109,4 @@ def subbands(
                              for side, v in m.items() if len(v))
             out.print(f"in-plane masses at k∥ = 0 along [{d}] (m0, negative: hole-like, sorted "
                       f"from the gap): {text}")
-    out.print(f"wrote {image}, {csv_path}, {json_path}")
+    out.print(f"wrote {', '.join(str(p) for p in (*written, csv_path, json_path))}")

@@ -38,11 +38,12 @@ def subband_figure(result, window_eV: tuple[float | None, float | None] | None =
     panels = ((top, ("conduction",)), (bottom, ("heavy hole", "light hole")))
     handles = []
     for ax, bands in panels:
+        solved = [b for b in bands if b in result.levels_eV]  # a valence-only model: no E
         edges = np.concatenate([result.edges_eV[b] for b in bands])
-        levels = np.concatenate([result.levels_eV[b] for b in bands])
+        levels = np.concatenate([result.levels_eV[b] for b in solved] or [edges[:1]])
         lo, hi = float(min(edges.min(), levels.min())), float(max(edges.max(), levels.max()))
         span = hi - lo if hi > lo else 0.1
-        peak = max(float(result.densities_per_nm[b].max()) for b in bands)
+        peak = max([float(result.densities_per_nm[b].max()) for b in solved] or [0.0])
         scale = 0.2 * span / peak if peak > 0 else 0.0
         for band in bands:
             colour = BAND_COLOURS[band]
@@ -50,6 +51,8 @@ def subband_figure(result, window_eV: tuple[float | None, float | None] | None =
             handles.append(Line2D([], [], color=colour, ls=BAND_STYLES[band], lw=1.6,
                                   label=f"{band} edge"))
             sign = -1.0 if band != "conduction" else 1.0
+            if band not in solved:
+                continue
             for i, (e, rho) in enumerate(zip(result.levels_eV[band],
                                              result.densities_per_nm[band], strict=True)):
                 ax.axhline(e, color=colour, lw=0.5, alpha=0.6)
@@ -66,6 +69,10 @@ def subband_figure(result, window_eV: tuple[float | None, float | None] | None =
     bottom.set_xlim(z[0] - 0.5 * result.spacing_nm, z[-1] + 0.5 * result.spacing_nm)
     names = []
     for band in ("conduction", "heavy hole", "light hole"):
+        if band not in result.levels_eV:
+            names.append(Line2D([], [], color=BAND_COLOURS[band], lw=0.9,
+                                label=f"not in the {result.model} model"))
+            continue
         shown = [f"{lab} {e:.4f}" for lab, e in zip(result.labels[band][:3],
                                                     result.levels_eV[band][:3], strict=False)]
         names.append(Line2D([], [], color=BAND_COLOURS[band], lw=0.9,
