@@ -1,6 +1,7 @@
 """In-plane dispersion and in-plane masses of the subbands (multiband models).
 
-For each in-plane wave vector k∥ = t û (û along [100] or [110], t from 0 to ``k_max_invA``) the
+For each in-plane wave vector k∥ = t û (û along two in-plane directions of the growth axis,
+:data:`IN_PLANE_DIRECTIONS`: [100] and [110] for [001] growth; t from 0 to ``k_max_invA``) the
 multiband operator of :mod:`.multiband` is solved for the requested levels on each side of the
 gap: the lowest conduction subbands and the highest valence subbands, sorted by energy at each
 k∥ (no tracking through anticrossings: the valence subbands of a well anticross, and sorted
@@ -16,6 +17,7 @@ knowing about engines.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from typing import Any
@@ -25,7 +27,6 @@ from numpy.typing import NDArray
 
 from ..errors import InputError
 from ..input.structure_file import Structure
-from ..kp import unit_vector
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
 from .grid import Grid, build_grid, layer_edges
 from .multiband import MULTIBAND_MODELS, LayerMatrices, layer_matrices, multiband_levels
@@ -33,8 +34,13 @@ from .multiband import MULTIBAND_MODELS, LayerMatrices, layer_matrices, multiban
 __all__ = ["IN_PLANE_DIRECTIONS", "MASS_STEP_INVA", "DispersionSetup", "InPlaneDispersion",
            "dispersion_setup", "in_plane_dispersion", "point_levels"]
 
-#: In-plane directions of a [001] structure.
-IN_PLANE_DIRECTIONS: tuple[str, ...] = ("100", "110")
+#: Growth direction → its two in-plane directions (Miller labels) and their unit vectors in
+#: the structure's frame (:func:`~.grid.growth_frame`). [001]: [100] and [110] (the valence
+#: warping's extremes); [110]: [-110] and [001]; [111]: [1-10] and [11-2].
+IN_PLANE_DIRECTIONS: dict[str, tuple[tuple[str, tuple[float, float]], ...]] = {
+    "001": (("100", (1.0, 0.0)), ("110", (math.sqrt(0.5), math.sqrt(0.5)))),
+    "110": (("-110", (1.0, 0.0)), ("001", (0.0, 1.0))),
+    "111": (("1-10", (1.0, 0.0)), ("11-2", (0.0, 1.0)))}
 
 #: Step of the in-plane mass, Å⁻¹ (far inside the anticrossings of a 5–20 nm well, which
 #: start near 0.01 Å⁻¹; the mass changes by under 10⁻⁴ between 0.001 and 0.002 Å⁻¹).
@@ -58,10 +64,13 @@ class InPlaneDispersion:
     model : str
     name : str
         The structure's name.
+    growth : str
+        The growth direction ("001", "110", "111").
     k_invA : ndarray (n_k,)
         |k∥| along each direction.
     conduction_eV, valence_eV : dict
-        Direction label → (n_k, n_levels) energies (common scale); conduction upward from the
+        Direction label (:data:`IN_PLANE_DIRECTIONS`, first one first) → (n_k, n_levels)
+        energies (common scale); conduction upward from the
         lowest, valence downward from the highest (empty arrays for a valence-only model).
     in_plane_mass_m0 : dict
         Direction label → {"conduction": (n_levels,), "valence": (n_levels,)} signed m∥/m0.
@@ -69,6 +78,7 @@ class InPlaneDispersion:
 
     model: str
     name: str
+    growth: str
     k_invA: FloatArray
     conduction_eV: dict[str, FloatArray]
     valence_eV: dict[str, FloatArray]
@@ -142,7 +152,7 @@ def in_plane_dispersion(structure: Structure, model: str = "eight-band",
                         spacing_nm: float = 0.1,
                         map_points: Callable[[Callable, list], list] | None = None
                         ) -> InPlaneDispersion:
-    """The subbands along [100] and [110] up to ``k_max_invA`` (module docstring).
+    """The subbands along two in-plane directions up to ``k_max_invA`` (module docstring).
 
     Parameters
     ----------
@@ -167,14 +177,15 @@ def in_plane_dispersion(structure: Structure, model: str = "eight-band",
     setup = dispersion_setup(structure, model, n_levels, spacing_nm)
     k = np.linspace(0.0, k_max_invA, n_k)
     ks = np.concatenate([k, [MASS_STEP_INVA]])
-    tasks = [(setup, t * unit_vector(label)[:2]) for label in IN_PLANE_DIRECTIONS for t in ks]
+    directions = IN_PLANE_DIRECTIONS[structure.growth]
+    tasks = [(setup, t * np.array(u)) for _, u in directions for t in ks]
     values = (map_points or _serial)(point_levels, tasks)
     cond, val, masses = {}, {}, {}
-    for j, label in enumerate(IN_PLANE_DIRECTIONS):
+    for j, (label, _) in enumerate(directions):
         rows = values[j * ks.size:(j + 1) * ks.size]
         c = np.array([r[0] for r in rows]).reshape(ks.size, -1)
         v = np.array([r[1] for r in rows])
         cond[label], val[label] = c[:-1], v[:-1]
         masses[label] = {"conduction": C * MASS_STEP_INVA**2 / (c[-1] - c[0]),
                          "valence": C * MASS_STEP_INVA**2 / (v[-1] - v[0])}
-    return InPlaneDispersion(model, structure.name, k, cond, val, masses)
+    return InPlaneDispersion(model, structure.name, structure.growth, k, cond, val, masses)

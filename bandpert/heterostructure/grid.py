@@ -7,11 +7,16 @@ is formed there (:func:`half_node_inverse`). With the interface on a node the er
 levels falls only as h; on half-nodes it falls as h² (the tests measure it).
 
 Per layer (:class:`LayerEdges`): the strain of pseudomorphic growth on the substrate
-(:func:`bandpert.kp.pseudomorphic_strain`, [001]), the band edges at Γ on the common energy
-scale (valence-band top of the unstrained layer + the strained six- or eight-band levels of
-:func:`bandpert.kp.material_model`), and the band-edge masses along z: m_e from the eight-band
-relation (:func:`~bandpert.kp.conduction_inverse_mass`), heavy and light holes m0/(γ1 ∓ 2γ2)
-(Luttinger 1956, [001]).
+(:func:`bandpert.kp.pseudomorphic_strain` along the structure's growth direction), the band
+edges at Γ on the common energy scale (valence-band top of the unstrained layer + the strained
+six- or eight-band levels of :func:`bandpert.kp.material_model`), and the band-edge masses
+along z: m_e from the eight-band relation (:func:`~bandpert.kp.conduction_inverse_mass`),
+heavy and light holes from Luttinger's bulk dispersion along the growth direction
+(:func:`~bandpert.kp.luttinger_inverse_masses`: m0/(γ1 ∓ 2γ2) along [001], m0/(γ1 ∓ 2γ3)
+along [111], m0/(γ1 ∓ √(γ2² + 3γ3²)) along [110]; Luttinger 1956).
+
+The frame of a structure (:func:`growth_frame`): z along the growth direction, x and y two
+in-plane axes, all in cubic crystal coordinates; the multiband operator is written in it.
 """
 
 from __future__ import annotations
@@ -23,9 +28,49 @@ from numpy.typing import NDArray
 
 from ..errors import InputError
 from ..input.structure_file import Structure
-from ..kp import conduction_inverse_mass, material_model, pseudomorphic_strain
+from ..kp import (
+    conduction_inverse_mass,
+    luttinger_inverse_masses,
+    material_model,
+    pseudomorphic_strain,
+)
 
-__all__ = ["Grid", "LayerEdges", "build_grid", "half_node_inverse", "layer_edges"]
+__all__ = ["IN_PLANE_AXES", "Grid", "LayerEdges", "build_grid", "growth_frame",
+           "half_node_inverse", "layer_edges"]
+
+#: Growth direction → (in-plane x, in-plane y) in cubic axes, Miller-index labels; x × y is
+#: the growth direction (a right-handed frame). [110]: x = [-110], y = [001];
+#: [111]: x = [1-10], y = [11-2].
+IN_PLANE_AXES: dict[str, tuple[str, str]] = {
+    "001": ("100", "010"), "110": ("-110", "001"), "111": ("1-10", "11-2")}
+
+
+def _miller(label: str) -> FloatArray:
+    """"1-10" → (1, −1, 0) as a unit vector."""
+    digits, sign = [], 1.0
+    for ch in label:
+        if ch == "-":
+            sign = -1.0
+            continue
+        digits.append(sign * float(ch))
+        sign = 1.0
+    v = np.array(digits)
+    return v / np.linalg.norm(v)
+
+
+def growth_frame(growth: str) -> FloatArray:
+    """R (3, 3): rows are the frame's x, y, z (z = growth) in cubic axes; k_cubic = Rᵀ k_frame.
+
+    Raises
+    ------
+    InputError
+        A growth direction without a frame (key ``growth``).
+    """
+    if growth not in IN_PLANE_AXES:
+        raise InputError(f"no frame for growth along '{growth}'; expected one of "
+                         f"{', '.join(IN_PLANE_AXES)}", key="growth")
+    x, y = (_miller(a) for a in IN_PLANE_AXES[growth])
+    return np.array([x, y, np.cross(x, y)])
 
 FloatArray = NDArray[np.float64]
 
@@ -41,7 +86,7 @@ class LayerEdges:
     ----------
     conduction_eV, heavy_hole_eV, light_hole_eV, split_off_eV : float
     m_e, m_hh, m_lh : float
-        Band-edge masses along [001] (holes positive).
+        Band-edge masses along the growth direction (holes positive).
     strain : ndarray (3, 3) or None
     """
 
@@ -67,7 +112,8 @@ def layer_edges(structure: Structure) -> list[LayerEdges]:
                              structure.file, f"layers[{i}]")
         eps = None
         if structure.substrate_a_A is not None:
-            eps = pseudomorphic_strain(kpm.a_A, structure.substrate_a_A, kpm.elastic, "001")
+            eps = pseudomorphic_strain(kpm.a_A, structure.substrate_a_A, kpm.elastic,
+                                       structure.growth)
         model = material_model(kpm, "eight-band", strain=eps)
         e = model.gamma_energies_eV
         names = model.band_names
@@ -76,11 +122,18 @@ def layer_edges(structure: Structure) -> list[LayerEdges]:
             return float(np.mean([x for x, n in zip(e, names, strict=True) if n == name]))
 
         top = layer.valence_band_eV
+        inv_hh, inv_lh = luttinger_inverse_masses(p.gamma1, p.gamma2, p.gamma3,
+                                                  growth_frame(structure.growth)[2])
+        if not (inv_hh > 0 and inv_lh > 0):
+            raise InputError(f"{layer.label}: the Luttinger parameters give hole masses "
+                             f"m0/{inv_hh:.3g} and m0/{inv_lh:.3g} along [{structure.growth}]; "
+                             "expected both positive (γ1 larger than the warping terms)",
+                             structure.file, f"layers[{i}]")
         out.append(LayerEdges(
             conduction_eV=top + level("conduction"), heavy_hole_eV=top + level("heavy hole"),
             light_hole_eV=top + level("light hole"), split_off_eV=top + level("split-off"),
             m_e=1.0 / conduction_inverse_mass(p.Eg_eV, p.Delta_so_eV, p.Ep_eV, p.F),
-            m_hh=1.0 / (p.gamma1 - 2.0 * p.gamma2), m_lh=1.0 / (p.gamma1 + 2.0 * p.gamma2),
+            m_hh=1.0 / inv_hh, m_lh=1.0 / inv_lh,
             strain=eps))
     return out
 

@@ -1,8 +1,10 @@
-r"""Multiband envelope functions along z ([001]): four-, six- and eight-band k·p on the grid.
+r"""Multiband envelope functions along z: four-, six- and eight-band k·p on the grid.
 
 The bulk Hamiltonian of each layer, H(k) = H0 + Σ k_i L_i + Σ k_i k_j Q_ij in the J basis of
 :mod:`bandpert.kp.hamiltonians` (plus the Bir–Pikus matrix of its strain and its valence-band
-offset on the diagonal), becomes an operator along z with k_z → −i d/dz:
+offset on the diagonal), is written in the structure's frame (z along the growth direction
+[001], [110] or [111]: :func:`rotate_terms`) and becomes an operator along z with
+k_z → −i d/dz:
 
 * k_z Q_zz k_z → −d/dz Q_zz(z) d/dz, with Q_zz between two nodes the matrix harmonic mean
   [½(Q_a⁻¹ + Q_b⁻¹)]⁻¹ (the second-order flux condition of :func:`.grid.half_node_inverse`,
@@ -51,10 +53,10 @@ from ..errors import InputError
 from ..input.kp_parameters import KPParameters, conduction_inverse_mass, modified_luttinger
 from ..input.structure_file import Structure
 from ..kp import bir_pikus_cartesian, cartesian_basis_matrix, make_model, pseudomorphic_strain
-from .grid import Grid
+from .grid import Grid, growth_frame
 
 __all__ = ["MULTIBAND_MODELS", "LayerMatrices", "layer_matrices", "multiband_levels",
-           "rescaled_parameters"]
+           "rescaled_parameters", "rotate_terms"]
 
 #: The multiband models and their basis states (indices into the eight-band J basis).
 MULTIBAND_MODELS: dict[str, tuple[int, ...]] = {
@@ -99,6 +101,7 @@ def layer_matrices(structure: Structure, model: str) -> list[LayerMatrices]:
     """The bulk matrices of each layer in the model's basis (module docstring)."""
     keep = np.array(MULTIBAND_MODELS[model])
     u = cartesian_basis_matrix("eight-band")
+    frame = growth_frame(structure.growth)
     out = []
     for i, layer in enumerate(structure.layers):
         kpm = layer.material
@@ -113,13 +116,28 @@ def layer_matrices(structure: Structure, model: str) -> list[LayerMatrices]:
         m = make_model("eight-band", params)
         h0 = m.h0_eV.copy()
         if structure.substrate_a_A is not None:
-            eps = pseudomorphic_strain(kpm.a_A, structure.substrate_a_A, kpm.elastic, "001")
+            eps = pseudomorphic_strain(kpm.a_A, structure.substrate_a_A, kpm.elastic,
+                                       structure.growth)
             h0 = h0 + u.conj().T @ bir_pikus_cartesian(eps, kpm.deformation, True) @ u
         h0 = h0 + layer.valence_band_eV * np.eye(8)
         sub = np.ix_(keep, keep)
-        out.append(LayerMatrices(h0[sub], m.linear_eV_A[(slice(None), *sub)],
-                                 m.quadratic_eV_A2[(slice(None), slice(None), *sub)]))
+        lin, quad = rotate_terms(m.linear_eV_A, m.quadratic_eV_A2, frame)
+        out.append(LayerMatrices(h0[sub], lin[(slice(None), *sub)],
+                                 quad[(slice(None), slice(None), *sub)]))
     return out
+
+
+def rotate_terms(lin: NDArray, quad: NDArray, frame: FloatArray) -> tuple[NDArray, NDArray]:
+    r"""The k-linear and k-quadratic matrices in the structure's frame.
+
+    With k_cubic = Rᵀ k′ (R = :func:`~.grid.growth_frame`, rows x′, y′, z′ in cubic axes),
+    H = H0 + Σ_i k_i L_i + Σ_ij k_i k_j Q_ij becomes H0 + Σ_a k′_a L′_a + Σ_ab k′_a k′_b Q′_ab
+    with L′_a = Σ_i R_ai L_i and Q′_ab = Σ_ij R_ai R_bj Q_ij (the band basis is unchanged: only
+    the wave vector is written in other axes). k′_z then becomes −i d/dz on the grid, with the
+    operator ordering of :func:`_operator`. Identity for [001].
+    """
+    return (np.einsum("ai,inm->anm", frame, lin),
+            np.einsum("ai,bj,ijnm->abnm", frame, frame, quad))
 
 
 def _harmonic(a: NDArray, b: NDArray) -> NDArray:

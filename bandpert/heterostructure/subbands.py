@@ -4,20 +4,22 @@
 Structure` in, a :class:`SubbandResult` (numpy arrays, units in the names) out. Energies are on
 the common scale of the structure's valence-band offsets (eV). The one-band model solves the
 conduction, heavy-hole and light-hole bands separately with BenDaniel–Duke conditions
-(:mod:`.one_band`) and band-edge masses along [001] (:mod:`.grid`).
+(:mod:`.one_band`) and band-edge masses along the growth direction (:mod:`.grid`).
 """
 
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
 from numpy.typing import NDArray
 
-from ..errors import InputError
+from ..errors import InputError, ModelWarning
 from ..input.structure_file import Structure
-from .grid import build_grid, layer_edges
+from ..kp import piezoelectric_note
+from .grid import build_grid, growth_frame, layer_edges
 from .multiband import MULTIBAND_MODELS, layer_matrices, multiband_levels
 from .one_band import one_band_levels
 
@@ -26,9 +28,33 @@ __all__ = ["BANDS", "MODELS", "SubbandResult", "compute_subbands"]
 #: Models of :func:`compute_subbands`.
 MODELS: tuple[str, ...] = ("one-band", *MULTIBAND_MODELS)
 
-#: Character of each eight-band basis state (the multiband levels are named by the largest).
-_CHARACTER = ("conduction", "conduction", "heavy hole", "light hole", "light hole",
-              "heavy hole", "split-off", "split-off")
+#: J = 3/2 magnetic quantum numbers of the eight-band basis states 2–5 (Γ8: +3/2, +1/2,
+#: −1/2, −3/2; :mod:`bandpert.kp.hamiltonians`, Condon–Shortley phases).
+_GAMMA8_M = (1.5, 0.5, -0.5, -1.5)
+
+
+def character_projectors(growth: str) -> dict[str, NDArray]:
+    """Projectors (8, 8) on the conduction, heavy-hole, light-hole and split-off characters,
+    heavy and light holes quantised along the growth direction n: the eigenvectors of J·n in
+    the Γ8 block with |m| = 3/2 and 1/2 (at k∥ = 0 these are the states that decouple for
+    [001] and [111] growth; for [110] the nearest in character). A multiband level is named
+    by its largest projection.
+    """
+    m = np.array(_GAMMA8_M)
+    jp = np.zeros((4, 4))
+    for i in range(1, 4):  # J+|m⟩ = √(j(j+1) − m(m+1)) |m+1⟩, j = 3/2
+        jp[i - 1, i] = math.sqrt(3.75 - m[i] * (m[i] + 1.0))
+    j = (0.5 * (jp + jp.T), -0.5j * (jp - jp.T), np.diag(m))
+    n = growth_frame(growth)[2]
+    vals, vecs = np.linalg.eigh(sum(n[i] * j[i] for i in range(3)))
+    out = {c: np.zeros((8, 8), dtype=complex) for c in ("conduction", "heavy hole",
+                                                        "light hole", "split-off")}
+    out["conduction"][[0, 1], [0, 1]] = 1.0
+    out["split-off"][[6, 7], [6, 7]] = 1.0
+    for name, pick in (("heavy hole", np.abs(vals) > 1.0), ("light hole", np.abs(vals) < 1.0)):
+        v = vecs[:, pick]
+        out[name][2:6, 2:6] = v @ v.conj().T
+    return out
 
 #: The bands of the one-band model, with the prefix of their level labels.
 BANDS: dict[str, str] = {"conduction": "E", "heavy hole": "HH", "light hole": "LH"}
@@ -47,6 +73,8 @@ class SubbandResult:
     model : str
     spacing_nm : float
     periodic : bool
+    growth : str
+        Growth direction ("001", "110", "111"); z runs along it.
     z_nm : ndarray (n,)
         Node positions.
     interfaces_nm : ndarray
@@ -77,6 +105,7 @@ class SubbandResult:
     model: str
     spacing_nm: float
     periodic: bool
+    growth: str
     z_nm: FloatArray
     interfaces_nm: FloatArray
     edges_eV: dict[str, FloatArray]
@@ -151,10 +180,15 @@ def compute_subbands(structure: Structure, spacing_nm: float = 0.1, n_levels: in
             outer = edges[band][[0, -1]]
             bound[band] = e > outer.max() if hole else e < outer.min()
     transitions = _transitions(levels, labels, bound)
-    notes = tuple(dict.fromkeys(layer.note for layer in structure.layers if layer.note))
+    piezo = [piezoelectric_note(e.strain) for e in layers if e.strain is not None]
+    for text in dict.fromkeys(t for t in piezo if t):
+        warnings.warn(text, ModelWarning, stacklevel=2)
+    notes = tuple(dict.fromkeys([layer.note for layer in structure.layers if layer.note]
+                                + [t for t in piezo if t]))
     return SubbandResult(
         name=structure.name, source=structure.source, file=structure.file, model=model,
-        spacing_nm=float(spacing_nm), periodic=structure.periodic, z_nm=grid.z_A / 10.0,
+        spacing_nm=float(spacing_nm), periodic=structure.periodic, growth=structure.growth,
+        z_nm=grid.z_A / 10.0,
         interfaces_nm=grid.interfaces_A / 10.0, edges_eV=edges, levels_eV=levels,
         labels=labels, densities_per_nm=densities, bound=bound, miniband_edge_eV=top,
         transitions_eV=transitions, notes=notes)
@@ -164,7 +198,8 @@ def _multiband(structure, grid, layers, model, n_levels, phase):
     """Levels (one per Kramers pair) and densities of a multiband model, named by character
     (``phase``: the Bloch phase q·d of a periodic structure, None when bounded)."""
     mats = layer_matrices(structure, model)
-    basis = MULTIBAND_MODELS[model]
+    keep = np.ix_(MULTIBAND_MODELS[model], MULTIBAND_MODELS[model])
+    projectors = {c: p[keep] for c, p in character_projectors(structure.growth).items()}
     sides = [("heavy hole", "down", max(max(e.heavy_hole_eV, e.light_hole_eV) for e in layers)
               + 1e-3)]
     if model == "eight-band":
@@ -174,11 +209,10 @@ def _multiband(structure, grid, layers, model, n_levels, phase):
     for kind, side, sigma in sides:
         count = n_levels if kind == "conduction" else 2 * n_levels + 2
         e, psi = multiband_levels(grid, mats, model, count, sigma, side, phase=phase)
-        weight = np.sum(np.abs(psi) ** 2, axis=(0, 3))  # (n, pairs)
-        names = np.array([_CHARACTER[b] for b in basis])
+        weight = {c: np.real(np.einsum("zaps,ab,zbps->p", psi.conj(), proj, psi))
+                  for c, proj in projectors.items()}  # (pairs,) per character
         for j in range(e.size):
-            char = max(("conduction", "heavy hole", "light hole", "split-off"),
-                       key=lambda c, j=j: float(weight[names == c, j].sum()))
+            char = max(weight, key=lambda c, j=j: float(weight[c][j]))
             if char == "split-off" or len(levels.get(char, [])) >= n_levels:
                 continue
             levels.setdefault(char, []).append(float(e[j]))

@@ -9,8 +9,8 @@ Thicknesses in nm, energies in eV; unknown keys are refused; every problem is on
     name = "GaAs/Al0.3Ga0.7As well"            # required
     source = "..."                              # required: where the design comes from
     note = "..."                                # optional
-    growth = "001"                              # optional: growth direction, "001" (default);
-                                                # the solvers take [001] only
+    growth = "001"                              # optional: growth direction, "001" (default),
+                                                # "110" or "111"
     substrate = "gallium-arsenide"              # optional: a k·p file or bundled name, or a
                                                 # lattice constant in Å; every layer is then
                                                 # strained pseudomorphically (needs their
@@ -54,8 +54,9 @@ __all__ = ["GROWTH_AXES", "STRUCTURES_KIND", "Layer", "Structure", "load_structu
 #: structures found by name, e.g. ``load_structure("gallium-arsenide-well")``.
 STRUCTURES_KIND = "structures"
 
-#: Growth directions a structure file may name.
-GROWTH_AXES: tuple[str, ...] = ("001",)
+#: Growth directions a structure file may name (the k·p Hamiltonian is rotated into the
+#: growth frame: :mod:`bandpert.heterostructure.multiband`).
+GROWTH_AXES: tuple[str, ...] = ("001", "110", "111")
 
 #: Largest total thickness, nm (the grid stays linear in memory, but a micrometre of quantum
 #: well is not a quantum well).

@@ -42,6 +42,7 @@ def subband_document(result, settings: dict[str, Any], dispersion=None) -> dict[
             "model": result.model,
             "energy_zero": zero_entry(ENERGY_ZERO, 0.0),
             "periodic": result.periodic,
+            "growth": result.growth,
             "spacing_nm": result.spacing_nm,
             "z_nm": result.z_nm,
             "interfaces_nm": result.interfaces_nm,

@@ -47,8 +47,9 @@ def subbands(
     model: Annotated[str, typer.Option("--model", metavar="|".join(MODELS),
                                        help="Envelope-function model.")] = MODELS[0],
     in_plane: Annotated[float | None, typer.Option(
-        "--in-plane", metavar="KMAX", help="Also the subbands along [100] and [110] up to KMAX "
-        "(1/Å) and their in-plane masses (multiband models).", show_default=False)] = None,
+        "--in-plane", metavar="KMAX", help="Also the subbands along two in-plane directions "
+        "([100] and [110] for [001] growth) up to KMAX (1/Å) and their in-plane masses "
+        "(multiband models).", show_default=False)] = None,
     k_points: Annotated[int, typer.Option("--k-points", help="Points along each in-plane "
                                           "direction.")] = 21,
     engine: EngineOption = EngineKind.local,
@@ -62,7 +63,8 @@ def subbands(
     """Subbands of a heterostructure at k∥ = 0: levels, envelope functions, transitions, and
     the band-edge profile with |ψ|² drawn at each level.
 
-    With --in-plane also the subbands along [100] and [110] (a second figure, NAME-in-plane);
+    With --in-plane also the subbands along two in-plane directions (a second figure,
+    NAME-in-plane);
     their k∥ points run on a local Dask cluster by default, on an existing scheduler with
     --scheduler, or in this process with --engine serial.
     """

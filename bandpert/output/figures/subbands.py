@@ -81,6 +81,7 @@ def subband_figure(result, window_eV: tuple[float | None, float | None] | None =
     style.legend_outside(bottom, handles[1:] + names[1:], title="valence")
     kind = "superlattice period, levels at q = 0" if result.periodic else "bounded structure"
     top.set_title(f"{result.name}: {result.model} subbands at k∥ = 0", fontsize=style.TITLE_SIZE)
-    style.footer(fig, f"{kind}; grid spacing {result.spacing_nm:g} nm; |ψ|² drawn at each "
+    style.footer(fig, f"{kind}; growth along [{result.growth}]; grid spacing "
+                      f"{result.spacing_nm:g} nm; |ψ|² drawn at each "
                       f"level's energy (height not to scale). Source: {result.source}")
     return fig
