@@ -26,9 +26,9 @@ from .optics import (
     OpticalSums,
     accumulate,
     eps2_prefactor,
-    fermi_surface_average,
     gaussian_broaden,
     kramers_kronig,
+    level_groups,
     n_eff_factor,
     occupations,
 )
@@ -38,6 +38,7 @@ from .reduced_basis import (
     fixed_superset_model,
     interpolated_bands,
 )
+from .tetrahedra import occupations as tetrahedron_occupations
 
 #: Default Gaussian broadening σ of the spectrum (eV).
 DEFAULT_BROADENING_EV = 0.1
@@ -152,13 +153,49 @@ def _labelled_transitions(material: Material, cutoff_eV: float, n_occupied: int)
 
 
 def _states(source, k: np.ndarray, n_bands: int, block: int):
-    """(rows, energies, momentum) blocks: from reduced bases (grouped) or one polynomial."""
+    """(polynomial, rows, energies, momentum) blocks: from reduced bases (grouped) or one."""
     groups = source.groups(k) if hasattr(source, "groups") else [(source, np.arange(len(k)))]
     for poly, rows in groups:
         for s in range(0, len(rows), block):
             r = rows[s:s + block]
             e, v = poly.eigensystem(k[r], n_bands)
-            yield r, e, poly.momentum(k[r], v)
+            yield poly, r, e, poly.momentum(k[r], v)
+
+
+#: Step (Å⁻¹) of the central differences of the band curvature (the intraband weight).
+CURVATURE_STEP_INVA = 1e-4
+
+
+def inverse_mass(poly, k_cart_invA: np.ndarray, n_bands: int) -> np.ndarray:
+    """Direction-averaged inverse effective mass m0/m* = (m0/ħ²) ∇²E_n/3 of each band, (n_k, n).
+
+    By central differences of the band energies of the same matrix H(k) (one fixed basis, so
+    E_n(k) is smooth wherever band n is not degenerate), step :data:`CURVATURE_STEP_INVA`
+    along x, y, z. Independent of the momentum matrix elements: the f-sum then tests them.
+    Levels (near-)degenerate at k (groups of :func:`~bandpert.physics.optics.level_groups`)
+    split or anticross within the stencil, so each sorted branch has a curvature of order
+    |v|/step or |p|²/gap; their sum is smooth, and each member of a group takes the group's
+    mean (the transitions inside a group are left out of the interband sums alike). More bands
+    are diagonalised until a group at the top is whole.
+    """
+    h = CURVATURE_STEP_INVA
+    n = min(n_bands + 4, poly.size)
+    centre = poly.eigenvalues(k_cart_invA, n)
+    while n < poly.size and np.any(level_groups(centre)[:, -1]
+                                   == level_groups(centre)[:, n_bands - 1]):
+        n = min(2 * n, poly.size)
+        centre = poly.eigenvalues(k_cart_invA, n)
+    lap = np.zeros_like(centre)
+    for axis in range(k_cart_invA.shape[1]):
+        step = np.zeros(k_cart_invA.shape[1])
+        step[axis] = h
+        lap += (poly.eigenvalues(k_cart_invA + step, n)
+                + poly.eigenvalues(k_cart_invA - step, n) - 2.0 * centre) / h**2
+    label = level_groups(centre) + (np.arange(len(centre)) * n)[:, None]
+    sums = np.bincount(label.ravel(), weights=lap.ravel(), minlength=len(centre) * n)
+    sizes = np.bincount(label.ravel(), minlength=len(centre) * n)
+    mean = (sums / np.maximum(sizes, 1))[label]
+    return mean[:, :n_bands] / (HBAR2_OVER_M0_EV_A2 * k_cart_invA.shape[1])
 
 
 def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
@@ -227,9 +264,11 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
     sums: OpticalSums | None = None
     grid = None
     n_window = window.shape[1]
-    speed2 = np.zeros((len(k), n_window))  # |⟨n|k+G|n⟩|²/3 of the window bands (Drude)
+    # a metal's levels are occupied by the tetrahedron weights at E_F (the count that fixed E_F)
+    f_metal = None if insulator else tetrahedron_occupations(mesh, window, e_f)
+    drude = 0.0
     with single_blas_thread():
-        for rows, e, q in _states(source, k, nb, block):
+        for poly, rows, e, q in _states(source, k, nb, block):
             if grid is None:
                 reach = span if span is not None else 1.05 * float(e[:, -1].max() - e[:, 0].min())
                 n_grid = int(np.ceil((reach + KERNEL_PAD * broadening_eV) / energy_step_eV)) + 1
@@ -237,10 +276,17 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
                     raise InputError(f"an energy grid of {n_grid} points; expected at most "
                                      f"{MAX_GRID} (a larger step)", key="energy_step_eV")
                 grid = np.arange(n_grid) * energy_step_eV
-            f = occupations(e, e_f, n_half if insulator else None)
+            if insulator:
+                f = occupations(e, None, n_half)
+            else:
+                f = np.zeros(e.shape)
+                f[:, :n_window] = f_metal[rows]
+                partly = np.flatnonzero(f_metal[rows].max(axis=0) > 0)
+                top_band = int(partly.max()) + 1 if partly.size else 0
+                if top_band:
+                    x = inverse_mass(poly, k[rows], top_band)
+                    drude += g * float(mesh.weights[rows] @ np.sum(f[:, :top_band] * x, axis=1))
             sums = accumulate(grid, e, q, mesh.weights[rows], f, g, sums)
-            diag = np.einsum("kinn->kin", q[:, :, :n_window, :n_window])
-            speed2[rows] = np.sum(np.abs(diag) ** 2, axis=1) / q.shape[1]
     eps2 = eps2_prefactor(material.volume_A, g) * gaussian_broaden(grid, sums.strength,
                                                                     broadening_eV)
     jdos = g * gaussian_broaden(grid, sums.joint, broadening_eV)
@@ -248,8 +294,6 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
     n_eff = n_eff_factor(material.volume_A) * np.concatenate(
         [[0.0], np.cumsum(0.5 * (integrand[1:] + integrand[:-1]) * energy_step_eV)])
     eps1 = kramers_kronig(grid, eps2)
-    drude = 0.0 if insulator else g * HBAR2_OVER_M0_EV_A2 * fermi_surface_average(
-        mesh, window, speed2, e_f)
     eps1_zero = 1.0 + (2.0 / np.pi) * eps2_prefactor(material.volume_A, g) * sums.inverse_cube
     shown = grid < min(complete, grid[-1])
     peaks = np.flatnonzero((eps2[1:-1] > eps2[:-2]) & (eps2[1:-1] >= eps2[2:])

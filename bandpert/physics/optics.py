@@ -15,8 +15,12 @@ so that the broadened spectrum stays finite at E → 0. Every δ is a Gaussian e
 laid onto a uniform grid by linear binning and a discrete convolution. The effective electron
 number n_eff(E) = Ω/(2π² (e²/4πε0) ħ²/m0) ∫_0^E E' ε2(E') dE' tends to the valence count (the
 Thomas–Reiche–Kuhn f-sum rule, ∫ ω ε2 dω = (π/2) ω_p²); for a metal the intraband (Drude) weight
-g_s Σ_n ∫ δ(E_n − E_F) (ħ²/m0) |⟨n|k+G|n⟩|²/3 dk/V_zone (a Fermi-surface integral by linear
-tetrahedra) completes it, with θ(E_F − E) occupations for the interband part.
+completes it: g_s Σ_n ∫ δ(E_n − E_F) (m0/ħ²)|∇E_n|²/3 dk/V_zone, integrated by parts over the
+periodic zone into g_s Σ_n ∫ f_n (m0/m*_n) dk/V_zone, the occupied-region integral of the
+direction-averaged inverse effective mass (N. W. Ashcroft and N. D. Mermin, Solid State Physics
+(1976), ch. 1 for the Drude weight ω_p² = 4πne²/m and ch. 13 for Bloch electrons, from memory),
+with f_n the linear-tetrahedron occupations (:func:`~bandpert.physics.tetrahedra.occupations`)
+that also occupy the interband transitions.
 """
 
 from __future__ import annotations
@@ -25,15 +29,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..crystal.kmesh import KMesh
 from ..units import COULOMB_EV_A, HBAR2_OVER_2M0_EV_A2
-from .tetrahedra import irreducible_simplices, simplex_occupation
 
 #: ħ²/m0 in eV·Å².
 HBAR2_OVER_M0_EV_A2 = 2.0 * HBAR2_OVER_2M0_EV_A2
 
-#: Pairs of levels closer than this (eV) are one degenerate level: no interband transition.
-DEGENERATE_EV = 1e-6
+#: Levels closer than this (eV) to their neighbour form one group at that k: no transition
+#: inside a group is counted as interband (with linear-tetrahedron occupations such a pair can be
+#: partly filled on both sides; its weight belongs to the intraband, Drude, part, whose band
+#: curvature is averaged over the group in the same way).
+INTRABAND_EV = 0.01
 
 #: The Gaussian kernel is cut this many widths from its centre.
 KERNEL_WIDTHS = 6.0
@@ -63,6 +68,14 @@ class OpticalSums:
     joint: np.ndarray
     f_sum: float
     inverse_cube: float
+
+
+def level_groups(energies_eV: np.ndarray) -> np.ndarray:
+    """(n_k, n_b) group number of each level: runs of levels spaced by ≤ :data:`INTRABAND_EV`."""
+    e = np.asarray(energies_eV, dtype=float)
+    new = np.ones(e.shape, dtype=np.int64)
+    new[:, 1:] = np.diff(e, axis=1) > INTRABAND_EV
+    return np.cumsum(new, axis=1) - 1
 
 
 def _bin(grid_eV: np.ndarray, x: np.ndarray, v: np.ndarray) -> np.ndarray:
@@ -108,7 +121,8 @@ def accumulate(grid_eV: np.ndarray, energies_eV: np.ndarray, momentum_invA: np.n
     s = np.sum(np.abs(momentum_invA) ** 2, axis=1) / momentum_invA.shape[1]  # (n_k, n, m)
     gap = e[:, None, :] - e[:, :, None]  # [k, n, m] = E_m − E_n
     df = occupations[:, :, None] - occupations[:, None, :]
-    pair = (gap > DEGENERATE_EV) & (df > 0)
+    group = level_groups(e)
+    pair = (group[:, None, :] != group[:, :, None]) & (gap > 0) & (df > 0)
     k_idx, _, _ = np.nonzero(pair)
     w = weights[k_idx] * df[pair]
     x = gap[pair]
@@ -193,37 +207,3 @@ def occupations(energies_eV: np.ndarray, fermi_level_eV: float | None,
         f[:, :n_occupied] = 1.0
         return f
     return (e <= fermi_level_eV).astype(float)
-
-
-def fermi_surface_average(mesh: KMesh, energies_eV: np.ndarray, values: np.ndarray,
-                          fermi_level_eV: float) -> float:
-    """Σ_n ∫ δ(E_n(k) − E_F) v_n(k) dk / V_zone by linear tetrahedra.
-
-    The density of each simplex at E_F in closed form (Blöchl, Jepsen & Andersen, Phys. Rev. B
-    49, 16223 (1994); :func:`~bandpert.physics.tetrahedra.simplex_occupation`) times the mean
-    of v over its corners. ``values`` must be invariant under the point group (a direction
-    average), since they live on the irreducible points like the energies.
-
-    Parameters
-    ----------
-    mesh : KMesh
-    energies_eV, values : numpy.ndarray
-        (n_irr, n_bands) on the irreducible points.
-    fermi_level_eV : float
-
-    Returns
-    -------
-    float
-        Per unit energy (eV⁻¹), per cell, one spin.
-    """
-    index, weights = irreducible_simplices(mesh)
-    e, v = np.asarray(energies_eV, dtype=float), np.asarray(values, dtype=float)
-    total = 0.0
-    for n in range(e.shape[1]):
-        if not e[:, n].min() < fermi_level_eV < e[:, n].max():
-            continue
-        c = e[:, n][index]
-        cut = (c.min(axis=1) < fermi_level_eV) & (c.max(axis=1) > fermi_level_eV)
-        _, density = simplex_occupation(c[cut], fermi_level_eV)
-        total += float(np.sum(weights[cut] * density * v[:, n][index[cut]].mean(axis=1)))
-    return total

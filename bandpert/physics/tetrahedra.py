@@ -359,3 +359,101 @@ def accumulate(corners_eV: np.ndarray, grid_eV: np.ndarray, weights: np.ndarray 
         fraction += np.bincount(g, weights=f, minlength=n_e)
         density += np.bincount(g, weights=dens, minlength=n_e)
     return fraction, density
+
+
+def _corner_weights(e: np.ndarray, energy_eV: float) -> np.ndarray:
+    """Blöchl's integration weights of the four sorted corners of tetrahedra of unit volume.
+
+    w_i such that ∫_T θ(ε − E(k)) X(k) dk / V_T = Σ_i w_i X_i for any X linear across the
+    tetrahedron (P. E. Blöchl, O. Jepsen and O. K. Andersen, Phys. Rev. B 49, 16223 (1994),
+    Appendix B, without the curvature correction). Σ_i w_i is the fraction of
+    :func:`simplex_occupation`.
+
+    Parameters
+    ----------
+    e : numpy.ndarray
+        (M, 4) corner energies, sorted along the last axis.
+    energy_eV : float
+
+    Returns
+    -------
+    numpy.ndarray
+        (M, 4) weights of the sorted corners.
+    """
+    x = float(energy_eV)
+    e = _snap_degenerate(e)
+    e1, e2, e3, e4 = e[:, 0], e[:, 1], e[:, 2], e[:, 3]
+    safe = lambda v: np.where(v > 0, v, 1.0)  # an empty interval's formulas are never used
+    e21, e31, e41 = safe(e2 - e1), safe(e3 - e1), safe(e4 - e1)
+    e32, e42, e43 = safe(e3 - e2), safe(e4 - e2), safe(e4 - e3)
+    w = np.zeros_like(e)
+    w[x >= e4] = 0.25
+    first = (x > e1) & (x < e2)
+    if first.any():
+        d = x - e1
+        c = d**3 / (e21 * e31 * e41) / 4.0
+        w[first, 0] = (c * (4.0 - d * (1 / e21 + 1 / e31 + 1 / e41)))[first]
+        w[first, 1] = (c * d / e21)[first]
+        w[first, 2] = (c * d / e31)[first]
+        w[first, 3] = (c * d / e41)[first]
+    middle = (x >= e2) & (x < e3) & (x > e1)
+    if middle.any():
+        d1, d2, u3, u4 = x - e1, x - e2, e3 - x, e4 - x
+        c1 = d1**2 / (e41 * e31)
+        c2 = d1 * d2 * u3 / (e41 * e32 * e31)
+        c3 = d2**2 * u4 / (e42 * e32 * e41)
+        w[middle, 0] = ((c1 + (c1 + c2) * u3 / e31 + (c1 + c2 + c3) * u4 / e41) / 4.0)[middle]
+        w[middle, 1] = ((c1 + c2 + c3 + (c2 + c3) * u3 / e32 + c3 * u4 / e42) / 4.0)[middle]
+        w[middle, 2] = (((c1 + c2) * d1 / e31 + (c2 + c3) * d2 / e32) / 4.0)[middle]
+        w[middle, 3] = (((c1 + c2 + c3) * d1 / e41 + c3 * d2 / e42) / 4.0)[middle]
+    last = (x >= e3) & (x < e4) & (x > e1)
+    if last.any():
+        u = e4 - x
+        c = u**3 / (e41 * e42 * e43) / 4.0
+        w[last, 0] = (0.25 - c * u / e41)[last]
+        w[last, 1] = (0.25 - c * u / e42)[last]
+        w[last, 2] = (0.25 - c * u / e43)[last]
+        w[last, 3] = (0.25 - c * (4.0 - u * (1 / e41 + 1 / e42 + 1 / e43)))[last]
+    return w
+
+
+def occupations(mesh: KMesh, energies_eV: np.ndarray, fermi_level_eV: float) -> np.ndarray:
+    """Occupation f_n(k) ∈ [0, 1] of each level at the irreducible points, by linear tetrahedra.
+
+    f_n(k) w_k = Σ_T Σ_corners at k of Blöchl's integration weight (:func:`_corner_weights`):
+    Σ_k w_k f_n(k) X_n(k) is then the linear-tetrahedron integral ∫ θ(E_F − E_n) X_n dk/V_zone
+    for any X linear between the grid points, and Σ_k w_k Σ_n f_n(k) the tetrahedron count
+    (3D meshes).
+
+    Parameters
+    ----------
+    mesh : KMesh
+        A 3D mesh.
+    energies_eV : numpy.ndarray
+        (n_irr, n_bands) on the irreducible points.
+    fermi_level_eV : float
+
+    Returns
+    -------
+    numpy.ndarray
+        (n_irr, n_bands) occupations (one spin).
+    """
+    e = np.asarray(energies_eV, dtype=float)
+    if mesh.dimension != 3:
+        raise ValueError("tetrahedron occupations are built for 3D meshes")
+    index, weights = irreducible_simplices(mesh)
+    occ = np.zeros(e.shape)
+    for n in range(e.shape[1]):
+        band = e[:, n]
+        if band.max() <= fermi_level_eV:
+            occ[:, n] = 1.0
+            continue
+        if band.min() >= fermi_level_eV:
+            continue
+        c = band[index]
+        order = np.argsort(c, axis=1, kind="stable")
+        w = _corner_weights(np.take_along_axis(c, order, axis=1), fermi_level_eV)
+        who = np.take_along_axis(index, order, axis=1)
+        occ[:, n] = np.bincount(who.ravel(), weights=(w * weights[:, None]).ravel(),
+                                minlength=len(e)) / mesh.weights
+    return occ
