@@ -25,10 +25,22 @@ from bandpert.planewave.formfactor import (
     long_wavelength_limit_eV,
 )
 from bandpert.planewave.model import build_model
-from bandpert.planewave.potential import continuous_form_factor, fourier_coefficients, taper_weight
+from bandpert.planewave.potential import (
+    continuous_form_factor,
+    fourier_coefficients,
+    species_form_factor,
+    taper_weight,
+)
+from bandpert.planewave.slope_form import (
+    regularised_slope_changes,
+    shell_half_widths,
+    slope_correction,
+    slope_correction_slope,
+)
 from bandpert.planewave.solver import exact_energies
 from bandpert.planewave.strain_potential import (
     continuous_form_factor_slope,
+    species_form_factor_slope,
     strain_derivative_of_potential,
     taper_slope,
 )
@@ -355,6 +367,23 @@ BAD = [
     ("missing-volume", "reference_volume_A3 = 20.0", "", "potential.reference_volume_A3"),
     ("shells-given", "reference_volume_A3 = 20.0", "reference_volume_A3 = 20.0\nshells = [3]",
      "potential.shells"),
+    ("slope-keys-partial", "a4_A2 = 0.107", "a4_A2 = 0.107\nslope_shells_invA = [2.0]",
+     "potential.species.Si.slope_half_widths_invA"),
+    ("slope-lengths-differ", "a4_A2 = 0.107", "a4_A2 = 0.107\nslope_shells_invA = [2.0, 3.3]\n"
+     "slope_half_widths_invA = [0.1]\nslope_changes = [1.0, 1.0]",
+     "potential.species.Si.slope_half_widths_invA"),
+    ("slope-bumps-overlap", "a4_A2 = 0.107", "a4_A2 = 0.107\nslope_shells_invA = [2.0, 2.2]\n"
+     "slope_half_widths_invA = [0.15, 0.15]\nslope_changes = [1.0, 1.0]",
+     "potential.species.Si.slope_half_widths_invA"),
+    ("slope-bump-below-zero", "a4_A2 = 0.107", "a4_A2 = 0.107\nslope_shells_invA = [0.1]\n"
+     "slope_half_widths_invA = [0.2]\nslope_changes = [1.0]",
+     "potential.species.Si.slope_half_widths_invA"),
+    ("slope-change-not-a-number", "a4_A2 = 0.107", "a4_A2 = 0.107\nslope_shells_invA = [2.0]\n"
+     "slope_half_widths_invA = [0.1]\nslope_changes = [\"big\"]",
+     "potential.species.Si.slope_changes"),
+    ("slope-change-too-strong", "a4_A2 = 0.107", "a4_A2 = 0.107\nslope_shells_invA = [2.0]\n"
+     "slope_half_widths_invA = [0.1]\nslope_changes = [1e9]",
+     "potential.species.Si.slope_changes"),
 ]
 
 
@@ -418,3 +447,70 @@ def test_a_fit_that_cannot_converge_stops_at_its_evaluation_budget():
     doc["potential"]["antisymmetric"][0] = 5e-324
     fit = fit_continuous_potential(parse_material(doc, "gaas"))
     assert fit.starts_tried <= math.ceil(FIT_EVALUATION_BUDGET / 3000) + 1
+
+
+# ---------------------------------------------------------------------------------------------
+# slope corrections at the shells
+# ---------------------------------------------------------------------------------------------
+
+@settings(max_examples=25, deadline=None)
+@given(st.lists(st.floats(-5.0, 5.0), min_size=3, max_size=3), st.floats(0.2, 0.9))
+def test_slope_corrections_vanish_at_the_shells_with_the_chosen_slope(changes, fraction):
+    # c(q) = Σ δ_k (q − q_k) B((q − q_k)/h_k), B = (1 − x²)³: c(q_k) = 0, c′(q_k) = δ_k, and c
+    # and c′ vanish outside the bumps (the definition; bandpert.planewave.slope_form). The
+    # slope function is the derivative (central differences, step 1e-6 Å⁻¹).
+    centres = np.array([2.0, 3.27, 3.84])
+    widths = shell_half_widths(np.r_[centres, 4.01], 3.84)[:3] * fraction
+    assert np.all(widths[:-1] + widths[1:] <= np.diff(centres) + 1e-12)
+    assert slope_correction(centres, centres, widths, changes) == pytest.approx(np.zeros(3),
+                                                                               abs=1e-14)
+    assert slope_correction_slope(centres, centres, widths, changes) == pytest.approx(changes)
+    outside = np.array([1.0, 2.0 + widths[0] * 1.0001, 3.84 + widths[2] * 1.0001, 9.0])
+    assert np.all(slope_correction(outside, centres, widths, changes) == 0.0)
+    assert np.all(slope_correction_slope(outside, centres, widths, changes) == 0.0)
+    q = np.linspace(1.7, 4.2, 301)
+    h = 1e-6
+    fd = (slope_correction(q + h, centres, widths, changes)
+          - slope_correction(q - h, centres, widths, changes)) / (2 * h)
+    assert slope_correction_slope(q, centres, widths, changes) == pytest.approx(fd, abs=1e-6)
+
+
+def test_bump_half_widths_reach_no_other_lattice_shell():
+    # Silicon's lattice shells |G|² = 3, 4, 8, 11 (listed up to 11), 12 in (2π/a)² (fcc
+    # reciprocal lattice; common practice, no source): each bump stops halfway to its
+    # neighbours; the last listed one is bounded only from below (the taper switches off the
+    # shells beyond it).
+    q = 2 * math.pi / 5.43 * np.sqrt([3.0, 4.0, 8.0, 11.0])
+    h = shell_half_widths(q, q[-1])
+    assert h[0] == pytest.approx((q[1] - q[0]) / 2) and h[1] == pytest.approx((q[1] - q[0]) / 2)
+    assert h[2] == pytest.approx((q[3] - q[2]) / 2) and h[3] == pytest.approx((q[3] - q[2]) / 2)
+
+
+def test_regularised_slope_changes_solve_a_square_system_and_shrink_the_rest():
+    # Tikhonov least squares (common practice, no source): with ridge → 0 a well-posed square
+    # system is solved exactly; an unseen slope (zero column) stays unchanged.
+    a = np.array([[1.0, 2.0, 0.0], [3.0, -1.0, 0.0]])
+    m = np.array([1.0, 2.0])
+    d = regularised_slope_changes(a, m, np.ones(2), ridge=1e-9)
+    assert a @ d == pytest.approx(m, abs=1e-12) and d[2] == pytest.approx(0.0, abs=1e-12)
+    shrunk = regularised_slope_changes(a, m, np.ones(2), ridge=10.0)
+    assert np.linalg.norm(shrunk) < np.linalg.norm(d)
+
+
+def test_a_corrected_continuous_file_changes_v_only_between_the_shells(tmp_path):
+    # v = v_FHS + c: the file's slope corrections leave v at the centres and change dv/dq there
+    # by exactly the given δ (file unit × Å; here Ry, converted once by scipy.constants).
+    text = CONTINUOUS_SI.replace('a4_A2 = 0.107', 'a4_A2 = 0.107\nslope_shells_invA = [2.0, 3.3]'
+                                 '\nslope_half_widths_invA = [0.15, 0.25]'
+                                 '\nslope_changes = [0.1, -0.05]').replace('unit = "eV"',
+                                                                          'unit = "Ry"')
+    path = tmp_path / "si-slopes.toml"
+    path.write_text(text, encoding="utf-8")
+    m = load_material(path)
+    q = np.array([2.0, 3.3])
+    p = m.potential.continuous["Si"]
+    assert species_form_factor(m, "Si", q) == pytest.approx(continuous_form_factor(q, *p),
+                                                            abs=1e-14)
+    assert species_form_factor_slope(m, "Si", q) - continuous_form_factor_slope(q, *p) == \
+        pytest.approx(np.array([0.1, -0.05]) * RYDBERG_EV, rel=1e-12)
+    assert species_form_factor(m, "Si", 2.1) != pytest.approx(continuous_form_factor(2.1, *p))

@@ -3,8 +3,11 @@
 Part of the material reader (:mod:`bandpert.input.material`). Forms: empty,
 symmetric-antisymmetric and per-species form factors on |G|² shells (units (2π/a)²), explicit
 Fourier coefficients by Miller index, and the continuous form factors of
-:mod:`bandpert.planewave.potential`. Every problem is an :class:`~bandpert.errors.InputError`
-naming the file and the dotted key.
+:mod:`bandpert.planewave.potential` (with optional slope corrections at the shells,
+:mod:`bandpert.planewave.slope_form`). Tabulated forms may list measured deformation potentials
+(``[potential.deformation_targets]``) that fix the slopes of their continuous v(q)
+(:mod:`bandpert.physics.deformation_fit`). Every problem is an
+:class:`~bandpert.errors.InputError` naming the file and the dotted key.
 """
 
 from __future__ import annotations
@@ -29,32 +32,16 @@ POTENTIAL_FORMS = ("empty", "symmetric-antisymmetric", "per-species", "fourier",
 
 #: Parameters of one species in the "continuous" form, in file order (a1 in the file's energy
 #: unit, a2 in Å⁻², a3 dimensionless, a4 in Å²).
-
-
-#: Parameters of one species in the "continuous" form, in file order (a1 in the file's energy
-#: unit, a2 in Å⁻², a3 dimensionless, a4 in Å²).
 CONTINUOUS_PARAMETERS = ("a1", "a2_invA2", "a3", "a4_A2")
-
-#: Key of the reference atomic volume Ω0 of the "continuous" form, by lattice dimension
-#: (the cell's length, area or volume per atom).
-
 
 #: Key of the reference atomic volume Ω0 of the "continuous" form, by lattice dimension
 #: (the cell's length, area or volume per atom).
 REFERENCE_MEASURE_KEYS = {1: "reference_length_A", 2: "reference_area_A2",
                           3: "reference_volume_A3"}
 
-#: Labels accepted on input for Γ.
-
-
 #: Largest accepted magnitude of a Miller index of an explicit Fourier coefficient. Far beyond
 #: any basis the plane-wave model allows, and small enough for its integer index arithmetic.
 MAX_MILLER_INDEX = 100_000
-
-#: Longest accepted lattice length (lattice constants and vector lengths), Å. A longer period
-#: puts the first reciprocal shell below 4e-6 eV: every band energy would be a numerical
-#: rounding of the free-electron continuum.
-
 
 #: Largest accepted |V| of a Fourier coefficient or form factor, as a multiple of the kinetic
 #: scale ħ²(2π/a)²/2m0 (silicon's strongest form factor is 0.56 of it). A stronger potential
@@ -62,18 +49,57 @@ MAX_MILLER_INDEX = 100_000
 #: resolves; its bands would be numbers without meaning.
 MAX_POTENTIAL_RATIO = 100.0
 
-#: Largest number of bands, and of plane waves (the plane-wave model's own limit,
-#: ``bandpert.planewave.model.MAX_BASIS``: a 4000 × 4000 complex matrix is 256 MB).
-
-
 #: Largest |G|² of a listed form-factor shell, in (2π/a)²: far beyond any basis the tool builds.
 MAX_SHELL_G2 = 1.0e4
 
 #: Relative tolerance under which two |G|² shells count as the same shell.
-
-
-#: Relative tolerance under which two |G|² shells count as the same shell.
 SHELL_MATCH_TOLERANCE = 1e-6
+
+#: Optional per-species keys of the "continuous" form: slope corrections at shells
+#: (:mod:`bandpert.planewave.slope_form`; centres and half-widths in Å⁻¹, changes of dv/dq in
+#: the file's energy unit × Å).
+SLOPE_KEYS = ("slope_shells_invA", "slope_half_widths_invA", "slope_changes")
+
+#: Largest of |x B(x)|, B(x) = (1 − x²)³ (at x = 1/√7): the slope corrections of
+#: :mod:`bandpert.planewave.slope_form` obey |c(q)| ≤ this × Σ_k |δ_k| h_k.
+BUMP_PEAK = (1.0 / math.sqrt(7.0)) * (6.0 / 7.0) ** 3
+
+#: Measured deformation potentials a tabulated potential's continuous v(q) may be fitted to
+#: (``[potential.deformation_targets]``), with what each one is.
+DEFORMATION_TARGETS = {
+    "indirect_gap": "dE_g/d ln V of the fundamental gap (conduction minimum − valence maximum)",
+    "gamma_gap": "dE_g/d ln V of the gap at Γ (a = a_c − a_v)",
+    "x_gap": "dE_g/d ln V of the gap at X",
+    "l_gap": "dE_g/d ln V of the gap at L",
+    "xi_u": "Ξ_u of the conduction valleys",
+    "b": "b = (l − m)/3 of the threefold valence top",
+    "d": "d = n/√3 of the threefold valence top",
+}
+
+#: Largest accepted |value| and uncertainty of a deformation-potential target (eV): measured
+#: deformation potentials of semiconductors lie within about ±20 eV.
+MAX_DEFORMATION_EV = 50.0
+
+
+@dataclass(frozen=True)
+class DeformationTarget:
+    """A measured deformation potential the continuous v(q) is fitted to (eV).
+
+    Attributes
+    ----------
+    name : str
+        A key of :data:`DEFORMATION_TARGETS`.
+    value_eV : float
+    uncertainty_eV : float
+        Its weight in the fit is 1/uncertainty (default max(0.1 |value|, 0.1 eV)).
+    source : str
+        Where the value comes from.
+    """
+
+    name: str
+    value_eV: float
+    uncertainty_eV: float
+    source: str
 
 
 @dataclass(frozen=True)
@@ -106,6 +132,12 @@ class Potential:
         for no taper.
     file_unit : str
         The energy unit the file used ("eV" or "Ry").
+    slope_corrections : dict
+        "continuous" form: species → ((q_k in Å⁻¹, h_k in Å⁻¹, δ_k in eV·Å), ...), the slope
+        corrections of :mod:`bandpert.planewave.slope_form` (empty: none).
+    deformation_targets : tuple of DeformationTarget
+        Tabulated forms: measured deformation potentials to fit the slopes of the continuous
+        v(q) to (``[potential.deformation_targets]``).
     """
 
     form: str
@@ -119,6 +151,9 @@ class Potential:
     continuous: dict[str, tuple[float, float, float, float]] = field(default_factory=dict)
     reference_volume_A: float | None = None
     taper_invA: tuple[float, float] | None = None
+    slope_corrections: dict[str, tuple[tuple[float, float, float], ...]] = field(
+        default_factory=dict)
+    deformation_targets: tuple[DeformationTarget, ...] = ()
 
 
 
@@ -157,9 +192,42 @@ def _check_strength(r: TableReader, key: str, values_eV, a_A: float, what: str =
                           "no plane-wave model holds)")
 
 
+def _read_targets(r: TableReader, form: str) -> tuple[DeformationTarget, ...]:
+    """``[potential.deformation_targets]``: name = {value_eV, source, uncertainty_eV}."""
+    t = r.sub("deformation_targets", required=False)
+    if t is None:
+        return ()
+    if form not in ("symmetric-antisymmetric", "per-species"):
+        raise r.fail("deformation_targets", "measured deformation potentials fix the slopes of a "
+                                            "continuous v(q) fitted to tabulated form factors; "
+                                            f"form '{form}' has none (expected form "
+                                            "symmetric-antisymmetric or per-species)")
+    out = []
+    for name in t.table:
+        if name not in DEFORMATION_TARGETS:
+            raise t.fail(name, f"unknown deformation potential; expected one of: "
+                               f"{', '.join(DEFORMATION_TARGETS)}")
+        e = t.sub(name)
+        value = e.number("value_eV", bounds=(-MAX_DEFORMATION_EV, MAX_DEFORMATION_EV),
+                         meaning="measured deformation potentials lie within about ±20 eV")
+        sigma = e.number("uncertainty_eV", required=False, positive=True,
+                         bounds=(0.0, MAX_DEFORMATION_EV),
+                         meaning="the weight of the target in the fit is 1/uncertainty")
+        source = e.string("source")
+        if not source.strip():
+            raise e.fail("source", "must not be empty; expected where the measured value comes "
+                                   "from")
+        e.finish()
+        out.append(DeformationTarget(name, value, max(0.1 * abs(value), 0.1) if sigma is None
+                                     else sigma, source))
+    t.finish()
+    return tuple(out)
+
+
 def read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int, a_A: float,
                     atom_measure: float) -> Potential:
     form = r.string("form", choices=POTENTIAL_FORMS)
+    targets = _read_targets(r, form)
     if form == "empty":
         r.finish()
         return Potential(form="empty")
@@ -250,7 +318,8 @@ def read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int, a_A: float
         _check_strength(r, "symmetric", sym_ev, a_A)
         _check_strength(r, "antisymmetric", anti_ev, a_A)
         return Potential(form=form, file_unit=unit, shells_g2=shells,
-                         symmetric_eV=sym_ev, antisymmetric_eV=anti_ev)
+                         symmetric_eV=sym_ev, antisymmetric_eV=anti_ev,
+                         deformation_targets=targets)
     species_r = r.sub("species")
     needed = {a.species for a in atoms}
     values: dict[str, tuple[float, ...]] = {}
@@ -262,7 +331,8 @@ def read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int, a_A: float
         _check_strength(species_r, name, values[name], a_A)
     species_r.finish()
     r.finish()
-    return Potential(form=form, file_unit=unit, shells_g2=shells, species_eV=values)
+    return Potential(form=form, file_unit=unit, shells_g2=shells, species_eV=values,
+                     deformation_targets=targets)
 
 
 def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: str,
@@ -289,6 +359,7 @@ def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: st
                                        "falls from 1 at q1 to 0 at q2)")
     species_r = r.sub("species")
     params: dict[str, tuple[float, float, float, float]] = {}
+    corrections: dict[str, tuple[tuple[float, float, float], ...]] = {}
     for name in sorted({a.species for a in atoms}):
         if not species_r.has(name):
             raise species_r.fail(name, f"missing parameters for species '{name}' (atoms list it); "
@@ -299,6 +370,7 @@ def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: st
         a2 = s.number("a2_invA2")
         a3 = s.number("a3")
         a4 = s.number("a4_A2")
+        bumps = _read_slopes(s, to_ev)
         if a4 <= 0:
             raise s.fail("a4_A2", f"must be positive, got {a4:g}; expected a4 > 0 (Å²) so that "
                                   "v(q) decays like exp(-a4 q²) at large q")
@@ -313,8 +385,41 @@ def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: st
         bound = abs(a1) * (1.0 / (math.e * a4) + abs(a2)) / (a3 - 1.0) * omega0 / atom_measure
         _check_strength(s, "a1", [bound], a_A, "the bound (Ω0/Ω_atom)|a1|(1/(e·a4) + |a2|)/"
                                                "(a3 − 1) on |V|")
+        if bumps:
+            bound = BUMP_PEAK * sum(abs(d) * h for _, h, d in bumps) * omega0 / atom_measure
+            _check_strength(s, "slope_changes", [bound], a_A,
+                            "the bound (Ω0/Ω_atom) 0.24 Σ|δ_k| h_k on the correction's |V|")
+            corrections[name] = bumps
         params[name] = (a1, a2, a3, a4)
     species_r.finish()
     r.finish()
     return Potential(form="continuous", file_unit=unit, continuous=params,
-                     reference_volume_A=omega0, taper_invA=taper)
+                     reference_volume_A=omega0, taper_invA=taper, slope_corrections=corrections)
+
+
+def _read_slopes(s: TableReader, to_ev: float) -> tuple[tuple[float, float, float], ...]:
+    """The optional slope corrections of one species (:data:`SLOPE_KEYS`), δ in eV·Å.
+
+    All three lists or none; equal lengths; centres ascending and positive, each bump
+    (q_k − h_k, q_k + h_k) inside q > 0 and apart from its neighbours.
+    """
+    given = [k for k in SLOPE_KEYS if s.has(k)]
+    if not given:
+        return ()
+    missing = [k for k in SLOPE_KEYS if k not in given]
+    if missing:
+        raise s.fail(missing[0], f"missing; {given[0]} needs all of {', '.join(SLOPE_KEYS)}")
+    centres = number_list(s.raw(SLOPE_KEYS[0]), s, SLOPE_KEYS[0], positive=True)
+    n = len(centres)
+    widths = number_list(s.raw(SLOPE_KEYS[1]), s, SLOPE_KEYS[1], length=n, positive=True)
+    changes = number_list(s.raw(SLOPE_KEYS[2]), s, SLOPE_KEYS[2], length=n)
+    for i, (q, h) in enumerate(zip(centres, widths, strict=True)):
+        if h > q:
+            raise s.fail(SLOPE_KEYS[1], f"half-width {h:g} Å⁻¹ exceeds its centre {q:g} Å⁻¹; "
+                                        "expected each bump (q - h, q + h) within q > 0")
+        if i and centres[i - 1] + widths[i - 1] > q - h:
+            raise s.fail(SLOPE_KEYS[1], f"the bumps at {centres[i - 1]:g} and {q:g} Å⁻¹ "
+                                        "overlap; expected ascending centres with "
+                                        "q_k + h_k <= q_k+1 - h_k+1")
+    return tuple((q, h, convert_to_ev(d, to_ev, s, SLOPE_KEYS[2]).real)
+                 for q, h, d in zip(centres, widths, changes, strict=True))

@@ -23,38 +23,27 @@ and (l + 2m)/3 − n/3 twice) and from them b = (l − m)/3, d = n/√3 (CONVENT
 
 The potential must follow the strain continuously: tabulated form factors are first replaced by
 the fitted continuous v(q) (:mod:`bandpert.planewave.formfactor`), which equals them exactly at the
-reference lattice.
+reference lattice, with its slopes at the shells fitted to the measured deformation potentials
+the material file gives (:mod:`bandpert.physics.deformation_fit`).
 """
 
 from __future__ import annotations
 
-import copy
 from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 
-from ..crystal.lattice import point_group_rotations, reciprocal_vectors
 from ..errors import InputError
-from ..input.material import Material, parse_material
-from ..physics.bands import compute_band_structure, default_bands
+from ..input.material import Material
 from ..physics.critical_points import centred_model, degenerate_group
-from ..physics.extrema import EdgeLocation, levels, locate_edges
+from ..physics.extrema import EdgeLocation, levels
 from ..physics.internal_strain import (
     internal_displacements,
     internal_strain_parameter,
     internal_strain_potential,
 )
-from ..planewave.cutoff import choose_cutoff
-from ..planewave.formfactor import (
-    ContinuousFit,
-    SlopeCondition,
-    fit_continuous_potential,
-)
 from ..planewave.model import PlaneWaveModel
-from ..planewave.solver import single_blas_thread
 from ..planewave.strain_potential import (
-    continuous_form_factor_slope,
     strain_derivative_of_potential,
 )
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
@@ -107,13 +96,27 @@ class DeformationPotentials:
     internal_strain_source: str = ""
 
 
+def _slopes_by_shell(material: Material, g_diff: np.ndarray,
+                     slopes: dict[tuple[str, float], float]
+                     ) -> tuple[dict[tuple[str, int], float], np.ndarray]:
+    """(species, |G|² in (2π/a)²) → slope, as (species, shell index) and the index of each G."""
+    unit = 2.0 * np.pi / material.a_A
+    g2 = np.einsum("...i,...i->...", g_diff, g_diff) / unit**2
+    shells = sorted({g for _, g in slopes})
+    shell_of = np.full(g2.shape, -1)
+    for i, s in enumerate(shells):
+        shell_of[np.abs(g2 - s) <= 1e-6 * max(s, 1.0)] = i
+    return {(sp, shells.index(g)): v for (sp, g), v in slopes.items()}, shell_of
+
+
 def strain_hamiltonian(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
-                       strain: np.ndarray, slopes: dict | None = None,
-                       shell_of: np.ndarray | None = None, zeta: float = 0.0) -> np.ndarray:
+                       strain: np.ndarray, slopes: dict[tuple[str, float], float] | None = None,
+                       zeta: float = 0.0) -> np.ndarray:
     """Σ_ij ε_ij ∂H(k)/∂ε_ij on the model's basis (eV; module docstring).
 
-    ``slopes``/``shell_of`` are passed to
-    :func:`~bandpert.planewave.strain_potential.strain_derivative_of_potential` (fit conditions).
+    ``slopes``: (species, shell |G|² in (2π/a)²) → u′ (eV·Å) to use instead of the model's own
+    slopes (every other G gets slope 0); the response is linear in them, which is how
+    :mod:`bandpert.physics.deformation_fit` builds its conditions.
     ``zeta`` is Kleinman's internal-strain parameter: the shift of the atoms under a shear
     (:mod:`bandpert.physics.internal_strain`) adds its δV(G).
     """
@@ -121,7 +124,9 @@ def strain_hamiltonian(material: Material, model: PlaneWaveModel, k_cart_invA: n
     kg = np.asarray(k_cart_invA, dtype=float)[None, :] + model.basis.g_cart_invA
     diff = model.basis.miller[:, None, :] - model.basis.miller[None, :, :]
     g_diff = diff @ model.reciprocal_invA
-    dv = strain_derivative_of_potential(material, g_diff, eps, slopes, shell_of)
+    by_index, shell_of = (None, None) if slopes is None else _slopes_by_shell(material, g_diff,
+                                                                              slopes)
+    dv = strain_derivative_of_potential(material, g_diff, eps, by_index, shell_of)
     moves = internal_displacements(material, eps, zeta)
     if np.any(moves):
         dv = dv + internal_strain_potential(material, g_diff, moves)
@@ -153,23 +158,26 @@ def _single_and_double(w: np.ndarray) -> tuple[float, float]:
 
 
 def _hydrostatic_shift(material: Material, k: np.ndarray, band: int, cutoff_eV: float,
-                       run_model: PlaneWaveModel) -> float:
+                       run_model: PlaneWaveModel, **kw) -> float:
     """Mean hydrostatic shift (per ln V) of the degenerate set holding ``band`` at k."""
     sym = centred_model(material, k, cutoff_eV)
     group = degenerate_group(material, run_model, k, band, sym)[0]
-    return float(np.mean(set_shifts(material, sym, k, group, [_hydrostatic(k.size)])[0]))
+    return float(np.mean(set_shifts(material, sym, k, group, [_hydrostatic(k.size)], **kw)[0]))
 
 
 def deformation_potentials(material: Material, model: PlaneWaveModel,
                            edges: list[EdgeLocation], points: dict[str, np.ndarray],
-                           rotations: np.ndarray | None) -> DeformationPotentials:
+                           rotations: np.ndarray | None,
+                           slopes: dict[tuple[str, float], float] | None = None
+                           ) -> DeformationPotentials:
     """Hydrostatic, uniaxial and shear deformation potentials at the reference lattice.
 
     Parameters
     ----------
     material : Material
         A 3D semiconductor with a "continuous" potential (use
-        :func:`bandpert.physics.deformation_fit.continuous_material` for tabulated form factors).
+        :func:`bandpert.physics.deformation_fit.strain_following_document` for tabulated form
+        factors).
     model : PlaneWaveModel
         Its model at the run's cutoff (the centred bases use the same cutoff).
     edges : list of EdgeLocation
@@ -178,6 +186,8 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
         Label → fractional k of the labelled points whose gaps to report.
     rotations : numpy.ndarray or None
         Point group (spglib, fractional direct) to find a second conduction valley.
+    slopes : dict, optional
+        Shell slopes to use instead of the model's own (:func:`strain_hamiltonian`).
 
     Raises
     ------
@@ -196,15 +206,17 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
     val = next(e for e in edges if e.maximum)
     n_val = val.band + 1
     b = model.reciprocal_invA
-    gaps = {"indirect": (_hydrostatic_shift(material, cond.k_cart_invA, cond.band, cutoff, model)
+    kw = {"slopes": slopes}
+    gaps = {"indirect": (_hydrostatic_shift(material, cond.k_cart_invA, cond.band, cutoff, model,
+                                            **kw)
                          - _hydrostatic_shift(material, val.k_cart_invA, val.band, cutoff,
-                                              model))}
+                                              model, **kw))}
     for label, k_frac in points.items():
         k = np.asarray(k_frac, dtype=float) @ b
-        gaps[label] = (_hydrostatic_shift(material, k, n_val, cutoff, model)
-                       - _hydrostatic_shift(material, k, n_val - 1, cutoff, model))
+        gaps[label] = (_hydrostatic_shift(material, k, n_val, cutoff, model, **kw)
+                       - _hydrostatic_shift(material, k, n_val - 1, cutoff, model, **kw))
     zeta, zeta_source = internal_strain_parameter(material)
-    xi_u = _xi_u(material, model, cond, rotations, zeta)
+    xi_u = _xi_u(material, model, cond, rotations, zeta, slopes)
     lmn = b_ev = d_ev = None
     k_v = val.k_cart_invA
     sym = centred_model(material, k_v, cutoff)
@@ -213,7 +225,7 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
         ex = np.zeros((3, 3))
         ex[0, 0] = 1.0
         uni, shear = set_shifts(material, sym, k_v, group, [ex, np.full((3, 3), 1.0 / 3.0)],
-                                zeta=zeta)
+                                zeta=zeta, slopes=slopes)
         big_l, big_m = _single_and_double(uni)
         single, double = _single_and_double(shear)
         big_n = single - double
@@ -227,7 +239,8 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
 
 
 def _xi_u(material: Material, model: PlaneWaveModel, cond: EdgeLocation,
-          rotations: np.ndarray | None, zeta: float = 0.0) -> float | None:
+          rotations: np.ndarray | None, zeta: float = 0.0,
+          slopes: dict[tuple[str, float], float] | None = None) -> float | None:
     """Ξ_u = (δ1 − δ2)/(1 − (k̂1·k̂2)²) under the uniaxial strain ε = k̂1 k̂1ᵀ along the valley
     k1, δ2 the shift of an equivalent valley k2 (E shifts by Ξ_d tr ε + Ξ_u k̂·ε·k̂;
     Herring & Vogt, Phys. Rev. 101, 944 (1956))."""
@@ -251,7 +264,7 @@ def _xi_u(material: Material, model: PlaneWaveModel, cond: EdgeLocation,
     for k in (k1, k2):
         sym = centred_model(material, k, cutoff)
         shifts.append(float(np.mean(set_shifts(material, sym, k, np.array([cond.band]),
-                                               [strain], zeta=zeta)[0])))
+                                               [strain], zeta=zeta, slopes=slopes)[0])))
     return (shifts[0] - shifts[1]) / (1.0 - (u1 @ u2) ** 2)
 
 
@@ -266,205 +279,3 @@ def describe(dp: DeformationPotentials) -> list[str]:
         lines.append(f"valence top b = (l − m)/3: {dp.b_eV:+.3f} eV, d = n/√3: {dp.d_eV:+.3f} eV "
                      f"(internal strain ζ = {dp.internal_strain_zeta:.2f})")
     return lines
-
-
-# --------------------------------------------------------------------------------------------
-# a continuous v(q) whose slopes follow measured deformation potentials
-# --------------------------------------------------------------------------------------------
-
-
-@dataclass(frozen=True)
-class GapTarget:
-    """A measured hydrostatic gap deformation potential dE_g/d ln V (eV).
-
-    ``gap`` is "indirect" (conduction minimum − valence maximum) or a point label ("Γ")."""
-
-    gap: str
-    value_eV: float
-    source: str
-
-
-#: Measured hydrostatic gap deformation potentials, by the sorted species names of a file.
-MEASURED_GAP_POTENTIALS: dict[tuple[str, ...], tuple[GapTarget, ...]] = {
-    # dEg/dP = −1.41 meV/kbar times the bulk modulus 0.98 Mbar
-    ("Si",): (GapTarget("indirect", 1.38, "Welber, Kim, Cardona & Rodriguez, Solid State "
-                        "Commun. 17, 1021 (1975), dEg/dP = −1.41 meV/kbar, with B = 0.98 Mbar; "
-                        "from memory"),),
-    ("As", "Ga"): (GapTarget("Γ", -8.33, "Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, "
-                             "5815 (2001), a = a_c − a_v of GaAs; from memory"),),
-}
-
-
-def _shell_index(model: PlaneWaveModel, unit_invA: float, shells_g2: list[float]) -> np.ndarray:
-    diff = model.basis.miller[:, None, :] - model.basis.miller[None, :, :]
-    g = diff @ model.reciprocal_invA
-    g2 = np.round(np.einsum("...i,...i->...", g, g) / unit_invA**2, 6)
-    out = np.full(g2.shape, -1)
-    for i, s in enumerate(shells_g2):
-        out[np.isclose(g2, s, rtol=0, atol=1e-5)] = i
-    return out
-
-
-def gap_condition(material: Material, cutoff_eV: float, target: GapTarget,
-                  edges: list[EdgeLocation], shells_g2: list[float]) -> SlopeCondition:
-    """The linear condition on the shell slopes that makes a gap's dE_g/d ln V equal a target.
-
-    ``material`` is continuous and equal to the tabulated model at the reference lattice (so
-    its eigenstates are the tabulated ones); the response is computed with each slope u_s′ on
-    each shell set to 1 in turn (:func:`strain_hamiltonian` with ``slopes``).
-    """
-    b = reciprocal_vectors(material.vectors_A)
-    n_val = material.valence_electrons // 2
-    if target.gap == "indirect":
-        cond = next(e for e in edges if not e.maximum)
-        val = next(e for e in edges if e.maximum)
-        where = [(cond.k_cart_invA, cond.band, 1.0), (val.k_cart_invA, val.band, -1.0)]
-    else:
-        k = np.zeros(3) if target.gap == "Γ" else np.asarray(material.path.points[target.gap])
-        k = np.asarray(k, dtype=float) @ b if target.gap != "Γ" else k
-        where = [(k, n_val, 1.0), (k, n_val - 1, -1.0)]
-    unit = 2.0 * np.pi / material.a_A
-    species = sorted({a.species for a in material.atoms})
-    keys = [(s, i) for s in species for i in range(len(shells_g2))]
-    total = np.zeros(len(keys) + 1)
-    for k, band, sign in where:
-        sym = centred_model(material, k, cutoff_eV)
-        group = degenerate_group(material, sym, k, band, sym)[0]
-        shell_of = _shell_index(sym, unit, shells_g2)
-        for j, slopes in enumerate([{}] + [{key: 1.0} for key in keys]):
-            shift = set_shifts(material, sym, k, group, [_hydrostatic(3)], slopes=slopes,
-                               shell_of=shell_of)[0]
-            total[j] += sign * float(np.mean(shift))
-    coefficients = {(s, round(float(shells_g2[i]), 6)): float(total[j + 1] - total[0])
-                    for j, (s, i) in enumerate(keys)}
-    return SlopeCondition(name=f"dEg/d ln V ({target.gap} gap)", target_eV=target.value_eV,
-                          constant_eV=float(total[0]), coefficients=coefficients,
-                          source=target.source)
-
-
-@dataclass(frozen=True)
-class StrainFit:
-    """The continuous v(q) a strained crystal uses, and how its slopes were fixed.
-
-    Attributes
-    ----------
-    document : dict
-        The material document with the fitted "continuous" potential.
-    fit : ContinuousFit
-    constrained : bool
-        True when the measured gap deformation potentials are conditions of the fit (met
-        exactly, with the tabulated form factors still exact at the reference lattice).
-    targets : tuple of GapTarget
-        The measured values known for this crystal (may be empty).
-    achieved_eV : dict
-        Gap → the model's dE_g/d ln V with the fit used.
-    note : str
-        One sentence for every output.
-    """
-
-    document: dict[str, Any]
-    fit: ContinuousFit
-    constrained: bool
-    targets: tuple[GapTarget, ...]
-    achieved_eV: dict[str, float]
-    note: str
-
-
-def _condition_value(cond: SlopeCondition, fit: ContinuousFit, a_A: float) -> float:
-    unit = 2.0 * np.pi / a_A
-    return cond.constant_eV + sum(
-        c * float(continuous_form_factor_slope(
-            unit * np.sqrt(g2), fit.species[s].a1_eV, fit.species[s].a2_invA2,
-            fit.species[s].a3, fit.species[s].a4_A2))
-        for (s, g2), c in cond.coefficients.items())
-
-
-def strain_following_document(document: dict[str, Any], source: str = "",
-                              cutoff_eV: float | None = None) -> StrainFit:
-    """Replace tabulated form factors by a continuous v(q) whose slopes follow measured strain.
-
-    The tabulated values fix v only on the shells; the slopes there decide every deformation
-    potential. Where :data:`MEASURED_GAP_POTENTIALS` knows the crystal, its measured hydrostatic
-    gap deformation potentials are added as conditions of the fit
-    (:func:`bandpert.planewave.formfactor.fit_continuous_potential` with
-    :class:`~bandpert.planewave.formfactor.SlopeCondition` rows; with two species a3 is no longer
-    shared, one more unknown for the extra condition). The constrained fit is used only if it
-    meets every condition and keeps the tabulated V(G) exact (1e-9 eV); otherwise the
-    unconstrained fit is used and the note says by how much the target is missed.
-    """
-    material = parse_material(document, source)
-    fit0 = fit_continuous_potential(material)
-    doc0 = copy.deepcopy(document)
-    doc0["potential"] = fit0.potential_table()
-    doc0["source"] = (f"{document.get('source', '')}; continuous form factors v(q) of Friedel, "
-                      "Hybertsen & Schlüter, Phys. Rev. B 39, 7974 (1989) fitted to them by "
-                      "bandpert")
-    species = tuple(sorted({a.species for a in material.atoms}))
-    targets = MEASURED_GAP_POTENTIALS.get(species, ())
-    if not targets:
-        return StrainFit(doc0, fit0, False, (), {}, "no measured deformation potential is "
-                         "known to bandpert for this crystal: the slopes of v(q) at the shells "
-                         "come from the functional form alone")
-    cmat = parse_material(doc0, source)
-    cutoff = choose_cutoff(material, default_bands(material), cutoff_eV, check_convergence=False)
-    with single_blas_thread():
-        bs = compute_band_structure(cmat, n_k=60, cutoff_eV=cutoff, check_cutoff=False)
-        edges = locate_edges(bs)
-        shells = sorted(fit0.residuals_eV)
-        conds = tuple(gap_condition(cmat, cutoff, t, edges, shells) for t in targets)
-    shared = fit0.shared if len(species) == 1 else ()
-    fit1 = fit_continuous_potential(material, shared=shared, slope_conditions=conds,
-                                    start=fit0)
-    ok = fit1.max_residual_eV < 1e-9 and all(abs(x) < 1e-6
-                                             for x in fit1.slope_residuals_eV.values())
-    said = "; ".join(f"{t.gap} gap {t.value_eV:+.2f} eV ({t.source})" for t in targets)
-    if ok:
-        doc1 = copy.deepcopy(doc0)
-        doc1["potential"] = fit1.potential_table()
-        achieved = {t.gap: _condition_value(c, fit1, material.a_A)
-                    for t, c in zip(targets, conds, strict=True)}
-        return StrainFit(doc1, fit1, True, targets, achieved,
-                         f"slopes of v(q) fixed by the measured dEg/d ln V: {said}")
-    achieved = {t.gap: _condition_value(c, fit0, material.a_A)
-                for t, c in zip(targets, conds, strict=True)}
-    best = ", ".join(f"{t.gap} {fit1.slope_residuals_eV[c.name] + t.value_eV:+.2f} eV with "
-                     f"|ΔV(G)| up to {fit1.max_residual_eV:.1e} eV"
-                     for t, c in zip(targets, conds, strict=True))
-    got = ", ".join(f"{g} {v:+.2f} eV" for g, v in achieved.items())
-    return StrainFit(doc0, fit0, False, targets, achieved,
-                     f"the measured dEg/d ln V ({said}) cannot be met by this form of v(q) while "
-                     f"the tabulated form factors stay exact (closest constrained fit: {best}); "
-                     f"the unconstrained fit is used and gives {got}")
-
-
-def material_deformation_potentials(material: Material, document: dict[str, Any], bs,
-                                    edges: list[EdgeLocation]
-                                    ) -> tuple[DeformationPotentials, str]:
-    """Deformation potentials of a bundled-style semiconductor at its reference lattice.
-
-    Tabulated form factors are replaced first by the strain-following continuous v(q)
-    (:func:`strain_following_document`), equal to them at the reference lattice, so the bands
-    and ``edges`` of ``bs`` still hold. Gaps are reported at Γ, X and L where the path has them.
-
-    Returns
-    -------
-    DeformationPotentials
-    note : str
-        How v(q) follows the strain (said in every output).
-    """
-    if material.potential.form == "continuous":
-        cmat, note = material, "the file's continuous v(q) follows the strain"
-    else:
-        sf = strain_following_document(document, material.file, bs.model.basis.cutoff_eV)
-        try:
-            cmat, note = parse_material(sf.document, material.file), sf.note
-        except InputError as exc:
-            raise InputError(f"the continuous v(q) fitted to these form factors for the "
-                             f"deformation potentials is unusable ({exc.problem}); expected "
-                             "tabulated form factors that a smooth decaying v(q) can follow",
-                             material.file, "potential") from None
-    points = {p: np.asarray(bs.path.points_frac[p]) for p in ("Γ", "X", "L")
-              if p in bs.path.points_frac}
-    with single_blas_thread():
-        dp = deformation_potentials(cmat, bs.model, edges, points, point_group_rotations(cmat))
-    return dp, note

@@ -25,7 +25,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..input.material import Material
-from ..planewave.potential import continuous_form_factor, continuous_scale, taper_weight
+from ..planewave.potential import continuous_scale, species_form_factor, taper_weight
 
 #: Measured Kleinman internal-strain parameters, by the sorted species names of a two-atom cell.
 KLEINMAN_ZETA: dict[tuple[str, ...], tuple[float, str]] = {
@@ -128,7 +128,7 @@ def internal_strain_potential(material: Material, g_cart_invA: np.ndarray,
     for atom, r, u in zip(material.atoms, positions, displacements_A, strict=True):
         if not np.any(u):
             continue
-        v = continuous_form_factor(q, *pot.continuous[atom.species])
+        v = species_form_factor(material, atom.species, q)
         out += v * (-1j * (g @ u)) * np.exp(-1j * (g @ r))
     if pot.taper_invA is not None:
         out *= taper_weight(q, *pot.taper_invA)

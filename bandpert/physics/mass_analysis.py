@@ -19,11 +19,8 @@ from ..input.material import Material
 from ..input.reader import read_toml_document
 from ..planewave.solver import Progress
 from .bands import BandStructure, compute_band_structure
-from .deformation import (
-    STRAIN_FOLLOWING_FORMS,
-    DeformationPotentials,
-    material_deformation_potentials,
-)
+from .deformation import STRAIN_FOLLOWING_FORMS, DeformationPotentials
+from .deformation_fit import material_deformation_potentials
 from .kp_from_planewave import ExtractedParameters, extract_kp_parameters, kp_material_text
 from .masses import BandMasses, band_masses, edge_masses
 from .nfe_gaps import resolve_points
@@ -96,7 +93,7 @@ def compute_masses(material: Material, *, point: str | ArrayLike | None = None,
 
     Band edges: the conduction minimum and valence maximum found on the path and refined in
     3D (:func:`bandpert.physics.masses.edge_masses`), and, for a 3D semiconductor, the
-    deformation potentials (:func:`bandpert.physics.deformation
+    deformation potentials (:func:`bandpert.physics.deformation_fit
     .material_deformation_potentials`). A point: the band's classification and masses
     (:func:`bandpert.physics.masses.band_masses`; default band the lowest empty one).
 

@@ -10,7 +10,7 @@ import numpy as np
 
 from ..crystal.lattice import reciprocal_vectors
 from ..input.material import Material
-from ..planewave.potential import SHELL_TOLERANCE, continuous_form_factor
+from ..planewave.potential import SHELL_TOLERANCE, species_form_factor
 
 __all__ = [
     "REASON_CANCEL",
@@ -160,7 +160,7 @@ def _continuous_reasons(material: Material, g: np.ndarray, positions: np.ndarray
     for s in species:
         mine = np.array([a.species == s for a in material.atoms])
         f = np.exp(-1j * (g @ positions[mine].T)).sum(axis=1) / len(positions)
-        v = continuous_form_factor(q, *pot.continuous[s])
+        v = species_form_factor(material, s, q)
         live = np.abs(v) > zero_eV
         sf_zero &= ~live | (np.abs(f) < 1e-9)
         v_zero &= ~live

@@ -49,7 +49,6 @@ from .potential import (
     continuous_form_factor,
     fourier_coefficients,
 )
-from .strain_potential import continuous_form_factor_slope
 
 #: Tabulated forms the fit accepts.
 TABULATED_FORMS = ("symmetric-antisymmetric", "per-species")
@@ -161,10 +160,8 @@ class ContinuousFit:
     shared : tuple of str
         Parameters common to all species.
     n_conditions, n_unknowns : int
-        Independent real conditions (rank of the observable rows, one for q → 0, one per slope
-        condition) and free parameters.
-    slope_residuals_eV : dict
-        Slope condition name → achieved − target (eV).
+        Independent real conditions (rank of the observable rows and one for q → 0) and free
+        parameters.
     file_unit : str
         Energy unit of the source file, used by :meth:`potential_table`.
     """
@@ -183,7 +180,6 @@ class ContinuousFit:
     n_unknowns: int
     file_unit: str = "eV"
     starts_tried: int = field(default=0, compare=False)
-    slope_residuals_eV: dict[str, float] = field(default_factory=dict)
 
     @property
     def max_residual_eV(self) -> float:
@@ -251,37 +247,7 @@ def _unpack(x: np.ndarray, names: list[str], shared: tuple[str, ...]
     return out
 
 
-@dataclass(frozen=True)
-class SlopeCondition:
-    """A linear condition on the slopes u_s′ = d(w v_s)/dq at the fitted shells.
-
-    A first-order strain response (a deformation potential) at the reference lattice is
-    ``constant_eV + Σ coefficients[(species, shell |G|²)] · u_s′(|G_shell|)``: the eigenstates
-    there do not depend on the slopes, only the strain perturbation does
-    (:func:`strain_derivative_of_potential`). The fit asks it to equal ``target_eV``.
-
-    Attributes
-    ----------
-    name : str
-        What it is, e.g. "dEg/d ln V at Γ".
-    target_eV : float
-    constant_eV : float
-        The response with every slope zero.
-    coefficients : dict
-        (species, shell |G|² in (2π/a)², rounded to 6 decimals) → d(response)/d(u′), in 1/Å.
-    source : str
-        Where the target comes from.
-    """
-
-    name: str
-    target_eV: float
-    constant_eV: float
-    coefficients: dict[tuple[str, float], float]
-    source: str = ""
-
-
 def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3",),
-                             slope_conditions: tuple[SlopeCondition, ...] = (),
                              start: ContinuousFit | None = None) -> ContinuousFit:
     """Fit v_j(q) of the continuous form to a material's tabulated form factors.
 
@@ -304,9 +270,6 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
     material : Material
         A 3D material of form "symmetric-antisymmetric" or "per-species", with
         ``electrons.valence``.
-    slope_conditions : tuple of SlopeCondition
-        Extra rows (eV): measured deformation potentials, linear in the slopes at the shells
-        (:class:`SlopeCondition`); they constrain the slopes the tabulated values leave free.
     start : ContinuousFit, optional
         Start from these parameters only (one least-squares run of at most 400 evaluations)
         instead of the grid of starts.
@@ -370,10 +333,7 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
             v_fit += continuous_form_factor(q, a1, a2, a3, a4) * s_row
             v0 += f * (-a1 * a2 / (a3 - 1.0))
         d = (v_fit - v_tab) * weight
-        extra = [c.constant_eV - c.target_eV + sum(
-            coef * float(continuous_form_factor_slope(unit_q * math.sqrt(g2), *params[sp]))
-            for (sp, g2), coef in c.coefficients.items()) for c in slope_conditions]
-        return np.concatenate([d.real, d.imag, [v0 - target0], extra])
+        return np.concatenate([d.real, d.imag, [v0 - target0]])
 
     # rank of the observable conditions (for the report): rows of the Jacobian-free linear map
     # "form factor of species s on shell k" → V(G)
@@ -383,7 +343,7 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
         cols = i * n_shells + shell
         design[np.arange(q.size), cols] = (s_row * weight).real
         design[q.size + np.arange(q.size), cols] = (s_row * weight).imag
-    n_conditions = int(np.linalg.matrix_rank(design, tol=1e-9)) + 1 + len(slope_conditions)
+    n_conditions = int(np.linalg.matrix_rank(design, tol=1e-9)) + 1
 
     per = [p for p in CONTINUOUS_PARAMETERS if p not in shared]
     n_unknowns = len(CONTINUOUS_PARAMETERS) - len(per) + len(per) * len(names)
@@ -403,7 +363,7 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
             continue
         if best is None or sol.cost < best.cost:
             best = sol
-        if np.max(np.abs(sol.fun)) < (EXACT_RESIDUAL_EV if not slope_conditions else 1e-9):
+        if np.max(np.abs(sol.fun)) < EXACT_RESIDUAL_EV:
             break
     if best is None:
         raise InputError("no start of the continuous form-factor fit converged to finite "
@@ -425,8 +385,6 @@ def fit_continuous_potential(material: Material, shared: tuple[str, ...] = ("a3"
         residuals_eV=residuals, shell_q_invA=shell_q,
         fermi_energy_eV=-1.5 * target0, long_wavelength_target_eV=target0,
         long_wavelength_residual_eV=float(r[2 * q.size]), shared=tuple(shared),
-        slope_residuals_eV={c.name: float(x) for c, x in zip(slope_conditions,
-                                                             r[2 * q.size + 1:], strict=True)},
         n_conditions=n_conditions, n_unknowns=n_unknowns, file_unit=pot.file_unit,
         starts_tried=tried)
 

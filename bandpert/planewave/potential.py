@@ -13,7 +13,9 @@ memory), with q in Å⁻¹; in a crystal of N atoms at r_j in a cell of measure 
 
     V(G) = (Ω0/Ω_atom) w(|G|) (1/N) Σ_j v_j(|G|) exp(−i G·r_j),      V(G = 0) = 0,
 
-with Ω0 the atomic volume at which the parameters hold and w an optional smooth taper.
+with Ω0 the atomic volume at which the parameters hold and w an optional smooth taper. A species
+may add slope corrections at its shells, v + c (:mod:`bandpert.planewave.slope_form`;
+:func:`species_form_factor`).
 """
 
 from __future__ import annotations
@@ -24,6 +26,7 @@ from ..crystal.lattice import reciprocal_vectors
 from ..errors import InputError
 from ..input.material import Material
 from .basis import PlaneWaveBasis
+from .slope_form import slope_correction
 from .spinorbit import require_spinless
 
 #: Relative tolerance for matching |G|² to a form-factor shell.
@@ -59,6 +62,21 @@ def continuous_form_factor(q_invA: np.ndarray | float, a1: float, a2_invA2: floa
     q2 = np.square(np.asarray(q_invA, dtype=float))
     decay = np.exp(-a4_A2 * q2)
     return a1 * (q2 - a2_invA2) * decay / (a3 - decay)
+
+
+def species_form_factor(material: Material, species: str, q_invA: np.ndarray | float
+                        ) -> np.ndarray:
+    """v(q) of one species of a "continuous" potential, with its slope corrections (eV).
+
+    v = :func:`continuous_form_factor` + :func:`bandpert.planewave.slope_form.slope_correction`
+    (zero where the file gives no slope corrections).
+    """
+    pot = material.potential
+    v = continuous_form_factor(q_invA, *pot.continuous[species])
+    bumps = pot.slope_corrections.get(species)
+    if bumps:
+        v = v + slope_correction(q_invA, *zip(*bumps, strict=True))
+    return v
 
 
 def taper_weight(q_invA: np.ndarray | float, q1_invA: float, q2_invA: float) -> np.ndarray:
@@ -118,7 +136,7 @@ def continuous_fourier_coefficients(material: Material, g_cart_invA: np.ndarray,
     cache: dict[str, np.ndarray] = {}
     for atom, r in zip(material.atoms, positions, strict=True):
         if atom.species not in cache:
-            cache[atom.species] = continuous_form_factor(q, *pot.continuous[atom.species])
+            cache[atom.species] = species_form_factor(material, atom.species, q)
         value += cache[atom.species] * np.exp(-1j * (g @ r))
     value *= continuous_scale(material)
     if pot.taper_invA is not None:

@@ -10,7 +10,8 @@ from __future__ import annotations
 import numpy as np
 
 from ..input.material import Material
-from .potential import continuous_form_factor, continuous_scale, taper_weight
+from .potential import continuous_scale, species_form_factor, taper_weight
+from .slope_form import slope_correction_slope
 
 
 def continuous_form_factor_slope(q_invA: np.ndarray | float, a1: float, a2_invA2: float,
@@ -25,6 +26,17 @@ def continuous_form_factor_slope(q_invA: np.ndarray | float, a1: float, a2_invA2
     decay = np.exp(-a4_A2 * q2)
     den = a3 - decay
     return 2.0 * q * a1 * (decay / den - (q2 - a2_invA2) * a4_A2 * a3 * decay / den**2)
+
+
+def species_form_factor_slope(material: Material, species: str, q_invA: np.ndarray | float
+                              ) -> np.ndarray:
+    """dv/dq of :func:`~bandpert.planewave.potential.species_form_factor` (eV·Å)."""
+    pot = material.potential
+    dv = continuous_form_factor_slope(q_invA, *pot.continuous[species])
+    bumps = pot.slope_corrections.get(species)
+    if bumps:
+        dv = dv + slope_correction_slope(q_invA, *zip(*bumps, strict=True))
+    return dv
 
 
 def taper_slope(q_invA: np.ndarray | float, q1_invA: float, q2_invA: float) -> np.ndarray:
@@ -81,11 +93,10 @@ def strain_derivative_of_potential(material: Material, g_cart_invA: np.ndarray,
     dw = np.zeros(q.shape) if pot.taper_invA is None else taper_slope(q, *pot.taper_invA)
     for atom, r in zip(material.atoms, positions, strict=True):
         phase = np.exp(-1j * (g @ r))
-        params = pot.continuous[atom.species]
-        v = continuous_form_factor(q, *params)
+        v = species_form_factor(material, atom.species, q)
         value += w * v * phase
         if slopes is None:
-            slope += (dw * v + w * continuous_form_factor_slope(q, *params)) * phase
+            slope += (dw * v + w * species_form_factor_slope(material, atom.species, q)) * phase
         else:
             for (species, shell), s in slopes.items():
                 if species == atom.species:

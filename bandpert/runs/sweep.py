@@ -47,9 +47,8 @@ from ..errors import InputError
 from ..input.kp_file import parse_kp_material
 from ..input.material import Material, canonical_label, parse_material
 from ..physics.bands import default_bands
-from ..physics.deformation import strain_following_document
+from ..physics.deformation_fit import strain_following_document
 from ..planewave.cutoff import choose_cutoff
-from ..planewave.formfactor import continuous_document
 from ..planewave.model import build_model
 from ..runs.execution import SERIAL, Engine, Outcome, Progress, run
 from ..units import HBAR2_OVER_2M0_EV_A2
@@ -208,13 +207,10 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     strained = any(a.kind == "strain" for a in axes)
     if form_factors == "continuous":
         tabulated = reference
-        if strained or "deformation" in quantities:
-            # measured gap deformation potentials as fit conditions where bandpert knows them
-            strain_fit = strain_following_document(doc, source, cutoff_eV)
-            doc = strain_fit.document
-            strain_note = "; " + strain_fit.note
-        else:
-            doc = continuous_document(doc, source)
+        # the file's measured deformation potentials fix the slopes of v(q) at the shells
+        strain_fit = strain_following_document(doc, source, cutoff_eV)
+        doc = strain_fit.document
+        strain_note = "; " + strain_fit.note
         reference = parse_material(doc, source)
         lo, hi = faithful_window(tabulated, reference.potential.taper_invA)
         window = (f"; it equals the tabulated model exactly for a/a_ref in [{lo:.4f}, {hi:.4f}] "

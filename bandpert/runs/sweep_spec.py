@@ -182,6 +182,10 @@ def virtual_crystal(doc_a: dict[str, Any], doc_b: dict[str, Any], x: float, sour
     Reference: L. Nordheim, Ann. Phys. 401, 607 (1931) (the virtual-crystal approximation; from
     memory); for empirical pseudopotentials, interpolated form factors as in common practice.
     """
+    # measured deformation potentials belong to each pure crystal, not to the alloy
+    doc_a, doc_b = ({**d, "potential": {k: v for k, v in d["potential"].items()
+                                        if k != "deformation_targets"}}
+                    if isinstance(d.get("potential"), dict) else d for d in (doc_a, doc_b))
     b = _rename_species(doc_a, doc_b, source_b)
 
     def mix(pa: Any, pb: Any, key: str) -> Any:
