@@ -25,7 +25,7 @@ from .physics.masses import BandMasses, band_masses, edge_masses  # noqa: E402
 from .physics.nfe_gaps import GapReport, gap_analysis  # noqa: E402
 from .physics.optical_spectrum import OpticalSpectrum, optical_spectrum  # noqa: E402
 from .physics.perturbative_bands import PerturbationSettings  # noqa: E402
-from .physics.reduced_basis import InterpolatedBands, interpolated_bands  # noqa: E402
+from .physics.reduced_basis_check import InterpolatedBands, interpolated_bands  # noqa: E402
 from .planewave.model import PlaneWaveModel, build_model  # noqa: E402
 from .planewave.solver import exact_energies  # noqa: E402
 from .runs.execution import Engine  # noqa: E402

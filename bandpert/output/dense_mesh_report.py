@@ -9,7 +9,7 @@ import numpy as np
 
 from .. import __version__
 from ..physics.optical_spectrum import OpticalSpectrum
-from ..physics.reduced_basis import InterpolatedBands
+from ..physics.reduced_basis_check import InterpolatedBands
 
 
 def interpolation_results(run: InterpolatedBands) -> dict[str, Any]:

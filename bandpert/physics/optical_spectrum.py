@@ -32,12 +32,8 @@ from .optics import (
     n_eff_factor,
     occupations,
 )
-from .reduced_basis import (
-    InterpolatedBands,
-    ReducedBasisSettings,
-    fixed_superset_model,
-    interpolated_bands,
-)
+from .reduced_basis import ReducedBasisSettings, fixed_superset_model
+from .reduced_basis_check import InterpolatedBands, interpolated_bands
 from .tetrahedra import occupations as tetrahedron_occupations
 
 #: Default Gaussian broadening σ of the spectrum (eV).

@@ -16,33 +16,31 @@ full-zone k·p of M. Cardona and F. H. Pollak, Phys. Rev. 142, 530 (1966)):
 3. H(k) = H0 + (ħ²/m0) k·Q + (ħ²/2m0)|k|² is exact on the fixed plane waves for the local spinless
    model (:mod:`bandpert.planewave.k_polynomial`), so B†H0B and B†QB are built once and the small
    matrix at any k is a sum of four matrices, diagonalised in batches of k-points.
-4. Error control: a stated share of the dense points is also diagonalised exactly (each in its
-   own k-centred basis, the tool's exact bands); the largest and RMS differences are reported.
-   Above the tolerance the coarse mesh is refined and the basis tolerance tightened
-   (:data:`MAX_REFINEMENTS` times); then the run fails with the numbers.
+4. Error control (:mod:`bandpert.physics.reduced_basis_check`): a stated share of the dense
+   points is also diagonalised exactly and the run refines or fails loudly.
 
-Spin–orbit and nonlocal terms are not polynomial in k (their radial factors depend on |k + G|):
-they would be projected onto the reduced basis at each k, B† H_SO(k) B, an (n_f × n_r) product per
-k that still leaves the diagonalisation small; this module handles the local spinless model only.
+Spin–orbit coupling: the fixed set holds spinor plane waves, the coarse states are spinors and the
+spin–orbit term, not polynomial in k (its radial factors depend on |k + G|), is projected onto
+each reduced basis at each k, B†H_so(k)B (:class:`~bandpert.planewave.k_polynomial.
+ProjectedSpinOrbit`): O(n_f² n_r) per k for n_f plane waves and n_r reduced states, against
+O((2n_f)³) for the exact spinor matrix. Nonlocal terms are refused.
 """
 
 from __future__ import annotations
 
-import dataclasses
 import itertools
-import warnings
 from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.linalg
 
 from ..crystal.kmesh import full_grid_frac
-from ..errors import InputError, ModelWarning
+from ..errors import InputError
 from ..input.material import Material
 from ..planewave.basis import MAX_BASIS, PlaneWaveBasis, estimated_basis_size
 from ..planewave.k_polynomial import KPolynomial, k_polynomial
 from ..planewave.model import PlaneWaveModel, build_k_centred_model, build_model
-from ..planewave.solver import exact_energies, single_blas_thread
+from ..planewave.solver import single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2
 
 #: Default points per axis of the coarse mesh whose exact states span the basis.
@@ -72,6 +70,11 @@ MAX_LOCAL_RADIUS = 3.0
 
 #: Default neighbourhood of the local bases (coarse-mesh spacings), when they are asked for.
 DEFAULT_LOCAL_RADIUS = 1.5
+
+#: Eigenpairs computed beyond the kept ones at each coarse point, to find where a degenerate
+#: group at the window's edge ends, and the spacing (eV) below which levels are one group.
+GROUP_MARGIN = 8
+DEGENERATE_STATES_EV = 1e-6
 
 #: Largest stack of coarse eigenvectors held at once (bytes).
 MAX_STACK_BYTES = 2 * 2**30
@@ -164,8 +167,9 @@ def fixed_superset_model(material: Material, cutoff_eV: float, k_cart_invA: np.n
                          ) -> PlaneWaveModel:
     """One fixed set of plane waves holding the k-centred basis of every point given.
 
-    {G : ħ²|k+G|²/2m0 ≤ cutoff for some k of ``k_cart_invA``}, with V(G − G') on it. Its size is
-    estimated before anything is built (the sphere |G| ≤ G_max + max|k|) and refused above
+    {G : ħ²|k+G|²/2m0 ≤ cutoff for some k of ``k_cart_invA``}, with V(G − G') on it (and the
+    spin–orbit term's structure factors when the material has one). Its size is estimated
+    before anything is built (the sphere |G| ≤ G_max + max|k|) and refused above
     :data:`~bandpert.planewave.basis.MAX_BASIS`.
 
     Parameters
@@ -179,17 +183,21 @@ def fixed_superset_model(material: Material, cutoff_eV: float, k_cart_invA: np.n
     -------
     PlaneWaveModel
     """
+    if material.nonlocal_terms is not None:
+        raise InputError("the reduced basis handles local potentials (with or without "
+                         "spin-orbit coupling) and the material has nonlocal terms; expected a "
+                         "material without a nonlocal table", material.file, "nonlocal")
     k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
     reach = float(np.max(np.linalg.norm(k, axis=1), initial=0.0))
     wide = HBAR2_OVER_2M0_EV_A2 * (np.sqrt(cutoff_eV / HBAR2_OVER_2M0_EV_A2) + reach) ** 2
-    gamma = build_model(material, cutoff_eV)
+    gamma = build_model(material, cutoff_eV, spin_orbit=True)
     estimate = estimated_basis_size(gamma.reciprocal_invA, wide)
     if estimate > 1.5 * MAX_BASIS:  # the sphere overestimates the union of the bases
         raise InputError(f"the reduced basis needs the plane waves of the bases centred on every "
                          f"point of the zone, about {estimate:.0f} at a cutoff of "
                          f"{cutoff_eV:.4g} eV (the limit is {MAX_BASIS}); expected a smaller "
                          "cutoff", material.file, "cutoff_eV")
-    full = build_model(material, wide)
+    full = build_model(material, wide, spin_orbit=True)
     g = full.basis.g_cart_invA
     lowest = np.full(len(g), np.inf)
     for start in range(0, len(k), 64):
@@ -202,8 +210,11 @@ def fixed_superset_model(material: Material, cutoff_eV: float, k_cart_invA: np.n
                          "cutoff", material.file, "cutoff_eV")
     basis = PlaneWaveBasis(miller=full.basis.miller[keep], g_cart_invA=g[keep],
                            cutoff_eV=float(cutoff_eV))
+    structure = (None if full.structure is None else
+                 np.ascontiguousarray(full.structure[:, keep][:, :, keep]))
     return PlaneWaveModel(basis=basis, reciprocal_invA=full.reciprocal_invA,
-                          potential_eV=np.ascontiguousarray(full.potential_eV[np.ix_(keep, keep)]))
+                          potential_eV=np.ascontiguousarray(full.potential_eV[np.ix_(keep, keep)]),
+                          spin_orbit=full.spin_orbit, structure=structure)
 
 
 @dataclass(frozen=True)
@@ -299,7 +310,8 @@ def build_reduced_basis(material: Material, cutoff_eV: float, n_bands: int,
     cutoff_eV : float
         Plane-wave cutoff of the k-centred bases the fixed set must hold.
     n_bands : int
-        Bands of the window; ``settings.buffer_bands`` more are kept at each coarse point.
+        Bands of the window (spinor bands with spin–orbit coupling: a Kramers pair is two);
+        ``settings.buffer_bands`` more are kept at each coarse point.
     settings : ReducedBasisSettings
 
     Returns
@@ -311,26 +323,32 @@ def build_reduced_basis(material: Material, cutoff_eV: float, n_bands: int,
     coarse = zone_images(full_grid_frac((s.coarse_mesh,) * material.dimension), b)
     n_keep = n_bands + s.buffer_bands
     fixed = fixed_superset_model(material, cutoff_eV, coarse)
-    if n_keep > fixed.size:
+    if n_keep > fixed.matrix_size:
         raise InputError(f"{n_bands} bands and {s.buffer_bands} buffer bands asked for but the "
-                         f"fixed basis holds only {fixed.size} plane waves", material.file,
+                         f"fixed basis holds only {fixed.matrix_size} states", material.file,
                          "buffer_bands")
-    stack_bytes = fixed.size * len(coarse) * n_keep * (8 if fixed.is_real else 16)
+    stack_bytes = fixed.matrix_size * len(coarse) * n_keep * (8 if fixed.is_real else 16)
     if stack_bytes > MAX_STACK_BYTES:
         raise InputError(f"a coarse mesh of {s.coarse_mesh} per axis stacks {len(coarse)} × "
-                         f"{n_keep} states of {fixed.size} plane waves "
+                         f"{n_keep} states of {fixed.matrix_size} components "
                          f"({stack_bytes / 2**30:.1f} GiB; the limit is "
                          f"{MAX_STACK_BYTES / 2**30:.0f} GiB); expected a smaller coarse mesh "
                          "or fewer bands", material.file, "coarse_mesh")
     full = k_polynomial(fixed)
-    states = np.empty((len(coarse), fixed.size, n_keep), dtype=fixed.potential_eV.dtype)
+    n_extra = min(n_keep + GROUP_MARGIN, fixed.matrix_size)
+    states = []
     with single_blas_thread():
-        for i, k in enumerate(coarse):
-            _, states[i] = scipy.linalg.eigh(fixed.hamiltonian(k),
-                                             subset_by_index=(0, n_keep - 1), driver="evr",
-                                             check_finite=False)
+        for k in coarse:
+            w, v = scipy.linalg.eigh(fixed.hamiltonian(k), subset_by_index=(0, n_extra - 1),
+                                     driver="evr", check_finite=False)
+            # a degenerate group cut by the window's edge would break the symmetry of the span
+            # (Kramers pairs, point-group multiplets): keep it whole
+            count = n_keep
+            while count < n_extra and w[count] - w[count - 1] <= DEGENERATE_STATES_EV:
+                count += 1
+            states.append(v[:, :count])
         if s.local_radius == 0:
-            stacked = states.transpose(1, 0, 2).reshape(fixed.size, -1)
+            stacked = np.concatenate(states, axis=1)
             patches = (full.project(_compress(stacked, s.basis_tolerance, n_keep)),)
             centres = np.zeros((1, material.dimension))
         else:
@@ -339,166 +357,8 @@ def build_reduced_basis(material: Material, cutoff_eV: float, n_bands: int,
             patches = []
             for i in range(len(coarse)):
                 near = np.flatnonzero(dist[i] <= s.local_radius * spacing * (1 + 1e-9))
-                stacked = states[near].transpose(1, 0, 2).reshape(fixed.size, -1)
+                stacked = np.concatenate([states[j] for j in near], axis=1)
                 patches.append(full.project(_compress(stacked, s.basis_tolerance, n_keep)))
             patches, centres = tuple(patches), coarse
     return ReducedBasisModel(patches=patches, centres_cart_invA=centres, n_bands=n_bands,
                              settings=s, fixed=fixed, coarse_points=len(coarse))
-
-
-@dataclass(frozen=True)
-class InterpolationCheck:
-    """Interpolated against exact bands at the check points.
-
-    Two exact references: the same fixed set of plane waves the interpolation works in (what
-    the tolerance controls), and each point's own k-centred basis (the tool's exact bands; the
-    two exact results differ only by basis convergence, which the cutoff controls).
-
-    Attributes
-    ----------
-    point_indices : numpy.ndarray
-        Indices of the check points among the dense points.
-    max_error_eV, rms_error_eV : float
-        Largest and root-mean-square |E_interpolated − E_exact, fixed set| over check points and
-        bands: the interpolation error.
-    max_basis_difference_eV : float
-        Largest |E_exact, fixed set − E_exact, k-centred|.
-    max_error_vs_k_centred_eV, rms_error_vs_k_centred_eV : float
-        Largest and RMS |E_interpolated − E_exact, k-centred|: the error against the tool's
-        exact bands.
-    tolerance_eV : float
-    share : float
-        Share of the dense points checked.
-    """
-
-    point_indices: np.ndarray
-    max_error_eV: float
-    rms_error_eV: float
-    max_basis_difference_eV: float
-    max_error_vs_k_centred_eV: float
-    rms_error_vs_k_centred_eV: float
-    tolerance_eV: float
-    share: float
-
-    @property
-    def passed(self) -> bool:
-        """True when the largest interpolation error is within the tolerance."""
-        return self.max_error_eV <= self.tolerance_eV
-
-
-@dataclass(frozen=True)
-class InterpolatedBands:
-    """Bands on many k-points by reduced-basis interpolation, with their check.
-
-    Attributes
-    ----------
-    energies_eV : numpy.ndarray
-        (n_k, n_bands) absolute energies.
-    model : ReducedBasisModel
-        The basis that passed (the last one tried).
-    check : InterpolationCheck
-    attempts : tuple of (int, float, int, float)
-        Every basis tried: (coarse mesh, basis tolerance, largest reduced size, largest
-        interpolation error in eV).
-    exact_energies_eV : numpy.ndarray
-        (n_check, n_bands) exact energies at ``check.point_indices`` in their k-centred bases
-        (kept apart: the interpolated ones stay in ``energies_eV`` so that every point has the
-        same method).
-    """
-
-    energies_eV: np.ndarray
-    model: ReducedBasisModel
-    check: InterpolationCheck
-    attempts: tuple
-    exact_energies_eV: np.ndarray = field(repr=False)
-
-    @property
-    def refined(self) -> bool:
-        """True when the first basis failed its check and a finer one was built."""
-        return len(self.attempts) > 1
-
-
-def check_points(n_points: int, share: float, seed: int = 0) -> np.ndarray:
-    """Indices of the dense points diagonalised exactly: a seeded random sample, sorted.
-
-    max(:data:`MIN_CHECK_POINTS`, ⌈share·n⌉) points (all of them when fewer exist).
-    """
-    n = min(n_points, max(MIN_CHECK_POINTS, int(np.ceil(share * n_points))))
-    rng = np.random.default_rng(seed)
-    return np.sort(rng.choice(n_points, size=n, replace=False))
-
-
-def interpolated_bands(material: Material, k_cart_invA: np.ndarray, n_bands: int,
-                       cutoff_eV: float,
-                       settings: ReducedBasisSettings = ReducedBasisSettings()
-                       ) -> InterpolatedBands:
-    """Bands at many k-points by reduced-basis interpolation, checked against exact ones.
-
-    Builds :func:`build_reduced_basis`, diagonalises the check points (:func:`check_points`)
-    exactly, both in the fixed set of plane waves and in their own k-centred bases
-    (:func:`~bandpert.planewave.solver.exact_energies`), and compares
-    (:class:`InterpolationCheck`). When the interpolation error exceeds
-    ``settings.tolerance_eV`` the coarse mesh grows by 2 and the basis tolerance shrinks by 3,
-    up to :data:`MAX_REFINEMENTS` times; only then is every point interpolated. A basis
-    difference above the tolerance (an unconverged cutoff) is reported by a
-    :class:`~bandpert.errors.ModelWarning`.
-
-    Parameters
-    ----------
-    material : Material
-    k_cart_invA : numpy.ndarray
-        (n_k, d) Cartesian points, best folded into the first zone
-        (:func:`~bandpert.crystal.kmesh.fold_to_first_zone`).
-    n_bands : int
-    cutoff_eV : float
-    settings : ReducedBasisSettings
-
-    Returns
-    -------
-    InterpolatedBands
-
-    Raises
-    ------
-    InputError
-        Key ``interpolation_tolerance_eV`` when even the last refinement misses the tolerance
-        (the message gives every attempt's largest error).
-    """
-    s = settings.checked()
-    k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
-    idx = check_points(len(k), s.check_share, s.seed)
-    centred = exact_energies(build_k_centred_model(material, cutoff_eV), k[idx], n_bands)
-    attempts = []
-    current = s
-    for step in range(MAX_REFINEMENTS + 1):
-        if step:
-            current = dataclasses.replace(
-                current, coarse_mesh=min(MAX_COARSE_MESH, current.coarse_mesh + 2),
-                basis_tolerance=current.basis_tolerance / 3.0)
-        model = build_reduced_basis(material, cutoff_eV, n_bands, current)
-        interpolated = model.energies(k[idx])
-        exact = exact_energies(model.fixed, k[idx], n_bands)
-        diff = interpolated - exact
-        err_max = float(np.max(np.abs(diff)))
-        attempts.append((current.coarse_mesh, current.basis_tolerance, model.size, err_max))
-        if err_max <= s.tolerance_eV:
-            overall = interpolated - centred
-            check = InterpolationCheck(
-                point_indices=idx, max_error_eV=err_max,
-                rms_error_eV=float(np.sqrt(np.mean(diff**2))),
-                max_basis_difference_eV=float(np.max(np.abs(exact - centred))),
-                max_error_vs_k_centred_eV=float(np.max(np.abs(overall))),
-                rms_error_vs_k_centred_eV=float(np.sqrt(np.mean(overall**2))),
-                tolerance_eV=s.tolerance_eV, share=len(idx) / len(k))
-            if check.max_basis_difference_eV > s.tolerance_eV:
-                warnings.warn(f"the fixed set of {model.fixed_size} plane waves and the bases "
-                              "centred on each k give bands differing by up to "
-                              f"{check.max_basis_difference_eV * 1e3:.3g} meV at the check "
-                              f"points: the cutoff of {cutoff_eV:.4g} eV is not converged",
-                              ModelWarning, stacklevel=2)
-            return InterpolatedBands(model.energies(k), model, check, tuple(attempts), centred)
-    tried = "; ".join(f"coarse mesh {c}, basis tolerance {t:.1e}, {n} states: "
-                      f"{e * 1e3:.2f} meV" for c, t, n, e in attempts)
-    raise InputError(f"the interpolated bands differ from the exact ones by more than "
-                     f"{s.tolerance_eV * 1e3:.3g} meV at the {len(idx)} check points ({tried}); "
-                     "expected a looser tolerance, a finer coarse mesh or a smaller basis "
-                     "tolerance", material.file, "interpolation_tolerance_eV")

@@ -12,13 +12,17 @@ reduced-basis interpolation of :mod:`bandpert.physics.reduced_basis` cheap: the 
 built once and H(k) at any k is a sum of four of them (E. L. Shirley, Phys. Rev. B 54, 16464
 (1996); M. Cardona and F. H. Pollak, Phys. Rev. 142, 530 (1966) for k·p over the whole zone).
 
-Terms that are not polynomial in k (spin–orbit or nonlocal projectors, whose radial factors
-depend on |k + G|) do not fit this form: they would be projected onto the basis at each k.
+Terms that are not polynomial in k do not fit this form. The spin–orbit term of
+:mod:`bandpert.planewave.spinorbit` has radial factors B_s(|k + G|) and is projected onto the
+basis at each k instead (:class:`ProjectedSpinOrbit`): B†H_so(k)B costs one product of the
+(3n × n) coupling with the (n × 2n_r) basis per k, O(n² n_r), against O(n³) for the exact
+spinor diagonalisation. On spinor plane waves (spin index slowest) H0 → 1₂ ⊗ H0 and Q → Q ⊗ 1₂.
+Nonlocal terms are not handled here.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -28,6 +32,46 @@ from .model import PlaneWaveModel
 
 #: Bytes of Hamiltonians held at once when a block of k-points is diagonalised together.
 BLOCK_BYTES = 16 * 2**20
+
+
+@dataclass(frozen=True)
+class ProjectedSpinOrbit:
+    """B†H_so(k)B of a fixed spinor plane-wave model on the orthonormal columns B, at any k.
+
+    Attributes
+    ----------
+    model : PlaneWaveModel
+        The fixed set of plane waves with its spin–orbit term.
+    basis : numpy.ndarray or None
+        (2n, n_r) spinor columns (spin up rows first); None for the plane waves themselves.
+    """
+
+    model: PlaneWaveModel = field(repr=False)
+    basis: np.ndarray | None = field(default=None, repr=False)
+
+    def matrices(self, k_cart_invA: np.ndarray) -> np.ndarray:
+        """(n_k, n_r, n_r) projected H_so(k) = −i B†(W(k)·σ)B (eV), W built per k."""
+        k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+        n = self.model.size
+        b = np.eye(2 * n, dtype=complex) if self.basis is None else self.basis
+        up, down = b[:n], b[n:]
+        both = np.concatenate([up, down], axis=1)  # (n, 2 n_r)
+        r = b.shape[1]
+        out = np.empty((len(k), r, r), dtype=complex)
+        for i, ki in enumerate(k):
+            w = self.model.spin_orbit_coupling(ki)  # (3, n, n)
+            wb = (w.reshape(3 * n, n) @ both).reshape(3, n, 2 * r)
+            (xu, xd), (yu, yd), (zu, zd) = ((c[:, :r], c[:, r:]) for c in wb)
+            # H_so = [[−iWz, −iWx − Wy], [−iWx + Wy, iWz]] (spinor_hamiltonian)
+            top = -1j * zu - 1j * xd - yd
+            bottom = -1j * xu + yu + 1j * zd
+            out[i] = up.conj().T @ top + down.conj().T @ bottom
+        return 0.5 * (out + np.swapaxes(out, 1, 2).conj())
+
+    def project(self, basis: np.ndarray) -> ProjectedSpinOrbit:
+        """The same term on the columns ``basis`` of this one's basis."""
+        b = np.asarray(basis)
+        return ProjectedSpinOrbit(self.model, b if self.basis is None else self.basis @ b)
 
 
 @dataclass(frozen=True)
@@ -41,10 +85,13 @@ class KPolynomial:
     q_invA : numpy.ndarray
         (d, n, n) Hermitian matrices of the operator G (Å⁻¹), or (d, n) their diagonals when
         the basis is plane waves; the momentum is p = ħ(k + Q).
+    spin_orbit : ProjectedSpinOrbit or None
+        The spin–orbit term, added at each k (spinor bases only).
     """
 
     h0_eV: np.ndarray
     q_invA: np.ndarray
+    spin_orbit: ProjectedSpinOrbit | None = None
 
     @property
     def size(self) -> int:
@@ -54,13 +101,16 @@ class KPolynomial:
     def hamiltonians(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """(n_k, n, n) H(k) without the |k|² term (a shift of every level, added by callers)."""
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
-        h = np.empty((len(k), self.size, self.size), dtype=self.h0_eV.dtype)
+        dtype = complex if self.spin_orbit is not None else self.h0_eV.dtype
+        h = np.empty((len(k), self.size, self.size), dtype=dtype)
         h[:] = self.h0_eV
         if self.q_invA.ndim == 3:
             h += 2.0 * HBAR2_OVER_2M0_EV_A2 * np.tensordot(k, self.q_invA, axes=(1, 0))
         else:
             idx = np.arange(self.size)
             h[:, idx, idx] += 2.0 * HBAR2_OVER_2M0_EV_A2 * (k @ self.q_invA)
+        if self.spin_orbit is not None:
+            h += self.spin_orbit.matrices(k)
         return h
 
     def _blocks(self, n_k: int):
@@ -110,8 +160,12 @@ class KPolynomial:
         """Matrix elements ⟨n|k + G|m⟩ between eigenvectors, (n_k, d, n_b, n_b) in Å⁻¹.
 
         p_nm = ħ⟨n|k + G|m⟩; the velocity is (ħ/m0)⟨n|k + G|m⟩ = (1/ħ)⟨n|∂H/∂k|m⟩ exactly in
-        this basis (H is quadratic in k with the free-electron k² term).
+        this basis (H is quadratic in k with the free-electron k² term). Not with spin–orbit
+        coupling, whose ∂H_so/∂k the velocity would need.
         """
+        if self.spin_orbit is not None:
+            raise InputError("momentum matrix elements of a spin-orbit model need ∂H_so/∂k, "
+                             "which is not built; expected a spinless model", key="spin_orbit")
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
         if self.q_invA.ndim == 2:  # plane waves: Q diagonal
             qc = self.q_invA[None, :, :, None] * vectors[:, None, :, :]
@@ -130,15 +184,18 @@ class KPolynomial:
             q = np.stack([(bh * qi) @ b for qi in self.q_invA])
         else:
             q = np.einsum("ab,ibc,cd->iad", bh, self.q_invA, b, optimize=True)
+        so = None if self.spin_orbit is None else self.spin_orbit.project(b)
         return KPolynomial(h0_eV=0.5 * (h0 + h0.conj().T),
-                           q_invA=0.5 * (q + np.swapaxes(q, 1, 2).conj()))
+                           q_invA=0.5 * (q + np.swapaxes(q, 1, 2).conj()), spin_orbit=so)
 
 
 def k_polynomial(model: PlaneWaveModel) -> KPolynomial:
     """The fixed-basis plane-wave model as H0, Q (:class:`KPolynomial`).
 
     H0 = V + diag(ħ²|G|²/2m0) and Q_i = diag(G_i) on the model's plane waves, so that
-    H0 + (ħ²/m0) k·Q + (ħ²/2m0)|k|² equals ``model.hamiltonian(k)`` at every k.
+    H0 + (ħ²/m0) k·Q + (ħ²/2m0)|k|² equals ``model.hamiltonian(k)`` at every k. With
+    spin–orbit coupling on spinor plane waves: 1₂ ⊗ H0, Q ⊗ 1₂ and the term
+    :class:`ProjectedSpinOrbit` added per k.
 
     Parameters
     ----------
@@ -150,6 +207,16 @@ def k_polynomial(model: PlaneWaveModel) -> KPolynomial:
     """
     g = model.basis.g_cart_invA
     h0 = np.array(model.potential_eV, copy=True)
+    if model.nonlocal_term is not None:
+        raise InputError("nonlocal terms are not polynomial in k and are not projected; "
+                         "expected a material without a nonlocal table", key="nonlocal")
     idx = np.arange(model.size)
     h0[idx, idx] += HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", g, g)
-    return KPolynomial(h0_eV=h0, q_invA=np.ascontiguousarray(g.T))
+    if model.spin_orbit is None:
+        return KPolynomial(h0_eV=h0, q_invA=np.ascontiguousarray(g.T))
+    n = model.size
+    spinor = np.zeros((2 * n, 2 * n), dtype=complex)
+    spinor[:n, :n] = h0
+    spinor[n:, n:] = h0
+    return KPolynomial(h0_eV=spinor, q_invA=np.ascontiguousarray(np.tile(g.T, (1, 2))),
+                       spin_orbit=ProjectedSpinOrbit(model))

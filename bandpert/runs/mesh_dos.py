@@ -9,6 +9,7 @@ order, so the energies, and hence the DOS, do not depend on how many workers ran
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -19,12 +20,14 @@ from ..input.material import Material
 from ..physics.bands import choose_energy_zero, default_bands
 from ..physics.dos import (
     DEFAULT_SMEARING_EV,
+    SPIN_DEGENERACY,
     DensityOfStates,
     fermi_level_from_count,
     gaussian_dos,
     tetrahedron_dos,
 )
-from ..physics.reduced_basis import InterpolatedBands, ReducedBasisSettings, interpolated_bands
+from ..physics.reduced_basis import ReducedBasisSettings
+from ..physics.reduced_basis_check import InterpolatedBands, interpolated_bands
 from ..planewave.cutoff import choose_cutoff
 from ..planewave.model import KCentredModel, build_k_centred_model
 from ..planewave.solver import exact_energies, single_blas_thread
@@ -203,7 +206,7 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
         ``progress(done, total)`` in k-points.
     interpolation : ReducedBasisSettings, optional
         Interpolate the bands from reduced bases
-        (:func:`~bandpert.physics.reduced_basis.interpolated_bands`, in this process, with its
+        (:func:`~bandpert.physics.reduced_basis_check.interpolated_bands`, in this process, with its
         check against exact bands) instead of diagonalising every point exactly.
 
     Returns
@@ -217,11 +220,14 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
         raise InputError(f"must be positive, got {energy_step_eV}", material.file,
                          "energy_step_eV")
     nb = n_bands or default_bands(material)
-    cutoff = choose_cutoff(material, nb, cutoff_eV)
+    g = material.electrons_per_band
+    # the cutoff rule converges the spinless bands (as for the band structure)
+    cutoff = choose_cutoff(material.local_spinless(), -(-nb * g // 2), cutoff_eV)
     model = _model_for(material, cutoff)  # fails here, once, on a bad basis
-    if nb > model.size:
-        raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
-                         "waves", material.file, "n_bands")
+    states = model.n_components * model.size
+    if nb > states:
+        raise InputError(f"{nb} bands asked for but the basis holds only {states} states",
+                         material.file, "n_bands")
     if interpolation is not None:
         interpolation.checked()
     mesh = reciprocal_mesh(material, n_per_axis)
@@ -237,7 +243,12 @@ def compute_dos(material: Material, n_per_axis: int | tuple[int, ...],
         lo = float(energies.min()) - 0.5
         grid = np.arange(lo, top + 0.5 * energy_step_eV, energy_step_eV)
         dos = band_resolved_dos(mesh, energies, grid, method, smearing_eV, runner)
-    n_el = material.valence_electrons
+    if g != SPIN_DEGENERACY:  # spinor bands hold one electron each
+        dos = dataclasses.replace(dos, dos_per_eV=dos.dos_per_eV * g / SPIN_DEGENERACY,
+                                  integrated=dos.integrated * g / SPIN_DEGENERACY)
+    # the DOS routines count two electrons per band: spinor bands take twice their electrons
+    n_el = (None if material.valence_electrons is None
+            else material.valence_electrons * SPIN_DEGENERACY // g)
     e_f = None
     if n_el is not None:
         e_f = fermi_level_from_count(mesh, energies, n_el, method=method,

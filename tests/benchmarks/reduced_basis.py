@@ -17,11 +17,8 @@ from bandpert.data import find_material
 from bandpert.input.material import load_material
 from bandpert.physics.bands import default_bands
 from bandpert.physics.optical_spectrum import optical_spectrum
-from bandpert.physics.reduced_basis import (
-    ReducedBasisSettings,
-    build_reduced_basis,
-    interpolated_bands,
-)
+from bandpert.physics.reduced_basis import ReducedBasisSettings, build_reduced_basis
+from bandpert.physics.reduced_basis_check import interpolated_bands
 from bandpert.planewave.cutoff import choose_cutoff
 from bandpert.planewave.model import build_k_centred_model
 from bandpert.planewave.solver import exact_energies
