@@ -230,7 +230,7 @@ def degenerate_group(material: Material, model: PlaneWaveModel, k_cart_invA: np.
 # --------------------------------------------------------------------------------------------
 
 
-def _fibonacci_directions(n: int, d: int) -> np.ndarray:
+def fibonacci_directions(n: int, d: int) -> np.ndarray:
     if d == 1:
         return np.array([[1.0]])
     if d == 2:
@@ -243,7 +243,7 @@ def _fibonacci_directions(n: int, d: int) -> np.ndarray:
                     axis=1)
 
 
-def _quadratic_fit(directions: np.ndarray, values: np.ndarray) -> np.ndarray:
+def quadratic_fit(directions: np.ndarray, values: np.ndarray) -> np.ndarray:
     """The symmetric M with u·M·u closest (least squares) to the values along the directions."""
     d = directions.shape[1]
     pairs = [(i, j) for i in range(d) for j in range(i, d)]
@@ -296,11 +296,11 @@ def classify(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
         if linear > LINEAR_SPLITTING_EV_A:
             kind = "crossing"
         elif set_curvature is not None:
-            u = _fibonacci_directions(200, d)
+            u = fibonacci_directions(200, d)
             pos = int(np.flatnonzero(group == band)[0])
             values = np.array([set_curvature(group, x)[pos] for x in u])
             # principal axes from the best quadratic form, curvatures evaluated on them
-            axes = np.linalg.eigh(_quadratic_fit(u, values))[1]
+            axes = np.linalg.eigh(quadratic_fit(u, values))[1]
             curv = np.array([set_curvature(group, a)[pos] for a in axes.T])
             order = np.argsort(curv)
             w, axes = curv[order], axes[:, order]

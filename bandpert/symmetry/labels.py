@@ -36,6 +36,7 @@ __all__ = [
     "label_points",
     "unlabelled_reason",
     "plane_wave_characters",
+    "k_centred_states",
     "stuck_by_time_reversal",
 ]
 
@@ -188,7 +189,9 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
                 n_bands: int, *, frame: SpaceGroupFrame | None = None,
                 model: KCentredModel | None = None,
                 origin_atom: int | None = None,
-                level_tol_eV: float = LEVEL_TOLERANCE_EV) -> PointSymmetry:
+                level_tol_eV: float = LEVEL_TOLERANCE_EV,
+                states: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
+                ) -> PointSymmetry:
     """Label the lowest ``n_bands`` bands at k by the irreps of the little group of k.
 
     The bands are computed in the basis {G : ħ²|k+G|²/2m0 ≤ cutoff} centred on k, which keeps
@@ -215,6 +218,10 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
         Atom at the origin for crystals without inversion (default the first atom).
     level_tol_eV : float
         Eigenvalues closer than this form one level.
+    states : tuple of numpy.ndarray, optional
+        ``(miller, energies_eV, vectors)`` of the k-centred basis at k, as
+        :func:`k_centred_states` returns them (e.g. the full decomposition the van Hove
+        classification also uses), instead of diagonalising here.
 
     Returns
     -------
@@ -225,7 +232,8 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
         return _spinor_point(material, cutoff_eV, k_frac, point, n_bands, frame, origin_atom,
                              level_tol_eV)
     model = build_k_centred_model(material, cutoff_eV) if model is None else model
-    miller, w, v = _k_centred_states(model, k_frac @ model.reciprocal_invA, n_bands + 12)
+    miller, w, v = (k_centred_states(model, k_frac @ model.reciprocal_invA, n_bands + 12)
+                    if states is None else states)
     top = w.size
     runs = [r for r in _levels(w, level_tol_eV) if r[0] < n_bands]
     if runs and runs[-1][0] + runs[-1][1] == top and top < miller.shape[0]:
@@ -323,13 +331,14 @@ def unlabelled_reason(material: Material) -> str:
     return ""
 
 
-def _k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int
-                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+def k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int | None = None
+                     ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Miller indices of the basis centred on k, and its lowest eigenpairs.
 
     H_ij = ħ²|k+G_i|²/2m0 δ_ij + V(G_i − G_j), gathered from the model's table of V
     (:meth:`bandpert.planewave.model.KCentredModel.candidates`), in the basis
     {G : ħ²|k+G|²/2m0 ≤ cutoff}, which every little-group operation maps onto itself.
+    ``n_states`` None: every eigenpair (the full decomposition).
     """
     cand, flat, table, origin = model.candidates(float(np.linalg.norm(k_cart)))
     kg = k_cart + cand.g_cart_invA
@@ -342,9 +351,12 @@ def _k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int
         s = model.structure_table(float(np.linalg.norm(k_cart)))
         pairs = origin + codes[:, None] - codes[None, :]
         h = h + model.nonlocal_term.matrix(kg[inside], s[:, pairs])
-    top = min(inside.size, n_states)
+    top = inside.size if n_states is None else min(inside.size, n_states)
     with single_blas_thread():  # small matrices: one thread (planewave.solver)
-        w, v = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
+        if top == inside.size:
+            w, v = scipy.linalg.eigh(h, driver="evd")
+        else:
+            w, v = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
     return cand.miller[inside], w, v
 
 

@@ -7,6 +7,7 @@ from typing import Annotated
 
 import numpy as np
 import typer
+from rich.markup import escape
 from rich.table import Table
 
 from ...crystal.lattice import describe_position, standard_path
@@ -32,7 +33,7 @@ from ...physics.perturbative_bands import (
     TOLERANCE_RANGE_EV,
     PerturbationSettings,
 )
-from ...symmetry import label_points
+from ...physics.van_hove import label_and_classify
 from ...symmetry.labels import unlabelled_reason
 from ..options import (
     DEFAULT_OUT,
@@ -130,10 +131,12 @@ def bands(
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
                 "real_hamiltonian": bs.model.is_real, "exact": not no_exact,
                 "perturbative": not exact_only}
-    labels = label_points(material, bs.model.basis.cutoff_eV, standard_path(material)[0],
-                          bs.n_bands, model=bs.k_centred)
+    labels, critical = label_and_classify(material, bs.model.basis.cutoff_eV,
+                                          standard_path(material)[0], bs.n_bands,
+                                          model=bs.k_centred)
     results = band_structure_results(bs)
-    results["irreps"] = symmetry_results(labels, bs.energy_zero_eV, unlabelled_reason(material))
+    results["irreps"] = symmetry_results(labels, bs.energy_zero_eV, unlabelled_reason(material),
+                                         critical)
     doc = document("bands", material, settings, results)
     header, cols, rows = band_structure_table(bs)
     fig = band_figure(bs, window, labels)
@@ -150,13 +153,13 @@ def bands(
     write_json(json_path, doc)
     written.append(json_path)
     _summary(bs)
-    title, cols, rows = symmetry_rows(labels, bs.energy_zero_eV)
+    title, cols, rows = symmetry_rows(labels, bs.energy_zero_eV, critical)
     if rows:
-        table = Table(title=title, title_justify="left")
+        table = Table(title=escape(title), title_justify="left")
         for c in cols:
-            table.add_column(c, overflow="fold")
+            table.add_column(escape(c), overflow="fold")
         for r in rows:
-            table.add_row(*r)
+            table.add_row(*(escape(x) for x in r))  # [M0] is text, not markup
         out.print(table)
     out.print("wrote " + ", ".join(str(w) for w in written))
 

@@ -1,0 +1,376 @@
+"""Van Hove critical points at the labelled points of a path: M0, M1, M2, M3 per level.
+
+A band E_n(k) at a point where ∇E = 0 is a critical point of the density of states of type
+M_i, i the number of principal directions along which it curves down (van Hove, Phys. Rev. 89,
+1189 (1953); Morse index): M0 a minimum, M3 a maximum (in 3D), M1 and M2 saddles. The fast path
+here uses the one eigen-decomposition of H(k) at the point in the basis
+{G : ħ²|k+G|²/2m0 ≤ cutoff} centred on k (:func:`bandpert.symmetry.labels.k_centred_states`),
+which the irreducible-representation labels use too, so classifying adds no diagonalisation:
+
+- **non-degenerate level**: the Hessian of the band in that fixed basis by second-order
+  perturbation theory in q = k − k0 (the k·p sum over states; Kittel, *Quantum Theory of
+  Solids*, 1963, ch. 9),
+
+  ∂²E_n/∂k_i∂k_j = 2C δ_ij + Σ_{m≠n} 2 Re[p_i^{nm} p_j^{mn}] / (E_n − E_m),
+  p_i = ∂H/∂k_i = 2C (k + G)_i δ_GG′, C = ħ²/2m0,
+
+  exact for the basis because H(k0 + q) is quadratic in q; its eigenvalues / 2C are the signed
+  principal m0/m*; its symmetrised form (1/|G_k|) Σ_R R H Rᵀ over the little co-group differs
+  from it only by rounding (reported as ``symmetry_residual``);
+- **degenerate level** (a multiplet of the little group): no band of it has a Hessian — the
+  bands are not smooth functions of k there. If the multiplet splits linearly in q (q·p inside
+  the set beyond its mean: the X1 pair of diamond) it is a **crossing**, not a critical point.
+  Otherwise the second-order (Löwdin) block
+  M_ij^{ab} = C δ_ij δ_ab + ½ Σ_{m∉D} [p_i^{am} p_j^{mb} + p_j^{am} p_i^{mb}] / (E_D − E_m)
+  gives each band of the set the curvature λ_a(u)/C along each unit u (its a-th eigenvalue of
+  u_i u_j M_ij): a band curving up (down) along every one of 200 directions is classified M0
+  (M3) *by the degenerate block*; mixed signs make it a saddle whose index is the number of
+  negative curvatures along the principal axes of the quadratic form closest to λ_a(u) — the
+  rule :func:`bandpert.physics.critical_points.classify` applies for ``masses``, and stated as
+  such in every output, since a warped band has no Morse index of its own. Where the signs
+  are mixed over the sphere but the fitted axes all carry one sign (silicon's upper X4 band,
+  germanium's Γ15) the band is a **warped saddle** with no index (``masses`` then prints
+  index 0 or 3 for its saddle);
+- a level whose mean gradient |∇E| exceeds
+  :data:`bandpert.physics.critical_points.STATIONARY_GRADIENT_EV_A` is **not stationary** (K and
+  U of the fcc path lie on mirror planes only, where the gradient along the C2 axis may not
+  vanish).
+
+Spin–orbit and nonlocal terms add k-dependent parts to ∂H/∂k that this sum does not hold; those
+models get a note and no classification.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..input.material import Material
+from ..planewave.model import KCentredModel, build_k_centred_model
+from ..symmetry import PointSymmetry, label_points, space_group_frame
+from ..symmetry.labels import k_centred_states, label_point, unlabelled_reason
+from ..units import HBAR2_OVER_2M0_EV_A2 as C
+from .critical_points import (
+    LINEAR_SPLITTING_EV_A,
+    STATIONARY_GRADIENT_EV_A,
+    fibonacci_directions,
+    quadratic_fit,
+)
+
+__all__ = [
+    "DIRECTIONS",
+    "BandCriticalPoint",
+    "LevelCriticalPoint",
+    "PointCriticalPoints",
+    "classify_levels",
+    "label_and_classify",
+    "sum_over_states_hessian",
+]
+
+#: Directions sampled on the unit sphere for a degenerate block (as ``masses`` does).
+DIRECTIONS: int = 200
+
+
+@dataclass(frozen=True)
+class BandCriticalPoint:
+    """One band of a level at a labelled point.
+
+    Attributes
+    ----------
+    band : int
+        0-based band index.
+    kind : str
+        ``"minimum"``, ``"maximum"``, ``"saddle"``, ``"crossing"`` or ``"not stationary"``
+        (the words of :data:`bandpert.physics.critical_points.KINDS`).
+    van_hove : str or None
+        ``"M0"`` … ``"M3"`` (the index as a type); None at a crossing, a non-stationary point
+        or a warped saddle.
+    saddle_index : int or None
+        Principal directions along which the band curves down; None at a crossing or a
+        warped saddle (mixed signs that the fitted quadratic form does not show).
+    principal_m0_over_mstar : numpy.ndarray or None
+        (d,) signed principal m0/m* ascending (of the Hessian, or of the quadratic form closest
+        to a degenerate band's curvatures); None at a crossing.
+    """
+
+    band: int
+    kind: str
+    van_hove: str | None
+    saddle_index: int | None
+    principal_m0_over_mstar: np.ndarray | None
+
+
+@dataclass(frozen=True)
+class LevelCriticalPoint:
+    """The critical-point classification of one (degenerate) level.
+
+    Attributes
+    ----------
+    first_band, degeneracy : int
+    energy_eV : float
+        Mean eigenvalue (absolute).
+    method : str
+        ``"hessian"`` (non-degenerate: sum-over-states Hessian), ``"degenerate block"``
+        (the second-order block of the multiplet over :data:`DIRECTIONS` directions) or
+        ``"crossing"`` (linear splitting, nothing classified).
+    gradient_eV_A : float
+        |∇E| of the level (mean over the set), eV·Å.
+    hessian_eV_A2 : numpy.ndarray or None
+        (d, d) ∂²E/∂k_i∂k_j of a non-degenerate level.
+    symmetry_residual : float or None
+        max|H − (1/|G_k|) Σ_R R H Rᵀ| / max|H| over the little co-group (non-degenerate only).
+    linear_splitting_eV_A : float
+        Largest |q·p| inside the set per unit q beyond its mean (0 for a single band).
+    bands : tuple of BandCriticalPoint
+    """
+
+    first_band: int
+    degeneracy: int
+    energy_eV: float
+    method: str
+    gradient_eV_A: float
+    hessian_eV_A2: np.ndarray | None
+    symmetry_residual: float | None
+    linear_splitting_eV_A: float
+    bands: tuple[BandCriticalPoint, ...]
+
+    @property
+    def summary(self) -> str:
+        """A short phrase for tables: ``"M0"``, ``"M2 (block)"``, ``"crossing"``, ``"M1/M2"``."""
+        if self.method == "crossing":
+            return "crossing"
+        kinds = [b.van_hove or ("warped saddle" if b.kind == "saddle" else b.kind)
+                 for b in self.bands]
+        text = "/".join(dict.fromkeys(kinds))
+        return f"{text} (block)" if self.method == "degenerate block" else text
+
+
+@dataclass(frozen=True)
+class PointCriticalPoints:
+    """The classified levels at one labelled point.
+
+    Attributes
+    ----------
+    point : str
+    k_frac : numpy.ndarray
+    levels : tuple of LevelCriticalPoint
+        Ascending, the same levels as the irreducible-representation labels.
+    note : str
+        ``""`` or why nothing was classified.
+    """
+
+    point: str
+    k_frac: np.ndarray
+    levels: tuple[LevelCriticalPoint, ...]
+    note: str
+
+
+def _momentum_rows(vectors: np.ndarray, kg: np.ndarray, bands: np.ndarray) -> np.ndarray:
+    """p_i^{nm} = 2C Σ_G c_n*(G) (k+G)_i c_m(G) for n in ``bands`` and every m: (d, nb, n)."""
+    rows = vectors[:, bands].conj().T  # (nb, n_G)
+    return 2.0 * C * np.einsum("bg,gi,gm->ibm", rows, kg, vectors, optimize=True)
+
+
+def sum_over_states_hessian(energies_eV: np.ndarray, p_row: np.ndarray, band: int,
+                            exclude: np.ndarray) -> np.ndarray:
+    """∂²E_n/∂k_i∂k_j = 2C δ_ij + Σ_m 2 Re[p_i^{nm} p_j^{mn}]/(E_n − E_m) (eV Å²).
+
+    Parameters
+    ----------
+    energies_eV : numpy.ndarray
+        (n,) every eigenvalue of the basis.
+    p_row : numpy.ndarray
+        (d, n) p_i^{nm} for the band n and every m (eV Å).
+    band : int
+        n.
+    exclude : numpy.ndarray
+        Indices left out of the sum (n itself, and its level).
+    """
+    keep = np.ones(energies_eV.size, dtype=bool)
+    keep[exclude] = False
+    p = p_row[:, keep]
+    t = np.einsum("im,jm,m->ij", p, p.conj(), 1.0 / (energies_eV[band] - energies_eV[keep]))
+    return 2.0 * C * np.eye(p_row.shape[0]) + 2.0 * t.real
+
+
+def _by_index(index: int, d: int) -> str:
+    return "minimum" if index == 0 else "maximum" if index == d else "saddle"
+
+
+def _symmetry_residual(h: np.ndarray, rotations_cart: np.ndarray | None) -> float | None:
+    if rotations_cart is None or len(rotations_cart) == 0:
+        return None
+    sym = np.einsum("rij,jk,rlk->il", rotations_cart, h, rotations_cart) / len(rotations_cart)
+    return float(np.max(np.abs(h - sym)) / max(np.max(np.abs(h)), 1e-300))
+
+
+def _block_curvatures(block: np.ndarray, u: np.ndarray) -> np.ndarray:
+    """(N, g) ascending m0/m* of the set along each unit u (rows), from M_ij^{ab}."""
+    h = np.einsum("ni,nj,ijab->nab", u, u, block)
+    return np.linalg.eigvalsh(h) / C
+
+
+def _degenerate_level(e: np.ndarray, p: np.ndarray, group: np.ndarray, d: int
+                      ) -> tuple[str, float, float, tuple[BandCriticalPoint, ...]]:
+    """(method, |mean gradient|, linear splitting, bands) of a multiplet (module docstring)."""
+    inner = p[:, :, group]  # (d, g, g)
+    mean = np.mean(np.real(np.einsum("inn->in", inner)), axis=1)
+    gradient = float(np.linalg.norm(mean))
+    linear = float(np.max(np.abs(inner - np.eye(group.size) * mean[:, None, None])))
+    if linear > LINEAR_SPLITTING_EV_A:
+        return "crossing", gradient, linear, tuple(
+            BandCriticalPoint(int(b), "crossing", None, None, None) for b in group)
+    keep = np.ones(e.size, dtype=bool)
+    keep[group] = False
+    q = p[:, :, keep]  # (d, g, M)
+    t = np.einsum("iam,jbm,m->ijab", q, q.conj(), 1.0 / (e[group].mean() - e[keep]))
+    block = 0.5 * (t + t.transpose(1, 0, 2, 3)) + C * np.einsum(
+        "ij,ab->ijab", np.eye(d), np.eye(group.size))
+    u = fibonacci_directions(DIRECTIONS, d)
+    values = _block_curvatures(block, u)  # (N, g)
+    out = []
+    for a, b in enumerate(group):
+        axes = np.linalg.eigh(quadratic_fit(u, values[:, a]))[1]
+        curv = np.sort(_block_curvatures(block, axes.T)[:, a])
+        kind = ("minimum" if np.all(values[:, a] > 0) else "maximum"
+                if np.all(values[:, a] < 0) else "saddle")
+        # the index of an extremum is 0 or d whatever the fitted axes say (a block that a
+        # nearly degenerate outside level dominates can fit badly); a saddle's must lie
+        # between, else the warped band has mixed signs that no quadratic form shows: no index
+        index: int | None = int(np.sum(curv < 0))
+        if kind != "saddle":
+            index = 0 if kind == "minimum" else d
+        elif not 0 < index < d:
+            index = None
+        if gradient > STATIONARY_GRADIENT_EV_A:
+            kind = "not stationary"
+        vh = None if kind == "not stationary" or index is None else f"M{index}"
+        out.append(BandCriticalPoint(int(b), kind, vh, index, curv))
+    return "degenerate block", gradient, linear, tuple(out)
+
+
+def classify_levels(energies_eV: np.ndarray, vectors: np.ndarray, kg_cart_invA: np.ndarray,
+                    levels: list[tuple[int, int]],
+                    rotations_cart: np.ndarray | None = None) -> tuple[LevelCriticalPoint, ...]:
+    """Classify each level of one k-point from the full eigen-decomposition there.
+
+    Parameters
+    ----------
+    energies_eV : numpy.ndarray
+        (n,) every eigenvalue of H(k) in the fixed basis, ascending.
+    vectors : numpy.ndarray
+        (n_G, n) every eigenvector (columns).
+    kg_cart_invA : numpy.ndarray
+        (n_G, d) k + G of each plane wave (Å⁻¹).
+    levels : list of (int, int)
+        (first band, degeneracy) of each level to classify.
+    rotations_cart : numpy.ndarray, optional
+        (r, d, d) Cartesian rotations of the little co-group, for the symmetry residual.
+
+    Returns
+    -------
+    tuple of LevelCriticalPoint
+    """
+    e = np.asarray(energies_eV, dtype=float)
+    if not levels:
+        return ()
+    top = max(a + g for a, g in levels)
+    bands = np.arange(top)
+    p = _momentum_rows(np.asarray(vectors), np.asarray(kg_cart_invA, dtype=float), bands)
+    d = p.shape[0]
+    out = []
+    for a, g in levels:
+        group = np.arange(a, a + g)
+        if g == 1:
+            h = sum_over_states_hessian(e, p[:, a, :], a, group)
+            h = 0.5 * (h + h.T)
+            gradient = float(np.linalg.norm(np.real(p[:, a, a])))
+            w = np.linalg.eigvalsh(h / (2.0 * C))
+            index = int(np.sum(w < 0))
+            kind = ("not stationary" if gradient > STATIONARY_GRADIENT_EV_A
+                    else _by_index(index, d))
+            band = BandCriticalPoint(a, kind, None if kind == "not stationary" else f"M{index}",
+                                     index, w)
+            out.append(LevelCriticalPoint(a, 1, float(e[a]), "hessian", gradient, h,
+                                          _symmetry_residual(h, rotations_cart), 0.0, (band,)))
+        else:
+            method, gradient, linear, bcps = _degenerate_level(e, p[:, group, :], group, d)
+            out.append(LevelCriticalPoint(a, g, float(e[group].mean()), method, gradient, None,
+                                          None, linear, bcps))
+    return tuple(out)
+
+
+def _little_cogroup_cart(rotations_cart: np.ndarray, reciprocal_invA: np.ndarray,
+                         k_cart: np.ndarray) -> np.ndarray:
+    """The Cartesian rotations R with R k ≡ k modulo the reciprocal lattice."""
+    shift = np.einsum("rij,j->ri", rotations_cart, k_cart) - k_cart
+    frac = np.linalg.solve(reciprocal_invA.T, shift.T).T
+    return rotations_cart[np.all(np.abs(frac - np.rint(frac)) < 1e-6, axis=1)]
+
+
+def not_classified_reason(material: Material, model: KCentredModel | None = None) -> str:
+    """Why the levels of a material are not classified (``""`` when they are)."""
+    if unlabelled_reason(material):
+        return unlabelled_reason(material).replace("no labels", "no critical points")
+    if getattr(material, "spin_orbit", None) is not None:
+        return ("critical points not classified with spin–orbit: the k-derivative of the "
+                "spin–orbit term is not in the sum over states")
+    if model is not None and model.nonlocal_term is not None:
+        return ("critical points not classified with nonlocal wells: their k-derivative is "
+                "not in the sum over states")
+    return ""
+
+
+def label_and_classify(material: Material, cutoff_eV: float, points: dict[str, np.ndarray],
+                       n_bands: int, *, model: KCentredModel | None = None,
+                       origin_atom: int | None = None
+                       ) -> tuple[tuple[PointSymmetry, ...], tuple[PointCriticalPoints, ...]]:
+    """Irreducible-representation labels and van Hove types at the labelled points.
+
+    One full diagonalisation per point in the basis centred on it serves both
+    (:func:`bandpert.symmetry.label_point` and :func:`classify_levels`); the levels classified
+    are the labelled ones.
+
+    Parameters
+    ----------
+    material : Material
+    cutoff_eV : float
+    points : dict of str to numpy.ndarray
+        Label → k in fractions of the reciprocal primitive vectors.
+    n_bands : int
+    model : KCentredModel, optional
+        The band structure's model (same cutoff), whose V table is reused.
+    origin_atom : int, optional
+
+    Returns
+    -------
+    labels : tuple of PointSymmetry
+        As :func:`bandpert.symmetry.label_points` returns them.
+    critical : tuple of PointCriticalPoints
+        One per point, in the same order; empty where the labels are empty; with a note and
+        no levels for spin–orbit and nonlocal models (:func:`not_classified_reason`).
+    """
+    if unlabelled_reason(material):
+        return (), ()
+    if getattr(material, "spin_orbit", None) is None:
+        model = build_k_centred_model(material, cutoff_eV) if model is None else model
+    why = not_classified_reason(material, model)
+    if why:
+        labels = label_points(material, cutoff_eV, points, n_bands, model=model,
+                              origin_atom=origin_atom)
+        return labels, tuple(PointCriticalPoints(p.point, p.k_frac, (), why) for p in labels)
+    frame = space_group_frame(material, origin_atom)
+    labels, critical = [], []
+    for lab, k in points.items():
+        k = np.asarray(k, dtype=float)
+        k_cart = k @ model.reciprocal_invA
+        miller, w, v = k_centred_states(model, k_cart)
+        ps = label_point(material, cutoff_eV, k, lab, n_bands, frame=frame, model=model,
+                         origin_atom=origin_atom, states=(miller, w, v))
+        kg = k_cart + miller @ model.reciprocal_invA
+        rot = _little_cogroup_cart(frame.rotations_cart, model.reciprocal_invA, k_cart)
+        levels = [(lv.first_band, lv.degeneracy) for lv in ps.levels]
+        labels.append(ps)
+        critical.append(PointCriticalPoints(lab, k, classify_levels(w, v, kg, levels, rot), ""))
+    return tuple(labels), tuple(critical)
