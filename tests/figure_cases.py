@@ -22,6 +22,7 @@ from bandpert.physics.bands import compute_band_structure
 from bandpert.physics.fullzone import kp_convergence
 from bandpert.physics.nfe_gaps import gap_analysis
 from bandpert.physics.perturbative_bands import PerturbationSettings
+from bandpert.physics.van_hove import label_and_classify
 from bandpert.runs.execution import SERIAL
 from bandpert.runs.mesh_dos import compute_dos
 from bandpert.runs.sweep import prepare, run_sweep
@@ -49,6 +50,15 @@ def bands_labelled(m: Material, n_k: int = 30, window=None, comparison: bool = F
     labels = label_points(m, bs.k_centred.cutoff_eV, standard_path(m)[0], bs.n_bands,
                           model=bs.k_centred)
     return figures.band_figure(bs, window, labels)
+
+
+def bands_van_hove(m: Material, n_k: int = 30, window=None, comparison: bool = False):
+    """A band figure with labels and van Hove markers (``bandpert bands --van-hove-marks``)."""
+    bs = compute_band_structure(
+        m, n_k=n_k, perturbation=PerturbationSettings(radius_points=4) if comparison else None)
+    labels, critical = label_and_classify(m, bs.k_centred.cutoff_eV, standard_path(m)[0],
+                                          bs.n_bands, model=bs.k_centred)
+    return figures.band_figure(bs, window, labels, critical)
 
 
 def bands_comparison(m: Material, n_k: int = 30, window=None):
@@ -105,6 +115,11 @@ def all_cases() -> dict:
         "bands-silicon": lambda: bands_exact(bundled("silicon")),
         "bands-own": lambda: bands_exact(own()),
         "bands-labelled-silicon": lambda: bands_labelled(bundled("silicon")),
+        "bands-van-hove-gaas": lambda: bands_van_hove(bundled("gallium-arsenide")),
+        "bands-van-hove-aluminium-window": lambda: bands_van_hove(bundled("aluminium"),
+                                                                  window=(-2.0, 8.0)),
+        "comparison-van-hove-silicon": lambda: bands_van_hove(bundled("silicon"),
+                                                              comparison=True),
         "bands-labelled-gaas": lambda: bands_labelled(bundled("gallium-arsenide")),
         "bands-labelled-germanium-window": lambda: bands_labelled(bundled("germanium"),
                                                                   window=(-4.0, 4.0)),

@@ -214,3 +214,29 @@ def test_agrees_with_masses_at_every_labelled_point(name, monkeypatch):
                 compared += 1
     assert compared >= 30
     print(name, compared, "bands compared,", warped, "warped saddles")
+
+
+def test_figure_marks_every_classified_level_and_names_the_types(tmp_path):
+    # ``bands --van-hove-marks``: one marker per (level, type) at the labelled points inside the
+    # window, a legend naming the types drawn, no overlapping or clipped text
+    from figure_cases import bands_van_hove, text_problems
+    from matplotlib.lines import Line2D
+
+    m = bundled("gallium-arsenide")
+    fig = bands_van_hove(m, n_k=20)
+    ax = fig.axes[0]
+    marks = [ln for ln in ax.get_lines() if ln.get_marker() in ("^", ">", "<", "v", "D", "x")
+             and len(ln.get_xdata()) == 1]
+    lo, hi = ax.get_ylim()
+    assert len(marks) >= 20
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "M0 minimum" in legend and "M1 saddle" in legend and "M3 maximum" in legend
+    assert all(isinstance(h, Line2D) for h in ax.get_legend().legend_handles)
+    assert lo < min(ln.get_ydata()[0] for ln in marks)
+    assert text_problems(fig) == []
+    from test_cli import run
+
+    code, out, err = run(["bands", "silicon", "--k-points", "12", "--exact-only",
+                          "--van-hove-marks", "--out", str(tmp_path)])
+    assert code == 0, err
+    assert "[M0]" in out and "[crossing]" in out

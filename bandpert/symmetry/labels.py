@@ -276,18 +276,18 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
 def _spinor_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point: str,
                   n_bands: int, frame: SpaceGroupFrame | None, origin_atom: int | None,
                   level_tol_eV: float) -> PointSymmetry:
-    """Double-group labels (:mod:`bandpert.symmetry.spinor`); Herring values not computed (0)."""
+    """Double-group labels (:mod:`bandpert.symmetry.spinor`) with Herring's spinor indicator."""
     frame = space_group_frame(material, origin_atom) if frame is None else frame
     if not frame.primitive or frame.order == 1:
         note = NO_SYMMETRY if frame.order == 1 else "labels need a primitive cell"
         return PointSymmetry(point, k_frac, frame.international, "", 1, (), (), (), (), note,
                              cutoff_eV)
-    raw, names, dims, order = spinor_levels(material, cutoff_eV, frame, k_frac, point, n_bands,
-                                            level_tol_eV)
+    raw, names, dims, order, herring = spinor_levels(material, cutoff_eV, frame, k_frac, point,
+                                                     n_bands, level_tol_eV)
     levels = tuple(LevelLabel(e, a, g, c, label, len(c) > 1 and not tr, tr)
                    for e, a, g, c, label, tr in raw)
     return PointSymmetry(point, k_frac, frame.international, frame.origin, order, tuple(names),
-                         tuple(int(d) for d in dims), tuple(0 for _ in names), levels,
+                         tuple(int(d) for d in dims), tuple(int(h) for h in herring), levels,
                          "double group (spin–orbit)", cutoff_eV)
 
 

@@ -23,7 +23,8 @@ Wheeler & Statz, *Properties of the Thirty-Two Point Groups*, 1963, for the poin
 * L, C_3v (zincblende): L1 (A1), L2 (A2), L3 (E).
 * X, D_2d (zincblende, atom at the origin): X1 (A1), X2 (B1), X3 (B2), X4 (A2), X5 (E); the
   lowest free-electron pair cos/sin(2πz/a) gives X1 + X3, which swap when the other atom is put
-  at the origin. X2/X4 as B1/A2 is from memory and not checked by a test.
+  at the origin. X2/X4 as B1/A2 is from memory; tests/test_symmetry_time_reversal.py checks the
+  characters (bands 9 and 14 of the bundled GaAs at X).
 * X, diamond (origin at the bond centre; all four irreps two-dimensional): X1 and X2 have
   character ±2 on the mirrors containing k through a face diagonal (X1 → Δ1 + Δ2′, X2 → Δ2 +
   Δ1′ along Δ); X3 and X4 have −2 on the twofold screw axis along k and ±2 on the twofold axes

@@ -9,8 +9,15 @@ Dimmock, Wheeler & Statz, *Properties of the Thirty-Two Point Groups* (1963) (fr
 two-dimensional irreps are Γ6 (the spin-½ representation itself: χ(C4 or S4)/χ_{½} = +1) and Γ7
 (−1), the four-dimensional one Γ8; with inversion a ± parity is appended (Γ8+, Γ7+ at the
 valence top of silicon and germanium). Elsewhere the neutral ``<point>#<n>(<dim>)``.
-Time reversal: a level of two one-dimensional irreps with complex-conjugate characters is a
-Kramers pair (not accidental); Herring's test is not run for spinors.
+Time reversal (θ² = −1 for spin ½) is judged by Herring's test on the double group:
+W = (1/|G_k/T|) Σ_{g: g k ≡ −k} χ(g²), with g² taken in the double group (the SU(2) lift of g
+squared, which is ± the lift of the representative of g²), is −1 where time reversal adds no
+degeneracy, 0 where the irrep sticks to its complex conjugate, +1 where it appears twice — the
+signs of the spinless test reversed (Herring, Phys. Rev. 52, 361 (1937); Bradley & Cracknell,
+*The Mathematical Theory of Symmetry in Solids*, 1972, §7.5 — from memory). The indicator
+reported is −W, so +1, 0, −1 mean what they mean for spinless irreps. A level of two irreps
+with indicator 0 (complex-conjugate characters where −k ≡ k), or of one irrep twice with
+indicator −1, is stuck by time reversal, not accidental.
 """
 
 from __future__ import annotations
@@ -18,6 +25,7 @@ from __future__ import annotations
 import numpy as np
 import scipy.linalg
 from spgrep import get_spacegroup_spinor_irreps_from_primitive_symmetry
+from spgrep.spinor import get_spinor_unitary_rotation
 
 from ..input.material import Material
 from ..planewave.model import centred_model
@@ -56,19 +64,20 @@ def _names(frame: SpaceGroupFrame, k: np.ndarray, indices: np.ndarray, chars: np
 def spinor_levels(material: Material, cutoff_eV: float, frame: SpaceGroupFrame,
                   k_frac: np.ndarray, point: str, n_bands: int, level_tol_eV: float
                   ) -> tuple[list[tuple[float, int, int, tuple[int, ...], str, bool]], list[str],
-                             np.ndarray, int]:
+                             np.ndarray, int, np.ndarray]:
     """Levels of the spinor H(k) with their double-group irreps.
 
     Returns
     -------
     levels : list of (energy_eV, first_band, degeneracy, irreps, label, time_reversal)
-        ``time_reversal``: two one-dimensional irreps with complex-conjugate characters, a
-        Kramers pair that time reversal sticks together.
+        ``time_reversal``: irreps that time reversal sticks together (:func:`spinor_herring`).
     names : list of str
         Name of each small irrep.
     dims : numpy.ndarray
     order : int
         Order of the little co-group.
+    herring : numpy.ndarray
+        Herring's indicator per irrep (:func:`spinor_herring`).
     """
     k = np.asarray(k_frac, dtype=float)
     model = centred_model(material, cutoff_eV, k @ np.linalg.inv(frame.lattice_t) * 2 * np.pi,
@@ -84,6 +93,7 @@ def spinor_levels(material: Material, cutoff_eV: float, frame: SpaceGroupFrame,
     chars = np.array([[np.trace(m) for m in ir] for ir in irreps], dtype=complex)
     dims = np.array([ir.shape[1] for ir in irreps], dtype=int)
     names = _names(frame, k, mapping, chars, np.asarray(unitary), dims, point)
+    herring = spinor_herring(frame, k, mapping, chars, np.asarray(unitary))
     miller = model.basis.miller.astype(np.int64)
     n = miller.shape[0]
     index = {tuple(m): i for i, m in enumerate(miller.tolist())}
@@ -114,17 +124,66 @@ def spinor_levels(material: Material, cutoff_eV: float, frame: SpaceGroupFrame,
         contained = tuple(int(i) for i in np.repeat(np.arange(counts.size), counts))
         levels.append((float(w[a:b].mean()), int(a), int(b - a), contained,
                        "+".join(names[i] for i in contained),
-                       _kramers_pair(contained, chars, k)))
-    return levels, names, dims, int(mapping.size)
+                       _kramers_pair(contained, chars, k, herring)))
+    return levels, names, dims, int(mapping.size), herring
 
 
-def _kramers_pair(contained: tuple[int, ...], chars: np.ndarray, k: np.ndarray) -> bool:
-    """Two distinct irreps stuck by time reversal (θ² = −1): complex-conjugate characters
-    where −k ≡ k; where −k ≢ k the partner (conjugated by an operation taking k to −k) is not
-    checked."""
-    if len(contained) != 2 or contained[0] == contained[1]:
+def _kramers_pair(contained: tuple[int, ...], chars: np.ndarray, k: np.ndarray,
+                  herring: np.ndarray) -> bool:
+    """Irreps stuck by time reversal (θ² = −1): one irrep twice with Herring indicator −1, or
+    two with indicator 0 whose characters are complex conjugates where −k ≡ k (where −k ≢ k
+    the partner, conjugated by an operation taking k to −k, is not checked)."""
+    if len(contained) != 2:
+        return False
+    i, j = contained
+    if i == j:
+        return bool(herring[i] == -1)
+    if herring[i] != 0 or herring[j] != 0:
         return False
     if not np.allclose(2 * k, np.rint(2 * k), atol=ATOL):
         return True
-    i, j = contained
     return bool(np.allclose(chars[j], np.conj(chars[i]), atol=1e-6))
+
+
+def spinor_herring(frame: SpaceGroupFrame, k: np.ndarray, mapping: np.ndarray,
+                   chars: np.ndarray, unitary: np.ndarray) -> np.ndarray:
+    """Herring's indicator of each double-group small irrep (module docstring), as −W.
+
+    For every operation g = {W|w} with W k ≡ −k, g² = {W²|W w + w} = {E|T}{W_j|w_j} with
+    {W_j|w_j} a little-group representative, and the SU(2) lift U(g)² = s U_j (s = ±1), so
+    χ(g²) = s exp(−2πi k·T) χ_j.
+
+    Parameters
+    ----------
+    frame : SpaceGroupFrame
+    k : numpy.ndarray
+        (3,) reciprocal fractions.
+    mapping : numpy.ndarray
+        Operations of the little group (indices into ``frame``), spgrep's order.
+    chars : numpy.ndarray
+        (n_irreps, len(mapping)) characters of spgrep's spinor small irreps.
+    unitary : numpy.ndarray
+        (len(mapping), 2, 2) spgrep's SU(2) lifts of the little-group operations.
+
+    Returns
+    -------
+    numpy.ndarray
+        +1 (no extra degeneracy), 0 (sticks to its conjugate) or −1 (appears twice) per irrep.
+    """
+    W, w = frame.rotations, frame.translations
+    lattice = frame.lattice_t.T
+    total = np.zeros(chars.shape[0], dtype=complex)
+    little_W = W[mapping].reshape(mapping.size, 9)
+    kr = np.einsum("j,nji->ni", k, np.linalg.inv(W))
+    d = kr + k
+    for n in np.flatnonzero(np.all(np.abs(d - np.rint(d)) < ATOL, axis=1)):
+        w2 = W[n] @ w[n] + w[n]
+        j = int(np.flatnonzero(np.all(little_W == (W[n] @ W[n]).ravel(), axis=1))[0])
+        u = get_spinor_unitary_rotation(lattice, W[n])
+        u2 = u @ u
+        sign = 1.0 if np.allclose(u2, unitary[j], atol=1e-6) else -1.0
+        if sign < 0 and not np.allclose(u2, -unitary[j], atol=1e-6):
+            raise RuntimeError("the SU(2) lift of g² is not ± that of its representative")
+        t = w2 - w[mapping[j]]
+        total += sign * np.exp(-2j * np.pi * (k @ t)) * chars[:, j]
+    return np.rint(-total.real / mapping.size).astype(int)

@@ -98,6 +98,11 @@ def bands(
     exact_only: Annotated[bool, typer.Option("--exact-only", metavar="",
                                              help="Skip the perturbative bands.")]
     = False,
+    mark_critical: Annotated[bool, typer.Option(
+        "--van-hove-marks", metavar="",
+        help="Mark the van Hove type of each level at the labelled points on the figure "
+             "(M0 minimum, M1/M2 saddle, M3 maximum, crossing); JSON and table carry it "
+             "always.")] = False,
 ) -> None:
     """Bands along the Brillouin-zone path, exact and perturbative side by side.
 
@@ -139,7 +144,7 @@ def bands(
                                          critical)
     doc = document("bands", material, settings, results)
     header, cols, rows = band_structure_table(bs)
-    fig = band_figure(bs, window, labels)
+    fig = band_figure(bs, window, labels, critical if mark_critical else ())
     mode = "exact-" if exact_only else "perturbative-" if no_exact else ""
     base = output_base(out_dir, name, f"{file.stem}-{mode}bands")
     image, csv_path, json_path = output_paths(base, image_format, json_path)

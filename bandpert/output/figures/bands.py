@@ -10,14 +10,16 @@ from matplotlib.lines import Line2D
 from matplotlib.patches import Patch
 
 from ...physics.bands import BandStructure
+from ...physics.van_hove import PointCriticalPoints
 from ...symmetry.labels import PointSymmetry
 from .. import style
 from ..energy_zero import zero_phrase
-from .level_labels import draw_level_labels
+from .level_labels import draw_critical_points, draw_level_labels
 
 
 def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None = None,
-                level_labels: tuple[PointSymmetry, ...] = ()) -> Figure:
+                level_labels: tuple[PointSymmetry, ...] = (),
+                critical_points: tuple[PointCriticalPoints, ...] = ()) -> Figure:
     """The exact bands of ``bs`` along its path, energies from the energy zero.
 
     The energy zero is drawn as a dashed line; for a semiconductor the gap is shaded and the
@@ -33,27 +35,36 @@ def band_figure(bs: BandStructure, energy_window_eV: tuple[float, float] | None 
     level_labels : tuple of PointSymmetry, optional
         Symmetry labels written beside the levels at the labelled points
         (:func:`~bandpert.output.figures.level_labels.draw_level_labels`).
+    critical_points : tuple of PointCriticalPoints, optional
+        Van Hove types marked on the levels at the labelled points, with their legend
+        (:func:`~bandpert.output.figures.level_labels.draw_critical_points`).
 
     Returns
     -------
     matplotlib.figure.Figure
     """
     if bs.perturbative is not None:
-        return comparison_figure(bs, energy_window_eV, level_labels)
+        return comparison_figure(bs, energy_window_eV, level_labels, critical_points)
     fig = style.new_figure(6.4, 4.8)
     ax = fig.subplots()
     draw_bands_panel(ax, bs, energy_window_eV)
     ax.set_xlabel("Wave vector along the path", fontsize=style.LABEL_SIZE)
-    style.footer(fig, source_note(bs))
-    _level_labels(ax, bs, level_labels)
+    # 120 characters fit the 6.4-inch figure (130 left aluminium's note 2 px outside it)
+    style.footer(fig, source_note(bs), width=120)
+    _level_labels(ax, bs, level_labels, critical_points)
     return fig
 
 
-def _level_labels(ax: Axes, bs: BandStructure, level_labels: tuple[PointSymmetry, ...]) -> None:
-    """Symmetry labels beside the levels, drawn last so that they avoid every other text."""
+def _level_labels(ax: Axes, bs: BandStructure, level_labels: tuple[PointSymmetry, ...],
+                  critical_points: tuple[PointCriticalPoints, ...] = ()) -> None:
+    """Van Hove markers, then symmetry labels beside the levels, drawn last so that they avoid
+    every other text."""
+    if critical_points:
+        draw_critical_points(ax, bs.path.distance_invA, bs.path.label_indices, bs.path.labels,
+                             bs.energy_zero_eV, critical_points)
     if level_labels:
         draw_level_labels(ax, bs.path.distance_invA, bs.path.label_indices, bs.path.labels,
-                          bs.energy_zero_eV, level_labels)
+                          bs.energy_zero_eV, level_labels, 9.0 if critical_points else 4.0)
 
 
 def source_note(bs: BandStructure) -> str:
@@ -152,7 +163,8 @@ def validity_states(bs: BandStructure) -> np.ndarray:
 
 def comparison_figure(bs: BandStructure,
                       energy_window_eV: tuple[float, float] | None = None,
-                      level_labels: tuple[PointSymmetry, ...] = ()) -> Figure:
+                      level_labels: tuple[PointSymmetry, ...] = (),
+                      critical_points: tuple[PointCriticalPoints, ...] = ()) -> Figure:
     """Perturbative bands beside exact bands, with the error panel and the validity map.
 
     Top: exact bands as lines; perturbative energies as markers (at most
@@ -210,7 +222,7 @@ def comparison_figure(bs: BandStructure,
     style.draw_path_axes(ax_map, x, bs.path.label_indices, bs.path.labels)
     ax_map.set_xlabel("Wave vector along the path", fontsize=style.LABEL_SIZE)
     style.footer(fig, source_note(bs))
-    _level_labels(ax, bs, level_labels)
+    _level_labels(ax, bs, level_labels, critical_points)
     return fig
 
 
