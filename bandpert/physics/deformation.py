@@ -137,17 +137,30 @@ def strain_hamiltonian(material: Material, model: PlaneWaveModel, k_cart_invA: n
     return h
 
 
+#: One set of shell slopes for :func:`strain_hamiltonian` (None: the model's own).
+Slopes = dict[tuple[str, float], float] | None
+
+
 def set_shifts(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
-               bands: np.ndarray, strains: list[np.ndarray], **kw) -> list[np.ndarray]:
+               bands: np.ndarray, strains: list[np.ndarray], slopes: Slopes = None,
+               zeta: float = 0.0) -> list[np.ndarray]:
     """Ascending first-order shifts of a (degenerate) set of bands at k per unit of each strain.
 
     Eigenvalues of P (Σ ε_ij ∂H/∂ε_ij) P in the set (degenerate first-order perturbation
     theory), on ``model`` (one basis for every strain).
     """
+    return _shift_sets(material, model, k_cart_invA, bands, strains, [slopes], zeta)[0]
+
+
+def _shift_sets(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
+                bands: np.ndarray, strains: list[np.ndarray], slope_sets: list[Slopes],
+                zeta: float = 0.0) -> list[list[np.ndarray]]:
+    """:func:`set_shifts` for several slope sets on one set of eigenstates: [set][strain]."""
     k = np.asarray(k_cart_invA, dtype=float)
     c = levels(model, k, int(np.max(bands)) + 1)[1][:, bands]
-    return [np.linalg.eigvalsh(c.conj().T @ strain_hamiltonian(material, model, k, e, **kw) @ c)
-            for e in strains]
+    return [[np.linalg.eigvalsh(c.conj().T @ strain_hamiltonian(material, model, k, e, slopes,
+                                                                zeta) @ c)
+             for e in strains] for slopes in slope_sets]
 
 
 def _single_and_double(w: np.ndarray) -> tuple[float, float]:
@@ -158,17 +171,17 @@ def _single_and_double(w: np.ndarray) -> tuple[float, float]:
 
 
 def _hydrostatic_shift(material: Material, k: np.ndarray, band: int, cutoff_eV: float,
-                       run_model: PlaneWaveModel, **kw) -> float:
-    """Mean hydrostatic shift (per ln V) of the degenerate set holding ``band`` at k."""
+                       run_model: PlaneWaveModel, slope_sets: list[Slopes]) -> np.ndarray:
+    """Mean hydrostatic shift (per ln V) of the degenerate set holding ``band`` at k, per set."""
     sym = centred_model(material, k, cutoff_eV)
     group = degenerate_group(material, run_model, k, band, sym)[0]
-    return float(np.mean(set_shifts(material, sym, k, group, [_hydrostatic(k.size)], **kw)[0]))
+    return np.array([float(np.mean(w[0])) for w in _shift_sets(
+        material, sym, k, group, [_hydrostatic(k.size)], slope_sets)])
 
 
 def deformation_potentials(material: Material, model: PlaneWaveModel,
                            edges: list[EdgeLocation], points: dict[str, np.ndarray],
-                           rotations: np.ndarray | None,
-                           slopes: dict[tuple[str, float], float] | None = None
+                           rotations: np.ndarray | None, slopes: Slopes = None
                            ) -> DeformationPotentials:
     """Hydrostatic, uniaxial and shear deformation potentials at the reference lattice.
 
@@ -194,6 +207,19 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
     InputError
         For a potential that is not "continuous" or a lattice that is not 3D.
     """
+    return deformation_potential_sets(material, model, edges, points, rotations, [slopes])[0]
+
+
+def deformation_potential_sets(material: Material, model: PlaneWaveModel,
+                               edges: list[EdgeLocation], points: dict[str, np.ndarray],
+                               rotations: np.ndarray | None, slope_sets: list[Slopes]
+                               ) -> list[DeformationPotentials]:
+    """:func:`deformation_potentials` for each of several slope sets, on one set of eigenstates.
+
+    The eigenstates at the reference lattice do not depend on the slopes, so each degenerate
+    set is found and diagonalised once (:mod:`bandpert.physics.deformation_fit` evaluates one
+    set per shell slope).
+    """
     if material.potential.form != "continuous":
         raise InputError("deformation potentials need a potential that follows the strain; "
                          "expected the continuous form (fit tabulated form factors first)",
@@ -206,47 +232,48 @@ def deformation_potentials(material: Material, model: PlaneWaveModel,
     val = next(e for e in edges if e.maximum)
     n_val = val.band + 1
     b = model.reciprocal_invA
-    kw = {"slopes": slopes}
+    sets = list(slope_sets)
     gaps = {"indirect": (_hydrostatic_shift(material, cond.k_cart_invA, cond.band, cutoff, model,
-                                            **kw)
+                                            sets)
                          - _hydrostatic_shift(material, val.k_cart_invA, val.band, cutoff,
-                                              model, **kw))}
+                                              model, sets))}
     for label, k_frac in points.items():
         k = np.asarray(k_frac, dtype=float) @ b
-        gaps[label] = (_hydrostatic_shift(material, k, n_val, cutoff, model, **kw)
-                       - _hydrostatic_shift(material, k, n_val - 1, cutoff, model, **kw))
+        gaps[label] = (_hydrostatic_shift(material, k, n_val, cutoff, model, sets)
+                       - _hydrostatic_shift(material, k, n_val - 1, cutoff, model, sets))
     zeta, zeta_source = internal_strain_parameter(material)
-    xi_u = _xi_u(material, model, cond, rotations, zeta, slopes)
-    lmn = b_ev = d_ev = None
+    xi_u = _xi_u(material, model, cond, rotations, zeta, sets)
+    lmn = [None] * len(sets)
     k_v = val.k_cart_invA
     sym = centred_model(material, k_v, cutoff)
     group = degenerate_group(material, model, k_v, val.band, sym)[0]
     if group.size == 3:
         ex = np.zeros((3, 3))
         ex[0, 0] = 1.0
-        uni, shear = set_shifts(material, sym, k_v, group, [ex, np.full((3, 3), 1.0 / 3.0)],
-                                zeta=zeta, slopes=slopes)
-        big_l, big_m = _single_and_double(uni)
-        single, double = _single_and_double(shear)
-        big_n = single - double
-        lmn = (big_l, big_m, big_n)
-        b_ev, d_ev = (big_l - big_m) / 3.0, big_n / np.sqrt(3.0)
-    return DeformationPotentials(gap_hydrostatic_eV={k: float(v) for k, v in gaps.items()},
-                                 conduction_valley=cond.where, xi_u_eV=xi_u,
-                                 xi_d_plus_xi_u_over_3_minus_a_v_eV=float(gaps["indirect"]),
-                                 valence_lmn_eV=lmn, b_eV=b_ev, d_eV=d_ev,
-                                 internal_strain_zeta=zeta, internal_strain_source=zeta_source)
+        for i, (uni, shear) in enumerate(_shift_sets(
+                material, sym, k_v, group, [ex, np.full((3, 3), 1.0 / 3.0)], sets, zeta)):
+            big_l, big_m = _single_and_double(uni)
+            single, double = _single_and_double(shear)
+            lmn[i] = (big_l, big_m, single - double)
+    return [DeformationPotentials(
+        gap_hydrostatic_eV={k: float(v[i]) for k, v in gaps.items()},
+        conduction_valley=cond.where, xi_u_eV=xi_u[i],
+        xi_d_plus_xi_u_over_3_minus_a_v_eV=float(gaps["indirect"][i]), valence_lmn_eV=lmn[i],
+        b_eV=None if lmn[i] is None else (lmn[i][0] - lmn[i][1]) / 3.0,
+        d_eV=None if lmn[i] is None else lmn[i][2] / np.sqrt(3.0),
+        internal_strain_zeta=zeta, internal_strain_source=zeta_source)
+        for i in range(len(sets))]
 
 
 def _xi_u(material: Material, model: PlaneWaveModel, cond: EdgeLocation,
-          rotations: np.ndarray | None, zeta: float = 0.0,
-          slopes: dict[tuple[str, float], float] | None = None) -> float | None:
+          rotations: np.ndarray | None, zeta: float, slope_sets: list[Slopes]
+          ) -> list[float | None]:
     """Ξ_u = (δ1 − δ2)/(1 − (k̂1·k̂2)²) under the uniaxial strain ε = k̂1 k̂1ᵀ along the valley
     k1, δ2 the shift of an equivalent valley k2 (E shifts by Ξ_d tr ε + Ξ_u k̂·ε·k̂;
     Herring & Vogt, Phys. Rev. 101, 944 (1956))."""
     k1 = cond.k_cart_invA
     if np.linalg.norm(k1) < 1e-9 or rotations is None:
-        return None
+        return [None] * len(slope_sets)
     u1 = k1 / np.linalg.norm(k1)
     k2 = None
     for r in rotations:
@@ -256,16 +283,16 @@ def _xi_u(material: Material, model: PlaneWaveModel, cond: EdgeLocation,
             k2 = cand
             break
     if k2 is None:
-        return None
+        return [None] * len(slope_sets)
     u2 = k2 / np.linalg.norm(k2)
     strain = np.outer(u1, u1)
     cutoff = model.basis.cutoff_eV
     shifts = []
     for k in (k1, k2):
         sym = centred_model(material, k, cutoff)
-        shifts.append(float(np.mean(set_shifts(material, sym, k, np.array([cond.band]),
-                                               [strain], zeta=zeta, slopes=slopes)[0])))
-    return (shifts[0] - shifts[1]) / (1.0 - (u1 @ u2) ** 2)
+        shifts.append(np.array([float(np.mean(w[0])) for w in _shift_sets(
+            material, sym, k, np.array([cond.band]), [strain], slope_sets, zeta)]))
+    return [float(x) for x in (shifts[0] - shifts[1]) / (1.0 - (u1 @ u2) ** 2)]
 
 
 def describe(dp: DeformationPotentials) -> list[str]:

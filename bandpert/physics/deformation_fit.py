@@ -42,7 +42,11 @@ from ..planewave.solver import single_blas_thread
 from ..planewave.strain_potential import species_form_factor_slope
 from ..units import ENERGY_UNITS_TO_EV, HBAR2_OVER_2M0_EV_A2
 from .bands import compute_band_structure, default_bands
-from .deformation import DeformationPotentials, deformation_potentials
+from .deformation import (
+    DeformationPotentials,
+    deformation_potential_sets,
+    deformation_potentials,
+)
 from .extrema import EdgeLocation, locate_edges
 
 #: Labelled points whose gaps are reported (and may be targets).
@@ -100,11 +104,16 @@ class StrainFit:
 
 
 def _responses(material: Material, bs, edges: list[EdgeLocation],
-               targets: tuple[DeformationTarget, ...], slopes=None) -> np.ndarray:
+               targets: tuple[DeformationTarget, ...], slope_sets: list) -> np.ndarray:
+    """Each target's value for each slope set: (n_sets, n_targets)."""
     points = {p: np.asarray(bs.path.points_frac[p]) for p in GAP_POINTS
               if p in bs.path.points_frac}
-    dp = deformation_potentials(material, bs.model, edges, points,
-                                point_group_rotations(material), slopes)
+    return np.array([_values(material, dp, targets) for dp in deformation_potential_sets(
+        material, bs.model, edges, points, point_group_rotations(material), slope_sets)])
+
+
+def _values(material: Material, dp: DeformationPotentials,
+            targets: tuple[DeformationTarget, ...]) -> list[float]:
     out = []
     for t in targets:
         v = target_value(dp, t.name)
@@ -121,7 +130,7 @@ def _responses(material: Material, bs, edges: list[EdgeLocation],
                              "fractional positions); expected no d target",
                              material.file, "potential.deformation_targets.d")
         out.append(v)
-    return np.array(out)
+    return out
 
 
 def _slope_keys(fit: ContinuousFit, species: list[str]) -> list[tuple[str, float]]:
@@ -175,10 +184,9 @@ def strain_following_document(document: dict[str, Any], source: str = "",
     with single_blas_thread():
         bs = compute_band_structure(cmat, n_k=60, cutoff_eV=cutoff, check_cutoff=False)
         edges = locate_edges(bs)
-        before = _responses(cmat, bs, edges, targets)
-        base = _responses(cmat, bs, edges, targets, {})
-        a = np.stack([_responses(cmat, bs, edges, targets, {key: 1.0}) - base
-                      for key in keys], axis=1)
+        before, base, *unit_slope = _responses(cmat, bs, edges, targets,
+                                               [None, {}] + [{key: 1.0} for key in keys])
+        a = np.stack(unit_slope, axis=1) - base[:, None]
     own = np.array([float(species_form_factor_slope(cmat, s, unit * np.sqrt(g2)))
                     for s, g2 in keys])
     live = np.abs(a).max(axis=0) > 1e-9 * max(1.0, float(np.abs(a).max()))
@@ -194,7 +202,7 @@ def strain_following_document(document: dict[str, Any], source: str = "",
     if dv > EXACT_EV:
         raise AssertionError(f"slope corrections changed V(G) at the reference lattice by {dv}")
     with single_blas_thread():
-        achieved = _responses(fitted, bs, edges, targets)
+        achieved = _responses(fitted, bs, edges, targets, [None])[0]
     if np.max(np.abs(achieved - predicted)) > LINEARITY_EV:
         raise AssertionError("deformation potentials are not linear in the shell slopes: "
                              f"predicted {predicted}, recomputed {achieved}")
