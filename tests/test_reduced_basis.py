@@ -19,6 +19,7 @@ from bandpert.physics.reduced_basis import (
     ReducedBasisSettings,
     build_reduced_basis,
     fixed_superset_model,
+    threaded_map,
     zone_images,
 )
 from bandpert.physics.reduced_basis_check import check_points, interpolated_bands
@@ -205,3 +206,11 @@ def test_check_points_are_a_seeded_share():
     a, b = check_points(10_000, 0.01, 4), check_points(10_000, 0.01, 4)
     assert np.array_equal(a, b) and len(a) == 100 and len(np.unique(a)) == 100
     assert len(check_points(5, 0.01)) == 5
+
+
+@settings(max_examples=20, deadline=None)
+@given(st.lists(st.integers(0, 1000), max_size=30), st.integers(1, 3))
+def test_threaded_map_keeps_the_order(items, threads):
+    # the blocks of a dense mesh come back in order whatever ran them (so sums over them do not
+    # depend on the threads); common practice, no source
+    assert list(threaded_map(lambda x: x * x, items, threads)) == [x * x for x in items]

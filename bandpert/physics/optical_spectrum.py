@@ -32,7 +32,7 @@ from .optics import (
     n_eff_factor,
     occupations,
 )
-from .reduced_basis import ReducedBasisSettings, fixed_superset_model
+from .reduced_basis import ReducedBasisSettings, fixed_superset_model, threaded_map
 from .reduced_basis_check import InterpolatedBands, interpolated_bands
 from .tetrahedra import occupations as tetrahedron_occupations
 
@@ -149,13 +149,21 @@ def _labelled_transitions(material: Material, cutoff_eV: float, n_occupied: int)
 
 
 def _states(source, k: np.ndarray, n_bands: int, block: int):
-    """(polynomial, rows, energies, momentum) blocks: from reduced bases (grouped) or one."""
+    """(polynomial, rows, energies, momentum) blocks: from reduced bases (grouped) or one.
+
+    The blocks are diagonalised on :data:`~bandpert.physics.reduced_basis.THREADS` threads and
+    come back in order.
+    """
     groups = source.groups(k) if hasattr(source, "groups") else [(source, np.arange(len(k)))]
-    for poly, rows in groups:
-        for s in range(0, len(rows), block):
-            r = rows[s:s + block]
-            e, v = poly.eigensystem(k[r], n_bands)
-            yield poly, r, e, poly.momentum(k[r], v)
+    blocks = [(poly, rows[s:s + block]) for poly, rows in groups
+              for s in range(0, len(rows), block)]
+
+    def work(item):
+        poly, r = item
+        e, v = poly.eigensystem(k[r], n_bands)
+        return poly, r, e, poly.momentum(k[r], v)
+
+    yield from threaded_map(work, blocks)
 
 
 #: Step (Å⁻¹) of the central differences of the band curvature (the intraband weight).

@@ -29,6 +29,9 @@ O((2n_f)³) for the exact spinor matrix. Nonlocal terms are refused.
 from __future__ import annotations
 
 import itertools
+import os
+from collections.abc import Callable, Iterable, Iterator
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -78,6 +81,32 @@ DEGENERATE_STATES_EV = 1e-6
 
 #: Largest stack of coarse eigenvectors held at once (bytes).
 MAX_STACK_BYTES = 2 * 2**30
+
+
+#: Threads that diagonalise blocks of k-points at once (LAPACK releases the GIL; each thread
+#: runs BLAS on one thread). The machine's cores, at most 2.
+THREADS = max(1, min(2, os.cpu_count() or 1))
+
+
+def threaded_map(fn: Callable, items: Iterable, threads: int = THREADS) -> Iterator:
+    """fn over items on ``threads`` threads, results in order, at most 2·threads in flight.
+
+    For the per-block diagonalisations of dense meshes: each block is independent, the results
+    are consumed in order (so sums over them do not depend on the threads), and the memory
+    stays bounded by the blocks in flight.
+    """
+    items = iter(items)
+    if threads <= 1:
+        yield from map(fn, items)
+        return
+    with ThreadPoolExecutor(threads) as pool:
+        pending = [pool.submit(fn, x) for x in itertools.islice(items, 2 * threads)]
+        while pending:
+            done = pending.pop(0)
+            nxt = next(items, None)
+            if nxt is not None:
+                pending.append(pool.submit(fn, nxt))
+            yield done.result()
 
 
 @dataclass(frozen=True)
@@ -286,9 +315,12 @@ class ReducedBasisModel:
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
         nb = n_bands or self.n_bands
         out = np.empty((len(k), nb))
+        blocks = [(patch, rows[s:s + 512]) for patch, rows in self.groups(k)
+                  for s in range(0, len(rows), 512)]
         with single_blas_thread():
-            for patch, rows in self.groups(k):
-                out[rows] = patch.eigenvalues(k[rows], nb)
+            for rows, e in threaded_map(lambda b: (b[1], b[0].eigenvalues(k[b[1]], nb)),
+                                        blocks):
+                out[rows] = e
         return out
 
 

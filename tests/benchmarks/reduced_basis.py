@@ -1,12 +1,19 @@
 """Benchmark rows of the reduced-basis interpolation and the dense-mesh jobs it serves.
 
-Imported by run.py (``--only-reduced-basis`` runs this section alone). Every figure is a ratio of
-two things timed alternately in the same run (run.side_by_side), medians of the repetitions.
+Imported by run.py (``--only-reduced-basis`` runs this section alone); also a script of its own:
+``python tests/benchmarks/reduced_basis.py [--spin-orbit] [--dense N]`` prints the chosen rows.
+Every ratio is of two things timed alternately in the same run (timing.side_by_side), medians of
+the repetitions. The dense-mesh rows are timed once each and state the machine's load average
+(``os.getloadavg``) and the process's CPU time beside the wall time: on a shared machine the wall
+time alone cannot be read.
 """
 
 from __future__ import annotations
 
+import argparse
+import os
 import resource
+import sys
 import time
 from collections.abc import Callable
 
@@ -22,6 +29,7 @@ from bandpert.physics.reduced_basis_check import interpolated_bands
 from bandpert.planewave.cutoff import choose_cutoff
 from bandpert.planewave.model import build_k_centred_model
 from bandpert.planewave.solver import exact_energies
+from bandpert.runs.execution import Engine
 from bandpert.runs.mesh_dos import compute_dos
 
 #: Points per axis of the fine mesh of the interpolated-vs-exact row (its irreducible points).
@@ -80,6 +88,45 @@ def reduced_basis_rows(reps: int, say: Callable[..., None], side_by_side: Callab
     return results, rows
 
 
+#: Points per axis of the spin–orbit row's fine mesh (its irreducible points).
+SPIN_ORBIT_MESH = 12
+
+
+def spin_orbit_rows(reps: int, say: Callable[..., None], side_by_side: Callable
+                    ) -> tuple[dict, list[tuple[str, str, str]]]:
+    """Interpolated against exact spinor bands on the same mesh (silicon with spin–orbit)."""
+    material = load_material(find_material("silicon-spin-orbit"))
+    n_bands = default_bands(material)
+    cutoff = choose_cutoff(material.local_spinless(), n_bands // 2)
+    k = reciprocal_mesh(material, SPIN_ORBIT_MESH).k_cart_invA
+    say(f"reduced basis with spin-orbit vs exact spinor bands, silicon {SPIN_ORBIT_MESH}³ mesh")
+    t0 = time.perf_counter()
+    model = build_reduced_basis(material, cutoff, n_bands)
+    build_s = time.perf_counter() - t0
+    pair = side_by_side(lambda: exact_energies(model.fixed, k, n_bands),
+                        lambda: model.energies(k), reps)
+    diff = model.energies(k) - exact_energies(model.fixed, k, n_bands)
+    err_max, err_rms = float(np.abs(diff).max()), float(np.sqrt(np.mean(diff**2)))
+    results = {"reduced_basis_spin_orbit_silicon": {
+        "fine_mesh": SPIN_ORBIT_MESH, "k_points": len(k), "bands": n_bands, "cutoff_eV": cutoff,
+        "fixed_plane_waves": model.fixed_size, "spinor_states": 2 * model.fixed_size,
+        "reduced_sizes_min_max": [int(model.sizes.min()), int(model.sizes.max())],
+        "exact_s": pair["a_s"], "interpolated_s": pair["b_s"], "speedup": pair["ratio"],
+        "build_s": build_s, "max_error_eV": err_max, "rms_error_eV": err_rms}}
+    rows = [(f"reduced-basis interpolation / exact spinor bands, same fixed basis (silicon with "
+             f"spin-orbit, {len(k)} irreducible k of {SPIN_ORBIT_MESH}³, {n_bands} bands)",
+             f"{pair['ratio']:.1f}x faster",
+             f"exact {pair['a_s']:.2f} s ({2 * model.fixed_size} spinor states), interpolated "
+             f"{pair['b_s']:.3f} s (reduced {model.sizes.min()}–{model.sizes.max()} states, "
+             f"H_so projected per k); largest error {err_max * 1e3:.2f} meV, RMS "
+             f"{err_rms * 1e3:.2f} meV; build {build_s:.1f} s")]
+    return results, rows
+
+
+def _clock() -> tuple[float, float]:
+    return time.perf_counter(), time.process_time()
+
+
 def dense_mesh_rows(say: Callable[..., None], n_per_axis: int = DENSE_MESH
                     ) -> tuple[dict, list[tuple[str, str, str]]]:
     """Silicon DOS and ε2 on a 10⁶-point mesh through the interpolation (timed once each).
@@ -92,20 +139,27 @@ def dense_mesh_rows(say: Callable[..., None], n_per_axis: int = DENSE_MESH
     results: dict = {}
     rows = []
     say(f"silicon DOS, {n_per_axis}³ mesh, interpolated")
-    t0 = time.perf_counter()
+    load_before = os.getloadavg()[0]
+    (w0, c0) = _clock()
     dos = compute_dos(material, n_per_axis, interpolation=ReducedBasisSettings(),
-                      energy_step_eV=0.01)
-    dos_s = time.perf_counter() - t0
+                      energy_step_eV=0.01, engine=Engine("serial"))
+    (w1, c1) = _clock()
+    dos_s, dos_cpu = w1 - w0, c1 - c0
     dos_rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**10
+    load_dos = os.getloadavg()[0]
     check = dos.interpolation.check
     say(f"silicon ε2, {n_per_axis}³ mesh, interpolated")
-    t0 = time.perf_counter()
+    (w0, c0) = _clock()
     spectrum = optical_spectrum(material, n_per_axis)
-    optics_s = time.perf_counter() - t0
+    (w1, c1) = _clock()
+    optics_s, optics_cpu = w1 - w0, c1 - c0
     optics_rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 2**10
+    load_optics = os.getloadavg()[0]
     results["dense_mesh_silicon"] = {
         "mesh": n_per_axis, "full_points": dos.mesh.n_full,
         "irreducible_points": len(dos.mesh.k_frac), "dos_s": dos_s, "optics_s": optics_s,
+        "dos_cpu_s": dos_cpu, "optics_cpu_s": optics_cpu,
+        "load_average_1min": [load_before, load_dos, load_optics],
         "peak_rss_after_dos_MiB": dos_rss, "peak_rss_after_optics_MiB": optics_rss,
         "check_max_error_eV": check.max_error_eV, "check_points": len(check.point_indices),
         "n_eff_interband": spectrum.n_eff_interband, "eps1_zero": float(spectrum.eps1[0]),
@@ -113,11 +167,44 @@ def dense_mesh_rows(say: Callable[..., None], n_per_axis: int = DENSE_MESH
     rows.append((f"silicon DOS on a {n_per_axis}³ = {dos.mesh.n_full:.2e}-point mesh "
                  f"(tetrahedra, interpolated, {len(dos.mesh.k_frac)} irreducible k)",
                  f"{dos_s:.0f} s",
-                 f"whole job in this process (bases, check at {len(check.point_indices)} points:"
-                 f" largest error {check.max_error_eV * 1e3:.2f} meV, DOS, Fermi level); "
-                 f"peak resident memory {dos_rss:.0f} MiB"))
+                 f"whole job in one process (bases, check at {len(check.point_indices)} points:"
+                 f" largest error {check.max_error_eV * 1e3:.2f} meV, DOS, Fermi level); CPU "
+                 f"{dos_cpu:.0f} s, load average {load_before:.1f} → {load_dos:.1f}; peak "
+                 f"resident memory {dos_rss:.0f} MiB"))
     rows.append((f"silicon ε2 on the same mesh (interpolated, {spectrum.n_bands} bands)",
                  f"{optics_s:.0f} s",
                  f"ε1(0) = {spectrum.eps1[0]:.2f}, n_eff (interband, {spectrum.n_bands} bands) "
-                 f"{spectrum.n_eff_interband:.3f}; peak resident memory {optics_rss:.0f} MiB"))
+                 f"{spectrum.n_eff_interband:.3f}; CPU {optics_cpu:.0f} s, load average "
+                 f"{load_optics:.1f}; peak resident memory {optics_rss:.0f} MiB"))
     return results, rows
+
+
+def main(argv: list[str] | None = None) -> int:
+    """Print the chosen rows of this section (see the module docstring)."""
+    sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+    from timing import side_by_side  # sibling script (the one timing harness)
+
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--reps", type=int, default=3)
+    parser.add_argument("--spin-orbit", action="store_true", help="the spin-orbit row")
+    parser.add_argument("--fine", action="store_true", help="the spinless fine-mesh rows")
+    parser.add_argument("--dense", type=int, default=0, help="dense-mesh rows at N per axis")
+    args = parser.parse_args(argv)
+
+    def say(*a):
+        print(*a, file=sys.stderr, flush=True)
+
+    rows = []
+    if args.fine:
+        rows += reduced_basis_rows(args.reps, say, side_by_side)[1]
+    if args.spin_orbit:
+        rows += spin_orbit_rows(args.reps, say, side_by_side)[1]
+    if args.dense:
+        rows += dense_mesh_rows(say, args.dense)[1]
+    for what, figure, detail in rows:
+        print(f"| {what} | {figure} | {detail} |")
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -29,6 +29,7 @@ import numpy as np
 import scipy.linalg
 from perturbation_driver import driver_rows  # sibling script (run.py runs as a script)
 from reduced_basis import dense_mesh_rows, reduced_basis_rows  # sibling script
+from reduced_basis import spin_orbit_rows as reduced_spin_orbit_rows
 from spin_orbit import spin_orbit_rows  # sibling script
 from subbands import subband_rows  # sibling script
 from symmetry_labels import symmetry_rows  # sibling script
@@ -218,6 +219,7 @@ def main(argv: list[str] | None = None) -> int:
 
     if args.only_reduced_basis:
         _, rb_rows = reduced_basis_rows(reps, say, side_by_side)
+        rb_rows += reduced_spin_orbit_rows(reps, say, side_by_side)[1]
         rb_rows += dense_mesh_rows(say)[1]
         for what, figure, detail in rb_rows:
             print(f"| {what} | {figure} | {detail} |")
@@ -448,6 +450,9 @@ def main(argv: list[str] | None = None) -> int:
     rb_results, rb_rows = reduced_basis_rows(max(3, reps // 2), say, side_by_side)
     results.update(rb_results)
     rows.extend(rb_rows)
+    rbso_results, rbso_rows = reduced_spin_orbit_rows(max(3, reps // 2), say, side_by_side)
+    results.update(rbso_results)
+    rows.extend(rbso_rows)
     dense_results, dense_rows = dense_mesh_rows(say)
     results.update(dense_results)
     rows.extend(dense_rows)
