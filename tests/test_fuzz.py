@@ -18,6 +18,10 @@ per input), and must:
 - keep each worker's peak memory under :data:`MEMORY_BOUND_GIB` (an address-space limit makes
   a runaway allocation fail as an error instead of exhausting the machine).
 
+Heterostructure files run through ``subbands`` (eight bands, with the in-plane dispersion);
+bowing files as the barriers of a fixed GaAs well (:data:`ALLOY_WELL`) through ``subbands``; a
+targets file of the fuzz's own through ``fit`` on bundled silicon.
+
 The CI size is :data:`DEFAULT_EXAMPLES` inputs (hypothesis, derandomized: the same inputs on
 every run). ``BANDPERT_FUZZ_EXAMPLES=20000 pytest -m fuzz`` runs the longer mode. The counts are
 printed at the end of the run.
@@ -62,8 +66,25 @@ MEMORY_BOUND_GIB = 3.0
 INT64_MAX = 2**63 - 1
 
 FILES = {f"{p.parent.name}-{p.name}": read_toml_document(p)
-         for p in sorted(MATERIALS.glob("*/*.toml"))}
+         for p in sorted([*MATERIALS.glob("*/*.toml"), *MATERIALS.glob("kp/alloys/*.toml")])}
 KP_FILES = {n for n, d in FILES.items() if "parameters" in d}
+#: Heterostructure files (run through ``subbands``) and bowing files (an alloy layer of a fixed
+#: structure, :data:`ALLOY_WELL`, run through ``subbands``).
+STRUCTURE_FILES = {n for n in FILES if n.startswith("structures-")}
+ALLOY_FILES = {n for n in FILES if n.startswith("alloys-")}
+#: A targets file of the fuzz's own for ``fit`` (on bundled silicon; one parameter, two energy
+#: targets, a small basis: an accepted input fits in about a second).
+FILES["targets-silicon.toml"] = {
+    "parameters": ["potential.symmetric[0]"], "cutoff_eV": 45.0,
+    "targets": [{"quantity": "energy", "at": "X:c1", "value": 1.2, "tolerance": 0.05,
+                 "source": "the fuzz's own"},
+                {"quantity": "energy", "at": "Γ:c1", "from": "Γ:v4", "value": 3.4,
+                 "tolerance": 0.05, "source": "the fuzz's own"}]}
+TARGET_FILES = {"targets-silicon.toml"}
+#: The structure an alloy file is tried in: the mutated file as the barrier of a GaAs well.
+ALLOY_WELL = ('name = "fuzz well"\nsource = "the fuzz\'s own"\n[[layers]]\nalloy = "{alloy}"\n'
+              'x = 0.3\nthickness_nm = 4\n[[layers]]\nmaterial = "gallium-arsenide"\n'
+              'thickness_nm = 4\n[[layers]]\nalloy = "{alloy}"\nx = 0.3\nthickness_nm = 4\n')
 
 #: Small settings per command, so that a run that is accepted finishes quickly.
 SMALL = {
@@ -76,10 +97,14 @@ SMALL = {
     "sweep": ["--k-points", "6", "--engine", "serial", "--quantity", "edges"],
     "kp": [],
     "optics": ["--mesh", "4", "--step-meV", "50"],
+    "subbands": ["--spacing-nm", "0.5", "--levels", "2", "--model", "eight-band"],
+    "fit": [],
 }
+#: The structure files also ask for the in-plane dispersion (two k∥ per direction, serial).
+IN_PLANE = ["--in-plane", "0.02", "--k-points", "2", "--engine", "serial"]
 PLANE_WAVE_COMMANDS = ("check", "bands", "gaps", "masses", "fullzone", "dos", "sweep", "optics")
 OUTPUTS = {"bands": 3, "gaps": 2, "masses": 1, "fullzone": 2, "dos": 3, "sweep": 3, "kp": 2,
-           "check": 0, "optics": 3}
+           "check": 0, "optics": 3, "subbands": 3, "fit": 2}
 
 
 class Hang(BaseException):
@@ -177,6 +202,14 @@ CI_CUTOFF_EV = "100"
 
 
 def _argv(command: str, name: str, doc: dict, file: Path, out: Path) -> list[str]:
+    if command == "fit":
+        return ["fit", "silicon", str(file), "--out", str(out)]
+    if name in ALLOY_FILES:  # the structure around the mutated bowing file
+        well = file.with_name("well.toml")
+        well.write_text(ALLOY_WELL.format(alloy=file.name), encoding="utf-8")
+        return ["subbands", str(well), *SMALL["subbands"], "--out", str(out)]
+    if command == "subbands":
+        return ["subbands", str(file), *SMALL["subbands"], *IN_PLANE, "--out", str(out)]
     argv = [command, str(file), *SMALL[command]]
     # check runs the converged-cutoff search of files without a cutoff (its budget is fuzzed)
     if command not in ("kp", "check") and EXAMPLES <= DEFAULT_EXAMPLES and name not in KP_FILES:
@@ -219,7 +252,9 @@ def _run(argv: list[str]) -> tuple[int, str, str, float]:
 
 
 def _check(command: str, file: Path, out: Path, code: int, stdout: str, stderr: str,
-           counts: Counter, problems: list, label: str) -> None:
+           counts: Counter, problems: list, label: str, named: tuple[Path, ...] = ()) -> None:
+    """Check one run (``named``: further files an error line may name instead of ``file``,
+    e.g. the structure around a mutated bowing file)."""
     counts["inputs"] += 1
     files = [p for p in out.rglob("*") if p.is_file()] if out.exists() else []
     temporary = [p for p in files if p.name.startswith(".") or ".bandpert-" in str(p)]
@@ -239,11 +274,11 @@ def _check(command: str, file: Path, out: Path, code: int, stdout: str, stderr: 
         if len(lines) != 1 or not lines[0].startswith("bandpert: error: "):
             counts["messages not one line"] += 1
             problems.append(f"message of {len(lines)} lines: {label}: {stderr[:300]}")
-        elif (len(lines[0].replace(str(file), "")) > MAX_PROBLEM + 2 * MAX_ECHO + 40
-              or max(len(w) for w in lines[0].replace(str(file), "").split()) > MAX_ECHO):
+        elif (len(_without(lines[0], file, *named)) > MAX_PROBLEM + 2 * MAX_ECHO + 40
+              or max(len(w) for w in _without(lines[0], file, *named).split()) > MAX_ECHO):
             counts["long messages"] += 1
             problems.append(f"message of {len(lines[0])} characters: {label}: {lines[0][:200]}")
-        elif str(file) not in lines[0]:
+        elif not any(str(f) in lines[0] for f in (file, *named)):
             counts["messages without the file"] += 1
             problems.append(f"message without the file name: {label}: {lines[0]}")
     if code != 0 and code != 3 and [p for p in files if p not in temporary]:
@@ -264,6 +299,12 @@ def _check(command: str, file: Path, out: Path, code: int, stdout: str, stderr: 
             m = NON_FINITE.search(where)
             problems.append(f"non-finite output: {label}: "
                             f"...{where[max(0, m.start() - 80):m.end() + 20]}...")
+
+
+def _without(line: str, *files: Path) -> str:
+    for f in files:
+        line = line.replace(str(f), "")
+    return line
 
 
 def _limit_address_space(extra_gib: float) -> None:
@@ -296,7 +337,8 @@ def _one_case(case: tuple[int, str, str, str, str, str]) -> dict:
     counts: Counter = Counter()
     problems: list[str] = []
     label = f"{command} {name} {what}"
-    _check(command, file, out, code, stdout, stderr, counts, problems, label)
+    named = (file.with_name("well.toml"),) if name in ALLOY_FILES else ()
+    _check(command, file, out, code, stdout, stderr, counts, problems, label, named)
     shutil.rmtree(folder, ignore_errors=True)
     return {"counts": counts, "problems": problems, "seconds": seconds, "label": label,
             "command": command, "code": code,
@@ -332,7 +374,9 @@ def _inputs() -> tuple[list[tuple[str, str, str, str]], int]:
                 st.integers(0, 2000).map(lambda i: to_toml(doc)[:i] + "]]\x00=" +
                                          to_toml(doc)[i:])), label="garbage")
             what = "garbage text"
-        commands = ("kp", "sweep") if name in KP_FILES else PLANE_WAVE_COMMANDS
+        commands = (("subbands",) if name in STRUCTURE_FILES | ALLOY_FILES else
+                    ("fit",) if name in TARGET_FILES else
+                    ("kp", "sweep") if name in KP_FILES else PLANE_WAVE_COMMANDS)
         command = data.draw(st.sampled_from(commands), label="command")
         if len(cases) >= EXAMPLES:
             return
@@ -394,3 +438,49 @@ def test_mutated_inputs_through_every_command(capsys):
     assert counts["inputs"] == EXAMPLES
     assert not problems, f"{len(problems)} problems; first: {problems[0]}"
     assert peak < MEMORY_BOUND_GIB
+
+
+# ---------------------------------------------------------------------------------------------
+# inputs the fuzz found (run in the ordinary suite; each one was an internal error, exit 1, or
+# a message that did not name the file at fault)
+# ---------------------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("change,key", [
+    ({"tolerance": 5e-324}, "targets[0].tolerance"),    # residuals not finite: exit 1
+    ({"value": 1e308}, "targets[0].value"),
+    ({"cutoff_eV": 1e-300}, "cutoff_eV"),               # one plane wave, band 5 asked: exit 1
+    ({"parameters": ["potential.symmetric[0]x"]}, "parameters[0]"),  # named the material
+])
+def test_found_fit_targets_are_one_line_errors_naming_the_targets_file(tmp_path, change, key):
+    doc = copy.deepcopy(FILES["targets-silicon.toml"])
+    if "tolerance" in change or "value" in change:
+        doc["targets"][0].update(change)
+    else:
+        doc.update(change)
+    file = tmp_path / "targets.toml"
+    file.write_text(to_toml(doc), encoding="utf-8")
+    code, _, stderr, _ = _run(["fit", "silicon", str(file), "--out", str(tmp_path / "o")])
+    assert code == 2 and len(stderr.strip().splitlines()) == 1, stderr
+    # (the CLI renders a key named like a library option as its flag: cutoff_eV → --cutoff-eV,
+    # for a file's key too; fit has no such flag, but the file and the key are still named)
+    shown = {"cutoff_eV": "--cutoff-eV"}.get(key, key)
+    assert f"{file}: {shown}: " in stderr and not (tmp_path / "o").exists()
+
+
+@pytest.mark.parametrize("where", ["layer", "alloy end"])
+def test_found_names_too_long_for_the_file_system_are_one_line_errors(tmp_path, where):
+    long = "z" * 5000
+    doc = copy.deepcopy(FILES["structures-gallium-arsenide-well.toml"])
+    if where == "layer":
+        doc["layers"][1]["material"] = long
+        file = tmp_path / "well.toml"
+        file.write_text(to_toml(doc), encoding="utf-8")
+    else:
+        alloy = copy.deepcopy(FILES["alloys-aluminium-gallium-arsenide.toml"])
+        alloy["A"] = long
+        (tmp_path / "alloy.toml").write_text(to_toml(alloy), encoding="utf-8")
+        file = tmp_path / "well.toml"
+        file.write_text(ALLOY_WELL.format(alloy="alloy.toml"), encoding="utf-8")
+    code, _, stderr, _ = _run(["subbands", str(file), "--out", str(tmp_path / "o")])
+    assert code == 2 and len(stderr.strip().splitlines()) == 1, stderr
+    assert "cannot be looked up" in stderr and str(file) in stderr

@@ -131,12 +131,33 @@ class AlloyFile:
                 "depth for the conduction band there")
 
 
+def local_or_bundled(name: str, folder: Path, kind: str) -> Path:
+    """``folder/name`` when that file exists, else the bundled file of that name and kind
+    (:func:`bandpert.data.find_material`).
+
+    Raises
+    ------
+    InputError
+        A name the operating system cannot even look up (too long, a NUL byte), or a bare name
+        that is neither a file nor bundled.
+    """
+    try:
+        candidate = folder / name
+        return candidate if candidate.is_file() else find_material(name, kind)
+    except (OSError, ValueError) as exc:
+        reason = exc.strerror if isinstance(exc, OSError) and exc.strerror else str(exc)
+        raise InputError(f"'{name}' cannot be looked up ({reason}); expected a file name or a "
+                         "bundled name") from None
+
+
 def _end_document(r: TableReader, key: str, folder: Path) -> tuple[dict[str, Any], str]:
     name = r.string(key)
-    candidate = folder / name
-    path = candidate if candidate.is_file() else find_material(name, "kp")
-    doc = read_toml_document(path, "a k·p parameter TOML file")
-    parse_kp_material(doc, str(path))  # each end valid on its own
+    try:
+        path = local_or_bundled(name, folder, "kp")
+        doc = read_toml_document(path, "a k·p parameter TOML file")
+        parse_kp_material(doc, str(path))  # each end valid on its own
+    except InputError as exc:
+        raise r.fail(key, f"'{name}' cannot be used: {exc.one_line()}") from None
     doc = copy.deepcopy(doc)
     doc.pop("reference", None)
     dp = doc.get("deformation")

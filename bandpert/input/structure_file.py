@@ -43,7 +43,7 @@ from typing import Any
 
 from ..data import find_material
 from ..errors import InputError, ModelWarning
-from .alloy_file import ALLOYS_KIND, parse_alloy
+from .alloy_file import ALLOYS_KIND, local_or_bundled, parse_alloy
 from .kp_file import KPMaterial, parse_kp_material
 from .reader import TableReader, describe, read_header, read_toml_document
 
@@ -109,9 +109,6 @@ class Structure:
         return float(sum(layer.thickness_nm for layer in self.layers))
 
 
-def _path(name: str, folder: Path, kind: str) -> Path:
-    candidate = folder / name
-    return candidate if candidate.is_file() else find_material(name, kind)
 
 
 def _layer(r: TableReader, folder: Path, cache: dict) -> Layer:
@@ -123,7 +120,7 @@ def _layer(r: TableReader, folder: Path, cache: dict) -> Layer:
     if has_material:
         name = r.string("material")
         try:
-            path = _path(name, folder, "kp")
+            path = local_or_bundled(name, folder, "kp")
             if path not in cache:
                 doc = read_toml_document(path, "a k·p parameter TOML file")
                 cache[path] = parse_kp_material(doc, str(path))
@@ -134,7 +131,7 @@ def _layer(r: TableReader, folder: Path, cache: dict) -> Layer:
         name = r.string("alloy")
         x = r.number("x", bounds=(0.0, 1.0), meaning="the fraction of the second end member")
         try:
-            path = _path(name, folder, ALLOYS_KIND)
+            path = local_or_bundled(name, folder, ALLOYS_KIND)
             if path not in cache:
                 doc = read_toml_document(path, "a bowing TOML file")
                 cache[path] = parse_alloy(doc, str(path), path.parent)
@@ -174,7 +171,7 @@ def parse_structure(doc: dict[str, Any], source: str = "", folder: Path | None =
     substrate_a = None
     if isinstance(substrate, str):
         try:
-            path = _path(substrate, folder, "kp")
+            path = local_or_bundled(substrate, folder, "kp")
             sub = parse_kp_material(read_toml_document(path, "a k·p parameter TOML file"),
                                     str(path))
         except InputError as exc:

@@ -120,6 +120,7 @@ class FitSpec:
     parameters: tuple[str, ...]
     targets: tuple[Target, ...]
     cutoff_eV: float | None
+    source: str = ""
 
 
 def _band(text: Any, r: TableReader, key: str, labels: tuple[str, ...]) -> BandRef:
@@ -188,10 +189,11 @@ def parse_targets(doc: dict[str, Any], source: str, material: Material) -> FitSp
             if not np.linalg.norm(d) > 0:
                 raise t.fail("direction", "expected a non-zero direction")
             direction = d / np.linalg.norm(d)
-        value = t.number("value")
+        value = t.number("value", bounds=(-1e4, 1e4), meaning="eV, or m0 for a mass")
         if quantity == "mass" and value == 0:
             raise t.fail("value", "expected a non-zero mass (m*/m0)")
-        tol = t.number("tolerance", positive=True)
+        tol = t.number("tolerance", positive=True, bounds=(1e-9, 1e4),
+                       meaning="same unit as the value")
         src = t.string("source")
         if not src.strip():
             raise t.fail("source", "expected where the value comes from (authors, year, table)")
@@ -203,7 +205,7 @@ def parse_targets(doc: dict[str, Any], source: str, material: Material) -> FitSp
         targets.append(Target(quantity, at, start, direction, float(value), float(tol), src,
                               name))
     r.finish()
-    return FitSpec(tuple(raw), tuple(targets), cutoff)
+    return FitSpec(tuple(raw), tuple(targets), cutoff, source)
 
 
 class TargetModel:
@@ -235,6 +237,11 @@ class TargetModel:
             raise InputError(f"a target names a valence band below the lowest one (there are "
                              f"{self.n_valence} valence bands)", key="targets")
         self.n_bands = max(indices) + 4
+        smallest = min(m.shape[0] for m in self.miller.values())
+        if smallest * (2 if material.spin_orbit is not None else 1) < self.n_bands:
+            raise InputError(f"{cutoff_eV:g} eV gives only {smallest} plane waves at a target "
+                             f"point; expected a cutoff with at least {self.n_bands} states "
+                             "(the bands the targets name, and 4 more)", key="cutoff_eV")
         self.spinor = material.spin_orbit is not None
 
     def _k(self, material: Material, label: str) -> np.ndarray:

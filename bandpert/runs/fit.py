@@ -103,8 +103,12 @@ class Fit:
         self.source = source
         self.spec = spec
         start = []
-        for key in spec.parameters:
-            v = get_value(self.document, key, source)
+        for i, key in enumerate(spec.parameters):
+            try:
+                v = get_value(self.document, key, source)
+            except InputError as exc:  # the key comes from the targets file: name it
+                raise InputError(f"cannot be fitted in {source}: {exc.problem}",
+                                 spec.source or None, f"parameters[{i}]") from None
             if isinstance(v, bool) or not isinstance(v, int | float):
                 raise InputError(f"holds {type(v).__name__}, not a number; expected a numeric "
                                  "key to fit", source, key)
@@ -113,7 +117,10 @@ class Fit:
         material = self.material(self.start)
         cutoff = spec.cutoff_eV or material.cutoff_eV or converged_cutoff(
             material.local_spinless(), 8)
-        self.targets = TargetModel(material, spec.targets, cutoff)
+        try:
+            self.targets = TargetModel(material, spec.targets, cutoff)
+        except InputError as exc:  # a problem of the targets (or their cutoff)
+            raise InputError(exc.problem, exc.source or spec.source or None, exc.key) from None
         self.target_values = np.array([t.value for t in spec.targets])
         self.tolerances = np.array([t.tolerance for t in spec.targets])
         self.state = FitState()
