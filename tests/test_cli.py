@@ -73,7 +73,7 @@ COMMAND = typer.main.get_command(cli.app)
 OPTIONS = {
     "bands": ["--out", "--k-points", "--bands", "--cutoff-eV", "--format", "--json", "--name",
               "--emin", "--emax", "--order", "--threshold", "--tolerance-meV", "--radius-points",
-              "--no-exact", "--exact-only", "--van-hove-marks", "--help"],
+              "--no-exact", "--exact-only", "--van-hove-marks", "--solver", "--help"],
     "check": ["--cutoff-eV", "--help"],
     "gaps": ["--json", "--name", "--point", "--crossings", "--bands", "--cutoff-eV", "--out",
              "--k-points", "--format", "--emin", "--emax", "--help"],

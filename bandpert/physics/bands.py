@@ -27,7 +27,7 @@ from ..physics.perturbative_bands import (
 )
 from ..planewave.cutoff import choose_cutoff
 from ..planewave.model import KCentredModel, PlaneWaveModel, build_k_centred_model
-from ..planewave.solver import Progress, exact_energies
+from ..planewave.solver import Progress, choose_solver, exact_energies
 
 
 def default_bands(material: Material) -> int:
@@ -105,6 +105,9 @@ class BandStructure:
     k_centred : KCentredModel or None
         The model with a basis centred on each k that gave ``energies_eV``; ``k_centred.at(k0)``
         is the fixed basis for derivative stencils around k0.
+    solver : str
+        The solver of the exact bands: "dense" (LAPACK) or "iterative" (LOBPCG,
+        :func:`~bandpert.planewave.solver.choose_solver`).
     """
 
     material: Material
@@ -118,6 +121,7 @@ class BandStructure:
     perturbative: PerturbativeBands | None = None
     comparison: Comparison | None = None
     k_centred: KCentredModel | None = None
+    solver: str = "dense"
 
     @property
     def reference_energies_eV(self) -> np.ndarray:
@@ -222,7 +226,7 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
                            perturbation: PerturbationSettings | None = None,
                            check_cutoff: bool = True, fermi_method: str = "tetrahedron",
                            smearing_eV: float = DEFAULT_SMEARING_EV,
-                           fermi_level: bool = True) -> BandStructure:
+                           fermi_level: bool = True, solver: str = "auto") -> BandStructure:
     """Material → bands along its standard (or custom) path: exact and/or perturbative.
 
     Parameters
@@ -252,6 +256,9 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         Find a metal's Fermi level for the energy zero (default). False leaves a metal's zero
         absolute and diagonalises no k-mesh, for callers that use absolute energies only (a
         sweep point: the mesh of a metal with little symmetry costs ten times the path).
+    solver : str
+        "auto" (default), "dense" or "iterative": the solver of the exact bands
+        (:func:`~bandpert.planewave.solver.choose_solver`).
 
     Returns
     -------
@@ -279,7 +286,9 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     model = k_centred.gamma
     points, legs = standard_path(material)
     path = sample_path(model.reciprocal_invA, points, legs, n_k)
-    energies = exact_energies(k_centred, path.k_cart_invA, nb, progress) if exact else None
+    used = choose_solver(k_centred, nb, solver)
+    energies = (exact_energies(k_centred, path.k_cart_invA, nb, progress, solver)
+                if exact else None)
     pert = None
     if perturbation is not None:
         pert = perturbative_bands(model, path.k_cart_invA, nb, perturbation, path.label_indices)
@@ -293,7 +302,7 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     def mesh_energies(k_cart: np.ndarray, n: int) -> np.ndarray:
         n = min(n, model.size)
         if exact:
-            return exact_energies(k_centred, k_cart, n)
+            return exact_energies(k_centred, k_cart, n, solver=solver)
         return perturbative_levels(model.kinetic_eV(k_cart), model.potential_eV, n,
                                    lam=perturbation.lam, order=perturbation.order,
                                    coupling_threshold=perturbation.coupling_threshold,
@@ -306,7 +315,7 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         # for). The exact curves use the basis centred on each k, which keeps the symmetry
         # degeneracies; the two exact sets differ only by the basis truncation, which the
         # cutoff rule keeps converged.
-        same_basis = exact_energies(model, path.k_cart_invA, nb)
+        same_basis = exact_energies(model, path.k_cart_invA, nb, solver=solver)
         comparison = compare(same_basis, pert)
     reference = energies if energies is not None else pert.energies_eV
     if fermi_level:
@@ -320,4 +329,4 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
     return BandStructure(material=material, symmetry=crystal_symmetry(material), path=path,
                          model=model, energies_eV=energies, energy_zero_eV=float(zero),
                          energy_zero_kind=kind, edges=edges, perturbative=pert,
-                         comparison=comparison, k_centred=k_centred)
+                         comparison=comparison, k_centred=k_centred, solver=used)

@@ -1,7 +1,8 @@
 """The exact solver of a plane-wave model: eigenvalues of H(k) = H0(k) + V by LAPACK.
 
 Only the bands asked for are computed; BLAS runs on one thread per process for the per-k work
-(:func:`single_blas_thread`).
+(:func:`single_blas_thread`). Large local spinless bases go to the warm-started iterative
+solver instead (:mod:`bandpert.planewave.iterative`), chosen by :func:`choose_solver`.
 """
 
 from __future__ import annotations
@@ -16,6 +17,7 @@ from threadpoolctl import ThreadpoolController
 
 from ..errors import InputError
 from ..units import HBAR2_OVER_2M0_EV_A2
+from .iterative import buffer_bands, iterative_energies
 from .model import KCentredModel, PlaneWaveModel
 from .spinorbit import spinor_hamiltonian
 
@@ -27,6 +29,17 @@ BATCH_BELOW = 128
 
 #: Bytes of Hamiltonians held at once by the batched path (memory does not grow with n_k).
 BATCH_BYTES = 16 * 2**20
+
+#: From this basis size on, ``solver="auto"`` uses the iterative solver for local spinless
+#: models (measured crossover, tests/benchmarks/iterative.py: silicon along its path, 16 bands).
+ITERATIVE_FROM = 1000
+
+#: ``solver="auto"`` keeps LAPACK when the iterated block (bands plus buffer) exceeds this share
+#: of the basis: LOBPCG's work grows with the block squared, LAPACK's hardly with the bands.
+ITERATIVE_MAX_BLOCK_SHARE = 0.1
+
+#: The solvers :func:`exact_energies` accepts.
+SOLVERS = ("auto", "dense", "iterative")
 
 Progress = Callable[[int, int], None]
 
@@ -71,8 +84,45 @@ def _mrrr_solver(n: int, n_bands: int, complex_: bool) -> Callable[[np.ndarray],
     return solve
 
 
+def choose_solver(model: PlaneWaveModel | KCentredModel, n_bands: int,
+                  solver: str = "auto") -> str:
+    """The solver :func:`exact_energies` uses: "dense" (LAPACK) or "iterative" (LOBPCG).
+
+    ``"auto"`` picks the iterative solver for a local spinless model of at least
+    :data:`ITERATIVE_FROM` plane waves whose block (``n_bands`` plus the buffer bands) stays
+    within :data:`ITERATIVE_MAX_BLOCK_SHARE` of the basis; LAPACK otherwise. Spin–orbit and
+    nonlocal models always use LAPACK: asking for ``"iterative"`` on them is refused.
+
+    Parameters
+    ----------
+    model : PlaneWaveModel or KCentredModel
+    n_bands : int
+    solver : str
+        "auto", "dense" or "iterative".
+
+    Returns
+    -------
+    str
+        "dense" or "iterative".
+    """
+    if solver not in SOLVERS:
+        raise InputError(f"unknown solver {solver!r}; expected one of {', '.join(SOLVERS)}",
+                         key="solver")
+    if solver == "iterative" and model.k_dependent:
+        raise InputError("the iterative solver takes local spinless models only (spin–orbit and "
+                         "nonlocal terms are built densely per k); expected solver 'dense' or "
+                         "'auto'", key="solver")
+    if solver != "auto":
+        return solver
+    block = n_bands + buffer_bands(n_bands)
+    if (model.k_dependent or model.size < ITERATIVE_FROM
+            or block > ITERATIVE_MAX_BLOCK_SHARE * model.size):
+        return "dense"
+    return "iterative"
+
+
 def exact_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray, n_bands: int,
-                   progress: Progress | None = None) -> np.ndarray:
+                   progress: Progress | None = None, solver: str = "auto") -> np.ndarray:
     """Lowest ``n_bands`` eigenvalues of H(k) at each k-point, ascending.
 
     H(k) = H0(k) + V is assembled per k from the k-independent V; LAPACK's MRRR driver
@@ -98,12 +148,19 @@ def exact_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarra
         Number of bands; at most the basis size (twice it for spinor bands).
     progress : callable, optional
         Called as ``progress(done, total)``.
+    solver : str
+        "auto" (default: :func:`choose_solver`), "dense" (LAPACK) or "iterative"
+        (:func:`~bandpert.planewave.iterative.iterative_energies`, residual norms below 1e-6 eV,
+        eigenvalues equal to LAPACK's to 1e-8 eV; warm-started along the list of k-points).
 
     Returns
     -------
     numpy.ndarray
         (n_k, n_bands) energies in eV (absolute: the model's own zero).
     """
+    if choose_solver(model, n_bands, solver) == "iterative":
+        with single_blas_thread():
+            return iterative_energies(model, k_cart_invA, n_bands, progress).energies_eV
     if model.k_dependent:
         return _per_k_energies(model, k_cart_invA, n_bands, progress)
     if isinstance(model, KCentredModel):

@@ -34,6 +34,7 @@ from ...physics.perturbative_bands import (
     PerturbationSettings,
 )
 from ...physics.van_hove import label_and_classify
+from ...planewave.solver import SOLVERS
 from ...symmetry.labels import unlabelled_reason
 from ..options import (
     DEFAULT_OUT,
@@ -103,6 +104,12 @@ def bands(
         help="Mark the van Hove type of each level at the labelled points on the figure "
              "(M0 minimum, M1/M2 saddle, M3 maximum, crossing); JSON and table carry it "
              "always.")] = False,
+    solver: Annotated[str, typer.Option("--solver", metavar="auto|dense|iterative",
+                                        help="Eigensolver of the exact bands: auto "
+                                        "(iterative from 1000 plane waves for local spinless "
+                                        "models, else LAPACK), dense (LAPACK) or iterative "
+                                        "(warm-started LOBPCG, potential by FFT).")]
+    = "auto",
 ) -> None:
     """Bands along the Brillouin-zone path, exact and perturbative side by side.
 
@@ -126,15 +133,21 @@ def bands(
     settings_p = None if exact_only else PerturbationSettings(
         order=order, coupling_threshold=threshold, tolerance_eV=tolerance_meV * 1e-3,
         radius_points=radius_points)
+    if solver not in SOLVERS:
+        raise InputError(f"expected one of {', '.join(SOLVERS)}, got {solver!r}", key="--solver")
     window = energy_window(e_min, e_max)
     material = load_material(file)
+    if solver == "iterative" and (material.spin_orbit or material.nonlocal_terms):
+        raise InputError("the iterative solver takes local spinless models only; expected "
+                         "--solver dense or auto for a material with spin-orbit or nonlocal "
+                         "terms", key="--solver")
     with progress_bar("diagonalising") as progress:
         bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV,
                                     progress=progress, exact=not no_exact,
-                                    perturbation=settings_p)
+                                    perturbation=settings_p, solver=solver)
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
-                "real_hamiltonian": bs.model.is_real, "exact": not no_exact,
+                "real_hamiltonian": bs.model.is_real, "solver": bs.solver, "exact": not no_exact,
                 "perturbative": not exact_only}
     labels, critical = label_and_classify(material, bs.model.basis.cutoff_eV,
                                           standard_path(material)[0], bs.n_bands,
@@ -176,7 +189,8 @@ def _summary(bs) -> None:
     sym = bs.symmetry
     if sym.number is not None:
         table.add_row("space group", f"{sym.international} ({sym.number})")
-    table.add_row("basis", f"{bs.model.size} plane waves, cutoff {bs.model.basis.cutoff_eV:.2f} eV")
+    table.add_row("basis", f"{bs.model.size} plane waves, cutoff {bs.model.basis.cutoff_eV:.2f} eV"
+                  + ("; iterative solver (LOBPCG)" if bs.solver == "iterative" else ""))
     table.add_row("energy zero", zero_phrase(bs.energy_zero_kind, bs.energy_zero_eV)
                   + "; the zero of every output (terminal, CSV, JSON, figure)")
     if bs.edges is None and bs.material.valence_electrons:
