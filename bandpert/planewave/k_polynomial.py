@@ -34,6 +34,11 @@ from .model import PlaneWaveModel
 BLOCK_BYTES = 16 * 2**20
 
 
+def _cross(c: np.ndarray, p: list, a: int, b: int) -> np.ndarray:
+    """W V for W = w ∘ (K_a K_bᵀ − K_b K_aᵀ), given p[j] = w (K_j ∘ V): K_a ∘ p[b] − K_b ∘ p[a]."""
+    return c[a][:, None] * p[b] - c[b][:, None] * p[a]
+
+
 @dataclass(frozen=True)
 class ProjectedSpinOrbit:
     """B†H_so(k)B of a fixed spinor plane-wave model on the orthonormal columns B, at any k.
@@ -50,21 +55,45 @@ class ProjectedSpinOrbit:
     basis: np.ndarray | None = field(default=None, repr=False)
 
     def matrices(self, k_cart_invA: np.ndarray) -> np.ndarray:
-        """(n_k, n_r, n_r) projected H_so(k) = −i B†(W(k)·σ)B (eV), W built per k."""
+        """(n_k, n_r, n_r) projected H_so(k) = −i B†(W(k)·σ)B (eV).
+
+        W_c = w ∘ (K_a K_bᵀ − K_b K_aᵀ) ((a, b, c) cyclic, K = (k + G)/(2π/a), w the weight
+        Σ_s λ_s S_s(G_i − G_j) B_s(|K_i|) B_s(|K_j|) of
+        :meth:`~bandpert.planewave.spinorbit.SpinOrbitTerm.coupling`), so
+        W_c V = K_a ∘ (w (K_b ∘ V)) − K_b ∘ (w (K_a ∘ V)): one product of w with the six
+        scaled copies of the basis' spin blocks per k, real when w is (a centrosymmetric crystal
+        about its origin), and W itself is never formed.
+        """
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
-        n = self.model.size
+        model, term = self.model, self.model.spin_orbit
+        n = model.size
         b = np.eye(2 * n, dtype=complex) if self.basis is None else self.basis
         up, down = b[:n], b[n:]
-        both = np.concatenate([up, down], axis=1)  # (n, 2 n_r)
         r = b.shape[1]
+        real = not np.any(model.structure.imag)
+        structure = model.structure.real if real else model.structure
         out = np.empty((len(k), r, r), dtype=complex)
         for i, ki in enumerate(k):
-            w = self.model.spin_orbit_coupling(ki)  # (3, n, n)
-            wb = (w.reshape(3 * n, n) @ both).reshape(3, n, 2 * r)
-            (xu, xd), (yu, yd), (zu, zd) = ((c[:, :r], c[:, r:]) for c in wb)
+            kg = ki + model.basis.g_cart_invA
+            radial = term.radial(np.linalg.norm(kg, axis=1))  # (n_s, n)
+            w = np.zeros((n, n), dtype=structure.dtype)
+            for s, lam in enumerate(term.strengths_eV):
+                w += lam * structure[s] * np.outer(radial[s], radial[s])
+            c = (kg / term.unit_invA).T  # (3, n): K_x, K_y, K_z
+            y = np.concatenate([c[a][:, None] * blk for blk in (up, down) for a in range(3)],
+                               axis=1)  # (n, 6r): K_a ∘ B_up (a = x, y, z), then K_a ∘ B_down
+            if real:
+                wy = w @ np.concatenate([y.real, y.imag], axis=1)
+                wy = wy[:, :6 * r] + 1j * wy[:, 6 * r:]
+            else:
+                wy = w @ y
+            pu = [wy[:, a * r:(a + 1) * r] for a in range(3)]  # w (K_a ∘ B_up)
+            pd = [wy[:, (3 + a) * r:(4 + a) * r] for a in range(3)]
+            wx_u, wy_u, wz_u = (_cross(c, pu, a, bb) for a, bb in ((1, 2), (2, 0), (0, 1)))
+            wx_d, wy_d, wz_d = (_cross(c, pd, a, bb) for a, bb in ((1, 2), (2, 0), (0, 1)))
             # H_so = [[−iWz, −iWx − Wy], [−iWx + Wy, iWz]] (spinor_hamiltonian)
-            top = -1j * zu - 1j * xd - yd
-            bottom = -1j * xu + yu + 1j * zd
+            top = -1j * wz_u - 1j * wx_d - wy_d
+            bottom = -1j * wx_u + wy_u + 1j * wz_d
             out[i] = up.conj().T @ top + down.conj().T @ bottom
         return 0.5 * (out + np.swapaxes(out, 1, 2).conj())
 
