@@ -2,7 +2,9 @@
 reduced-basis interpolation (:mod:`bandpert.physics.reduced_basis`) or from the exact fixed
 plane-wave basis, summed into ε2, the joint DOS, ε1 and the f-sum (:mod:`bandpert.physics.optics`).
 
-One-electron spectrum: no excitonic or local-field effects; spinless local model only.
+One-electron spectrum: no excitonic or local-field effects; local potentials, with or without
+spin–orbit coupling (then spinor bands of one electron each, and the velocity (1/ħ)∂H/∂k includes
+the spin–orbit term: :meth:`~bandpert.planewave.k_polynomial.KPolynomial.momentum`).
 """
 
 from __future__ import annotations
@@ -19,7 +21,6 @@ from ..planewave.cutoff import choose_cutoff
 from ..planewave.k_polynomial import k_polynomial
 from ..planewave.model import build_k_centred_model
 from ..planewave.solver import exact_energies, single_blas_thread
-from ..planewave.spinorbit import require_spinless
 from .dos import fermi_level_from_count
 from .optics import (
     HBAR2_OVER_M0_EV_A2,
@@ -120,7 +121,10 @@ class OpticalSpectrum:
 
 
 def _check(material: Material, broadening_eV: float, energy_step_eV: float) -> None:
-    require_spinless(material)
+    if material.nonlocal_terms is not None:
+        raise InputError("the optical spectrum is built for local potentials (with or without "
+                         "spin-orbit coupling) and the material has nonlocal terms; expected a "
+                         "material without a nonlocal table", material.file, "nonlocal")
     if material.dimension != 3:
         raise InputError(f"a {material.dimension}-dimensional crystal; expected a 3D one (ε "
                          "is a bulk property)", material.file, "lattice")
@@ -213,7 +217,7 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
     Parameters
     ----------
     material : Material
-        3D, spinless, with ``electrons.valence``.
+        3D, with ``electrons.valence``; spin–orbit coupling allowed, nonlocal terms not.
     n_per_axis : int or tuple of int
         Mesh points per reciprocal axis (its irreducible points are used: the direction average
         of ε is invariant under the point group).
@@ -240,8 +244,9 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
     n_e = material.valence_electrons
     g = material.electrons_per_band
     n_half = int(np.ceil(n_e / g))
-    nb = n_bands or n_half + DEFAULT_EXTRA_BANDS
-    cutoff = choose_cutoff(material, nb, cutoff_eV)
+    nb = n_bands or n_half + DEFAULT_EXTRA_BANDS * (2 // g)
+    # the cutoff rule converges the spinless bands (as for the band structure)
+    cutoff = choose_cutoff(material.local_spinless(), -(-nb * g // 2), cutoff_eV)
     mesh = reciprocal_mesh(material, n_per_axis)
     k = mesh.k_cart_invA
     run = None
@@ -253,7 +258,7 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
         fixed = fixed_superset_model(material, cutoff, k)
         source, block = k_polynomial(fixed), 4
         energies = exact_energies(fixed, k, nb)
-        nb = fixed.size if all_bands else nb
+        nb = fixed.matrix_size if all_bands else nb
     else:
         run = interpolated_bands(material, k, nb, cutoff, interpolation)
         source, energies, block = run.model, run.energies_eV, 256

@@ -30,6 +30,9 @@ from ..errors import InputError
 from ..units import HBAR2_OVER_2M0_EV_A2
 from .model import PlaneWaveModel
 
+#: Step (Å⁻¹) of the central differences of the projected spin–orbit term (its velocity part).
+VELOCITY_STEP_INVA = 1e-4
+
 #: Bytes of Hamiltonians held at once when a block of k-points is diagonalised together.
 BLOCK_BYTES = 16 * 2**20
 
@@ -186,15 +189,14 @@ class KPolynomial:
         return w[:, :n_bands] + shift, c[:, :, :n_bands]
 
     def momentum(self, k_cart_invA: np.ndarray, vectors: np.ndarray) -> np.ndarray:
-        """Matrix elements ⟨n|k + G|m⟩ between eigenvectors, (n_k, d, n_b, n_b) in Å⁻¹.
+        """Velocity matrix elements as (m0/ħ²)⟨n|∂H/∂k|m⟩ between eigenvectors, (n_k, d, n_b, n_b).
 
-        p_nm = ħ⟨n|k + G|m⟩; the velocity is (ħ/m0)⟨n|k + G|m⟩ = (1/ħ)⟨n|∂H/∂k|m⟩ exactly in
-        this basis (H is quadratic in k with the free-electron k² term). Not with spin–orbit
-        coupling, whose ∂H_so/∂k the velocity would need.
+        In Å⁻¹: for the local model this is ⟨n|k + G|m⟩, p_nm = ħ⟨n|k + G|m⟩, exact in this
+        basis (H is quadratic in k with the free-electron k² term). With spin–orbit coupling
+        the velocity is (1/ħ)∂H/∂k, not p/m0: the term (m0/ħ²)⟨n|∂H_so/∂k|m⟩ is added, from
+        central differences of the projected H_so (step :data:`VELOCITY_STEP_INVA`, error
+        O(step²)).
         """
-        if self.spin_orbit is not None:
-            raise InputError("momentum matrix elements of a spin-orbit model need ∂H_so/∂k, "
-                             "which is not built; expected a spinless model", key="spin_orbit")
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
         if self.q_invA.ndim == 2:  # plane waves: Q diagonal
             qc = self.q_invA[None, :, :, None] * vectors[:, None, :, :]
@@ -202,7 +204,17 @@ class KPolynomial:
             qc = np.einsum("iab,kbm->kiam", self.q_invA, vectors)
         out = np.einsum("kan,kiam->kinm", vectors.conj(), qc)
         eye = np.eye(vectors.shape[2])
-        return out + k[:, :, None, None] * eye
+        out = out + k[:, :, None, None] * eye
+        if self.spin_orbit is not None:
+            h = VELOCITY_STEP_INVA
+            for axis in range(k.shape[1]):
+                step = np.zeros(k.shape[1])
+                step[axis] = h
+                d = (self.spin_orbit.matrices(k + step)
+                     - self.spin_orbit.matrices(k - step)) / (2.0 * h)
+                out[:, axis] += np.einsum("kan,kab,kbm->knm", vectors.conj(), d, vectors,
+                                          optimize=True) / (2.0 * HBAR2_OVER_2M0_EV_A2)
+        return out
 
     def project(self, basis: np.ndarray) -> KPolynomial:
         """The same polynomial on the orthonormal columns of ``basis`` (n, n_r): B†H0B, B†QB."""
