@@ -10,6 +10,8 @@ import json
 import numpy as np
 import pytest
 from conftest import MATERIALS
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from typer.testing import CliRunner
 
 import bandpert.cli.app as cli
@@ -328,3 +330,22 @@ def test_targets_need_tabulated_form_factors():
     with pytest.raises(InputError) as info:
         parse_material(doc, "si-continuous.toml")
     assert info.value.key == "potential.deformation_targets" and "tabulated" in str(info.value)
+
+
+@settings(max_examples=40, deadline=None)
+@given(st.sampled_from(["indirect_gap", "gamma_gap", "x_gap", "l_gap", "xi_u", "b", "d"]),
+       st.floats(-60.0, 60.0, allow_nan=False), st.floats(1e-3, 60.0))
+def test_deformation_targets_read_back_or_are_refused_by_range(name, value, sigma):
+    # Range rule of [potential.deformation_targets] (README, material keys): values within ±50 eV
+    # and uncertainties in (0, 50] eV are read back exactly; anything else names its key.
+    doc = read_toml_document(MATERIALS / "silicon.toml")
+    doc["potential"]["deformation_targets"] = {
+        name: {"value_eV": value, "uncertainty_eV": sigma, "source": "test"}}
+    if abs(value) <= 50.0 and sigma <= 50.0:
+        (t,) = parse_material(doc, "si.toml").potential.deformation_targets
+        assert (t.name, t.value_eV, t.uncertainty_eV, t.source) == (name, value, sigma, "test")
+    else:
+        with pytest.raises(InputError) as info:
+            parse_material(doc, "si.toml")
+        field = "value_eV" if abs(value) > 50.0 else "uncertainty_eV"
+        assert info.value.key == f"potential.deformation_targets.{name}.{field}"
