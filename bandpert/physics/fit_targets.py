@@ -41,6 +41,7 @@ branch is not analytic at the point).
 from __future__ import annotations
 
 import re
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
@@ -52,13 +53,26 @@ from ..errors import InputError
 from ..input.material import Material, canonical_label
 from ..input.reader import TableReader, describe, number_list
 from ..planewave.model import centred_model, model_on_miller
-from ..units import HBAR2_OVER_2M0_EV_A2
+from .fit_masses import (
+    Stencil,
+    minimum_mass_derivatives,
+    stencil_mass,
+    stencil_mass_derivatives,
+)
+from .fit_valley import ValleyLine, find_valley_line, valley_minimum
 
 #: Quantities a target may name.
 QUANTITIES = ("energy", "delta_so", "mass")
 
 #: Step of the mass stencil, in units of 2π/a.
 MASS_STEP = 0.01
+
+#: The point name of a conduction band's minimum off the labelled points
+#: (:mod:`bandpert.physics.fit_valley`): ``"min:c1"``.
+MINIMUM = "min"
+
+#: Directions of a mass at a minimum named by words (:meth:`ValleyLine.direction`).
+VALLEY_DIRECTIONS = ("along", "across")
 
 #: Levels closer than this are one degenerate group (eV).
 DEGENERACY_EV = 1e-6
@@ -92,8 +106,8 @@ class Target:
         One of :data:`QUANTITIES`.
     at, start : BandRef
         E(at) − E(start) for "energy" and "delta_so"; ``start`` is None for "mass".
-    direction : numpy.ndarray or None
-        Unit Cartesian direction of a mass.
+    direction : numpy.ndarray, str or None
+        Unit Cartesian direction of a mass, or "along"/"across" the line of a minimum.
     value, tolerance : float
         Target and tolerance (eV, or m0 for a mass).
     source, name : str
@@ -102,7 +116,7 @@ class Target:
     quantity: str
     at: BandRef
     start: BandRef | None
-    direction: np.ndarray | None
+    direction: np.ndarray | str | None
     value: float
     tolerance: float
     source: str
@@ -129,13 +143,16 @@ def _band(text: Any, r: TableReader, key: str, labels: tuple[str, ...]) -> BandR
                           f"{describe(text)}")
     label, band = text.rsplit(":", 1)
     label = canonical_label(label.strip())
-    if label not in labels:
+    if label not in labels and label != MINIMUM:
         raise r.fail(key, f"unknown point '{label}'; expected a label of the material's path "
-                          f"({', '.join(labels)})")
+                          f"({', '.join(labels)}) or \"{MINIMUM}\" (a conduction minimum)")
     m = _BAND.match(band.strip())
     if not m:
         raise r.fail(key, f"unknown band '{band}'; expected v1, v2, … (valence, from the top) "
                           "or c1, c2, … (conduction, from the bottom)")
+    if label == MINIMUM and m.group(1) != "c":
+        raise r.fail(key, f"\"{MINIMUM}\" is the minimum of a conduction band; expected c1, "
+                          "c2, …")
     return BandRef(label, m.group(1), int(m.group(2)))
 
 
@@ -185,10 +202,17 @@ def parse_targets(doc: dict[str, Any], source: str, material: Material) -> FitSp
         if quantity == "energy":
             start = _band(t.raw("from", required=False) or "Γ:v1", t, "from", labels)
         if quantity == "mass":
-            d = np.array(number_list(t.raw("direction"), t, "direction", length=3), float)
-            if not np.linalg.norm(d) > 0:
-                raise t.fail("direction", "expected a non-zero direction")
-            direction = d / np.linalg.norm(d)
+            raw_d = t.raw("direction")
+            if at.label == MINIMUM and isinstance(raw_d, str):
+                if raw_d not in VALLEY_DIRECTIONS:
+                    raise t.fail("direction", f"unknown direction '{raw_d}'; expected \"along\" "
+                                              "or \"across\" the valley's line, or [x, y, z]")
+                direction = raw_d
+            else:
+                d = np.array(number_list(raw_d, t, "direction", length=3), float)
+                if not np.linalg.norm(d) > 0:
+                    raise t.fail("direction", "expected a non-zero direction")
+                direction = d / np.linalg.norm(d)
         value = t.number("value", bounds=(-1e4, 1e4), meaning="eV, or m0 for a mass")
         if quantity == "mass" and value == 0:
             raise t.fail("value", "expected a non-zero mass (m*/m0)")
@@ -198,8 +222,9 @@ def parse_targets(doc: dict[str, Any], source: str, material: Material) -> FitSp
         if not src.strip():
             raise t.fail("source", "expected where the value comes from (authors, year, table)")
         default = {"energy": f"E({at}) − E({start})", "delta_so": "Δso = E(Γ8) − E(Γ7)",
-                   "mass": f"mass {at} along {np.round(direction, 4).tolist()}"
-                   if direction is not None else ""}[quantity]
+                   "mass": "" if direction is None else f"mass {at} {direction}"
+                   if isinstance(direction, str) else
+                   f"mass {at} along {np.round(direction, 4).tolist()}"}[quantity]
         name = t.string("name", required=False, default=default)
         t.finish()
         targets.append(Target(quantity, at, start, direction, float(value), float(tol), src,
@@ -226,7 +251,8 @@ class TargetModel:
         self.points_frac = {label: np.asarray(p, float)
                             for label, p in standard_path(material)[0].items()}
         self.n_valence = material.valence_electrons // material.electrons_per_band
-        used = {t.at.label for t in targets} | {t.start.label for t in targets if t.start}
+        used = ({t.at.label for t in targets} | {t.start.label for t in targets if t.start}
+                ) - {MINIMUM}
         b = reciprocal_vectors(material.vectors_A)
         self.miller = {label: centred_model(material, cutoff_eV, self.points_frac[label] @ b,
                                             spin_orbit=True).basis.miller
@@ -237,12 +263,27 @@ class TargetModel:
             raise InputError(f"a target names a valence band below the lowest one (there are "
                              f"{self.n_valence} valence bands)", key="targets")
         self.n_bands = max(indices) + 4
-        smallest = min(m.shape[0] for m in self.miller.values())
+        smallest = min((m.shape[0] for m in self.miller.values()), default=self.n_bands)
         if smallest * (2 if material.spin_orbit is not None else 1) < self.n_bands:
             raise InputError(f"{cutoff_eV:g} eV gives only {smallest} plane waves at a target "
                              f"point; expected a cutoff with at least {self.n_bands} states "
                              "(the bands the targets name, and 4 more)", key="cutoff_eV")
         self.spinor = material.spin_orbit is not None
+        # a conduction minimum off the labelled points: its line and plane waves, fixed now
+        self.valleys: dict[int, ValleyLine] = {}
+        self.t_min: dict[int, float] = {}
+        for ref in [t.at for t in targets] + [t.start for t in targets if t.start]:
+            if ref.label == MINIMUM and ref.index(self.n_valence) not in self.valleys:
+                band = ref.index(self.n_valence)
+                line = find_valley_line(material, self.cutoff_eV,
+                                        band // 2 if self.spinor else band)
+                self.valleys[band], self.t_min[band] = line, line.t_start
+
+    def minimum(self, material: Material, band: int) -> float:
+        """E at the band's minimum on its line (:func:`valley_minimum`); moves ``t_min``."""
+        e, self.t_min[band] = valley_minimum(material, self.valleys[band], band, self.spinor,
+                                             self.t_min[band])
+        return e
 
     def _k(self, material: Material, label: str) -> np.ndarray:
         return self.points_frac[label] @ reciprocal_vectors(material.vectors_A)
@@ -256,37 +297,50 @@ class TargetModel:
                                  check_finite=False)
         return w, c, model
 
-    def _mass(self, material: Material, target: Target) -> float:
-        label = target.at.label
-        model = model_on_miller(material, self.miller[label], self.cutoff_eV)
-        k0 = self._k(material, label)
-        h = MASS_STEP * 2.0 * np.pi / material.a_A
+    def stencil(self, material: Material, target: Target) -> Stencil:
+        """The mass stencil of a mass target (:mod:`bandpert.physics.fit_masses`); a minimum's
+        is centred where :meth:`values` last found it."""
         band = target.at.index(self.n_valence)
-        e = np.array([scipy.linalg.eigh(model.hamiltonian(k0 + s * h * target.direction),
-                                        eigvals_only=True, subset_by_index=(0, band + 1),
-                                        driver="evr", check_finite=False)
-                      for s in (-1.0, 0.0, 1.0)])
-        if self.spinor:  # the Kramers pair holding the band
-            first = band - band % 2
-            e_band = e[:, first:first + 2].mean(axis=1)
+        if target.at.label == MINIMUM:
+            line = self.valleys[band]
+            miller, k0 = line.miller, line.k_frac(self.t_min[band])
+            direction = (line.direction(material, target.direction)
+                         if isinstance(target.direction, str) else target.direction)
         else:
-            e_band = e[:, band]
-        curvature = (e_band[0] - 2.0 * e_band[1] + e_band[2]) / h**2
-        sign = -1.0 if target.at.side == "v" else 1.0
-        return sign * 2.0 * HBAR2_OVER_2M0_EV_A2 / curvature
+            miller, k0 = self.miller[target.at.label], self.points_frac[target.at.label]
+            direction = target.direction
+        return Stencil(miller=miller, k0_frac=np.asarray(k0, float),
+                       direction=np.asarray(direction, float), band=band,
+                       step_frac=MASS_STEP, sign=-1.0 if target.at.side == "v" else 1.0,
+                       spinor=self.spinor)
 
-    def values(self, material: Material) -> np.ndarray:
-        """Every target's model value (eV or m0), in target order."""
+    def _mass(self, material: Material, target: Target) -> float:
+        return stencil_mass(material, self.stencil(material, target))
+
+    def values(self, material: Material, rows: np.ndarray | None = None) -> np.ndarray:
+        """Every target's model value (eV or m0), in target order.
+
+        With ``rows`` (a boolean mask over the targets) only those are computed; the others
+        are NaN (the finite-difference columns of the Jacobian need the mass rows only).
+        """
         cache: dict[str, np.ndarray] = {}
 
+        minima = {band: self.minimum(material, band) for band in self.valleys
+                  if any(rows is None or rows[i] for i, t in enumerate(self.targets)
+                         if band in _minimum_bands(t, self.n_valence))}
+
         def level(ref: BandRef) -> float:
+            if ref.label == MINIMUM:
+                return minima[ref.index(self.n_valence)]
             if ref.label not in cache:
                 cache[ref.label] = self.states(material, ref.label)[0]
             return float(cache[ref.label][ref.index(self.n_valence)])
 
         out = []
-        for t in self.targets:
-            if t.quantity == "mass":
+        for i, t in enumerate(self.targets):
+            if rows is not None and not rows[i]:
+                out.append(np.nan)
+            elif t.quantity == "mass":
                 out.append(self._mass(material, t))
             else:
                 out.append(level(t.at) - level(t.start))
@@ -295,7 +349,7 @@ class TargetModel:
     def energy_derivatives(self, material: Material, perturbed: list[tuple[Material, Material,
                                                                              float]]
                            ) -> np.ndarray:
-        """∂(target)/∂p of the energy targets by Hellmann–Feynman (NaN for mass targets).
+        """∂(target)/∂p by Hellmann–Feynman: energies, and masses through their stencils.
 
         ∂E_n/∂p = ⟨n|∂H/∂p|n⟩, the mean over n's degenerate group (module docstring), with
         ∂H/∂p = [H(p + δ) − H(p − δ)]/(2δ) on the same plane waves and fractional k (exact
@@ -314,8 +368,18 @@ class TargetModel:
             (n_targets, n_parameters).
         """
         jac = np.full((len(self.targets), len(perturbed)), np.nan)
-        labels = sorted({t.at.label for t in self.targets if t.quantity != "mass"}
-                        | {t.start.label for t in self.targets if t.start})
+        cache: dict[tuple[int, int], Any] = {}
+
+        def model_of(mat: Material, miller: np.ndarray) -> Any:
+            # one model per (material, plane-wave set) in this call: the stencils of several
+            # targets share the perturbed materials and the plane waves of their point
+            key = (id(mat), id(miller))
+            if key not in cache:
+                cache[key] = model_on_miller(mat, miller)
+            return cache[key]
+
+        labels = sorted(({t.at.label for t in self.targets if t.quantity != "mass"}
+                         | {t.start.label for t in self.targets if t.start}) - {MINIMUM})
         slopes: dict[str, np.ndarray] = {}
         for label in labels:
             w, c, _ = self.states(material, label)
@@ -323,17 +387,61 @@ class TargetModel:
             rows = []
             for plus, minus, delta in perturbed:
                 k_p, k_m = self._k(plus, label), self._k(minus, label)
-                dh = (model_on_miller(plus, self.miller[label]).hamiltonian(k_p)
-                      - model_on_miller(minus, self.miller[label]).hamiltonian(k_m)) / (2 * delta)
+                dh = (model_of(plus, self.miller[label]).hamiltonian(k_p)
+                      - model_of(minus, self.miller[label]).hamiltonian(k_m)) / (2 * delta)
                 d = np.real(np.einsum("in,ij,jn->n", c.conj(), dh, c))
                 rows.append(np.array([d[g].mean() for g in groups]))
             slopes[label] = np.array(rows).T  # (n_bands, n_parameters)
+        at_minimum = {band: self._minimum_slopes(material, band, perturbed, model_of)
+                      for band in self.valleys}
+
+        def slope(ref: BandRef) -> np.ndarray:
+            band = ref.index(self.n_valence)
+            return at_minimum[band] if ref.label == MINIMUM else slopes[ref.label][band]
+
         for i, t in enumerate(self.targets):
-            if t.quantity == "mass":
-                continue
-            jac[i] = (slopes[t.at.label][t.at.index(self.n_valence)]
-                      - slopes[t.start.label][t.start.index(self.n_valence)])
+            if t.quantity == "mass" and t.at.label == MINIMUM:
+                band = t.at.index(self.n_valence)
+                line = self.valleys[band]
+                along = Stencil(line.miller, line.k_frac(self.t_min[band]),
+                                line.direction(material, "along"), band, MASS_STEP, 1.0,
+                                self.spinor)
+                jac[i] = minimum_mass_derivatives(
+                    material, self.stencil(material, t), along,
+                    float(np.linalg.norm(line.k_cart(material, 1.0)
+                                         - line.k_cart(material, 0.0))),
+                    line.end_frac - line.start_frac, perturbed, model_of)
+            elif t.quantity == "mass":
+                jac[i] = stencil_mass_derivatives(material, self.stencil(material, t), perturbed,
+                                                  model_of)
+            else:
+                jac[i] = slope(t.at) - slope(t.start)
         return jac
+
+    def _minimum_slopes(self, material: Material, band: int,
+                        perturbed: list[tuple[Material, Material, float]],
+                        model_of: Callable[[Material, np.ndarray], Any]) -> np.ndarray:
+        """dE_min/dp = ⟨n|∂H/∂p|n⟩ at the minimum's fixed k (envelope theorem)."""
+        self.minimum(material, band)
+        line, t = self.valleys[band], self.t_min[band]
+        h = model_on_miller(material, line.miller).hamiltonian(line.k_cart(material, t))
+        w, c = scipy.linalg.eigh(h, subset_by_index=(0, band + 1), driver="evr",
+                                 check_finite=False)
+        group = _groups(w)[band]
+        out = []
+        for plus, minus, delta in perturbed:
+            dh = (model_of(plus, line.miller).hamiltonian(line.k_cart(plus, t))
+                  - model_of(minus, line.miller).hamiltonian(line.k_cart(minus, t))
+                  ) / (2 * delta)
+            out.append(float(np.real(np.einsum("in,ij,jn->n", c[:, group].conj(), dh,
+                                               c[:, group])).mean()))
+        return np.array(out)
+
+
+def _minimum_bands(target: Target, n_valence: int) -> set[int]:
+    """Bands whose minimum off the labelled points the target needs."""
+    return {ref.index(n_valence) for ref in (target.at, target.start)
+            if ref is not None and ref.label == MINIMUM}
 
 
 def _groups(w: np.ndarray) -> list[np.ndarray]:

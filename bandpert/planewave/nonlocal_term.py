@@ -48,17 +48,22 @@ def radial_overlap(l: int, k1: np.ndarray, k2: np.ndarray, radius: float) -> np.
     numpy.ndarray
         In Å³.
     """
-    k1, k2 = np.broadcast_arrays(np.asarray(k1, float), np.asarray(k2, float))
-    x1, x2 = k1 * radius, k2 * radius
+    k1, k2 = np.asarray(k1, float), np.asarray(k2, float)
+    # the Bessel functions of each argument once (an (n, 1) and a (1, n) input stay vectors:
+    # n evaluations, not n² of them); the pairs only meet in the arithmetic below
+    j1, j2 = spherical_jn(l, k1 * radius), spherical_jn(l, k2 * radius)
     diff = k1 * k1 - k2 * k2
     close = np.abs(diff) < DIAGONAL_TOL_INVA2
     safe = np.where(close, 1.0, diff)
-    off = radius**2 * (_k_j_lower(l, k2, radius) * spherical_jn(l, x1)
-                       - _k_j_lower(l, k1, radius) * spherical_jn(l, x2)) / safe
-    a = np.maximum(0.5 * (x1 + x2), 1e-6)
-    lower = np.cos(a) / a if l == 0 else spherical_jn(l - 1, a)
-    diag = 0.5 * radius**3 * (spherical_jn(l, a) ** 2 - lower * spherical_jn(l + 1, a))
-    return np.where(close, diag, off)
+    out = radius**2 * (_k_j_lower(l, k2, radius) * j1 - _k_j_lower(l, k1, radius) * j2) / safe
+    out = np.array(np.broadcast_to(out, close.shape), dtype=float)
+    if close.any():
+        k1b, k2b = np.broadcast_arrays(k1, k2)
+        a = np.maximum(0.5 * (k1b[close] + k2b[close]) * radius, 1e-6)
+        lower = np.cos(a) / a if l == 0 else spherical_jn(l - 1, a)
+        out[close] = 0.5 * radius**3 * (spherical_jn(l, a) ** 2
+                                        - lower * spherical_jn(l + 1, a))
+    return out
 
 
 @dataclass(frozen=True)
@@ -100,7 +105,9 @@ class NonlocalTerm:
                 continue
             radial = np.zeros(cos.shape)
             for l, depth, radius in channels:  # noqa: E741 - two channels at most
-                radial += ((2 * l + 1) * depth * eval_legendre(l, cos)
+                legendre = (1.0 if l == 0 else 1.5 * cos * cos - 0.5 if l == 2
+                            else eval_legendre(l, cos))
+                radial += ((2 * l + 1) * depth * legendre
                            * radial_overlap(l, k[:, None], k[None, :], radius))
             out += scale * structure[s] * radial
         return out

@@ -28,6 +28,7 @@ from ..errors import InputError
 from ..input.material import Material, parse_material
 from ..physics.fit_targets import FitSpec, TargetModel
 from ..planewave.cutoff import converged_cutoff
+from ..planewave.solver import single_blas_thread
 from .sweep_spec import get_value, set_value
 
 #: Relative singular value below which a parameter direction counts as undetermined.
@@ -164,7 +165,8 @@ class Fit:
         need = np.isnan(jac).any(axis=1)
         if need.any():
             for j, (up, down, step) in enumerate(pairs):
-                diff = (self.targets.values(up) - self.targets.values(down)) / (2 * step)
+                diff = (self.targets.values(up, need)
+                        - self.targets.values(down, need)) / (2 * step)
                 jac[need, j] = diff[need]
         return jac / self.tolerances[:, None]
 
@@ -197,6 +199,13 @@ def run_fit(document: dict[str, Any], source: str, spec: FitSpec,
         parameter leaves the range its key accepts.
     """
     fit = fit or Fit(document, source, spec)
+    with single_blas_thread():  # many small eigenproblems: BLAS threads only contend
+        return _solve(fit, spec, document, progress)
+
+
+def _solve(fit: Fit, spec: FitSpec, document: dict[str, Any],
+           progress: Progress | None) -> FitResult:
+    """The least-squares run and the statistics of :func:`run_fit`."""
 
     def residuals(p: np.ndarray) -> np.ndarray:
         r = fit.residuals(p)
@@ -211,7 +220,7 @@ def run_fit(document: dict[str, Any], source: str, spec: FitSpec,
     if result.status <= 0:
         raise InputError(f"the fit did not converge in {result.nfev} evaluations (cost "
                          f"{result.cost:.4g}); expected targets the parameters can reach, or "
-                         "a closer starting point", source, "parameters")
+                         "a closer starting point", fit.source, "parameters")
     p = result.x
     jac = fit.jacobian(p)
     _, s_some, vt = np.linalg.svd(jac, full_matrices=True)  # vt: every direction of p

@@ -1,0 +1,172 @@
+"""A conduction-band minimum off the labelled points, followed while a fit moves the parameters.
+
+Silicon's conduction minimum lies about 0.85 of the way from Γ to X, at no labelled point, so a fit
+to the measured indirect gap and the valley masses (m_l, m_t) needs the minimum itself. The fit
+fixes, once at its start,
+
+* the **line** of the path (two consecutive labelled points) that holds the band's lowest value
+  in the starting model (found on the spinless model, 13 points per segment, each diagonalised
+  in its own basis centred on the point, so the search keeps the crystal's symmetry), and
+* one **set of plane waves** for the whole line: the union of the centred bases
+  {G : ħ²|k + G|²/2m0 ≤ cutoff} at 9 points of the line, so every k of the line sees a basis at
+  least as complete as its own centred one and the energies are smooth in k and in the
+  parameters (a cutoff would add and drop plane waves as they move).
+
+During the fit the minimum E_min(p) = min_t E_n(k(t); p) is found on that line by Brent's bounded
+method around the previous minimum (:func:`scipy.optimize.minimize_scalar`, k(t) = k_A + t(k_B −
+k_A) in fractions of the reciprocal vectors). Its derivative needs no search: at an interior
+minimum ∂E_n/∂t = 0, so dE_min/dp = ∂E_n/∂p at fixed k_min (the envelope theorem), which
+Hellmann–Feynman gives as ⟨n|∂H/∂p|n⟩ (the group mean for a Kramers pair). Masses at the minimum
+are second differences along the line ("along") and across it ("across": the unit vector
+perpendicular to the line nearest to the Cartesian x axis, or y if the line is along x), on the
+same plane waves; with spin–orbit coupling the Kramers pair is averaged.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg
+import scipy.optimize
+
+from ..crystal.lattice import reciprocal_vectors, standard_path
+from ..errors import InputError
+from ..input.material import Material
+from ..planewave.basis import k_centred_basis
+from ..planewave.model import build_k_centred_model, model_on_miller
+from ..planewave.solver import exact_energies
+
+#: Points per segment of the path in the search for the line of the minimum.
+SEARCH_POINTS = 13
+
+#: Points of the line whose centred bases make up its one set of plane waves.
+BASIS_POINTS = 9
+
+#: Half-width (in t) of the bracket around the previous minimum, and Brent's tolerance on t
+#: (near the rounding floor of E(t): the mass stencil is centred on the minimum found).
+BRACKET_HALF_WIDTH = 0.12
+T_TOLERANCE = 1e-8
+
+
+@dataclass(frozen=True)
+class ValleyLine:
+    """The line of the path that holds a band's minimum, and its one set of plane waves.
+
+    Attributes
+    ----------
+    band : int
+        0-based band index (spinless count: doubled for a spinor model by the caller).
+    start_label, end_label : str
+        The labelled points at t = 0 and t = 1.
+    start_frac, end_frac : numpy.ndarray
+        (3,) their fractions of the reciprocal vectors.
+    miller : numpy.ndarray
+        (n, 3) plane waves kept for every k of the line and every parameter value.
+    t_start : float
+        Position of the minimum in the starting model.
+    """
+
+    band: int
+    start_label: str
+    end_label: str
+    start_frac: np.ndarray
+    end_frac: np.ndarray
+    miller: np.ndarray
+    t_start: float
+
+    @property
+    def name(self) -> str:
+        return f"{self.start_label}–{self.end_label}"
+
+    def k_frac(self, t: float) -> np.ndarray:
+        """k(t) in fractions of the reciprocal vectors."""
+        return self.start_frac + t * (self.end_frac - self.start_frac)
+
+    def k_cart(self, material: Material, t: float) -> np.ndarray:
+        """k(t) in Å⁻¹ for the material's (possibly changed) lattice."""
+        return self.k_frac(t) @ reciprocal_vectors(material.vectors_A)
+
+    def direction(self, material: Material, which: str) -> np.ndarray:
+        """Unit Cartesian vector along the line, or across it (module docstring)."""
+        b = reciprocal_vectors(material.vectors_A)
+        along = (self.end_frac - self.start_frac) @ b
+        along = along / np.linalg.norm(along)
+        if which == "along":
+            return along
+        axis = np.eye(3)[0] if abs(along[0]) < 0.9 else np.eye(3)[1]
+        across = axis - (axis @ along) * along
+        return across / np.linalg.norm(across)
+
+
+def find_valley_line(material: Material, cutoff_eV: float, band: int) -> ValleyLine:
+    """The segment of the path holding the lowest value of ``band`` (spinless model).
+
+    Raises
+    ------
+    InputError
+        If the material is not 3D (the line needs the standard path of a crystal).
+    """
+    if material.dimension != 3:
+        raise InputError("a band minimum off the labelled points needs a 3D crystal",
+                         material.file, "targets")
+    spinless = material.local_spinless()
+    points, legs = standard_path(spinless)
+    b = reciprocal_vectors(material.vectors_A)
+    model = build_k_centred_model(spinless, cutoff_eV)
+    t = np.linspace(0.0, 1.0, SEARCH_POINTS)
+    best = (np.inf, "", "", 0.0)
+    seen: set[tuple[str, str]] = set()
+    for leg in legs:
+        for a, z in zip(leg[:-1], leg[1:], strict=True):
+            if (a, z) in seen or (z, a) in seen:
+                continue
+            seen.add((a, z))
+            fa, fz = np.asarray(points[a], float), np.asarray(points[z], float)
+            k = (fa + t[:, None] * (fz - fa)) @ b
+            e = exact_energies(model, k, band + 1)[:, band]
+            i = int(np.argmin(e))
+            if e[i] < best[0] - 1e-9:
+                best = (float(e[i]), a, z, float(t[i]))
+    _, a, z, t0 = best
+    fa, fz = np.asarray(points[a], float), np.asarray(points[z], float)
+    sets = [k_centred_basis(b, cutoff_eV, (fa + s * (fz - fa)) @ b).miller
+            for s in np.linspace(0.0, 1.0, BASIS_POINTS)]
+    miller = np.unique(np.concatenate(sets), axis=0)
+    return ValleyLine(band=band, start_label=a, end_label=z, start_frac=fa, end_frac=fz,
+                      miller=miller, t_start=t0)
+
+
+def _band_energy(material: Material, line: ValleyLine, k_cart: np.ndarray, band: int,
+                 spinor: bool, model=None) -> float:
+    """E_band(k) on the line's plane waves (the Kramers-pair mean for a spinor model)."""
+    model = model or model_on_miller(material, line.miller)
+    w = scipy.linalg.eigh(model.hamiltonian(k_cart), eigvals_only=True,
+                          subset_by_index=(0, band + 1), driver="evr", check_finite=False)
+    if spinor:
+        first = band - band % 2
+        return float(w[first:first + 2].mean())
+    return float(w[band])
+
+
+def valley_minimum(material: Material, line: ValleyLine, band: int, spinor: bool,
+                   t_guess: float) -> tuple[float, float]:
+    """(E_min in eV, t_min): the band's minimum on the line near ``t_guess`` (Brent, bounded).
+
+    ``band`` is the band index in the material's own count (spinor bands with spin–orbit).
+    """
+    model = model_on_miller(material, line.miller)
+    lo = max(0.0, t_guess - BRACKET_HALF_WIDTH)
+    hi = min(1.0, t_guess + BRACKET_HALF_WIDTH)
+
+    def energy(t: float) -> float:
+        return _band_energy(material, line, line.k_cart(material, t), band, spinor, model)
+
+    res = scipy.optimize.minimize_scalar(energy, bounds=(lo, hi), method="bounded",
+                                         options={"xatol": T_TOLERANCE})
+    t_min, e_min = float(res.x), float(res.fun)
+    for end in (lo, hi):  # Brent never evaluates the ends: a minimum there is checked apart
+        e_end = energy(end)
+        if e_end < e_min:
+            t_min, e_min = end, e_end
+    return e_min, t_min
