@@ -541,6 +541,14 @@ CASES = [
     ("reference-unknown", _put("reference", "m_hh_m0", 0.35), "reference.m_hh_m0"),
     ("reference-negative", _put("reference", "m_e_m0", -0.067), "reference.m_e_m0"),
     ("reference-string", _put("reference", "m_so_m0", "0.172"), "reference.m_so_m0"),
+    ("conduction-no-state", _put("conduction", {"lowest_state": "Γ15", "lowest_eV": 3.4}),
+     "conduction.state"),
+    ("conduction-energy-alone", _put("conduction", {"state": "Γ2′", "lowest_eV": 3.4}),
+     "conduction.lowest_eV"),
+    ("conduction-state-alone", _put("conduction", {"state": "Γ2′", "lowest_state": "Γ15"}),
+     "conduction.lowest_eV"),
+    ("conduction-negative", _put("conduction", {"state": "Γ2′", "lowest_state": "Γ15",
+                                                "lowest_eV": -3.4}), "conduction.lowest_eV"),
 ]
 
 

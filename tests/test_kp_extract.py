@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import tomllib
+import warnings
 
 import numpy as np
 import pytest
@@ -10,8 +11,10 @@ from conftest import bundled
 from hypothesis import given
 from hypothesis import strategies as st
 
+from bandpert.errors import ModelWarning
 from bandpert.input.kp_file import parse_kp_material
 from bandpert.kp import dkk_from_luttinger, luttinger_from_dkk, material_model, unit_vector
+from bandpert.kp.analysis import analyse_kp_material
 from bandpert.physics.degenerate_edge import degenerate_edge
 from bandpert.physics.kp_from_planewave import extract_kp_parameters, kp_material_text
 from bandpert.physics.mass_tensor import eigenstates
@@ -125,12 +128,24 @@ def test_written_kp_file_names_its_conduction_state(name, chosen, lowest):
     material = bundled(name)
     model = build_model(material, converged_cutoff(material, 8))
     ex = extract_kp_parameters(material, model)
-    note = tomllib.loads(kp_material_text(material, ex))["note"]
+    doc = tomllib.loads(kp_material_text(material, ex))
+    note = doc["note"]
     assert f"conduction band of these models is {chosen} at Γ" in note
+    assert doc["conduction"]["state"] == chosen
     if lowest is None:
         assert "the lowest conduction level at Γ." in note
+        assert "lowest_state" not in doc["conduction"]
     else:
         assert f"not the lowest conduction level at Γ: {lowest} (3-fold)" in note
         # the level named below is below: its energy is less than Eg of the file
-        below = float(note.split(f"{lowest} (3-fold) lies ")[1].split(" eV")[0])
-        assert below < ex.parameters.Eg_eV
+        assert doc["conduction"]["lowest_state"] == lowest
+        assert 0 < doc["conduction"]["lowest_eV"] < ex.parameters.Eg_eV
+    # reading the file back: the two- and eight-band results are qualified for silicon only
+    kpm = parse_kp_material(doc, "<extracted>")
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        analyse_kp_material(kpm, models=("eight-band",), n_k=5)
+    said = [str(w.message) for w in caught if issubclass(w.category, ModelWarning)]
+    assert bool(said) == (lowest is not None)
+    if lowest:
+        assert f"not the lowest conduction level at Γ ({lowest}" in said[0]

@@ -36,6 +36,11 @@ Units are in the key names: energies in eV (``_eV``), lengths in Å (``_A``), ma
     m_e_m0 = 0.067                               # > 0: conduction-band mass
     m_so_m0 = 0.172                              # > 0: split-off mass
 
+    [conduction]                                 # optional: which level at Γ the models'
+    state = "Γ2′"                                #   conduction band is (its irrep), and the
+    lowest_state = "Γ15"                         #   lowest conduction level when it is another
+    lowest_eV = 3.42                             #   (> 0, above the valence top), not modelled
+
     [deformation]                                # optional; needed for strain (Bir–Pikus)
     a_v_convention = "a = a_c - a_v"             # required here: or "a = a_c + a_v" (the
                                                  # opposite sign of a_v, flipped on reading)
@@ -156,6 +161,9 @@ class KPMaterial:
     valence_band_eV : float or None
         ``alignment.valence_band_eV``: the unstrained valence-band top on a scale common to
         all materials (band offsets of heterostructures).
+    conduction : ConductionState or None
+        From ``[conduction]``: the conduction band's level at Γ and, when that is not the
+        lowest conduction level (silicon's Γ2′ above Γ15), the lowest one.
 
     The models are built by :func:`bandpert.kp.material_model` (the input layer knows no
     Hamiltonian).
@@ -173,6 +181,41 @@ class KPMaterial:
     deformation: DeformationPotentials | None = None
     elastic: ElasticConstants | None = None
     valence_band_eV: float | None = None
+    conduction: ConductionState | None = None
+
+
+@dataclass(frozen=True)
+class ConductionState:
+    """Which level at Γ a file's conduction band is (``[conduction]``).
+
+    Attributes
+    ----------
+    state : str
+        Its irrep (e.g. ``"Γ2′"``, ``"Γ1"``, ``"Γ6"``).
+    lowest_state : str or None
+        The lowest conduction level at Γ when it is another level (not in the Kane models).
+    lowest_eV : float or None
+        That level's energy above the valence top.
+    """
+
+    state: str
+    lowest_state: str | None = None
+    lowest_eV: float | None = None
+
+
+def _read_conduction(c: TableReader | None) -> ConductionState | None:
+    if c is None:
+        return None
+    state = c.string("state")
+    if not state.strip():
+        raise c.fail("state", "expected the irrep of the conduction level at Γ, e.g. \"Γ1\"")
+    lowest = c.string("lowest_state", required=False) or None
+    energy = c.number("lowest_eV", required=lowest is not None, positive=True,
+                      bounds=(0.0, 20.0), meaning="eV above the valence top")
+    if energy is not None and lowest is None:
+        raise c.fail("lowest_eV", "given without lowest_state; expected both or neither")
+    c.finish()
+    return ConductionState(state, lowest, energy)
 
 
 def _read_models(r: TableReader) -> tuple[str, ...] | None:
@@ -312,10 +355,12 @@ def parse_kp_material(doc: dict[str, Any], source: str = "") -> KPMaterial:
                             meaning="eV on a common scale; tabulated III–V values lie within "
                                     "−3 to 1 eV")
         al.finish()
+    conduction = _read_conduction(r.sub("conduction", required=False))
     r.finish()
     return KPMaterial(name=name, source=src, note=note, file=source, structure=structure, a_A=a,
                       parameters=params, models=models, reference_masses_m0=reference,
-                      deformation=deformation, elastic=elastic, valence_band_eV=valence)
+                      deformation=deformation, elastic=elastic, valence_band_eV=valence,
+                      conduction=conduction)
 
 
 def load_kp_material(path: str | Path) -> KPMaterial:

@@ -395,6 +395,13 @@ def analyse_kp_material(kpm: KPMaterial, models: tuple[str, ...] | None = None,
         names = tuple(n for n in names if n != "two-band")
     if strain is not None and strain.note:
         warnings.warn(strain.note, ModelWarning, stacklevel=2)
+    lowest = kpm.conduction.lowest_state if kpm.conduction else None
+    if lowest and any(n in ("two-band", "eight-band") for n in names):
+        warnings.warn(f"the conduction band of this file is {kpm.conduction.state}, not the "
+                      f"lowest conduction level at Γ ({lowest}, {kpm.conduction.lowest_eV:.3g} "
+                      "eV above the valence top, outside the Kane models): the two- and "
+                      f"eight-band results describe {kpm.conduction.state}, not the band edge",
+                      ModelWarning, stacklevel=2)
     out: dict[str, ModelAnalysis] = {}
     for name in names:
         if strain is None:

@@ -56,10 +56,10 @@ class ExtractedParameters:
         Its mass by the sum over states.
     isotropy : float
         Largest relative spread of Ep between x, y and z (0 for a cubic crystal).
-    conduction_state : str
-        One sentence naming the conduction state used by its irreducible representation at Γ
-        (:func:`conduction_state_sentence`), and, when it is not the lowest conduction level at
-        Γ (silicon: Γ2′ above Γ15), the lowest one, which the Kane models do not contain.
+    conduction_state : ConductionAtGamma or None
+        The conduction state used, by its irreducible representation at Γ (spinless labels),
+        and, when it is not the lowest conduction level at Γ (silicon: Γ2′ above Γ15), the
+        lowest one, which the Kane models do not contain (:func:`conduction_at_gamma`).
     """
 
     parameters: KPParameters
@@ -67,7 +67,7 @@ class ExtractedParameters:
     valence_bands: np.ndarray
     conduction_mass_m0: float
     isotropy: float
-    conduction_state: str = ""
+    conduction_state: ConductionAtGamma | None = None
 
 
 def extract_kp_parameters(material: Material, model: PlaneWaveModel) -> ExtractedParameters:
@@ -112,20 +112,55 @@ def extract_kp_parameters(material: Material, model: PlaneWaveModel) -> Extracte
     return ExtractedParameters(parameters=params, conduction_band=conduction,
                                valence_bands=triplet, conduction_mass_m0=1.0 / inv_me,
                                isotropy=float(np.ptp(per_axis) / ep),
-                               conduction_state=conduction_state_sentence(
+                               conduction_state=conduction_at_gamma(
                                    material, model.basis.cutoff_eV, top, conduction))
 
 
-def conduction_state_sentence(material: Material, cutoff_eV: float, top: int,
-                              conduction: int) -> str:
+@dataclass(frozen=True)
+class ConductionAtGamma:
+    """The extracted conduction level at Γ by its irrep, and the lowest one when it differs.
+
+    Attributes
+    ----------
+    state : str
+        Irrep of the s-like level the Kane models use (``"Γ2′"``, ``"Γ1"``).
+    energy_eV : float
+        Its energy above the valence top.
+    lowest_state : str or None
+        The lowest conduction level at Γ when it is another (silicon: ``"Γ15"``).
+    lowest_eV : float or None
+        Its energy above the valence top.
+    lowest_degeneracy : int
+    """
+
+    state: str
+    energy_eV: float
+    lowest_state: str | None = None
+    lowest_eV: float | None = None
+    lowest_degeneracy: int = 0
+
+    @property
+    def sentence(self) -> str:
+        """One sentence for the written file's note."""
+        text = (f"The conduction band of these models is {self.state} at Γ, "
+                f"{self.energy_eV:.4f} eV above the valence top")
+        if self.lowest_state is None:
+            return text + ", the lowest conduction level at Γ."
+        return (text + f"; it is not the lowest conduction level at Γ: {self.lowest_state} "
+                f"({self.lowest_degeneracy}-fold) lies {self.lowest_eV:.4f} eV above the "
+                "valence top and is not in these models.")
+
+
+def conduction_at_gamma(material: Material, cutoff_eV: float, top: int,
+                        conduction: int) -> ConductionAtGamma | None:
     """Name the conduction state of the extracted Kane models by its irrep at Γ.
 
     The Kane models' conduction band is an s-like level (Γ1 of Oh, Γ2′ of diamond with the
     origin at the bond centre, Γ1 of Td: :mod:`bandpert.symmetry.names`). In silicon it is not
     the lowest conduction level at Γ: the p-like Γ15 triplet lies below Γ2′ (Cohen &
     Bergstresser, Phys. Rev. 141, 789 (1966), Fig. 2), and a k·p file that calls its Eg
-    "the gap at Γ" would mislead a device model. The sentence names both levels with their
-    energies above the valence top.
+    "the gap at Γ" would mislead a device model: the written file names both levels
+    (``[conduction]``), and reading it back warns.
 
     Parameters
     ----------
@@ -138,21 +173,18 @@ def conduction_state_sentence(material: Material, cutoff_eV: float, top: int,
 
     Returns
     -------
-    str
+    ConductionAtGamma or None
+        None when the levels cannot be labelled.
     """
     point = label_point(material, cutoff_eV, np.zeros(3), "Γ", conduction + 1)
     by_band = {lv.first_band + j: lv for lv in point.levels for j in range(lv.degeneracy)}
     chosen, lowest, vbm = by_band.get(conduction), by_band.get(top + 1), by_band.get(top)
-    if chosen is None or lowest is None or vbm is None:
-        return ""
-    name = chosen.label if not point.note else "the s-like level"
-    text = (f"The conduction band of these models is {name} at Γ, "
-            f"{chosen.energy_eV - vbm.energy_eV:.4f} eV above the valence top")
+    if chosen is None or lowest is None or vbm is None or point.note:
+        return None
     if lowest.first_band == chosen.first_band:
-        return text + ", the lowest conduction level at Γ."
-    return (text + f"; it is not the lowest conduction level at Γ: {lowest.label} "
-            f"({lowest.degeneracy}-fold) lies {lowest.energy_eV - vbm.energy_eV:.4f} eV above "
-            "the valence top and is not in these models.")
+        return ConductionAtGamma(chosen.label, chosen.energy_eV - vbm.energy_eV)
+    return ConductionAtGamma(chosen.label, chosen.energy_eV - vbm.energy_eV, lowest.label,
+                             lowest.energy_eV - vbm.energy_eV, lowest.degeneracy)
 
 
 def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
@@ -176,7 +208,8 @@ def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
                        "Delta_so_eV, Eg, gamma1-3 and the conduction mass from the spin-orbit "
                        "model (second differences at Gamma, Kramers pairs averaged); Ep from "
                        "its spinless states. ")
-                      + (extracted.conduction_state + " " if extracted.conduction_state else "")
+                      + (extracted.conduction_state.sentence + " "
+                         if extracted.conduction_state else "")
                       + "Model estimates, not measured values."),
         'models = ["two-band", "six-band", "eight-band"]',
         "",
@@ -197,6 +230,12 @@ def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
         f"m_e_m0 = {extracted.conduction_mass_m0:.10g}",
         "",
     ]
+    c = extracted.conduction_state
+    if c is not None:  # spinless labels: the Kane models' level and the lowest one at Γ
+        lines += ["[conduction]", f"state = {q(c.state)}"]
+        if c.lowest_state is not None:
+            lines += [f"lowest_state = {q(c.lowest_state)}", f"lowest_eV = {c.lowest_eV:.6g}"]
+        lines.append("")
     return "\n".join(lines)
 
 
@@ -350,6 +389,4 @@ def _extract_with_spin_orbit(material: Material, cutoff_eV: float) -> ExtractedP
     return ExtractedParameters(parameters=params, conduction_band=spinless.conduction_band,
                                valence_bands=spinless.valence_bands,
                                conduction_mass_m0=so.conduction_m0, isotropy=spinless.isotropy,
-                               conduction_state=spinless.conduction_state.replace(
-                                   "The conduction band", "Without spin-orbit coupling the "
-                                   "conduction band", 1))
+                               conduction_state=spinless.conduction_state)
