@@ -11,9 +11,9 @@ From the eigenstates at Γ (:mod:`bandpert.physics.mass_tensor`):
 - F from the conduction mass by the sum over states, m0/m_e = (1 + 2F) + (Ep/3)(2/Eg +
   1/(Eg + Δso)) (Vurgaftman, Meyer & Ram-Mohan, J. Appl. Phys. 89, 5815 (2001));
 - Δso = 0 for a spinless model. With spin–orbit coupling (a ``spin_orbit`` table) Δso =
-  E(Γ8) − E(Γ7) of the spinor model, Eg = E(Γ6) − E(Γ8), γ1, γ2, γ3 from second differences of
-  the Γ8 bands along [100] and [111] (:func:`spin_orbit_valence_top`: m0/m = γ1 ∓ 2γ2 along
-  [001], γ1 ∓ 2γ3 along [111], CONVENTIONS.md; Kramers pairs averaged), the conduction mass by
+  E(Γ8) − E(Γ7) of the spinor model, Eg = E(Γ6) − E(Γ8), γ1, γ2, γ3 by the sum over states of
+  the Γ8 level with the velocity ∂H/∂k (:mod:`bandpert.physics.spinor_sos`; the second
+  differences of :func:`spin_orbit_valence_top` agree to O(h²)), the conduction mass by
   second differences and F from it by the formula above; Ep from the spinless states (the
   momentum matrix element of the p-like triplet; the spin–orbit term's own velocity is left out).
 """
@@ -36,6 +36,7 @@ from ..planewave.model import PlaneWaveModel, centred_model
 from ..planewave.solver import exact_energies
 from ..symmetry.labels import label_point
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
+from .spinor_sos import gamma8_luttinger_sum_over_states
 
 #: A conduction state couples to the valence triplet when Σ|π|² exceeds this (Å⁻²).
 COUPLING_FLOOR_INVA2 = 1e-6
@@ -383,7 +384,9 @@ def _extract_with_spin_orbit(material: Material, cutoff_eV: float) -> ExtractedP
     ep = spinless.parameters.Ep_eV
     eg, delta = so.eg_eV, so.delta_so_eV
     f = 0.5 * (1.0 / so.conduction_m0 - 1.0 - ep / 3.0 * (2.0 / eg + 1.0 / (eg + delta)))
-    g1, g2, g3 = so.gammas
+    # the exact curvature at Γ (sum over every state, velocity ∂H/∂k), free of the O(h²) error
+    # of the second differences (1e-3 relative in silicon, whose Δso is small)
+    g1, g2, g3 = gamma8_luttinger_sum_over_states(material, cutoff_eV).gammas
     params = KPParameters(Eg_eV=eg, Delta_so_eV=delta, Ep_eV=ep, F=float(f), gamma1=g1,
                           gamma2=g2, gamma3=g3)
     return ExtractedParameters(parameters=params, conduction_band=spinless.conduction_band,

@@ -52,7 +52,12 @@ def masses_with_spin_orbit(material: Material, file: Path, cutoff_eV: float | No
             "gamma1": g1, "gamma2": g2, "gamma3": g3, "gamma1_from_111": top.gamma1_111,
             "heavy_hole_m0": top.heavy_hole_m0, "light_hole_m0": top.light_hole_m0,
             "split_off_m0": top.split_off_m0, "conduction_m0": top.conduction_m0,
-            "conduction_band": extracted.conduction_band + 1},
+            "conduction_band": extracted.conduction_band + 1,
+            "sum_over_states": {
+                "method": "Löwdin second order in k over every state of the basis, velocity "
+                          "∂H/∂k (spin-orbit and nonlocal terms included)",
+                "gamma1": extracted.parameters.gamma1, "gamma2": extracted.parameters.gamma2,
+                "gamma3": extracted.parameters.gamma3}},
         "kp_parameters": extracted.parameters.as_dict(),
     }
     settings = {"cutoff_eV": cutoff, "spin_orbit": True}
@@ -68,7 +73,10 @@ def masses_with_spin_orbit(material: Material, file: Path, cutoff_eV: float | No
                   title_justify="left", show_header=False)
     table.add_row("Δso = E(Γ8) − E(Γ7)", f"{top.delta_so_eV:.4f} eV")
     table.add_row("Eg (s-like conduction pair − Γ8)", f"{top.eg_eV:.4f} eV")
-    table.add_row("γ1, γ2, γ3 (Γ8)", f"{g1:.4f}, {g2:.4f}, {g3:.4f}")
+    p = extracted.parameters
+    table.add_row("γ1, γ2, γ3 (Γ8, sum over states)",
+                  f"{p.gamma1:.4f}, {p.gamma2:.4f}, {p.gamma3:.4f}")
+    table.add_row("γ1, γ2, γ3 (Γ8, second differences)", f"{g1:.4f}, {g2:.4f}, {g3:.4f}")
     for d in ("100", "110", "111"):
         table.add_row(f"heavy / light hole [{d}]",
                       f"{top.heavy_hole_m0[d]:.4f} / {top.light_hole_m0[d]:.4f} m0")
