@@ -196,3 +196,15 @@ def test_ctrl_c_keeps_the_best_point_so_far(tmp_path, monkeypatch, capsys):
     p_best = np.array([best.spin_orbit.species["Si"].strength_eV])
     assert state.residuals(p_best) @ state.residuals(p_best) <= (
         state.residuals(np.array([start])) @ state.residuals(np.array([start])) + 1e-12)
+
+
+def test_a_targets_file_key_is_not_rendered_as_a_flag(tmp_path, capsys):
+    # the targets file's cutoff_eV is a key of that file; `fit` has no --cutoff-eV flag
+    targets = targets_doc(["potential.symmetric[0]"], ENERGIES[:1])
+    targets["cutoff_eV"] = 1.0
+    (tmp_path / "t.toml").write_text(to_toml(targets), encoding="utf-8")
+    capsys.readouterr()
+    assert run(["fit", "silicon-spin-orbit", str(tmp_path / "t.toml"), "--out",
+                str(tmp_path / "out")]) == 2
+    err = capsys.readouterr().err
+    assert f"{tmp_path / 't.toml'}: cutoff_eV:" in err and "--cutoff-eV" not in err

@@ -55,6 +55,15 @@ app.command()(subbands.subbands)
 app.command()(fit.fit)
 
 
+def _command_flags(group: typer.core.TyperGroup, args: list[str]) -> set[str]:
+    """The option flags of the command a line runs (empty when it names none)."""
+    name = next((a for a in args if not a.startswith("-")), None)
+    command = group.commands.get(name) if name else None
+    if command is None:
+        return set()
+    return {opt for p in command.params for opt in getattr(p, "opts", ())}
+
+
 def _input_file(group: typer.core.TyperGroup, args: list[str]) -> str | None:
     """The FILE argument of a command line (the bundled file when it names one), or None.
 
@@ -124,7 +133,8 @@ def main(argv: list[str] | None = None) -> None:
             raise
         if exc.source is None:  # a library or option error: the file it concerns is the FILE
             exc.source = _input_file(command, args)
-        print(f"bandpert: error: {error_line(exc)}", file=sys.stderr)
+        print(f"bandpert: error: {error_line(exc, _command_flags(command, args))}",
+              file=sys.stderr)
         code = 2
     except Exception as exc:
         if debug:

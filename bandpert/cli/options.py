@@ -192,10 +192,16 @@ def in_flag_terms(text: str) -> str:
     return text
 
 
-def error_line(exc: InputError) -> str:
-    """An input error in the command line's terms: option names rendered as their flags."""
-    return InputError(in_flag_terms(exc.problem), exc.source,
-                      FLAGS.get(exc.key, exc.key)).one_line()
+def error_line(exc: InputError, flags: set[str] | None = None) -> str:
+    """An input error in the command line's terms: option names rendered as their flags.
+
+    With ``flags`` (the options of the command that ran) a key becomes a flag only when the
+    command has that flag: a targets file's ``cutoff_eV`` or a structure file's ``growth`` is a
+    key of that file, not ``--cutoff-eV`` or ``--growth``.
+    """
+    flag = FLAGS.get(exc.key)
+    key = flag if flag is not None and (flags is None or flag in flags) else exc.key
+    return InputError(in_flag_terms(exc.problem), exc.source, key).one_line()
 
 
 #: The commands that read each kind of file (named when a command gets the other kind).
