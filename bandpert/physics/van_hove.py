@@ -48,6 +48,7 @@ import numpy as np
 
 from ..input.material import Material
 from ..planewave.model import KCentredModel, build_k_centred_model
+from ..planewave.solver import single_blas_thread
 from ..symmetry import PointSymmetry, label_points, space_group_frame
 from ..symmetry.labels import k_centred_states, label_point, unlabelled_reason
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
@@ -169,7 +170,7 @@ class PointCriticalPoints:
 def _momentum_rows(vectors: np.ndarray, kg: np.ndarray, bands: np.ndarray) -> np.ndarray:
     """p_i^{nm} = 2C Σ_G c_n*(G) (k+G)_i c_m(G) for n in ``bands`` and every m: (d, nb, n)."""
     rows = vectors[:, bands].conj().T  # (nb, n_G)
-    return 2.0 * C * np.einsum("bg,gi,gm->ibm", rows, kg, vectors, optimize=True)
+    return 2.0 * C * np.stack([(rows * kg[:, i]) @ vectors for i in range(kg.shape[1])])
 
 
 def sum_over_states_hessian(energies_eV: np.ndarray, p_row: np.ndarray, band: int,
@@ -372,5 +373,7 @@ def label_and_classify(material: Material, cutoff_eV: float, points: dict[str, n
         rot = _little_cogroup_cart(frame.rotations_cart, model.reciprocal_invA, k_cart)
         levels = [(lv.first_band, lv.degeneracy) for lv in ps.levels]
         labels.append(ps)
-        critical.append(PointCriticalPoints(lab, k, classify_levels(w, v, kg, levels, rot), ""))
+        with single_blas_thread():  # small products: threads only contend
+            classified = classify_levels(w, v, kg, levels, rot)
+        critical.append(PointCriticalPoints(lab, k, classified, ""))
     return tuple(labels), tuple(critical)
