@@ -165,8 +165,9 @@ def masses_rows(m, location: str, zero_eV: float, zero_kind: str) -> list[tuple[
             ("energy", f"{fixed(m.energy_eV - zero_eV)} eV from {zero_phrase(zero_kind, zero_eV)}; "
                        "band(s) " + ", ".join(str(b + 1) for b in m.degenerate_bands))]
     cp = m.critical_point
-    rows.append(("point", cp.kind + (f" (index {cp.saddle_index})" if cp.kind == "saddle"
-                                     else "")))
+    rows.append(("point", cp.kind + ((" (warped: no index)" if cp.saddle_index is None
+                                      else f" (index {cp.saddle_index})")
+                                     if cp.kind == "saddle" else "")))
     if cp.curvatures is not None and m.tensor is None:
         rows.append(("principal m0/m* (signed)", _signed_values(cp.curvatures)))
     if m.tensor is not None:

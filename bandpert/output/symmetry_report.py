@@ -15,8 +15,8 @@ CRITICAL_POINTS_METHOD = (
     "van Hove type per band from the Hessian of a non-degenerate level (sum over every state of "
     "the k-centred basis); a degenerate level has no Hessian per band: a linear splitting makes "
     "it a crossing, else each band is classified by its curvatures in the second-order block "
-    "over 200 directions (block: all up M0, all down M3, mixed a saddle indexed by the axes of "
-    "the closest quadratic form, or a warped saddle without index)")
+    "over 200 directions (block: all up M0, all down M3, mixed a saddle of index 1 or 2 where "
+    "the sign pattern on the sphere is a quadratic form's, else a warped saddle without index)")
 
 
 def critical_point_results(c: LevelCriticalPoint) -> dict[str, Any]:
@@ -30,7 +30,9 @@ def critical_point_results(c: LevelCriticalPoint) -> dict[str, Any]:
         "symmetry_residual": c.symmetry_residual,
         "bands": [{"band": b.band, "kind": b.kind, "van_hove": b.van_hove,
                    "saddle_index": b.saddle_index,
-                   "principal_m0_over_mstar": b.principal_m0_over_mstar} for b in c.bands],
+                   "principal_m0_over_mstar": b.principal_m0_over_mstar,
+                   "curvature_range_m0_over_mstar": b.curvature_range_m0_over_mstar}
+                  for b in c.bands],
     }
 
 

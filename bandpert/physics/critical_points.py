@@ -31,6 +31,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.sparse
+import scipy.sparse.csgraph
 
 from ..crystal.lattice import reciprocal_vectors
 from ..input.material import Material
@@ -72,7 +74,8 @@ class CriticalPoint:
     kind : str
         One of :data:`KINDS`.
     saddle_index : int or None
-        Principal directions along which the band curves down (0 at a minimum, d at a maximum).
+        Principal directions along which the band curves down (0 at a minimum, d at a maximum);
+        None at a crossing and at a warped saddle of a degenerate set (:func:`curvature_kind`).
     curvatures : numpy.ndarray or None
         (d,) signed principal values of m0/m* (ascending); None at a crossing.
     axes : numpy.ndarray or None
@@ -128,6 +131,10 @@ class CriticalPoint:
         if self.kind == "crossing":
             text = (f"{name} is a crossing{deg}: the bands split linearly in k there, so no "
                     "effective mass exists")
+        elif self.kind == "saddle" and self.saddle_index is None:
+            text = (f"{name} is a warped saddle point{deg} (curves up along some directions "
+                    "and down along others in a pattern no quadratic form has, so no index): "
+                    "no valleys, density-of-states mass or N_c/N_v")
         elif self.kind == "saddle":
             down = self.saddle_index
             text = (f"{name} is a saddle point of index {down}{deg} (curves down along {down} "
@@ -256,6 +263,53 @@ def quadratic_fit(directions: np.ndarray, values: np.ndarray) -> np.ndarray:
     return m
 
 
+#: Neighbours of each sampled direction when the sign regions on the sphere are joined.
+SIGN_NEIGHBOURS = 6
+
+
+def sign_regions(u: np.ndarray, values: np.ndarray) -> tuple[int, int]:
+    """(negative, positive) numbers of connected regions of the sign of ``values`` on the sphere.
+
+    ``u`` are unit rows, ``values`` an even function of u sampled on them (a band's curvature
+    along u), so the sphere is sampled as ±u; each direction is joined to its
+    :data:`SIGN_NEIGHBOURS` nearest of the same sign.
+    """
+    both = np.concatenate([u, -u])
+    vals = np.concatenate([values, values])
+    near = np.argsort(-(both @ both.T), axis=1)[:, 1:SIGN_NEIGHBOURS + 1]
+    rows = np.repeat(np.arange(both.shape[0]), SIGN_NEIGHBOURS)
+    cols = near.ravel()
+    out = []
+    for mask in (vals < 0, vals > 0):
+        keep = mask[rows] & mask[cols]
+        graph = scipy.sparse.coo_matrix((np.ones(int(keep.sum())), (rows[keep], cols[keep])),
+                                        shape=(both.shape[0],) * 2)
+        labels = scipy.sparse.csgraph.connected_components(graph, directed=False)[1]
+        out.append(len(set(labels[mask].tolist())))
+    return out[0], out[1]
+
+
+def curvature_kind(u: np.ndarray, values: np.ndarray) -> tuple[str, int | None]:
+    """Kind and index of a band from its curvatures along the unit rows ``u`` (degenerate sets).
+
+    Up everywhere: a minimum (index 0); down everywhere: a maximum (index d); else a saddle,
+    whose index is the Morse index only where the sign pattern on the sphere is a quadratic
+    form's: in 3D negative on two antipodal caps and positive on a band (index 1) or the
+    reverse (index 2), in 2D always 1. Any other pattern (silicon's Γ15 lower band: 4 negative
+    and 8 positive regions) is a warped saddle without index (None): a warped band has no
+    quadratic form, and the axes of the closest one are arbitrary where the little group makes
+    it isotropic (Morse theory; common practice, no source).
+    """
+    d = u.shape[1]
+    if np.all(values > 0):
+        return "minimum", 0
+    if np.all(values < 0):
+        return "maximum", d
+    if d < 3:
+        return "saddle", 1
+    return "saddle", {(2, 1): 1, (1, 2): 2}.get(sign_regions(u, values))
+
+
 def classify(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray, band: int,
              inverse_mass: np.ndarray | None = None,
              set_curvature: callable | None = None) -> CriticalPoint:
@@ -305,13 +359,7 @@ def classify(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
             order = np.argsort(curv)
             w, axes = curv[order], axes[:, order]
             curv = w
-            if np.all(values > 0):
-                kind = "minimum"
-            elif np.all(values < 0):
-                kind = "maximum"
-            else:
-                kind = "saddle"
-            index = int(np.sum(w < 0))
+            kind, index = curvature_kind(u, values)
     if not kind:
         if gradient > STATIONARY_GRADIENT_EV_A:
             kind = "not stationary"

@@ -24,13 +24,11 @@ which the irreducible-representation labels use too, so classifying adds no diag
   M_ij^{ab} = C δ_ij δ_ab + ½ Σ_{m∉D} [p_i^{am} p_j^{mb} + p_j^{am} p_i^{mb}] / (E_D − E_m)
   gives each band of the set the curvature λ_a(u)/C along each unit u (its a-th eigenvalue of
   u_i u_j M_ij): a band curving up (down) along every one of 200 directions is classified M0
-  (M3) *by the degenerate block*; mixed signs make it a saddle whose index is the number of
-  negative curvatures along the principal axes of the quadratic form closest to λ_a(u) — the
-  rule :func:`bandpert.physics.critical_points.classify` applies for ``masses``, and stated as
-  such in every output, since a warped band has no Morse index of its own. Where the signs
-  are mixed over the sphere but the fitted axes all carry one sign (silicon's upper X4 band,
-  germanium's Γ15) the band is a **warped saddle** with no index (``masses`` then prints
-  index 0 or 3 for its saddle);
+  (M3) *by the degenerate block*; mixed signs make it a saddle, of index 1 or 2 where the
+  sign pattern on the sphere is a quadratic form's (two antipodal negative caps: index 1; two
+  positive caps: index 2), else a **warped saddle** with no index (silicon's Γ15 lower band:
+  4 negative and 8 positive regions) — the rule
+  :func:`bandpert.physics.critical_points.curvature_kind`, which ``masses`` applies too;
 - a level whose mean gradient |∇E| exceeds
   :data:`bandpert.physics.critical_points.STATIONARY_GRADIENT_EV_A` is **not stationary** (K and
   U of the fcc path lie on mirror planes only, where the gradient along the C2 axis may not
@@ -55,8 +53,8 @@ from ..units import HBAR2_OVER_2M0_EV_A2 as C
 from .critical_points import (
     LINEAR_SPLITTING_EV_A,
     STATIONARY_GRADIENT_EV_A,
+    curvature_kind,
     fibonacci_directions,
-    quadratic_fit,
 )
 
 __all__ = [
@@ -91,8 +89,11 @@ class BandCriticalPoint:
         Principal directions along which the band curves down; None at a crossing or a
         warped saddle (mixed signs that the fitted quadratic form does not show).
     principal_m0_over_mstar : numpy.ndarray or None
-        (d,) signed principal m0/m* ascending (of the Hessian, or of the quadratic form closest
-        to a degenerate band's curvatures); None at a crossing.
+        (d,) signed principal m0/m* ascending of a non-degenerate band's Hessian; None for the
+        bands of a degenerate level (they have no principal axes) and at a crossing.
+    curvature_range_m0_over_mstar : numpy.ndarray or None
+        (2,) smallest and largest signed m0/m* over the directions (the Hessian's extreme
+        eigenvalues, or the sampled block curvatures of a degenerate band); None at a crossing.
     """
 
     band: int
@@ -100,6 +101,7 @@ class BandCriticalPoint:
     van_hove: str | None
     saddle_index: int | None
     principal_m0_over_mstar: np.ndarray | None
+    curvature_range_m0_over_mstar: np.ndarray | None = None
 
 
 @dataclass(frozen=True)
@@ -206,6 +208,12 @@ def _symmetry_residual(h: np.ndarray, rotations_cart: np.ndarray | None) -> floa
     return float(np.max(np.abs(h - sym)) / max(np.max(np.abs(h)), 1e-300))
 
 
+_AXES = np.array([[1, 0, 0], [0, 1, 0], [0, 0, 1], [1, 1, 0], [1, -1, 0], [1, 0, 1],
+                  [1, 0, -1], [0, 1, 1], [0, 1, -1], [1, 1, 1], [1, 1, -1], [1, -1, 1],
+                  [-1, 1, 1]], dtype=float)
+_AXES /= np.linalg.norm(_AXES, axis=1)[:, None]
+
+
 def _block_curvatures(block: np.ndarray, u: np.ndarray) -> np.ndarray:
     """(N, g) ascending m0/m* of the set along each unit u (rows), from M_ij^{ab}."""
     h = np.einsum("ni,nj,ijab->nab", u, u, block)
@@ -230,24 +238,18 @@ def _degenerate_level(e: np.ndarray, p: np.ndarray, group: np.ndarray, d: int
         "ij,ab->ijab", np.eye(d), np.eye(group.size))
     u = fibonacci_directions(DIRECTIONS, d)
     values = _block_curvatures(block, u)  # (N, g)
+    # the range also over the axes ⟨100⟩, ⟨110⟩, ⟨111⟩ of the Cartesian frame, where cubic
+    # crystals have their extreme curvatures (the sample may pass beside them)
+    axes = _AXES if d == 3 else np.eye(d)
+    both = np.concatenate([values, _block_curvatures(block, axes)])
     out = []
     for a, b in enumerate(group):
-        axes = np.linalg.eigh(quadratic_fit(u, values[:, a]))[1]
-        curv = np.sort(_block_curvatures(block, axes.T)[:, a])
-        kind = ("minimum" if np.all(values[:, a] > 0) else "maximum"
-                if np.all(values[:, a] < 0) else "saddle")
-        # the index of an extremum is 0 or d whatever the fitted axes say (a block that a
-        # nearly degenerate outside level dominates can fit badly); a saddle's must lie
-        # between, else the warped band has mixed signs that no quadratic form shows: no index
-        index: int | None = int(np.sum(curv < 0))
-        if kind != "saddle":
-            index = 0 if kind == "minimum" else d
-        elif not 0 < index < d:
-            index = None
+        kind, index = curvature_kind(u, values[:, a])
         if gradient > STATIONARY_GRADIENT_EV_A:
             kind = "not stationary"
         vh = None if kind == "not stationary" or index is None else f"M{index}"
-        out.append(BandCriticalPoint(int(b), kind, vh, index, curv))
+        out.append(BandCriticalPoint(int(b), kind, vh, index, None,
+                                     np.array([both[:, a].min(), both[:, a].max()])))
     return "degenerate block", gradient, linear, tuple(out)
 
 
@@ -292,7 +294,7 @@ def classify_levels(energies_eV: np.ndarray, vectors: np.ndarray, kg_cart_invA: 
             kind = ("not stationary" if gradient > STATIONARY_GRADIENT_EV_A
                     else _by_index(index, d))
             band = BandCriticalPoint(a, kind, None if kind == "not stationary" else f"M{index}",
-                                     index, w)
+                                     index, w, np.array([w[0], w[-1]]))
             out.append(LevelCriticalPoint(a, 1, float(e[a]), "hessian", gradient, h,
                                           _symmetry_residual(h, rotations_cart), 0.0, (band,)))
         else:
