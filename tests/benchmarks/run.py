@@ -27,6 +27,7 @@ from pathlib import Path
 
 import numpy as np
 import scipy.linalg
+from iterative import iterative_rows  # sibling script
 from perturbation_driver import driver_rows  # sibling script (run.py runs as a script)
 from reduced_basis import dense_mesh_rows, reduced_basis_rows  # sibling script
 from reduced_basis import spin_orbit_rows as reduced_spin_orbit_rows
@@ -466,6 +467,11 @@ def main(argv: list[str] | None = None) -> int:
     sb_results, sb_rows = subband_rows(max(3, reps // 2), say)
     results.update(sb_results)
     rows.extend(sb_rows)
+
+    # -- 11. the iterative solver against LAPACK at growing basis sizes (iterative.py)
+    it_results, it_rows = iterative_rows(3, say)
+    results.update(it_results)
+    rows.extend(it_rows)
 
     # -- Dask: the same jobs on one worker and on two
     dask_results, dask_rows = dask_speedup(reps, say)
