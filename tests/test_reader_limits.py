@@ -230,9 +230,9 @@ def test_a_sweep_point_of_a_metal_diagonalises_no_fermi_mesh():
                                                       "[0.0, 0.125, 0.125]", 1)), "moved")
     calls = []
 
-    def count(model, k, n, progress=None):
+    def count(model, k, n, progress=None, solver="auto"):
         calls.append(len(np.atleast_2d(k)))
-        return exact(model, k, n, progress)
+        return exact(model, k, n, progress, solver)
 
     with pytest.MonkeyPatch.context() as mp:
         mp.setattr(bands_module, "exact_energies", count)
