@@ -275,8 +275,7 @@ class TargetModel:
         for ref in [t.at for t in targets] + [t.start for t in targets if t.start]:
             if ref.label == MINIMUM and ref.index(self.n_valence) not in self.valleys:
                 band = ref.index(self.n_valence)
-                line = find_valley_line(material, self.cutoff_eV,
-                                        band // 2 if self.spinor else band)
+                line = find_valley_line(material, self.cutoff_eV, band)
                 self.valleys[band], self.t_min[band] = line, line.t_start
 
     def minimum(self, material: Material, band: int) -> float:

@@ -5,8 +5,8 @@ to the measured indirect gap and the valley masses (m_l, m_t) needs the minimum 
 fixes, once at its start,
 
 * the **line** of the path (two consecutive labelled points) that holds the band's lowest value
-  in the starting model (found on the spinless model, 13 points per segment, each diagonalised
-  in its own basis centred on the point, so the search keeps the crystal's symmetry), and
+  in the starting model (13 points per segment, each diagonalised in its own basis centred on
+  the point, so the search keeps the crystal's symmetry), and
 * one **set of plane waves** for the whole line: the union of the centred bases
   {G : ħ²|k + G|²/2m0 ≤ cutoff} at 9 points of the line, so every k of the line sees a basis at
   least as complete as its own centred one and the energies are smooth in k and in the
@@ -56,7 +56,7 @@ class ValleyLine:
     Attributes
     ----------
     band : int
-        0-based band index (spinless count: doubled for a spinor model by the caller).
+        0-based band index in the model's own count (spinor bands with spin–orbit).
     start_label, end_label : str
         The labelled points at t = 0 and t = 1.
     start_frac, end_frac : numpy.ndarray
@@ -100,7 +100,9 @@ class ValleyLine:
 
 
 def find_valley_line(material: Material, cutoff_eV: float, band: int) -> ValleyLine:
-    """The segment of the path holding the lowest value of ``band`` (spinless model).
+    """The segment of the path holding the lowest value of ``band`` (the whole model, spin–orbit
+    and nonlocal terms included: they can move a valley from X to L; ``band`` in the model's
+    own count, spinor bands with spin–orbit).
 
     Raises
     ------
@@ -110,10 +112,9 @@ def find_valley_line(material: Material, cutoff_eV: float, band: int) -> ValleyL
     if material.dimension != 3:
         raise InputError("a band minimum off the labelled points needs a 3D crystal",
                          material.file, "targets")
-    spinless = material.local_spinless()
-    points, legs = standard_path(spinless)
+    points, legs = standard_path(material)
     b = reciprocal_vectors(material.vectors_A)
-    model = build_k_centred_model(spinless, cutoff_eV)
+    model = build_k_centred_model(material, cutoff_eV)
     t = np.linspace(0.0, 1.0, SEARCH_POINTS)
     best = (np.inf, "", "", 0.0)
     seen: set[tuple[str, str]] = set()

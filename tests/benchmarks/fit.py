@@ -1,9 +1,10 @@
 """Benchmark: a fit of silicon with spin–orbit, 6 parameters and 10 targets (issue target: under a
 minute on 2 cores).
 
-The fit is the one that made the bundled ``silicon-spin-orbit.toml``: the 1966 form factors plus
-spin–orbit and nonlocal wells (depths zero) as the start, the targets file
-``bandpert/data/fit_targets/silicon-spin-orbit.toml``. Printed side by side: the whole fit, and one
+The fit is the one that made the bundled ``silicon-fitted.toml`` at the issue's size: the 1966
+form factors plus spin–orbit and nonlocal wells (depths zero) as the start, the ten targets of
+``bandpert/data/fit_targets/silicon-spin-orbit.toml`` and its first six parameters (the bundled
+file also fits the d-well radius, a seventh). Printed side by side: the whole fit, and one
 evaluation of the ten targets, with the fit's count of evaluations and Jacobians, its CPU time
 and the machine's load, so the wall time can be read on a shared machine.
 
@@ -49,6 +50,7 @@ def main() -> None:
     doc = start_document()
     material = parse_material(doc, "start")
     targets = read_toml_document(data / "fit_targets" / "silicon-spin-orbit.toml")
+    targets["parameters"] = targets["parameters"][:6]
     spec = parse_targets(targets, "targets", material)
     load = os.getloadavg()[0]
     cpu0, t0 = time.process_time(), time.perf_counter()
