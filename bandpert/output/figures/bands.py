@@ -214,7 +214,7 @@ def comparison_figure(bs: BandStructure,
                            facecolors=colour if trusted else "white", edgecolors=colour,
                            linewidths=0.8, zorder=4, label=f"{name},\n{suffix}")
     style.legend_outside(ax, title=f"order {pb.settings.order} perturbative"
-                         + (f" (every {stride}th k-point)" if stride > 1 else ""))
+                         + (f" (one k-point in {stride})" if stride > 1 else ""))
     _error_panel(ax_err, bs)
     _validity_map(ax_map, bs)
     ax.tick_params(labelbottom=False)

@@ -82,35 +82,42 @@ def draw_level_labels(ax: Axes, distance_invA, label_indices, labels, energy_zer
     frame = ax.get_window_extent(renderer)
     lo, hi = ax.get_ylim()
     x_lo, x_hi = distance_invA[0], distance_invA[-1]
-    by_name = {p.point: p for p in points}
     drawn = 0
+    for x, p, lv, e in _levels_at_points(distance_invA, label_indices, labels, points,
+                                         energy_zero_eV):
+        right_side = x < x_lo + 0.9 * (x_hi - x_lo)
+        if "#" in lv.label or lv.label == p.note or not lo < e < hi:
+            continue
+        for nudge in NUDGES_PT:
+            dx = offset_pt if right_side else -offset_pt
+            t = ax.annotate(lv.label, (x, e), xytext=(dx, nudge),
+                            textcoords="offset points",
+                            ha="left" if right_side else "right", va="center",
+                            fontsize=style.ANNOTATION_SIZE - 1, color="0.2", zorder=7,
+                            annotation_clip=False, bbox=LABEL_BOX)
+            box = t.get_window_extent(renderer)
+            inside = (box.x0 >= frame.x0 and box.x1 <= frame.x1
+                      and box.y0 >= frame.y0 and box.y1 <= frame.y1)
+            if inside and not any(_overlaps(box, b) for b in taken):
+                taken.append(box)
+                drawn += 1
+                break
+            t.remove()
+    return drawn
+
+
+def _levels_at_points(distance_invA, label_indices, labels, points, energy_zero_eV: float):
+    """Yield (x, point, level, energy from the zero) for every level at every labelled point
+    of the path (a jump "U|K" names two points at one x)."""
+    by_name = {p.point: p for p in points}
     for index, name in zip(label_indices, labels, strict=True):
         x = float(distance_invA[index])
-        right_side = x < x_lo + 0.9 * (x_hi - x_lo)
         for part in name.split("|"):
             p = by_name.get(part)
             if p is None:
                 continue
             for lv in p.levels:
-                e = lv.energy_eV - energy_zero_eV
-                if "#" in lv.label or lv.label == p.note or not lo < e < hi:
-                    continue
-                for nudge in NUDGES_PT:
-                    dx = offset_pt if right_side else -offset_pt
-                    t = ax.annotate(lv.label, (x, e), xytext=(dx, nudge),
-                                    textcoords="offset points",
-                                    ha="left" if right_side else "right", va="center",
-                                    fontsize=style.ANNOTATION_SIZE - 1, color="0.2", zorder=7,
-                                    annotation_clip=False, bbox=LABEL_BOX)
-                    box = t.get_window_extent(renderer)
-                    inside = (box.x0 >= frame.x0 and box.x1 <= frame.x1
-                              and box.y0 >= frame.y0 and box.y1 <= frame.y1)
-                    if inside and not any(_overlaps(box, b) for b in taken):
-                        taken.append(box)
-                        drawn += 1
-                        break
-                    t.remove()
-    return drawn
+                yield x, p, lv, lv.energy_eV - energy_zero_eV
 
 
 def _types(level) -> list[str]:
@@ -146,31 +153,24 @@ def draw_critical_points(ax: Axes, distance_invA, label_indices, labels, energy_
         The legend of the types drawn (beside the axes, under any legend already there), or
         None when nothing was drawn.
     """
-    by_name = {p.point: p for p in points}
     lo, hi = ax.get_ylim()
     seen: dict[tuple[str, bool], None] = {}
-    for index, name in zip(label_indices, labels, strict=True):
-        x = float(distance_invA[index])
-        for part in name.split("|"):
-            p = by_name.get(part)
-            if p is None:
-                continue
-            for lv in p.levels:
-                e = lv.energy_eV - energy_zero_eV
-                types = _types(lv)
-                if not lo <= e <= hi or not types:
-                    continue
-                block = lv.method == "degenerate block"
-                for n, t in enumerate(types):
-                    marker, colour, _ = VAN_HOVE_MARKERS[t]
-                    dx = (n - (len(types) - 1) / 2) * MARKER_STEP_PT
-                    shift = offset_copy(ax.transData, fig=ax.figure, x=dx, y=0.0,
-                                        units="points")
-                    filled = not block and t != "crossing"
-                    ax.plot([x], [e], marker=marker, ms=5.5 if t != "crossing" else 5,
-                            mec=colour, mfc=colour if filled else "white", mew=1.1,
-                            ls="none", transform=shift, zorder=6, clip_on=False)
-                    seen[(t, block)] = None
+    for x, _, lv, e in _levels_at_points(distance_invA, label_indices, labels, points,
+                                         energy_zero_eV):
+        types = _types(lv)
+        if not lo <= e <= hi or not types:
+            continue
+        block = lv.method == "degenerate block"
+        for n, t in enumerate(types):
+            marker, colour, _ = VAN_HOVE_MARKERS[t]
+            dx = (n - (len(types) - 1) / 2) * MARKER_STEP_PT
+            shift = offset_copy(ax.transData, fig=ax.figure, x=dx, y=0.0,
+                                units="points")
+            filled = not block and t != "crossing"
+            ax.plot([x], [e], marker=marker, ms=5.5 if t != "crossing" else 5,
+                    mec=colour, mfc=colour if filled else "white", mew=1.1,
+                    ls="none", transform=shift, zorder=6, clip_on=False)
+            seen[(t, block)] = None
     if not seen:
         return None
     handles = []
