@@ -16,7 +16,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .reader import TableReader
+from .reader import TableReader, species_tables
 
 #: Angular momenta of the channels.
 CHANNELS = (0, 2)
@@ -43,14 +43,8 @@ def read_nonlocal(r: TableReader, species_names: set[str], dimension: int = 3) -
         Unknown species, a depth without its radius (or the reverse), a radius that is not
         positive or above 5 Å, a depth above 100 eV, a lattice that is not 3D.
     """
-    if dimension != 3:
-        raise r.fail("", f"nonlocal terms need a 3D lattice (spherical harmonics), this one is "
-                         f"{dimension}D; expected no nonlocal table")
-    sp = r.sub("species")
-    for name in sp.table:
-        if name not in species_names:
-            raise sp.fail(name, f"unknown species '{name}'; expected one of the atoms' species "
-                                f"({', '.join(sorted(species_names))})")
+    sp = species_tables(r, species_names, dimension, "nonlocal",
+                        "nonlocal terms need a 3D lattice (spherical harmonics)")
     out: dict[str, tuple[tuple[int, float, float], ...]] = {}
     for name in sorted(sp.table):
         s = sp.sub(name)

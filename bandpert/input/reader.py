@@ -271,3 +271,20 @@ def read_toml_document(path: str | Path, what: str = "a material TOML file") -> 
                          f"{MAX_DEPTH} levels); expected {what}", str(path)) from None
     check_depth(doc, str(path))
     return doc
+
+
+def species_tables(r: TableReader, species_names: set[str], dimension: int, table: str,
+                   needs_3d: str) -> TableReader:
+    """The ``species`` sub-table of a per-species term (``[spin_orbit]``, ``[nonlocal]``).
+
+    Refuses, naming the key, a lattice that is not 3D (``needs_3d`` opens the message: what
+    needs 3D and why) and a species no atom carries; returns the reader of ``species``.
+    """
+    if dimension != 3:
+        raise r.fail("", f"{needs_3d}, this one is {dimension}D; expected no {table} table")
+    sp = r.sub("species")
+    for name in sp.table:
+        if name not in species_names:
+            raise sp.fail(name, f"unknown species '{name}'; expected one of the atoms' species "
+                                f"({', '.join(sorted(species_names))})")
+    return sp

@@ -17,7 +17,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .reader import TableReader
+from .reader import TableReader, species_tables
 
 #: Principal quantum numbers of the core p shells the radial factor has closed forms for.
 CORE_SHELLS = (2, 3, 4, 5)
@@ -79,14 +79,8 @@ def read_spin_orbit(r: TableReader, species_names: set[str], dimension: int = 3)
         Unknown or missing species, a strength outside [0, 10] eV, a core shell other than
         2–5, a Slater exponent outside its range or given without a core shell.
     """
-    if dimension != 3:
-        raise r.fail("", f"spin-orbit coupling needs a 3D lattice (the term is (K × K′)·σ), this "
-                         f"one is {dimension}D; expected no spin_orbit table")
-    sp = r.sub("species")
-    for name in sp.table:
-        if name not in species_names:
-            raise sp.fail(name, f"unknown species '{name}'; expected one of the atoms' species "
-                                f"({', '.join(sorted(species_names))})")
+    sp = species_tables(r, species_names, dimension, "spin_orbit",
+                        "spin-orbit coupling needs a 3D lattice (the term is (K × K′)·σ)")
     params: dict[str, SpeciesSpinOrbit] = {}
     for name in sorted(species_names):
         if not sp.has(name):

@@ -77,12 +77,12 @@ def gamma8_luttinger_sum_over_states(material: Material, cutoff_eV: float
     step = MATRIX_STEP * 2.0 * np.pi / material.a_A
     eye = np.eye(3)
     with single_blas_thread():
-        w, c = scipy.linalg.eigh(model.hamiltonian(np.zeros(3)), check_finite=False)
+        h0 = model.hamiltonian(np.zeros(3))
+        w, c = scipy.linalg.eigh(h0, check_finite=False)
         level = np.flatnonzero(np.abs(w - w[top]) < DEGENERACY_EV)
         if level.size != 4 or level.max() != top:
             raise InputError(f"the valence top at Γ is {level.size}-fold, expected the fourfold "
                              "Γ8 level of a cubic semiconductor", material.file, "spin_orbit")
-        h0 = model.hamiltonian(np.zeros(3))
         plus = [model.hamiltonian(step * eye[a]) for a in range(3)]
         minus = [model.hamiltonian(-step * eye[a]) for a in range(3)]
         v = [c.conj().T @ ((plus[a] - minus[a]) / (2 * step)) @ c for a in range(3)]
