@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 from conftest import bundled
@@ -111,3 +113,86 @@ def test_bad_minimum_targets_are_refused_in_one_line(change, key, words):
         parse_targets({"parameters": ["lattice.a_A"], "targets": [target]}, "t.toml",
                       parse_material(doc, path))
     assert info.value.key == key and words in str(info.value) and "\n" not in str(info.value)
+
+
+#: Spin–orbit silicon with nonlocal wells at a small basis: every kind of term of H (at 45 eV
+#: the band has a second minimum at X and Brent's bracket ends on the kink between the two).
+SPIN_ORBIT_CUTOFF_EV = 60.0
+WELLS = {"species": {"Si": {"A0_eV": 0.4, "R0_A": 1.06, "A2_eV": 0.3, "R2_A": 1.2}}}
+
+SHARED = [*VALLEY,
+          {"quantity": "mass", "at": "Γ:v3", "direction": [1, 0, 0], "value": 0.2,
+           "tolerance": 0.02, "source": SOURCE},
+          {"quantity": "energy", "at": "X:v1", "value": -2.9, "tolerance": 0.3,
+           "source": SOURCE},
+          {"quantity": "delta_so", "value": 0.044, "tolerance": 0.002, "source": SOURCE}]
+
+
+def spin_orbit_fit(reuse):
+    path = bundled("silicon-spin-orbit").file
+    doc = read_toml_document(path)
+    doc["nonlocal"] = WELLS
+    keys = ["potential.symmetric[0]", "spin_orbit.species.Si.strength_eV",
+            "nonlocal.species.Si.A0_eV", "nonlocal.species.Si.R2_A", "lattice.a_A"]
+    spec = parse_targets({"parameters": keys, "cutoff_eV": SPIN_ORBIT_CUTOFF_EV, "targets": SHARED},
+                         "t.toml", parse_material(doc, path))
+    return Fit(doc, path, spec, reuse=reuse)
+
+
+def test_shared_states_and_secant_search_give_the_reference_values_and_jacobian():
+    # common practice, no source: the shared eigenpairs, the secant search on the
+    # Hellmann–Feynman slope and the term-wise ∂H/∂p are the same quantities as the reference
+    # path (every target diagonalises its own points, Brent's search, whole-matrix
+    # differences), so they agree to the search's tolerance
+    fast, slow = spin_orbit_fit(True), spin_orbit_fit(False)
+    p = fast.start * np.array([1.02, 0.97, 1.05, 0.99, 1.0005])
+    for _ in range(2):  # the second time from the warm start and curvature of the first
+        r_fast, r_slow = fast.residuals(p), slow.residuals(p)
+        assert np.allclose(r_fast, r_slow, rtol=0, atol=1e-6), r_fast - r_slow
+        before = fast.evaluate(p).states.diagonalisations
+        j_fast, j_slow = fast.jacobian(p), slow.jacobian(p)
+        # the Jacobian at p diagonalises nothing new: the residuals at p left every state
+        assert fast.evaluate(p).states.diagonalisations == before
+        scale = np.max(np.abs(j_slow), axis=0)
+        assert np.all(np.abs(j_fast - j_slow) <= 1e-6 * scale), (j_fast - j_slow) / scale
+        p = p * 1.001
+
+
+def test_term_wise_parameter_slopes_equal_finite_differences():
+    # source: Hellmann–Feynman theorem (R. P. Feynman, Phys. Rev. 56, 340 (1939)); ∂H/∂p built
+    # from the changed terms alone (potential, spin–orbit, nonlocal wells; whole matrices for
+    # the lattice constant) against central differences of the targets themselves
+    fit = spin_orbit_fit(True)
+    hf = fit.jacobian(fit.start)
+    fd = fit.jacobian(fit.start, finite_differences=True)
+    scale = np.max(np.abs(fd), axis=0)
+    at_minimum = np.array([t.at.label == "min" and t.quantity == "mass"
+                           for t in fit.spec.targets])
+    assert np.all(np.abs(hf - fd)[~at_minimum] <= 1e-5 * scale), (hf - fd) / scale
+    assert np.all(np.abs(hf - fd)[at_minimum] <= 1e-3 * scale), (hf - fd) / scale
+
+
+def test_secant_search_finds_brents_minimum():
+    # common practice, no source: a minimum of E(t) is a zero of dE/dt; the secant search on
+    # the Hellmann–Feynman slope and Brent's search on E must find the same point
+    from bandpert.physics.fit_states import PointStates
+    from bandpert.physics.fit_valley import follow_minimum
+
+    fit = fit_of(["potential.symmetric[0]"], VALLEY[:1])
+    material, line = fit.material(fit.start), fit.targets.valleys[4]
+    e_ref, t_ref = valley_minimum(material, line, 4, False, line.t_start)
+    states = PointStates(material, 8)
+    e, t, curvature = follow_minimum(states, line, 4, False, line.t_start)
+    assert t == pytest.approx(t_ref, abs=3e-8) and e == pytest.approx(e_ref, abs=1e-11)
+    # warm started from a nearby point with the curvature found: a few diagonalisations
+    warm = PointStates(material, 8)
+    e2, t2, _ = follow_minimum(warm, line, 4, False, t + 2e-3, curvature)
+    assert t2 == pytest.approx(t, abs=3e-8) and warm.diagonalisations <= 4
+    # a minimum at the end of the line (the line cut at 0.5 of Γ–X: E falls all the way):
+    # the secant step leaves the bracket and Brent's search with its end check decides
+    short = dataclasses.replace(line, end_frac=line.start_frac + 0.5 * (line.end_frac
+                                                                        - line.start_frac))
+    assert short.start_label == "Γ"
+    e3, t3, _ = follow_minimum(PointStates(material, 8), short, 4, False, 0.95)
+    assert (e3, t3) == pytest.approx(valley_minimum(material, short, 4, False, 0.95))
+    assert t3 == 1.0

@@ -17,25 +17,22 @@ constant. At a minimum off the labelled points (:mod:`bandpert.physics.fit_valle
 centred on the minimum found for the current parameters, which moves with p: the total
 derivative adds (∂m/∂t)(dt_min/dp), with dt_min/dp = −(∂²E/∂k∂p)/(∂²E/∂k²)/L from the
 Hellmann–Feynman derivatives of a stencil along the line (L its length in Å⁻¹; the implicit
-function theorem on ∂E/∂k = 0) and ∂m/∂t by a central difference of the mass along the line
-(:func:`minimum_mass_derivatives`).
+function theorem on ∂E/∂k = 0) and ∂m/∂t = −m Δ_t/Δ with Δ_t = Σ_s w_s ∂E_s/∂t, again by
+Hellmann–Feynman, ∂E_s/∂t = ⟨n_s|∂H/∂k·(dk/dt)|n_s⟩ (:func:`minimum_mass_derivatives`). The
+eigenpairs come from the fit's :class:`~bandpert.physics.fit_states.PointStates`, where the
+residuals at the same parameters left them.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 
 from ..crystal.lattice import reciprocal_vectors
 from ..input.material import Material
-from ..planewave.model import PlaneWaveModel, model_on_miller
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
-
-#: Builds (or looks up) the model of a material on a set of plane waves.
-ModelOf = Callable[[Material, np.ndarray], PlaneWaveModel]
+from .fit_states import ParameterSlopes, PointStates
 
 #: Stencil weights of the second difference.
 WEIGHTS = np.array([1.0, -2.0, 1.0])
@@ -83,34 +80,15 @@ class Stencil:
         return slice(first, first + (2 if self.spinor else 1))
 
 
-def _fresh(material: Material, miller: np.ndarray):
-    return model_on_miller(material, miller)
+def stencil_mass(states: PointStates, stencil: Stencil) -> float:
+    """m*/m0 of the stencil (module docstring), from the eigenvalues kept in ``states``."""
+    ks, h = stencil.points(states.material)
+    e = np.array([states.eigenpairs(stencil.miller, k)[0][stencil.members()].mean()
+                  for k in ks])
+    return float(stencil.sign * 2.0 * C * h * h / (WEIGHTS @ e))
 
 
-def stencil_mass(material: Material, stencil: Stencil, vectors: bool = False,
-                 model_of: ModelOf = _fresh):
-    """m*/m0 of the stencil (module docstring); with ``vectors`` also the eigenpairs used.
-
-    Returns
-    -------
-    float, or (float, list of (eigenvalues, eigenvectors), float)
-        The mass; with ``vectors`` also the eigenpairs at the three points and h.
-    """
-    model = model_of(material, stencil.miller)
-    ks, h = stencil.points(material)
-    top = stencil.members().stop - 1
-    pairs = [scipy.linalg.eigh(model.hamiltonian(k), eigvals_only=not vectors,
-                               subset_by_index=(0, top), driver="evr", check_finite=False)
-             for k in ks]
-    e = np.array([(p[0] if vectors else p)[stencil.members()].mean() for p in pairs])
-    delta = float(WEIGHTS @ e)
-    mass = stencil.sign * 2.0 * C * h * h / delta
-    return (mass, pairs, h) if vectors else mass
-
-
-def stencil_energy_derivatives(material: Material, stencil: Stencil,
-                               perturbed: list[tuple[Material, Material, float]],
-                               model_of: ModelOf = _fresh
+def stencil_energy_derivatives(states: PointStates, slopes: ParameterSlopes, stencil: Stencil
                                ) -> tuple[np.ndarray, np.ndarray, float, np.ndarray]:
     """Stencil energies and their Hellmann–Feynman derivatives (module docstring).
 
@@ -125,60 +103,48 @@ def stencil_energy_derivatives(material: Material, stencil: Stencil,
     d_h : numpy.ndarray
         (n_parameters,) ∂h/∂p (non-zero for the lattice constant only).
     """
-    _, pairs, h = stencil_mass(material, stencil, vectors=True, model_of=model_of)
-    e = np.array([w[stencil.members()].mean() for w, _ in pairs])
-    d_e = np.zeros((3, len(perturbed)))
-    d_h = np.zeros(len(perturbed))
-    for j, (plus, minus, step) in enumerate(perturbed):
-        k_plus, h_plus = stencil.points(plus)
-        k_minus, h_minus = stencil.points(minus)
-        m_plus = model_of(plus, stencil.miller)
-        m_minus = model_of(minus, stencil.miller)
-        for s, (_, c) in enumerate(pairs):
-            dh = (m_plus.hamiltonian(k_plus[s]) - m_minus.hamiltonian(k_minus[s])) / (2 * step)
-            vec = c[:, stencil.members()]
-            d_e[s, j] = float(np.real(np.einsum("in,ij,jn->n", vec.conj(), dh, vec)).mean())
-        d_h[j] = (h_plus - h_minus) / (2 * step)
+    ks, h = stencil.points(states.material)
+    pair = stencil.members()
+    e = np.array([states.eigenpairs(stencil.miller, k)[0][pair].mean() for k in ks])
+    d_e = np.array([slopes.at(stencil.miller, lambda m, s=s: stencil.points(m)[0][s])[pair]
+                    .mean(axis=0) for s in range(3)])
+    d_h = np.array([(stencil.points(plus)[1] - stencil.points(minus)[1]) / (2 * step)
+                    for plus, minus, step in slopes.perturbed])
     return e, d_e, h, d_h
 
 
-def stencil_mass_derivatives(material: Material, stencil: Stencil,
-                             perturbed: list[tuple[Material, Material, float]],
-                             model_of: ModelOf = _fresh) -> np.ndarray:
+def stencil_mass_derivatives(states: PointStates, slopes: ParameterSlopes, stencil: Stencil
+                             ) -> np.ndarray:
     """∂m/∂p at a fixed stencil centre, for every parameter (module docstring).
 
     Parameters
     ----------
-    material : Material
+    states : PointStates
         At the current parameters.
+    slopes : ParameterSlopes
+        ∂H/∂p of the same states.
     stencil : Stencil
-    perturbed : list of (Material, Material, float)
-        Per parameter: the material at p + δ, at p − δ, and δ.
 
     Returns
     -------
     numpy.ndarray
         (n_parameters,) in m0 per unit of each parameter.
     """
-    e, d_e, h, d_h = stencil_energy_derivatives(material, stencil, perturbed, model_of)
+    e, d_e, h, d_h = stencil_energy_derivatives(states, slopes, stencil)
     delta = float(WEIGHTS @ e)
     d_delta = WEIGHTS @ d_e
     return stencil.sign * 2.0 * C * (2 * h * d_h * delta - h * h * d_delta) / delta**2
 
 
-#: Step in t of the central difference ∂m/∂t at a minimum on a line.
-T_STEP = 1e-3
-
-
-def minimum_mass_derivatives(material: Material, stencil: Stencil, along: Stencil,
-                             line_length_invA: float, line_frac: np.ndarray,
-                             perturbed: list[tuple[Material, Material, float]],
-                             model_of: ModelOf = _fresh) -> np.ndarray:
+def minimum_mass_derivatives(states: PointStates, slopes: ParameterSlopes, stencil: Stencil,
+                             along: Stencil, line_length_invA: float, line_frac: np.ndarray
+                             ) -> np.ndarray:
     """dm/dp of a mass at a minimum that moves along a line with the parameters.
 
     Parameters
     ----------
-    material : Material
+    states : PointStates
+    slopes : ParameterSlopes
     stencil : Stencil
         The mass's stencil, centred on the minimum.
     along : Stencil
@@ -187,23 +153,24 @@ def minimum_mass_derivatives(material: Material, stencil: Stencil, along: Stenci
         |k(t = 1) − k(t = 0)| (Å⁻¹).
     line_frac : numpy.ndarray
         (3,) k(1) − k(0) in fractions of the reciprocal vectors.
-    perturbed : list of (Material, Material, float)
-    model_of : callable
-        ``model_of(material, miller)`` (a cache of models; default builds each anew).
 
     Returns
     -------
     numpy.ndarray
         (n_parameters,) total derivative (module docstring).
     """
-    fixed = stencil_mass_derivatives(material, stencil, perturbed, model_of)
-    e, d_e, h, _ = stencil_energy_derivatives(material, along, perturbed, model_of)
+    fixed = stencil_mass_derivatives(states, slopes, stencil)
+    e, d_e, h, _ = stencil_energy_derivatives(states, slopes, along)
     curvature = float(WEIGHTS @ e) / h**2               # ∂²E/∂k² along the line
     d_slope = (d_e[2] - d_e[0]) / (2.0 * h)             # ∂²E/∂k∂p
     d_t = -d_slope / curvature / line_length_invA       # dt_min/dp
-    shifted = [Stencil(stencil.miller, stencil.k0_frac + s * T_STEP * line_frac,
-                       stencil.direction, stencil.band, stencil.step_frac, stencil.sign,
-                       stencil.spinor) for s in (-1.0, 1.0)]
-    dm_dt = (stencil_mass(material, shifted[1], model_of=model_of)
-             - stencil_mass(material, shifted[0], model_of=model_of)) / (2.0 * T_STEP)
+    # ∂m/∂t = −m Δ_t/Δ, Δ_t = Σ_s w_s ⟨n_s|∂H/∂k·dk/dt|n_s⟩ (the stencil moved along the line)
+    ks, _ = stencil.points(states.material)
+    dk_dt = line_frac @ reciprocal_vectors(states.material.vectors_A)
+    pair = stencil.members()
+    e_s = np.array([states.eigenpairs(stencil.miller, k)[0][pair].mean() for k in ks])
+    de_dt = np.array([states.k_slope(stencil.miller, k, dk_dt)[pair].mean() for k in ks])
+    delta = float(WEIGHTS @ e_s)
+    mass = stencil.sign * 2.0 * C * h * h / delta
+    dm_dt = -mass * float(WEIGHTS @ de_dt) / delta
     return fixed + dm_dt * d_t

@@ -41,25 +41,24 @@ branch is not analytic at the point).
 from __future__ import annotations
 
 import re
-from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
-import scipy.linalg
 
 from ..crystal.lattice import reciprocal_vectors, standard_path
 from ..errors import InputError
 from ..input.material import Material, canonical_label
 from ..input.reader import TableReader, describe, number_list
-from ..planewave.model import centred_model, model_on_miller
+from ..planewave.model import centred_model
 from .fit_masses import (
     Stencil,
     minimum_mass_derivatives,
     stencil_mass,
     stencil_mass_derivatives,
 )
-from .fit_valley import ValleyLine, find_valley_line, valley_minimum
+from .fit_states import KOf, ParameterSlopes, PointStates
+from .fit_valley import ValleyLine, find_valley_line, follow_minimum, valley_minimum
 
 #: Quantities a target may name.
 QUANTITIES = ("energy", "delta_so", "mass")
@@ -233,6 +232,29 @@ def parse_targets(doc: dict[str, Any], source: str, material: Material) -> FitSp
     return FitSpec(tuple(raw), tuple(targets), cutoff, source)
 
 
+@dataclass
+class Evaluation:
+    """The targets at one parameter vector, and what computing them left behind.
+
+    Attributes
+    ----------
+    states : PointStates
+        The material and the eigenpairs at every point used (kept for the Jacobian).
+    t_min : dict
+        Band → position of its minimum on its line (:mod:`~bandpert.physics.fit_valley`).
+    values : numpy.ndarray
+        Per target (NaN for rows not asked for).
+    """
+
+    states: PointStates
+    t_min: dict[int, float]
+    values: np.ndarray
+
+    @property
+    def material(self) -> Material:
+        return self.states.material
+
+
 class TargetModel:
     """The plane-wave pieces the targets need, on plane-wave sets fixed at the start.
 
@@ -243,11 +265,18 @@ class TargetModel:
         ħ²|k+G|²/2m0 ≤ cutoff centred on that point).
     targets : tuple of Target
     cutoff_eV : float
+    reuse : bool
+        Share eigenpairs between the targets of one evaluation and with its Jacobian, and
+        follow a minimum by the secant search (:func:`~bandpert.physics.fit_valley
+        .follow_minimum`). Without it every target diagonalises its own points and minima are
+        found by Brent's search: the reference the tests and the benchmark compare with.
     """
 
-    def __init__(self, material: Material, targets: tuple[Target, ...], cutoff_eV: float):
+    def __init__(self, material: Material, targets: tuple[Target, ...], cutoff_eV: float,
+                 reuse: bool = True):
         self.targets = targets
         self.cutoff_eV = float(cutoff_eV)
+        self.reuse = reuse
         self.points_frac = {label: np.asarray(p, float)
                             for label, p in standard_path(material)[0].items()}
         self.n_valence = material.valence_electrons // material.electrons_per_band
@@ -269,40 +298,46 @@ class TargetModel:
                              f"point; expected a cutoff with at least {self.n_bands} states "
                              "(the bands the targets name, and 4 more)", key="cutoff_eV")
         self.spinor = material.spin_orbit is not None
-        # a conduction minimum off the labelled points: its line and plane waves, fixed now
+        self._differences: dict = {}  # the distinct G − G′ of each plane-wave set
+        # a conduction minimum off the labelled points: its line and plane waves, fixed now;
+        # t_min and the curvature there are the warm start of the next search
         self.valleys: dict[int, ValleyLine] = {}
         self.t_min: dict[int, float] = {}
+        self.curvature: dict[int, float | None] = {}
         for ref in [t.at for t in targets] + [t.start for t in targets if t.start]:
             if ref.label == MINIMUM and ref.index(self.n_valence) not in self.valleys:
                 band = ref.index(self.n_valence)
                 line = find_valley_line(material, self.cutoff_eV, band)
                 self.valleys[band], self.t_min[band] = line, line.t_start
+                self.curvature[band] = None
 
-    def minimum(self, material: Material, band: int) -> float:
-        """E at the band's minimum on its line (:func:`valley_minimum`); moves ``t_min``."""
-        e, self.t_min[band] = valley_minimum(material, self.valleys[band], band, self.spinor,
-                                             self.t_min[band])
+    def states_of(self, material: Material) -> PointStates:
+        """An empty :class:`PointStates` of the material (sharing as ``reuse`` says)."""
+        return PointStates(material, self.n_bands, share=self.reuse)
+
+    def _find_minimum(self, states: PointStates, band: int) -> float:
+        """E at the band's minimum on its line; moves ``t_min`` (the next search's start)."""
+        if self.reuse:
+            e, self.t_min[band], curvature = follow_minimum(
+                states, self.valleys[band], band, self.spinor, self.t_min[band],
+                self.curvature[band])
+            self.curvature[band] = curvature
+        else:
+            e, self.t_min[band] = valley_minimum(states.material, self.valleys[band], band,
+                                                 self.spinor, self.t_min[band], states)
         return e
 
-    def _k(self, material: Material, label: str) -> np.ndarray:
-        return self.points_frac[label] @ reciprocal_vectors(material.vectors_A)
+    def _k_of(self, label: str) -> KOf:
+        frac = self.points_frac[label]
+        return lambda m: frac @ reciprocal_vectors(m.vectors_A)
 
-    def states(self, material: Material, label: str) -> tuple[np.ndarray, np.ndarray, Any]:
-        """Eigenvalues, eigenvectors (columns) and the model at a point."""
-        model = model_on_miller(material, self.miller[label], self.cutoff_eV)
-        h = model.hamiltonian(self._k(material, label))
-        n = min(self.n_bands, h.shape[0])
-        w, c = scipy.linalg.eigh(h, subset_by_index=(0, n - 1), driver="evr",
-                                 check_finite=False)
-        return w, c, model
-
-    def stencil(self, material: Material, target: Target) -> Stencil:
+    def stencil(self, material: Material, target: Target, t_min: dict[int, float]) -> Stencil:
         """The mass stencil of a mass target (:mod:`bandpert.physics.fit_masses`); a minimum's
-        is centred where :meth:`values` last found it."""
+        is centred at ``t_min`` of its band."""
         band = target.at.index(self.n_valence)
         if target.at.label == MINIMUM:
             line = self.valleys[band]
-            miller, k0 = line.miller, line.k_frac(self.t_min[band])
+            miller, k0 = line.miller, line.k_frac(t_min[band])
             direction = (line.direction(material, target.direction)
                          if isinstance(target.direction, str) else target.direction)
         else:
@@ -313,41 +348,41 @@ class TargetModel:
                        step_frac=MASS_STEP, sign=-1.0 if target.at.side == "v" else 1.0,
                        spinor=self.spinor)
 
-    def _mass(self, material: Material, target: Target) -> float:
-        return stencil_mass(material, self.stencil(material, target))
-
-    def values(self, material: Material, rows: np.ndarray | None = None) -> np.ndarray:
-        """Every target's model value (eV or m0), in target order.
+    def evaluate(self, material: Material, rows: np.ndarray | None = None) -> Evaluation:
+        """Every target's model value (eV or m0), in target order, and the states behind it.
 
         With ``rows`` (a boolean mask over the targets) only those are computed; the others
         are NaN (the finite-difference columns of the Jacobian need the mass rows only).
         """
-        cache: dict[str, np.ndarray] = {}
-
-        minima = {band: self.minimum(material, band) for band in self.valleys
+        states = self.states_of(material)
+        minima = {band: self._find_minimum(states, band) for band in self.valleys
                   if any(rows is None or rows[i] for i, t in enumerate(self.targets)
                          if band in _minimum_bands(t, self.n_valence))}
+        t_min = {band: self.t_min[band] for band in minima}
 
         def level(ref: BandRef) -> float:
             if ref.label == MINIMUM:
                 return minima[ref.index(self.n_valence)]
-            if ref.label not in cache:
-                cache[ref.label] = self.states(material, ref.label)[0]
-            return float(cache[ref.label][ref.index(self.n_valence)])
+            w, _ = states.eigenpairs(self.miller[ref.label], self._k_of(ref.label)(material))
+            return float(w[ref.index(self.n_valence)])
 
         out = []
         for i, t in enumerate(self.targets):
             if rows is not None and not rows[i]:
                 out.append(np.nan)
             elif t.quantity == "mass":
-                out.append(self._mass(material, t))
+                out.append(stencil_mass(states, self.stencil(material, t, t_min)))
             else:
                 out.append(level(t.at) - level(t.start))
-        return np.array(out)
+        return Evaluation(states, t_min, np.array(out))
 
-    def energy_derivatives(self, material: Material, perturbed: list[tuple[Material, Material,
-                                                                             float]]
-                           ) -> np.ndarray:
+    def values(self, material: Material, rows: np.ndarray | None = None) -> np.ndarray:
+        """The target values of :meth:`evaluate`."""
+        return self.evaluate(material, rows).values
+
+    def energy_derivatives(self, material: Material,
+                           perturbed: list[tuple[Material, Material, float]],
+                           evaluation: Evaluation | None = None) -> np.ndarray:
         """∂(target)/∂p by Hellmann–Feynman: energies, and masses through their stencils.
 
         ∂E_n/∂p = ⟨n|∂H/∂p|n⟩, the mean over n's degenerate group (module docstring), with
@@ -360,81 +395,50 @@ class TargetModel:
             At the current parameters.
         perturbed : list of (Material, Material, float)
             Per parameter: the material at p + δ, at p − δ, and δ.
+        evaluation : Evaluation, optional
+            :meth:`evaluate` of the same material (its eigenpairs and minima are reused);
+            evaluated here when not given.
 
         Returns
         -------
         numpy.ndarray
             (n_targets, n_parameters).
         """
+        if evaluation is None:
+            evaluation = self.evaluate(material)
+        states, t_min = evaluation.states, evaluation.t_min
+        material = states.material
+        slopes = ParameterSlopes(states, perturbed, self._differences)
         jac = np.full((len(self.targets), len(perturbed)), np.nan)
-        cache: dict[tuple[int, int], Any] = {}
-
-        def model_of(mat: Material, miller: np.ndarray) -> Any:
-            # one model per (material, plane-wave set) in this call: the stencils of several
-            # targets share the perturbed materials and the plane waves of their point
-            key = (id(mat), id(miller))
-            if key not in cache:
-                cache[key] = model_on_miller(mat, miller)
-            return cache[key]
-
-        labels = sorted(({t.at.label for t in self.targets if t.quantity != "mass"}
-                         | {t.start.label for t in self.targets if t.start}) - {MINIMUM})
-        slopes: dict[str, np.ndarray] = {}
-        for label in labels:
-            w, c, _ = self.states(material, label)
-            groups = _groups(w)
-            rows = []
-            for plus, minus, delta in perturbed:
-                k_p, k_m = self._k(plus, label), self._k(minus, label)
-                dh = (model_of(plus, self.miller[label]).hamiltonian(k_p)
-                      - model_of(minus, self.miller[label]).hamiltonian(k_m)) / (2 * delta)
-                d = np.real(np.einsum("in,ij,jn->n", c.conj(), dh, c))
-                rows.append(np.array([d[g].mean() for g in groups]))
-            slopes[label] = np.array(rows).T  # (n_bands, n_parameters)
-        at_minimum = {band: self._minimum_slopes(material, band, perturbed, model_of)
-                      for band in self.valleys}
 
         def slope(ref: BandRef) -> np.ndarray:
             band = ref.index(self.n_valence)
-            return at_minimum[band] if ref.label == MINIMUM else slopes[ref.label][band]
+            if ref.label == MINIMUM:  # the envelope theorem: ∂E/∂p at the minimum's k
+                line, t = self.valleys[band], t_min[band]
+                miller, k_of = line.miller, (lambda m: line.k_cart(m, t))
+            else:
+                miller, k_of = self.miller[ref.label], self._k_of(ref.label)
+            w, _ = states.eigenpairs(miller, k_of(material))
+            return slopes.at(miller, k_of)[_groups(w)[band]].mean(axis=0)
 
         for i, t in enumerate(self.targets):
             if t.quantity == "mass" and t.at.label == MINIMUM:
                 band = t.at.index(self.n_valence)
                 line = self.valleys[band]
-                along = Stencil(line.miller, line.k_frac(self.t_min[band]),
+                along = Stencil(line.miller, line.k_frac(t_min[band]),
                                 line.direction(material, "along"), band, MASS_STEP, 1.0,
                                 self.spinor)
                 jac[i] = minimum_mass_derivatives(
-                    material, self.stencil(material, t), along,
+                    states, slopes, self.stencil(material, t, t_min), along,
                     float(np.linalg.norm(line.k_cart(material, 1.0)
                                          - line.k_cart(material, 0.0))),
-                    line.end_frac - line.start_frac, perturbed, model_of)
+                    line.end_frac - line.start_frac)
             elif t.quantity == "mass":
-                jac[i] = stencil_mass_derivatives(material, self.stencil(material, t), perturbed,
-                                                  model_of)
+                jac[i] = stencil_mass_derivatives(states, slopes,
+                                                  self.stencil(material, t, t_min))
             else:
                 jac[i] = slope(t.at) - slope(t.start)
         return jac
-
-    def _minimum_slopes(self, material: Material, band: int,
-                        perturbed: list[tuple[Material, Material, float]],
-                        model_of: Callable[[Material, np.ndarray], Any]) -> np.ndarray:
-        """dE_min/dp = ⟨n|∂H/∂p|n⟩ at the minimum's fixed k (envelope theorem)."""
-        self.minimum(material, band)
-        line, t = self.valleys[band], self.t_min[band]
-        h = model_on_miller(material, line.miller).hamiltonian(line.k_cart(material, t))
-        w, c = scipy.linalg.eigh(h, subset_by_index=(0, band + 1), driver="evr",
-                                 check_finite=False)
-        group = _groups(w)[band]
-        out = []
-        for plus, minus, delta in perturbed:
-            dh = (model_of(plus, line.miller).hamiltonian(line.k_cart(plus, t))
-                  - model_of(minus, line.miller).hamiltonian(line.k_cart(minus, t))
-                  ) / (2 * delta)
-            out.append(float(np.real(np.einsum("in,ij,jn->n", c[:, group].conj(), dh,
-                                               c[:, group])).mean()))
-        return np.array(out)
 
 
 def _minimum_bands(target: Target, n_valence: int) -> set[int]:

@@ -12,9 +12,13 @@ fixes, once at its start,
   least as complete as its own centred one and the energies are smooth in k and in the
   parameters (a cutoff would add and drop plane waves as they move).
 
-During the fit the minimum E_min(p) = min_t E_n(k(t); p) is found on that line by Brent's bounded
-method around the previous minimum (:func:`scipy.optimize.minimize_scalar`, k(t) = k_A + t(k_B −
-k_A) in fractions of the reciprocal vectors). Its derivative needs no search: at an interior
+During the fit the minimum E_min(p) = min_t E_n(k(t); p) is found on that line (k(t) = k_A +
+t(k_B − k_A) in fractions of the reciprocal vectors) as the zero of the Hellmann–Feynman slope
+dE_n/dt = ⟨n|∂H/∂k·(dk/dt)|n⟩ by secant steps warm-started at the previous minimum with its
+curvature (:func:`follow_minimum`, three to five diagonalisations), falling back to Brent's
+bounded search on E itself (:func:`valley_minimum`, :func:`scipy.optimize.minimize_scalar`, about
+fifteen) when the secant leaves the bracket around the previous minimum or meets a curvature that
+is not positive (a minimum at the end of the line). Its derivative needs no search: at an interior
 minimum ∂E_n/∂t = 0, so dE_min/dp = ∂E_n/∂p at fixed k_min (the envelope theorem), which
 Hellmann–Feynman gives as ⟨n|∂H/∂p|n⟩ (the group mean for a Kramers pair). Masses at the minimum
 are second differences along the line ("along") and across it ("across": the unit vector
@@ -36,6 +40,7 @@ from ..input.material import Material
 from ..planewave.basis import k_centred_basis
 from ..planewave.model import build_k_centred_model, model_on_miller
 from ..planewave.solver import exact_energies
+from .fit_states import PointStates
 
 #: Points per segment of the path in the search for the line of the minimum.
 SEARCH_POINTS = 13
@@ -47,6 +52,15 @@ BASIS_POINTS = 9
 #: (near the rounding floor of E(t): the mass stencil is centred on the minimum found).
 BRACKET_HALF_WIDTH = 0.12
 T_TOLERANCE = 1e-8
+
+#: Secant steps of :func:`follow_minimum` before it falls back to Brent; its tolerance on t
+#: (the next step; the slope is accurate to about 1e-11 in t, where E(t) is flat to rounding
+#: over 1e-8); its first step (in t) when no curvature is known; the least secant width (in t)
+#: whose curvature is passed on.
+SECANT_STEPS = 8
+SECANT_TOLERANCE = 1e-10
+PROBE_STEP = 1e-3
+CURVATURE_MIN_DT = 1e-6
 
 
 @dataclass(frozen=True)
@@ -138,30 +152,40 @@ def find_valley_line(material: Material, cutoff_eV: float, band: int) -> ValleyL
                       miller=miller, t_start=t0)
 
 
+def members(band: int, spinor: bool) -> slice:
+    """The band, or the Kramers pair holding it (spinor models): the levels averaged."""
+    first = band - band % 2 if spinor else band
+    return slice(first, first + (2 if spinor else 1))
+
+
 def _band_energy(material: Material, line: ValleyLine, k_cart: np.ndarray, band: int,
                  spinor: bool, model=None) -> float:
     """E_band(k) on the line's plane waves (the Kramers-pair mean for a spinor model)."""
     model = model or model_on_miller(material, line.miller)
     w = scipy.linalg.eigh(model.hamiltonian(k_cart), eigvals_only=True,
                           subset_by_index=(0, band + 1), driver="evr", check_finite=False)
-    if spinor:
-        first = band - band % 2
-        return float(w[first:first + 2].mean())
-    return float(w[band])
+    return float(w[members(band, spinor)].mean())
+
+
+def _bracket(t_guess: float) -> tuple[float, float]:
+    return max(0.0, t_guess - BRACKET_HALF_WIDTH), min(1.0, t_guess + BRACKET_HALF_WIDTH)
 
 
 def valley_minimum(material: Material, line: ValleyLine, band: int, spinor: bool,
-                   t_guess: float) -> tuple[float, float]:
+                   t_guess: float, states: PointStates | None = None) -> tuple[float, float]:
     """(E_min in eV, t_min): the band's minimum on the line near ``t_guess`` (Brent, bounded).
 
     ``band`` is the band index in the material's own count (spinor bands with spin–orbit).
+    With ``states`` (of the same material) the levels come from, and are kept in, it.
     """
-    model = model_on_miller(material, line.miller)
-    lo = max(0.0, t_guess - BRACKET_HALF_WIDTH)
-    hi = min(1.0, t_guess + BRACKET_HALF_WIDTH)
+    model = model_on_miller(material, line.miller) if states is None else None
+    lo, hi = _bracket(t_guess)
 
     def energy(t: float) -> float:
-        return _band_energy(material, line, line.k_cart(material, t), band, spinor, model)
+        k = line.k_cart(material, t)
+        if states is not None:
+            return float(states.eigenpairs(line.miller, k)[0][members(band, spinor)].mean())
+        return _band_energy(material, line, k, band, spinor, model)
 
     res = scipy.optimize.minimize_scalar(energy, bounds=(lo, hi), method="bounded",
                                          options={"xatol": T_TOLERANCE})
@@ -171,3 +195,55 @@ def valley_minimum(material: Material, line: ValleyLine, band: int, spinor: bool
         if e_end < e_min:
             t_min, e_min = end, e_end
     return e_min, t_min
+
+
+def follow_minimum(states: PointStates, line: ValleyLine, band: int, spinor: bool,
+                   t_guess: float, curvature: float | None = None
+                   ) -> tuple[float, float, float | None]:
+    """The minimum near ``t_guess`` by a secant search on the Hellmann–Feynman slope.
+
+    dE/dt = ⟨n|∂H/∂k·(dk/dt)|n⟩ (:meth:`PointStates.k_slope`, the Kramers-pair mean) is driven
+    to zero: a Newton step with ``curvature`` (d²E/dt² of the previous search, eV) or, without
+    one, a probe of :data:`PROBE_STEP` downhill, then secant steps, until the next step is below
+    :data:`SECANT_TOLERANCE` (below :data:`T_TOLERANCE`, the tolerance of the Brent search it
+    replaces, at the last of :data:`SECANT_STEPS` steps). A step that leaves the bracket of
+    :func:`valley_minimum`, a curvature that is not positive, or no convergence fall back to
+    that Brent search.
+
+    Returns
+    -------
+    e_min : float
+        eV.
+    t_min : float
+    curvature : float or None
+        d²E/dt² from the widest secant pair (for the next search), or the one given.
+    """
+    material = states.material
+    lo, hi = _bracket(t_guess)
+    pair = members(band, spinor)
+    dk_dt = line.k_cart(material, 1.0) - line.k_cart(material, 0.0)
+
+    def slope(t: float) -> float:
+        return float(states.k_slope(line.miller, line.k_cart(material, t), dk_dt)[pair].mean())
+
+    t0 = min(max(t_guess, lo), hi)
+    g0 = slope(t0)
+    t1 = (t0 - g0 / curvature if curvature is not None and curvature > 0
+          else t0 - np.copysign(PROBE_STEP, g0))
+    widest, learned = 0.0, curvature
+    for step in range(SECANT_STEPS):
+        if not lo <= t1 <= hi or t1 == t0:
+            break
+        g1 = slope(t1)
+        curv = (g1 - g0) / (t1 - t0)
+        if not curv > 0:
+            break
+        if abs(t1 - t0) > max(widest, CURVATURE_MIN_DT):
+            widest, learned = abs(t1 - t0), curv
+        last = step == SECANT_STEPS - 1
+        if abs(g1 / curv) < (T_TOLERANCE if last else SECANT_TOLERANCE):
+            e = states.eigenpairs(line.miller, line.k_cart(material, t1))[0][pair].mean()
+            return float(e), float(t1), learned
+        t0, g0, t1 = t1, g1, t1 - g1 / curv
+    e, t = valley_minimum(material, line, band, spinor, t_guess, states)
+    return e, t, None

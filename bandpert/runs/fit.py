@@ -2,9 +2,10 @@
 
 The residual of target i is r_i = (model_i − value_i)/tolerance_i, minimised over the named
 parameters (dotted keys of the file, as in a sweep) by :func:`scipy.optimize.least_squares`
-(trust-region reflective). The Jacobian of the energy targets comes from first-order
-perturbation theory (Hellmann–Feynman, :meth:`~bandpert.physics.fit_targets.TargetModel
-.energy_derivatives`), that of the mass targets from central differences of the targets.
+(trust-region reflective). The Jacobian comes from first-order perturbation theory
+(Hellmann–Feynman, :meth:`~bandpert.physics.fit_targets.TargetModel.energy_derivatives`: energies,
+and masses through their stencils); it is taken at the parameters of a residual evaluation, whose
+eigenpairs it reuses (:meth:`Fit.evaluate` keeps the last few, keyed by the parameter vector).
 
 At the solution, with J the Jacobian of r and J = U S Vᵀ: the rank is the number of singular
 values above :data:`RANK_RTOL` × the largest; the covariance of the parameters is
@@ -26,7 +27,7 @@ import scipy.optimize
 
 from ..errors import InputError
 from ..input.material import Material, parse_material
-from ..physics.fit_targets import FitSpec, TargetModel
+from ..physics.fit_targets import Evaluation, FitSpec, TargetModel
 from ..planewave.cutoff import converged_cutoff
 from ..planewave.solver import single_blas_thread
 from .sweep_spec import get_value, set_value
@@ -39,6 +40,9 @@ RELATIVE_STEP = 1e-5
 
 #: Most residual evaluations of one fit.
 MAX_EVALUATIONS = 400
+
+#: Evaluations kept (keyed by the parameter vector) for a Jacobian at the same parameters.
+KEPT_EVALUATIONS = 4
 
 Progress = Callable[[int, float], None]
 
@@ -99,7 +103,8 @@ class FitResult:
 class Fit:
     """Residuals and Jacobian of a fit of ``spec`` to the material document ``document``."""
 
-    def __init__(self, document: dict[str, Any], source: str, spec: FitSpec):
+    def __init__(self, document: dict[str, Any], source: str, spec: FitSpec,
+                 reuse: bool = True):
         self.document = copy.deepcopy(document)
         self.source = source
         self.spec = spec
@@ -119,12 +124,14 @@ class Fit:
         cutoff = spec.cutoff_eV or material.cutoff_eV or converged_cutoff(
             material.local_spinless(), 8)
         try:
-            self.targets = TargetModel(material, spec.targets, cutoff)
+            with single_blas_thread():  # the minimum's line: many small eigenproblems
+                self.targets = TargetModel(material, spec.targets, cutoff, reuse=reuse)
         except InputError as exc:  # a problem of the targets (or their cutoff)
             raise InputError(exc.problem, exc.source or spec.source or None, exc.key) from None
         self.target_values = np.array([t.value for t in spec.targets])
         self.tolerances = np.array([t.tolerance for t in spec.targets])
         self.state = FitState()
+        self._evaluations: dict[bytes, Evaluation] = {}
 
     def document_at(self, p: np.ndarray) -> dict[str, Any]:
         doc = copy.deepcopy(self.document)
@@ -138,8 +145,21 @@ class Fit:
     def steps(self, p: np.ndarray) -> np.ndarray:
         return RELATIVE_STEP * np.maximum(np.abs(p), 1e-3)
 
+    def evaluate(self, p: np.ndarray) -> Evaluation:
+        """The targets at p; the last :data:`KEPT_EVALUATIONS` are kept for the Jacobian."""
+        p = np.asarray(p, dtype=float)
+        key = p.tobytes()
+        if key in self._evaluations:
+            return self._evaluations[key]
+        evaluation = self.targets.evaluate(self.material(p))
+        if self.targets.reuse:
+            self._evaluations[key] = evaluation
+            while len(self._evaluations) > KEPT_EVALUATIONS:
+                del self._evaluations[next(iter(self._evaluations))]
+        return evaluation
+
     def residuals(self, p: np.ndarray) -> np.ndarray:
-        r = (self.targets.values(self.material(p)) - self.target_values) / self.tolerances
+        r = (self.evaluate(p).values - self.target_values) / self.tolerances
         self.state.evaluations += 1
         cost = 0.5 * float(r @ r)
         if cost < self.state.cost:
@@ -161,7 +181,8 @@ class Fit:
             pairs.append((self.material(up), self.material(down), float(step)))
         jac = np.full((len(self.target_values), len(p)), np.nan)
         if not finite_differences:
-            jac = self.targets.energy_derivatives(self.material(p), pairs)
+            evaluation = self.evaluate(p)
+            jac = self.targets.energy_derivatives(evaluation.material, pairs, evaluation)
         need = np.isnan(jac).any(axis=1)
         if need.any():
             for j, (up, down, step) in enumerate(pairs):
@@ -236,7 +257,7 @@ def _solve(fit: Fit, spec: FitSpec, document: dict[str, Any],
                       for k, x in zip(spec.parameters, sigma, strict=True)])
     with np.errstate(all="ignore"):
         corr = cov / np.outer(sigma, sigma)
-    model_values = fit.targets.values(fit.material(p))
+    model_values = fit.evaluate(p).values
     doc = fit.document_at(p)
     doc["source"] = _fitted_source(str(document.get("source", "")), spec)
     return FitResult(keys=spec.parameters, start=fit.start, values=p, uncertainties=sigma,

@@ -1,0 +1,243 @@
+"""Eigenpairs at the points a fit's targets need, each computed once per parameter vector.
+
+A fit evaluates its targets (:mod:`bandpert.physics.fit_targets`) at a parameter vector p and
+then, at the same p, their Jacobian. Both need the same eigenpairs: the labelled points, the
+conduction minimum found on its line (:mod:`bandpert.physics.fit_valley`) and the three points
+of every mass stencil (:mod:`bandpert.physics.fit_masses`); and several targets share points
+(the heavy- and light-hole masses one stencil, a labelled point the centre of a stencil there,
+the minimum the centre of its two mass stencils). :class:`PointStates` diagonalises each
+(plane-wave set, k) once for one material and keeps the result, so the Jacobian at p reuses
+what the residuals at p computed.
+
+Slopes by first-order perturbation theory (Hellmann–Feynman, ∂E_n/∂x = ⟨n|∂H/∂x|n⟩; H. Hellmann
+1937, R. P. Feynman, Phys. Rev. 56, 340 (1939)), with ∂H/∂x a central difference of the matrix
+H (not of eigenvalues), on the same plane waves:
+
+* along k (:meth:`PointStates.k_slope`): ∂H/∂k·d = [H(k + εd) − H(k − εd)]/(2ε), exact for
+  the kinetic and spin–orbit terms (quadratic and bilinear in k + G) and O(ε²) for the
+  nonlocal wells;
+* along a parameter (:class:`ParameterSlopes`): ∂H/∂p = [H(p + δ; k(p + δ)) − H(p − δ;
+  k(p − δ))]/(2δ), k at fixed fractional coordinates (exact for the parameters H is linear
+  in: form factors, spin–orbit strengths, well depths).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+
+import numpy as np
+import scipy.linalg
+
+from ..input.material import Material
+from ..planewave.model import PlaneWaveModel, model_on_miller
+from ..planewave.nonlocal_term import nonlocal_term
+from ..planewave.potential import fourier_coefficients
+from ..planewave.spinorbit import SpinOrbitTerm, spin_orbit_term, spinor_hamiltonian
+
+#: Step ε of the central difference of H along k, in units of the direction vector given.
+K_STEP = 1e-5
+
+#: k (Å⁻¹) of a point for a material's lattice (fixed fractional coordinates).
+KOf = Callable[[Material], np.ndarray]
+
+
+def projected(dh: np.ndarray, vectors: np.ndarray) -> np.ndarray:
+    """Re diag(C† dH C): the expectation value of dH in each column of C."""
+    return np.real(np.einsum("in,in->n", vectors.conj(), dh @ vectors))
+
+
+class PointStates:
+    """Models and eigenpairs of one material on the fit's fixed plane-wave sets.
+
+    Parameters
+    ----------
+    material : Material
+    n_bands : int
+        Lowest eigenpairs kept at every point.
+    share : bool
+        Keep every point's eigenpairs (and slopes) for later requests; without it each
+        request diagonalises anew (the reference path of the tests and the benchmark).
+
+    Attributes
+    ----------
+    diagonalisations : int
+        Count of eigenproblems solved.
+    """
+
+    def __init__(self, material: Material, n_bands: int, share: bool = True):
+        self.material = material
+        self.n_bands = int(n_bands)
+        self.share = share
+        self.diagonalisations = 0
+        self._models: dict[int, tuple[np.ndarray, PlaneWaveModel]] = {}
+        self._pairs: dict[tuple[int, bytes], tuple[np.ndarray, np.ndarray]] = {}
+        self._k_slopes: dict[tuple[int, bytes, bytes], np.ndarray] = {}
+
+    def model(self, miller: np.ndarray) -> PlaneWaveModel:
+        """The material's model on the plane waves ``miller`` (built once)."""
+        key = id(miller)
+        if key not in self._models:  # the array is kept with its model: the id stays its own
+            self._models[key] = (miller, model_on_miller(self.material, miller))
+        return self._models[key][1]
+
+    def eigenpairs(self, miller: np.ndarray, k_cart: np.ndarray
+                   ) -> tuple[np.ndarray, np.ndarray]:
+        """The lowest ``n_bands`` eigenvalues (eV) and eigenvectors (columns) of H(k)."""
+        k = np.ascontiguousarray(k_cart, dtype=float)
+        key = (id(miller), k.tobytes())
+        if key in self._pairs:
+            return self._pairs[key]
+        h = self.model(miller).hamiltonian(k)
+        n = min(self.n_bands, h.shape[0])
+        pair = scipy.linalg.eigh(h, subset_by_index=(0, n - 1), driver="evr",
+                                 check_finite=False)
+        self.diagonalisations += 1
+        if self.share:
+            self._pairs[key] = pair
+        return pair
+
+    def k_slope(self, miller: np.ndarray, k_cart: np.ndarray, direction: np.ndarray
+                ) -> np.ndarray:
+        """⟨n|∂H/∂k·d|n⟩ (eV per unit of d) for every kept state n at k (module docstring)."""
+        k = np.ascontiguousarray(k_cart, dtype=float)
+        d = np.ascontiguousarray(direction, dtype=float)
+        key = (id(miller), k.tobytes(), d.tobytes())
+        if key in self._k_slopes:
+            return self._k_slopes[key]
+        _, c = self.eigenpairs(miller, k)
+        model = self.model(miller)
+        dh = (model.hamiltonian(k + K_STEP * d) - model.hamiltonian(k - K_STEP * d)) / (
+            2.0 * K_STEP)
+        out = projected(dh, c)
+        if self.share:
+            self._k_slopes[key] = out
+        return out
+
+
+def _same_lattice(a: Material, b: Material) -> bool:
+    """Same lattice vectors, atoms and positions: the same plane waves, kinetic energies and
+    structure factors."""
+    return (np.array_equal(a.vectors_A, b.vectors_A)
+            and np.array_equal(a.positions_cart_A, b.positions_cart_A)
+            and [x.species for x in a.atoms] == [x.species for x in b.atoms])
+
+
+def _same_spin_orbit(a: SpinOrbitTerm | None, b: SpinOrbitTerm | None) -> bool:
+    if a is None or b is None:
+        return a is b
+    return (a.species == b.species and np.array_equal(a.strengths_eV, b.strengths_eV)
+            and a.core_shells == b.core_shells and a.zetas_invA == b.zetas_invA
+            and a.unit_invA == b.unit_invA)
+
+
+class ParameterSlopes:
+    """⟨n|∂H/∂p|n⟩ at points of a :class:`PointStates`, for every parameter (module docstring).
+
+    A parameter that keeps the lattice and the atoms (form factors, spin–orbit strengths, well
+    depths and radii) changes only some terms of H = 1₂ ⊗ (H0 + V + V_NL(k)) + H_so(k): the
+    difference is built from those terms alone (V(p ± δ) once per plane-wave set, V_NL and
+    H_so per point only when they change); H0 and every unchanged term cancel exactly. A
+    parameter that moves the lattice takes the difference of the whole matrices.
+
+    Parameters
+    ----------
+    states : PointStates
+        At the current parameters (their eigenvectors are used).
+    perturbed : list of (Material, Material, float)
+        Per parameter: the material at p + δ, at p − δ, and δ.
+    differences : dict, optional
+        A cache, kept by the caller across Jacobians, of the distinct G − G′ of each
+        plane-wave set (V is evaluated on those only).
+    """
+
+    def __init__(self, states: PointStates,
+                 perturbed: list[tuple[Material, Material, float]],
+                 differences: dict | None = None):
+        self.states = states
+        self.perturbed = perturbed
+        self._differences = {} if differences is None else differences
+        self._models: dict[tuple[int, int, int], tuple[np.ndarray, PlaneWaveModel]] = {}
+        self._potential: dict[tuple[int, int], np.ndarray | None] = {}
+        self._done: dict[tuple[int, bytes], np.ndarray] = {}
+        base = states.material
+        self._terms = []
+        for plus, minus, _ in perturbed:
+            if not (_same_lattice(plus, base) and _same_lattice(minus, base)):
+                self._terms.append(None)
+                continue
+            so = (spin_orbit_term(plus), spin_orbit_term(minus))
+            wells = (nonlocal_term(plus), nonlocal_term(minus))
+            self._terms.append((None if _same_spin_orbit(*so) else so,
+                                None if wells[0] == wells[1] else wells))
+
+    @property
+    def n_parameters(self) -> int:
+        return len(self.perturbed)
+
+    def _model(self, j: int, side: int, miller: np.ndarray) -> PlaneWaveModel:
+        key = (j, side, id(miller))
+        if key not in self._models:
+            self._models[key] = (miller, model_on_miller(self.perturbed[j][side], miller))
+        return self._models[key][1]
+
+    def _potential_slope(self, j: int, miller: np.ndarray) -> np.ndarray | None:
+        """[V(p + δ) − V(p − δ)]/(2δ) on the plane waves (None when V does not change)."""
+        key = (j, id(miller))
+        if key not in self._potential:
+            if id(miller) not in self._differences:
+                diff = (miller[:, None, :] - miller[None, :, :]).reshape(-1, miller.shape[1])
+                unique, inverse = np.unique(diff, axis=0, return_inverse=True)
+                self._differences[id(miller)] = (miller, unique, inverse.reshape(-1))
+            _, unique, inverse = self._differences[id(miller)]
+            plus, minus, delta = self.perturbed[j]
+            dv = (fourier_coefficients(plus.local_spinless(), unique)
+                  - fourier_coefficients(minus.local_spinless(), unique)) / (2.0 * delta)
+            n = len(miller)
+            self._potential[key] = (dv[inverse].reshape(n, n) if np.any(dv != 0) else None)
+        return self._potential[key]
+
+    def _slope(self, j: int, miller: np.ndarray, k_of: KOf, vectors: np.ndarray
+               ) -> np.ndarray:
+        """⟨n|∂H/∂p_j|n⟩ for the columns of ``vectors``."""
+        plus, minus, delta = self.perturbed[j]
+        if self._terms[j] is None:  # the lattice moves: whole matrices
+            dh = (self._model(j, 0, miller).hamiltonian(k_of(plus))
+                  - self._model(j, 1, miller).hamiltonian(k_of(minus))) / (2.0 * delta)
+            return projected(dh, vectors)
+        so, wells = self._terms[j]
+        model = self.states.model(miller)
+        k = k_of(self.states.material)
+        kg = k + model.basis.g_cart_invA
+        n = model.size
+        ds = self._potential_slope(j, miller)
+        if wells is not None:
+            dw = (wells[0].matrix(kg, model.structure)
+                  - wells[1].matrix(kg, model.structure)) / (2.0 * delta)
+            ds = dw if ds is None else ds + dw
+        if so is not None:
+            w = (so[0].coupling(kg, model.structure)
+                 - so[1].coupling(kg, model.structure)) / (2.0 * delta)
+            return projected(spinor_hamiltonian(np.zeros((n, n)) if ds is None else ds, w),
+                             vectors)
+        if ds is None:
+            return np.zeros(vectors.shape[1])
+        if model.n_components == 1:
+            return projected(ds, vectors)
+        return projected(ds, vectors[:n]) + projected(ds, vectors[n:])
+
+    def at(self, miller: np.ndarray, k_of: KOf) -> np.ndarray:
+        """(n_states, n_parameters) ∂E_n/∂p at the point k_of(material) for every kept state.
+
+        ``k_of`` gives the point's k for a material's lattice (so a lattice constant moves it).
+        """
+        k = np.ascontiguousarray(k_of(self.states.material), dtype=float)
+        key = (id(miller), k.tobytes())
+        if key in self._done:
+            return self._done[key]
+        _, c = self.states.eigenpairs(miller, k)
+        out = np.empty((c.shape[1], self.n_parameters))
+        for j in range(self.n_parameters):
+            out[:, j] = self._slope(j, miller, k_of, c)
+        if self.states.share:
+            self._done[key] = out
+        return out
