@@ -129,10 +129,13 @@ def all_cases() -> dict:
         "comparison-aluminium": lambda: bands_comparison(bundled("aluminium")),
         "comparison-chain": lambda: bands_comparison(bundled("cosine-chain"), 60),
         "comparison-own": lambda: bands_comparison(own()),
+        # spinor plane waves with spin-orbit and nonlocal terms, perturbative beside exact
+        "comparison-silicon-fitted": lambda: bands_comparison(bundled("silicon-fitted"), 20),
         # a small basis keeps the gap search fast; the layout is what is tested
         "gaps-silicon": lambda: gaps(bundled("silicon"), cutoff_eV=60.0),
         "gaps-gaas": lambda: gaps(bundled("gallium-arsenide"), cutoff_eV=60.0),
         "gaps-own": lambda: gaps(own(), crossings=True),
+        "gaps-silicon-fitted": lambda: gaps(bundled("silicon-fitted"), cutoff_eV=60.0),
         "kp-gaas": lambda: kp("gallium-arsenide"),
         "kp-inp": lambda: kp("indium-phosphide"),
         "kp-path-gaas": lambda: kp_path("gallium-arsenide"),

@@ -24,7 +24,6 @@ from bandpert.physics.kp_from_planewave import (
     kp_material_text,
     spin_orbit_valence_top,
 )
-from bandpert.physics.perturbative_bands import PerturbationSettings
 from bandpert.planewave.cutoff import choose_cutoff
 from bandpert.planewave.model import build_k_centred_model, build_model, centred_model
 from bandpert.planewave.solver import exact_energies, exact_states
@@ -170,12 +169,9 @@ def test_band_structure_counts_spinor_bands():
     assert bs.edges is not None and bs.edges.gap_eV > 0.3
 
 
-def test_perturbative_series_and_spinless_computations_refuse_spin_orbit():
+def test_spinless_computations_refuse_spin_orbit():
+    # (the perturbative bands take spinor models: tests/test_perturbative_spinor.py)
     material = bundled("silicon-spin-orbit")
-    with pytest.raises(InputError, match="spinless H0 \\+ V") as info:
-        compute_band_structure(material, n_k=4, cutoff_eV=SMALL_CUTOFF_EV, check_cutoff=False,
-                               perturbation=PerturbationSettings())
-    assert info.value.key == "spin_orbit"
     with pytest.raises(InputError, match="spinless model") as info:
         build_model(material, SMALL_CUTOFF_EV)
     assert info.value.key == "spin_orbit"

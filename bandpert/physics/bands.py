@@ -24,6 +24,7 @@ from ..physics.perturbative_bands import (
     PerturbativeBands,
     compare,
     perturbative_bands,
+    perturbative_energies,
 )
 from ..planewave.cutoff import choose_cutoff
 from ..planewave.model import KCentredModel, PlaneWaveModel, build_k_centred_model
@@ -273,11 +274,6 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         raise InputError("nothing to compute: the exact bands are skipped and no perturbative "
                          "bands were asked for", key="exact")
     nb = default_bands(material) if n_bands is None else n_bands
-    if perturbation is not None and (material.spin_orbit or material.nonlocal_terms):
-        what = "spin-orbit parameters" if material.spin_orbit else "nonlocal terms"
-        raise InputError("the perturbative series expands a spinless H0 + V and the material has "
-                         f"{what}; expected the exact bands only for it", material.file,
-                         "spin_orbit" if material.spin_orbit else "nonlocal")
     # the cutoff rule converges the spinless bands (spin-orbit coupling shifts them by
     # a few tenths of an eV at most, and the rule's bands are the spinless count)
     spinless_bands = -(-nb * material.electrons_per_band // 2)
@@ -300,9 +296,11 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
                           "expansion (see the validity map)", ModelWarning, stacklevel=2)
 
     def mesh_energies(k_cart: np.ndarray, n: int) -> np.ndarray:
-        n = min(n, model.size)
+        n = min(n, model.matrix_size)
         if exact:
             return exact_energies(k_centred, k_cart, n, solver=solver)
+        if model.k_dependent:
+            return perturbative_energies(model, k_cart, n, perturbation)
         return perturbative_levels(model.kinetic_eV(k_cart), model.potential_eV, n,
                                    lam=perturbation.lam, order=perturbation.order,
                                    coupling_threshold=perturbation.coupling_threshold,

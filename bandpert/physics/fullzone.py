@@ -20,13 +20,14 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.linalg
 
 from ..errors import InputError
 from ..input.material import Material
 from ..physics.bands import BandStructure, compute_band_structure
 from ..physics.mass_tensor import eigenstates
 from ..planewave.model import PlaneWaveModel
-from ..planewave.solver import exact_energies
+from ..planewave.solver import exact_energies, single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
 
 
@@ -51,9 +52,11 @@ def kp_basis_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis: 
     numpy.ndarray
         (n_k, n_bands), ascending at each k.
     """
-    if not 1 <= n_bands <= n_basis <= model.size:
-        raise InputError(f"expected 1 ≤ bands ({n_bands}) ≤ basis states ({n_basis}) ≤ plane "
-                         f"waves ({model.size})", key="basis")
+    if not 1 <= n_bands <= n_basis <= model.matrix_size:
+        raise InputError(f"expected 1 ≤ bands ({n_bands}) ≤ basis states ({n_basis}) ≤ basis "
+                         f"size ({model.matrix_size})", key="basis")
+    if model.k_dependent:
+        return projected_energies(model, k0_cart_invA, n_basis, k_cart_invA, n_bands)
     states = eigenstates(model, k0_cart_invA, n_basis)
     pi = states.momentum_invA  # (d, N, N)
     q = np.atleast_2d(k_cart_invA) - np.asarray(k0_cart_invA, dtype=float)
@@ -66,6 +69,34 @@ def kp_basis_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis: 
         idx = np.arange(n_basis)
         h[:, idx, idx] += diag
         out[s:s + step] = np.linalg.eigvalsh(h)[:, :n_bands]
+    return out
+
+
+def projected_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis: int,
+                       k_cart_invA: np.ndarray, n_bands: int) -> np.ndarray:
+    """Bands at ``k_cart_invA`` from H(k) projected on the ``n_basis`` lowest states of H(k0).
+
+    With U the lowest eigenvectors of H(k0), the bands are the eigenvalues of U† H(k) U
+    (Rayleigh–Ritz in the fixed span; by Cauchy interlacing each lies at or above the exact
+    band of the same index). For a local spinless model this is exactly the full-zone k·p
+    matrix E_n δ_nm + 2C q·π_nm + C q² δ_nm, since H(k0 + q) − H(k0) = (2C q·(k0 + G) + C q²)
+    δ_GG′; the spin–orbit term (its radial factors B(|k + G|)) and the nonlocal wells are not
+    polynomial in k, so they are projected at each k instead, as the reduced-basis
+    interpolation does (Shirley, Phys. Rev. B 54, 16464 (1996)). Spinor models count spinor
+    states (a Kramers pair is two).
+
+    Parameters and returns as :func:`kp_basis_energies`.
+    """
+    h0 = model.hamiltonian(np.asarray(k0_cart_invA, dtype=float))
+    _, u = scipy.linalg.eigh(h0, subset_by_index=(0, n_basis - 1), driver="evr",
+                             check_finite=False)
+    k = np.atleast_2d(k_cart_invA)
+    out = np.empty((len(k), n_bands))
+    with single_blas_thread():
+        for i, kk in enumerate(k):
+            hp = u.conj().T @ (model.hamiltonian(kk) @ u)
+            out[i] = scipy.linalg.eigvalsh(0.5 * (hp + hp.conj().T), subset_by_index=(
+                0, n_bands - 1), check_finite=False)
     return out
 
 
@@ -153,10 +184,10 @@ def kp_convergence(model: PlaneWaveModel, k0_cart_invA: np.ndarray, k_cart_invA:
     method is exact.
     """
     requested = np.unique(np.asarray(basis_sizes, dtype=int))
-    levels = exact_energies(model, np.atleast_2d(k0_cart_invA), model.size)[0]
-    closed = close_multiplets(levels, np.clip(requested, 1, model.size), tol_eV)
-    sizes = np.array(sorted({int(s) for s in closed if n_bands <= s < model.size}
-                            | {model.size}))
+    full = model.matrix_size
+    levels = exact_energies(model, np.atleast_2d(k0_cart_invA), full)[0]
+    closed = close_multiplets(levels, np.clip(requested, 1, full), tol_eV)
+    sizes = np.array(sorted({int(s) for s in closed if n_bands <= s < full} | {full}))
     exact = exact_energies(model, k_cart_invA, n_bands) if exact_eV is None else exact_eV
     bands = np.array([kp_basis_energies(model, k0_cart_invA, s, k_cart_invA, n_bands)
                       for s in sizes])

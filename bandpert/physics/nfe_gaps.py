@@ -129,13 +129,17 @@ __all__ = [
 # --------------------------------------------------------------------------------------------
 
 
-def _couplings(model: PlaneWaveModel, members: np.ndarray
+def _couplings(model: PlaneWaveModel, members: np.ndarray, v_eV: np.ndarray
                ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    """Distinct G − G' (up to sign) between members, their Cartesian form and V(G − G')."""
+    """Distinct G − G' (up to sign) between members, their Cartesian form and ``v_eV[G, G']``.
+
+    ``v_eV`` is the spinless (n × n) coupling: V(G − G'), plus V_NL(k + G, k + G') with
+    nonlocal terms (:func:`_spin_independent`).
+    """
     m = model.basis.miller[members]
     i, j = np.triu_indices(members.size, 1)
     diff = m[i] - m[j]
-    vals = model.potential_eV[members[i], members[j]].astype(complex)
+    vals = v_eV[members[i], members[j]].astype(complex)
     # canonical sign: first non-zero Cartesian component positive; V(−G) = V(G)*
     cart = diff @ model.reciprocal_invA
     nonzero = np.abs(cart) > 1e-9 * np.abs(cart).max(initial=1.0)
@@ -145,6 +149,22 @@ def _couplings(model: PlaneWaveModel, members: np.ndarray
     vals[flip] = np.conj(vals[flip])
     uniq, idx = np.unique(diff, axis=0, return_index=True)
     return uniq, uniq @ model.reciprocal_invA, vals[idx]
+
+
+def _spin_independent(model: PlaneWaveModel, v_eV: np.ndarray) -> np.ndarray:
+    """The spin-independent part V + V_NL(k) (n × n) of V(k) = 1₂ ⊗ (V + V_NL) + H_so.
+
+    H_so = −i W·σ is traceless in spin, so the mean of the two spin-diagonal blocks is it.
+    """
+    n = model.size
+    if model.n_components == 1:
+        return v_eV
+    return 0.5 * (v_eV[:n, :n] + v_eV[n:, n:])
+
+
+def _states(members: np.ndarray, n: int, components: int) -> np.ndarray:
+    """Rows of the Hamiltonian of plane waves ``members``: every spin component (slowest)."""
+    return np.concatenate([members + c * n for c in range(components)])
 
 
 def k_centred_model(material: Material, cutoff_eV: float, k_cart_invA: np.ndarray
@@ -171,7 +191,7 @@ def k_centred_model(material: Material, cutoff_eV: float, k_cart_invA: np.ndarra
     PlaneWaveModel
         Its ``kinetic_eV`` must be evaluated at this same k.
     """
-    return centred_model(material, cutoff_eV, k_cart_invA)
+    return centred_model(material, cutoff_eV, k_cart_invA, spin_orbit=True)
 
 
 def examine_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, label: str,
@@ -225,14 +245,19 @@ def examine_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, labe
     k_frac = np.asarray(k_frac, dtype=float)
     k_cart = k_frac @ reciprocal_vectors(material.vectors_A)
     model = k_centred_model(material, cutoff_eV, k_cart)
-    if n_levels > model.size:
-        raise InputError(f"{n_levels} bands asked for but the basis holds only {model.size} "
-                         "plane waves; expected fewer bands or a larger cutoff", key="bands")
-    e0 = model.kinetic_eV(k_cart)[0]
-    order, first, sizes = free_electron_groups(e0, n_levels, degeneracy_tol_eV)
-    top = int((first + sizes).max())
+    comp, n = model.n_components, model.size
+    if n_levels > model.matrix_size:
+        raise InputError(f"{n_levels} bands asked for but the basis holds only "
+                         f"{model.matrix_size} states; expected fewer bands or a larger cutoff",
+                         key="bands")
+    kinetic = model.kinetic_eV(k_cart)[0]
+    # groups of plane waves (each one Kramers pair of spinor states with spin–orbit)
+    order, first, sizes = free_electron_groups(kinetic, -(-n_levels // comp), degeneracy_tol_eV)
+    top = comp * int((first + sizes).max())
     h = model.hamiltonian(k_cart)
     w, vecs = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
+    e0, v = model.unperturbed_eV(k_cart)[0], model.perturbation_eV(k_cart)
+    v_pairs = _spin_independent(model, v)
     lg = names = None
     if frame is not None:
         # a few states more than the groups need, so that the top level is whole for its
@@ -251,31 +276,34 @@ def examine_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, labe
                 model.basis.miller[members][:, None, :] == np.asarray(only_miller)[None]
         ).all(axis=2).any():
             continue
-        h1 = lowdin_effective_hamiltonian(e0, model.potential_eV, members, order=1,
+        states = _states(members, n, comp)
+        lo, hi = comp * i0, comp * (i0 + g)
+        h1 = lowdin_effective_hamiltonian(e0, v, states, order=1,
                                           degeneracy_tol=degeneracy_tol_eV)
-        h2 = lowdin_effective_hamiltonian(e0, model.potential_eV, members, order=2,
+        h2 = lowdin_effective_hamiltonian(e0, v, states, order=2,
                                           degeneracy_tol=degeneracy_tol_eV)
-        cm, cg, cv = _couplings(model, members)
+        cm, cg, cv = _couplings(model, members, v_pairs)
         groups.append(DegenerateGroup(
-            first_index=int(i0), miller=model.basis.miller[members].copy(),
+            first_index=int(lo), miller=model.basis.miller[members].copy(),
             g_cart_invA=model.basis.g_cart_invA[members].copy(),
-            free_electron_eV=float(e0[members].mean()),
+            free_electron_eV=float(kinetic[members].mean()),
             first_order_eV=np.linalg.eigvalsh(h1), second_order_eV=np.linalg.eigvalsh(h2),
-            exact_eV=w[i0:i0 + g].copy(),
-            exact_weight=np.sum(np.abs(vecs[members, i0:i0 + g]) ** 2, axis=0),
+            exact_eV=w[lo:hi].copy(),
+            exact_weight=np.sum(np.abs(vecs[states, lo:hi]) ** 2, axis=0),
             coupling_miller=cm, coupling_g_cart_invA=cg,
             coupling_shell_g2=np.einsum("ij,ij->i", cg, cg) / (2 * np.pi / material.a_A) ** 2,
             coupling_eV=cv, coupling_reason=coupling_reasons(material, cm, cv),
             closed_tolerance_eV=closed_tol_eV,
             symmetry=None if lg is None else group_symmetry(
-                frame, lg, names, model.basis.miller, members, w_sym, v_sym, int(i0))))
+                frame, lg, names, model.basis.miller, members, w_sym, v_sym, int(i0)),
+            spin_components=comp))
     return GapPoint(
         label=label, kind=kind, k_frac=k_frac, k_cart_invA=k_cart,
         path_distance_invA=np.asarray([] if path_distance_invA is None else path_distance_invA,
                                       dtype=float),
         segment=segment, segment_fraction=float(segment_fraction),
-        level_energies_eV=e0[order[first]], level_degeneracies=sizes.copy(),
-        level_first_indices=first.copy(), groups=tuple(groups))
+        level_energies_eV=kinetic[order[first]], level_degeneracies=comp * sizes,
+        level_first_indices=comp * first, groups=tuple(groups))
 
 
 # --------------------------------------------------------------------------------------------
@@ -374,10 +402,12 @@ def gap_analysis(material: Material, model: PlaneWaveModel | None = None,
     if nb < 1:
         raise InputError(f"must be at least 1, got {nb}", key="n_bands")
     if model is None:
-        model = build_model(material, choose_cutoff(material, nb, cutoff_eV, False))
-    if nb > model.size:
-        raise InputError(f"{nb} bands asked for but the basis holds only {model.size} plane "
-                         "waves; expected fewer bands or a larger cutoff", key="bands")
+        spinless_bands = -(-nb * material.electrons_per_band // 2)
+        model = build_model(material, choose_cutoff(material.local_spinless(), spinless_bands,
+                                                    cutoff_eV, False), spin_orbit=True)
+    if nb > model.matrix_size:
+        raise InputError(f"{nb} bands asked for but the basis holds only {model.matrix_size} "
+                         "states; expected fewer bands or a larger cutoff", key="bands")
     cutoff = float(model.basis.cutoff_eV)
     b = model.reciprocal_invA
     segs = _segments(material, b)
@@ -392,7 +422,8 @@ def gap_analysis(material: Material, model: PlaneWaveModel | None = None,
                                    degeneracy_tol_eV=degeneracy_tol_eV,
                                    closed_tol_eV=closed_tol_eV, frame=frame))
     if crossings:
-        for c in path_crossings(model, material, nb, degeneracy_tol_eV):
+        for c in path_crossings(model, material, -(-nb // model.n_components),
+                                degeneracy_tol_eV):
             label = f"{c.fraction:.3f} of {c.start}→{c.end}"
             pt = examine_point(material, cutoff, c.k_frac, label, KIND_CROSSING, nb,
                                path_distance_invA=np.array([c.path_distance_invA]),

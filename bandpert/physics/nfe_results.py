@@ -123,7 +123,8 @@ class DegenerateGroup:
     free_electron_eV : float
         ħ²|k+G|²/2m0 of the group.
     first_order_eV : numpy.ndarray
-        (g,) ascending eigenvalues of E0 + V_AA (first-order degenerate theory; V(0) included).
+        (g,) ascending eigenvalues of E0 + V_AA (first-order degenerate theory; V(0) included;
+        2g with spin–orbit).
     second_order_eV : numpy.ndarray
         (g,) ascending eigenvalues of the second-order Löwdin effective Hamiltonian.
     exact_eV : numpy.ndarray
@@ -146,7 +147,14 @@ class DegenerateGroup:
     symmetry : GroupSymmetry or None
         Irreps of the group's plane waves and of its exact levels
         (:func:`bandpert.physics.nfe_symmetry.group_symmetry`); None without point symmetry
-        information (1D/2D models, non-primitive cells).
+        information (1D/2D models, non-primitive cells, spinor models).
+    spin_components : int
+        1 for a spinless model; 2 for spinor plane waves (spin–orbit): the group then holds
+        the g plane waves times both spins, 2g states, and ``first_index``, the predicted and
+        exact levels count spinor states (H0 ⊗ 1₂ and V(k) = 1₂ ⊗ (V + V_NL) + H_so in both
+        orders, :meth:`~bandpert.planewave.model.PlaneWaveModel.perturbation_eV`), while
+        ``coupling_eV`` is the spin-independent part V(G − G′) (+ V_NL(k + G, k + G′)), the
+        spin–orbit term not included.
     """
 
     first_index: int
@@ -164,6 +172,7 @@ class DegenerateGroup:
     coupling_reason: tuple[str, ...]
     closed_tolerance_eV: float = CLOSED_TOLERANCE_EV
     symmetry: GroupSymmetry | None = None
+    spin_components: int = 1
 
     @property
     def closed_by(self) -> tuple[str | None, ...]:
@@ -212,8 +221,8 @@ class DegenerateGroup:
 
     @property
     def degeneracy(self) -> int:
-        """Number of plane waves in the group."""
-        return int(self.miller.shape[0])
+        """Number of states in the group: its plane waves times the spin components."""
+        return int(self.miller.shape[0]) * self.spin_components
 
     @property
     def first_order_gaps_eV(self) -> np.ndarray:

@@ -111,6 +111,31 @@ class PlaneWaveModel:
         kg = k[:, None, :] + self.basis.g_cart_invA[None, :, :]
         return HBAR2_OVER_2M0_EV_A2 * np.einsum("kgi,kgi->kg", kg, kg)
 
+    def unperturbed_eV(self, k_cart_invA: np.ndarray) -> np.ndarray:
+        """Diagonal of H0 ⊗ 1 in the layout of :meth:`hamiltonian`, shape (n_k, matrix_size).
+
+        The kinetic energies once per spin component (spin index slowest): every level of a
+        spinor model's H0 is (at least) twofold.
+        """
+        kinetic = self.kinetic_eV(k_cart_invA)
+        return kinetic if self.n_components == 1 else np.tile(kinetic, (1, self.n_components))
+
+    def perturbation_eV(self, k_cart_invA: np.ndarray) -> np.ndarray:
+        """V(k) = H(k) − H0(k) ⊗ 1 at one k, shape (matrix_size, matrix_size).
+
+        1 ⊗ (V + V_NL(k)) + H_so(k) in the layout of :meth:`hamiltonian`; for a local spinless
+        model the k-independent :attr:`potential_eV` itself.
+        """
+        if not self.k_dependent:
+            return self.potential_eV
+        k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
+        v = self.potential_eV.astype(complex)
+        if self.nonlocal_term is not None:
+            v += self.nonlocal_term.matrix(k + self.basis.g_cart_invA, self.structure)
+        if self.spin_orbit is None:
+            return v
+        return spinor_hamiltonian(v, self.spin_orbit_coupling(k))
+
     def hamiltonian(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """Full H(k) = H0(k) + V (+ H_so(k)) for one k-point, shape (matrix_size, matrix_size).
 

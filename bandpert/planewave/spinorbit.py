@@ -61,12 +61,14 @@ def require_spinless(material: Material) -> None:
     if material.spin_orbit is not None:
         raise InputError("this computation uses the spinless model and the material has "
                          "spin-orbit parameters; expected a material without a spin_orbit table "
-                         "(spin-orbit coupling is supported by the exact bands only)",
+                         "(spin-orbit coupling is supported by the exact and perturbative bands, "
+                         "gap openings, full-zone k·p, the valence-top masses, the DOS, optics, "
+                         "check and fit)",
                          material.file, "spin_orbit")
     if material.nonlocal_terms is not None:
         raise InputError("this computation uses a local potential and the material has "
                          "nonlocal terms; expected a material without a nonlocal table "
-                         "(nonlocal terms are supported by the exact bands only)",
+                         "(nonlocal terms are supported where spin-orbit coupling is)",
                          material.file, "nonlocal")
 
 

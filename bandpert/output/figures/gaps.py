@@ -191,7 +191,7 @@ def gap_figure(bs: BandStructure, report,
     ]
     if crossings is False or not any(p.kind == KIND_CROSSING for p in report.points):
         del handles[2]
-    ax.set_title(f"{bs.material.name}: gaps at free-electron degeneracies",
+    ax.set_title(style.wrap(f"{bs.material.name}: gaps at free-electron degeneracies", 90),
                  fontsize=style.TITLE_SIZE)
     if any(not v.holds for p in report.points for g in p.groups
            for v in getattr(g, "verdicts", ())):
