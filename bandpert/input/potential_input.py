@@ -13,7 +13,7 @@ Fourier coefficients by Miller index, and the continuous form factors of
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from ..units import ENERGY_UNITS_TO_EV, HBAR2_OVER_2M0_EV_A2
 from .lattice_input import Atom
@@ -42,6 +42,11 @@ REFERENCE_MEASURE_KEYS = {1: "reference_length_A", 2: "reference_area_A2",
 #: Largest accepted magnitude of a Miller index of an explicit Fourier coefficient. Far beyond
 #: any basis the plane-wave model allows, and small enough for its integer index arithmetic.
 MAX_MILLER_INDEX = 100_000
+
+#: Accepted range of the kinetic factor β (``kinetic_factor``, H0 = β ħ²|k+G|²/2m0): the
+#: kinetic-energy scaling of Wang & Zunger (Phys. Rev. B 51, 17398 (1995), from memory) takes
+#: values near 1; beyond ±50 % the model is no longer a free-electron plane-wave model.
+KINETIC_FACTOR_RANGE = (0.5, 1.5)
 
 #: Largest accepted |V| of a Fourier coefficient or form factor, as a multiple of the kinetic
 #: scale ħ²(2π/a)²/2m0 (silicon's strongest form factor is 0.56 of it). A stronger potential
@@ -138,6 +143,9 @@ class Potential:
     deformation_targets : tuple of DeformationTarget
         Tabulated forms: measured deformation potentials to fit the slopes of the continuous
         v(q) to (``[potential.deformation_targets]``).
+    kinetic_factor : float
+        β of the kinetic term β ħ²|k+G|²/2m0 (1 for the free-electron mass; the kinetic-energy
+        scaling of L.-W. Wang & A. Zunger, Phys. Rev. B 51, 17398 (1995), from memory).
     """
 
     form: str
@@ -154,6 +162,7 @@ class Potential:
     slope_corrections: dict[str, tuple[tuple[float, float, float], ...]] = field(
         default_factory=dict)
     deformation_targets: tuple[DeformationTarget, ...] = ()
+    kinetic_factor: float = 1.0
 
 
 
@@ -225,7 +234,16 @@ def _read_targets(r: TableReader, form: str) -> tuple[DeformationTarget, ...]:
 
 
 def read_potential(r: TableReader, atoms: tuple[Atom, ...], dim: int, a_A: float,
-                    atom_measure: float) -> Potential:
+                   atom_measure: float) -> Potential:
+    """The ``[potential]`` table (module docstring), with its optional ``kinetic_factor``."""
+    factor = r.number("kinetic_factor", required=False, default=1.0,
+                      bounds=KINETIC_FACTOR_RANGE,
+                      meaning="β of the kinetic term β ħ²|k+G|²/2m0, dimensionless")
+    return replace(_read_form(r, atoms, dim, a_A, atom_measure), kinetic_factor=float(factor))
+
+
+def _read_form(r: TableReader, atoms: tuple[Atom, ...], dim: int, a_A: float,
+               atom_measure: float) -> Potential:
     form = r.string("form", choices=POTENTIAL_FORMS)
     targets = _read_targets(r, form)
     if form == "empty":

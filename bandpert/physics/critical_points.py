@@ -178,7 +178,8 @@ def centred_model(material: Material, k_cart_invA: np.ndarray, cutoff_eV: float
     v = fourier_coefficients(material, diff)
     if np.max(np.abs(v.imag), initial=0.0) <= 1e-12 * max(1.0, np.max(np.abs(v), initial=0.0)):
         v = np.ascontiguousarray(v.real)
-    return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v)
+    return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v,
+                          kinetic_factor=material.potential.kinetic_factor)
 
 
 def degenerate_group(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
@@ -364,7 +365,7 @@ def classify(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
         if gradient > STATIONARY_GRADIENT_EV_A:
             kind = "not stationary"
         if inverse_mass is None:
-            inverse_mass = _sum_over_states(e, pi, band, group)
+            inverse_mass = _sum_over_states(e, pi, band, group, sym.kinetic_factor)
         w, axes = np.linalg.eigh(0.5 * (inverse_mass + inverse_mass.T))
         curv = w
         index = int(np.sum(w < 0))
@@ -385,12 +386,14 @@ def classify(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
                          warning=warning)
 
 
-def _sum_over_states(e: np.ndarray, pi: np.ndarray, band: int, group: np.ndarray) -> np.ndarray:
-    """m0/m* = 1 + 4C Σ_l Re(π_nl π_ln)/(E_n − E_l) over the states of the centred basis kept."""
+def _sum_over_states(e: np.ndarray, pi: np.ndarray, band: int, group: np.ndarray,
+                     beta: float) -> np.ndarray:
+    """m0/m* = β + 4C Σ_l Re(π_nl π_ln)/(E_n − E_l) over the states of the centred basis kept
+    (π carries the kinetic factor β, :func:`~bandpert.physics.extrema.momentum`)."""
     others = np.array([i for i in range(e.size) if i not in set(group)])
     p = pi[:, band, others]
     t = np.einsum("il,jl,l->ij", p, p.conj(), 1.0 / (e[band] - e[others])).real
-    return np.eye(pi.shape[0]) + 2.0 * C * (t + t.T)
+    return beta * np.eye(pi.shape[0]) + 2.0 * C * (t + t.T)
 
 
 def _wants_minimum(material: Material, band: int, index: int | None, d: int) -> bool:

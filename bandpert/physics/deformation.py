@@ -2,9 +2,9 @@
 
 First-order strain perturbation theory on the plane-wave eigenstates. With the atoms at fixed
 fractional positions and k fixed in reciprocal fractions, a strain ε changes
-H(k)_{GG'} = C|k + G|² δ_{GG'} + V(G − G') by
+H(k)_{GG'} = βC|k + G|² δ_{GG'} + V(G − G') (β the kinetic factor) by
 
-    ∂H/∂ε_ij = −2C (k + G)_i (k + G)_j δ_{GG'} + ∂V(G − G')/∂ε_ij,
+    ∂H/∂ε_ij = −2βC (k + G)_i (k + G)_j δ_{GG'} + ∂V(G − G')/∂ε_ij,
 
 (:func:`bandpert.planewave.strain_potential.strain_derivative_of_potential` for the potential),
 and the shift of a level, or the splitting of a degenerate set, is given by the eigenvalues of
@@ -46,7 +46,6 @@ from ..planewave.model import PlaneWaveModel
 from ..planewave.strain_potential import (
     strain_derivative_of_potential,
 )
-from ..units import HBAR2_OVER_2M0_EV_A2 as C
 
 #: Potential forms whose deformation potentials bandpert computes (tabulated ones are fitted).
 STRAIN_FOLLOWING_FORMS = ("symmetric-antisymmetric", "per-species", "continuous")
@@ -133,7 +132,7 @@ def strain_hamiltonian(material: Material, model: PlaneWaveModel, k_cart_invA: n
     h = dv.real if model.is_real else dv
     h = np.array(h, copy=True)
     idx = np.arange(model.size)
-    h[idx, idx] += -2.0 * C * np.einsum("gi,ij,gj->g", kg, eps, kg)
+    h[idx, idx] += -2.0 * model.kinetic_constant_eV_A2 * np.einsum("gi,ij,gj->g", kg, eps, kg)
     return h
 
 

@@ -35,7 +35,7 @@ from ..input.material import Material, parse_material
 from ..input.potential_input import DeformationTarget
 from ..planewave.basis import plane_wave_basis
 from ..planewave.cutoff import choose_cutoff
-from ..planewave.formfactor import ContinuousFit, fit_continuous_potential
+from ..planewave.formfactor import ContinuousFit, fit_continuous_potential, with_kinetic_factor
 from ..planewave.potential import fourier_coefficients
 from ..planewave.slope_form import regularised_slope_changes, shell_half_widths
 from ..planewave.solver import single_blas_thread
@@ -162,7 +162,7 @@ def strain_following_document(document: dict[str, Any], source: str = "",
     material = parse_material(document, source)
     fit0 = fit_continuous_potential(material)
     doc0 = copy.deepcopy(document)
-    doc0["potential"] = fit0.potential_table()
+    doc0["potential"] = with_kinetic_factor(fit0.potential_table(), document)
     doc0["source"] = (f"{document.get('source', '')}; continuous form factors v(q) of Friedel, "
                       "Hybertsen & Schlüter, Phys. Rev. B 39, 7974 (1989) fitted to them by "
                       "bandpert")
@@ -196,7 +196,8 @@ def strain_following_document(document: dict[str, Any], source: str = "",
     delta[live] = regularised_slope_changes(a[:, live], goal - before, sigma)
     predicted = base + a @ (own + delta)
     doc1 = copy.deepcopy(doc0)
-    doc1["potential"] = _with_corrections(fit0, keys, delta, material)
+    doc1["potential"] = with_kinetic_factor(_with_corrections(fit0, keys, delta, material),
+                                            document)
     fitted = parse_material(doc1, source)
     dv = _max_delta_v(fitted, material)
     if dv > EXACT_EV:

@@ -2,8 +2,9 @@
 
 At a degenerate edge the scalar sum-over-states formula of :mod:`bandpert.physics.mass_tensor`
 is replaced by the second-order Löwdin effective Hamiltonian in q = k − k0 (from
-:mod:`bandpert.perturbation`), with the k·p perturbation W(q) = 2C q·π + C q² in the basis of
-the k0 eigenstates. For the spinless cubic valence triplet it is the Dresselhaus–Kip–Kittel
+:mod:`bandpert.perturbation`), with the k·p perturbation W(q) = 2C q·π + βC q² in the basis
+of the k0 eigenstates (β the kinetic factor, π as in :mod:`bandpert.physics.mass_tensor`).
+For the spinless cubic valence triplet it is the Dresselhaus–Kip–Kittel
 form with parameters L, M, N (Dresselhaus, Kip & Kittel, Phys. Rev. 98, 368 (1955)) in units
 of ħ²/2m0; the warped bands give each band's density-of-states mass.
 """
@@ -27,7 +28,7 @@ def effective_hamiltonian_in_q(states: Eigenstates, subspace: np.ndarray,
                                q_cart_invA: np.ndarray) -> np.ndarray:
     """Second-order Löwdin effective Hamiltonian of a degenerate set at k0 + q (eV).
 
-    The unperturbed energies are E_n(k0), the perturbation W(q) = 2C q·π + C q² (the k·p
+    The unperturbed energies are E_n(k0), the perturbation W(q) = 2C q·π + βC q² (the k·p
     Hamiltonian in the basis of k0 eigenstates), partitioned with
     :func:`bandpert.perturbation.lowdin_effective_hamiltonian` at order 2. Exactly quadratic
     in q (plus the first-order q·π within the set, which vanishes by symmetry at Γ of a cubic
@@ -35,7 +36,7 @@ def effective_hamiltonian_in_q(states: Eigenstates, subspace: np.ndarray,
     """
     q = np.asarray(q_cart_invA, dtype=float)
     w = 2.0 * C * np.einsum("i,inm->nm", q, states.momentum_invA)
-    w = w + C * (q @ q) * np.eye(w.shape[0])
+    w = w + states.kinetic_factor * C * (q @ q) * np.eye(w.shape[0])
     return lowdin_effective_hamiltonian(states.energies_eV, w, subspace, order=2,
                                         degeneracy_tol=DEGENERACY_TOL_EV * 0.1)
 

@@ -41,9 +41,11 @@ def splittings(e: np.ndarray, band: int) -> np.ndarray:
 
 
 def momentum(model: PlaneWaveModel, k: np.ndarray, vectors: np.ndarray) -> np.ndarray:
-    """π^i_nm = Σ_G c_n*(G) c_m(G) (k + G)_i (Å⁻¹) between the given eigenvectors."""
+    """π^i_nm = β Σ_G c_n*(G) c_m(G) (k + G)_i (Å⁻¹) between the given eigenvectors, so that
+    ⟨n|∂H/∂k_i|m⟩ = 2C π^i_nm (β the model's kinetic factor)."""
     kg = k[None, :] + model.basis.g_cart_invA
-    return np.einsum("gn,gi,gm->inm", vectors.conj(), kg, vectors, optimize=True)
+    return model.kinetic_factor * np.einsum("gn,gi,gm->inm", vectors.conj(), kg, vectors,
+                                            optimize=True)
 
 
 @dataclass(frozen=True)

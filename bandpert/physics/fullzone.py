@@ -2,9 +2,10 @@
 
 In the basis of the lowest N eigenstates |n⟩ of H(k0), the plane-wave Hamiltonian at k0 + q is
 
-    H_nm(k0 + q) = E_n(k0) δ_nm + 2C q·π_nm + C q² δ_nm,      C = ħ²/2m0,
+    H_nm(k0 + q) = E_n(k0) δ_nm + 2C q·π_nm + βC q² δ_nm,     C = ħ²/2m0,
 
-with π_nm = p_nm/ħ (see :mod:`bandpert.physics.mass_tensor`). Keeping every basis state it is a
+with π_nm = β p_nm/ħ and β the kinetic factor (:mod:`bandpert.physics.mass_tensor`). Keeping
+every basis state it is a
 unitary transform of the plane-wave H(k0 + q) and gives the exact bands; truncating to N states is
 the full-zone k·p method of Cardona & Pollak, Phys. Rev. 142, 530 (1966).
 
@@ -65,7 +66,8 @@ def kp_basis_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis: 
     for s in range(0, len(q), step):
         qs = q[s:s + step]
         h = 2.0 * C * np.einsum("ki,inm->knm", qs, pi)
-        diag = states.energies_eV[None, :] + C * np.einsum("ki,ki->k", qs, qs)[:, None]
+        diag = (states.energies_eV[None, :]
+                + states.kinetic_factor * C * np.einsum("ki,ki->k", qs, qs)[:, None])
         idx = np.arange(n_basis)
         h[:, idx, idx] += diag
         out[s:s + step] = np.linalg.eigvalsh(h)[:, :n_bands]

@@ -11,6 +11,10 @@ and second-order perturbation theory in q = k − k0 gives (Kittel, *Quantum The
     (m0/m*)_ij = δ_ij + (2/m0) Σ_{l≠n} Re(p^i_nl p^j_ln)/(E_n − E_l)
                = δ_ij + 4C Σ_{l≠n} Re(π^i_nl π^j_ln)/(E_n − E_l).
 
+With the kinetic term β C|k+G|² of a scaled kinetic energy (``potential.kinetic_factor``;
+Wang & Zunger, Phys. Rev. B 51, 17398 (1995), from memory) the velocity is 2βC(k+G): π carries
+β and the free term δ_ij becomes β δ_ij.
+
 With every basis state kept in the sum this is the exact curvature of the finite-basis band.
 This module holds the eigenstates at k0, the sum-over-states tensor, its principal masses and
 axes, and its two checks (finite differences of the exact band, convergence with the states
@@ -45,20 +49,25 @@ class Eigenstates:
     vectors : numpy.ndarray
         (n_G, n) eigenvectors as columns.
     momentum_invA : numpy.ndarray
-        (d, n, n) π^i_nm = p^i_nm/ħ in Å⁻¹.
+        (d, n, n) π^i_nm = β p^i_nm/ħ in Å⁻¹, so that ⟨n|∂H/∂k_i|m⟩ = 2C π^i_nm (β the model's
+        kinetic factor, 1 for the free-electron mass).
+    kinetic_factor : float
+        β: the free-electron term of the curvature is 2βC.
     """
 
     k0_cart_invA: np.ndarray
     energies_eV: np.ndarray
     vectors: np.ndarray
     momentum_invA: np.ndarray
+    kinetic_factor: float = 1.0
 
 
 def eigenstates(model: PlaneWaveModel, k0_cart_invA: np.ndarray,
                 n_states: int | None = None) -> Eigenstates:
     """Eigenstates of H(k0) and their momentum matrix elements.
 
-    π^i_nm = Σ_G c_n*(G) c_m(G) (k0 + G)_i, computed as C† diag(k0+G)_i C for all i at once.
+    π^i_nm = β Σ_G c_n*(G) c_m(G) (k0 + G)_i, computed as C† diag(k0+G)_i C for all i at once
+    (β the kinetic factor of H0 = β C|k+G|²).
 
     Parameters
     ----------
@@ -84,8 +93,10 @@ def eigenstates(model: PlaneWaveModel, k0_cart_invA: np.ndarray,
     else:
         w, c = scipy.linalg.eigh(h, driver="evd", check_finite=False)
     kg = k0[None, :] + model.basis.g_cart_invA  # (n_G, d)
-    pi = np.einsum("gn,gi,gm->inm", c.conj(), kg, c, optimize=True)
-    return Eigenstates(k0_cart_invA=k0, energies_eV=w, vectors=c, momentum_invA=pi)
+    beta = model.kinetic_factor
+    pi = beta * np.einsum("gn,gi,gm->inm", c.conj(), kg, c, optimize=True)
+    return Eigenstates(k0_cart_invA=k0, energies_eV=w, vectors=c, momentum_invA=pi,
+                       kinetic_factor=beta)
 
 
 def degenerate_set(states: Eigenstates, band: int, tol_eV: float = DEGENERACY_TOL_EV) -> np.ndarray:
@@ -98,7 +109,8 @@ def inverse_mass_tensor(states: Eigenstates, band: int, n_sum: int | None = None
                         check: bool = True) -> np.ndarray:
     """(m0/m*)_ij of a non-degenerate band by the sum over states.
 
-    (m0/m*)_ij = δ_ij + 4C Σ_{l≠n} Re(π^i_nl π^j_ln)/(E_n − E_l), C = ħ²/2m0 (module docstring).
+    (m0/m*)_ij = β δ_ij + 4C Σ_{l≠n} Re(π^i_nl π^j_ln)/(E_n − E_l), C = ħ²/2m0 (module
+    docstring; β the kinetic factor, carried in π).
 
     Parameters
     ----------
@@ -128,7 +140,7 @@ def inverse_mass_tensor(states: Eigenstates, band: int, n_sum: int | None = None
     weight = 1.0 / (e[band] - e[others])
     tensor = np.einsum("il,jl,l->ij", pi_n, pi_n.conj(), weight).real
     d = tensor.shape[0]
-    return np.eye(d) + 4.0 * C * 0.5 * (tensor + tensor.T)
+    return states.kinetic_factor * np.eye(d) + 4.0 * C * 0.5 * (tensor + tensor.T)
 
 
 @dataclass(frozen=True)

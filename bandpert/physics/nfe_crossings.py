@@ -14,7 +14,6 @@ import numpy as np
 from ..crystal.lattice import standard_path
 from ..input.material import Material
 from ..planewave.model import PlaneWaveModel
-from ..units import HBAR2_OVER_2M0_EV_A2
 
 __all__ = ["DEGENERACY_TOLERANCE_EV", "PathCrossing", "free_electron_groups", "path_crossings"]
 
@@ -147,7 +146,7 @@ def path_crossings(model: PlaneWaveModel, material: Material, n_levels: int,
         # minimum of the convex |c0 + t dk + G|² over t in [0, 1]
         t_min = np.clip(-((c0 + g) @ dk) / dk2, 0.0, 1.0)
         kg = c0 + t_min[:, None] * dk + g
-        e_min = HBAR2_OVER_2M0_EV_A2 * np.einsum("ij,ij->i", kg, kg)
+        e_min = model.kinetic_constant_eV_A2 * np.einsum("ij,ij->i", kg, kg)
         bound = np.sort(e_ends.max(axis=0))[min(n_levels, n) - 1]
         cand = np.flatnonzero(e_min <= bound + tol_eV)
         d0 = e_ends[0, cand][:, None] - e_ends[0, cand][None, :]

@@ -243,7 +243,8 @@ def fixed_superset_model(material: Material, cutoff_eV: float, k_cart_invA: np.n
                  np.ascontiguousarray(full.structure[:, keep][:, :, keep]))
     return PlaneWaveModel(basis=basis, reciprocal_invA=full.reciprocal_invA,
                           potential_eV=np.ascontiguousarray(full.potential_eV[np.ix_(keep, keep)]),
-                          spin_orbit=full.spin_orbit, structure=structure)
+                          spin_orbit=full.spin_orbit, structure=structure,
+                          kinetic_factor=full.kinetic_factor)
 
 
 @dataclass(frozen=True)

@@ -11,8 +11,9 @@ which the irreducible-representation labels use too, so classifying adds no diag
   perturbation theory in q = k − k0 (the k·p sum over states; Kittel, *Quantum Theory of
   Solids*, 1963, ch. 9),
 
-  ∂²E_n/∂k_i∂k_j = 2C δ_ij + Σ_{m≠n} 2 Re[p_i^{nm} p_j^{mn}] / (E_n − E_m),
-  p_i = ∂H/∂k_i = 2C (k + G)_i δ_GG′, C = ħ²/2m0,
+  ∂²E_n/∂k_i∂k_j = 2βC δ_ij + Σ_{m≠n} 2 Re[p_i^{nm} p_j^{mn}] / (E_n − E_m),
+  p_i = ∂H/∂k_i = 2βC (k + G)_i δ_GG′, C = ħ²/2m0 (β the kinetic factor, 1 for the
+  free-electron mass),
 
   exact for the basis because H(k0 + q) is quadratic in q; its eigenvalues / 2C are the signed
   principal m0/m*; its symmetrised form (1/|G_k|) Σ_R R H Rᵀ over the little co-group differs
@@ -21,7 +22,7 @@ which the irreducible-representation labels use too, so classifying adds no diag
   bands are not smooth functions of k there. If the multiplet splits linearly in q (q·p inside
   the set beyond its mean: the X1 pair of diamond) it is a **crossing**, not a critical point.
   Otherwise the second-order (Löwdin) block
-  M_ij^{ab} = C δ_ij δ_ab + ½ Σ_{m∉D} [p_i^{am} p_j^{mb} + p_j^{am} p_i^{mb}] / (E_D − E_m)
+  M_ij^{ab} = βC δ_ij δ_ab + ½ Σ_{m∉D} [p_i^{am} p_j^{mb} + p_j^{am} p_i^{mb}] / (E_D − E_m)
   gives each band of the set the curvature λ_a(u)/C along each unit u (its a-th eigenvalue of
   u_i u_j M_ij): a band curving up (down) along every one of 200 directions is classified M0
   (M3) *by the degenerate block*; mixed signs make it a saddle, of index 1 or 2 where the
@@ -169,15 +170,16 @@ class PointCriticalPoints:
     note: str
 
 
-def _momentum_rows(vectors: np.ndarray, kg: np.ndarray, bands: np.ndarray) -> np.ndarray:
-    """p_i^{nm} = 2C Σ_G c_n*(G) (k+G)_i c_m(G) for n in ``bands`` and every m: (d, nb, n)."""
+def _momentum_rows(vectors: np.ndarray, kg: np.ndarray, bands: np.ndarray, beta: float
+                   ) -> np.ndarray:
+    """p_i^{nm} = 2βC Σ_G c_n*(G) (k+G)_i c_m(G) for n in ``bands`` and every m: (d, nb, n)."""
     rows = vectors[:, bands].conj().T  # (nb, n_G)
-    return 2.0 * C * np.stack([(rows * kg[:, i]) @ vectors for i in range(kg.shape[1])])
+    return 2.0 * beta * C * np.stack([(rows * kg[:, i]) @ vectors for i in range(kg.shape[1])])
 
 
 def sum_over_states_hessian(energies_eV: np.ndarray, p_row: np.ndarray, band: int,
-                            exclude: np.ndarray) -> np.ndarray:
-    """∂²E_n/∂k_i∂k_j = 2C δ_ij + Σ_m 2 Re[p_i^{nm} p_j^{mn}]/(E_n − E_m) (eV Å²).
+                            exclude: np.ndarray, kinetic_factor: float = 1.0) -> np.ndarray:
+    """∂²E_n/∂k_i∂k_j = 2βC δ_ij + Σ_m 2 Re[p_i^{nm} p_j^{mn}]/(E_n − E_m) (eV Å²).
 
     Parameters
     ----------
@@ -189,12 +191,14 @@ def sum_over_states_hessian(energies_eV: np.ndarray, p_row: np.ndarray, band: in
         n.
     exclude : numpy.ndarray
         Indices left out of the sum (n itself, and its level).
+    kinetic_factor : float
+        β of the kinetic term β C|k+G|².
     """
     keep = np.ones(energies_eV.size, dtype=bool)
     keep[exclude] = False
     p = p_row[:, keep]
     t = np.einsum("im,jm,m->ij", p, p.conj(), 1.0 / (energies_eV[band] - energies_eV[keep]))
-    return 2.0 * C * np.eye(p_row.shape[0]) + 2.0 * t.real
+    return 2.0 * kinetic_factor * C * np.eye(p_row.shape[0]) + 2.0 * t.real
 
 
 def _by_index(index: int, d: int) -> str:
@@ -220,7 +224,7 @@ def _block_curvatures(block: np.ndarray, u: np.ndarray) -> np.ndarray:
     return np.linalg.eigvalsh(h) / C
 
 
-def _degenerate_level(e: np.ndarray, p: np.ndarray, group: np.ndarray, d: int
+def _degenerate_level(e: np.ndarray, p: np.ndarray, group: np.ndarray, d: int, beta: float
                       ) -> tuple[str, float, float, tuple[BandCriticalPoint, ...]]:
     """(method, |mean gradient|, linear splitting, bands) of a multiplet (module docstring)."""
     inner = p[:, :, group]  # (d, g, g)
@@ -234,7 +238,7 @@ def _degenerate_level(e: np.ndarray, p: np.ndarray, group: np.ndarray, d: int
     keep[group] = False
     q = p[:, :, keep]  # (d, g, M)
     t = np.einsum("iam,jbm,m->ijab", q, q.conj(), 1.0 / (e[group].mean() - e[keep]))
-    block = 0.5 * (t + t.transpose(1, 0, 2, 3)) + C * np.einsum(
+    block = 0.5 * (t + t.transpose(1, 0, 2, 3)) + beta * C * np.einsum(
         "ij,ab->ijab", np.eye(d), np.eye(group.size))
     u = fibonacci_directions(DIRECTIONS, d)
     values = _block_curvatures(block, u)  # (N, g)
@@ -255,7 +259,8 @@ def _degenerate_level(e: np.ndarray, p: np.ndarray, group: np.ndarray, d: int
 
 def classify_levels(energies_eV: np.ndarray, vectors: np.ndarray, kg_cart_invA: np.ndarray,
                     levels: list[tuple[int, int]],
-                    rotations_cart: np.ndarray | None = None) -> tuple[LevelCriticalPoint, ...]:
+                    rotations_cart: np.ndarray | None = None, kinetic_factor: float = 1.0
+                    ) -> tuple[LevelCriticalPoint, ...]:
     """Classify each level of one k-point from the full eigen-decomposition there.
 
     Parameters
@@ -270,6 +275,8 @@ def classify_levels(energies_eV: np.ndarray, vectors: np.ndarray, kg_cart_invA: 
         (first band, degeneracy) of each level to classify.
     rotations_cart : numpy.ndarray, optional
         (r, d, d) Cartesian rotations of the little co-group, for the symmetry residual.
+    kinetic_factor : float
+        β of the model's kinetic term β ħ²|k+G|²/2m0.
 
     Returns
     -------
@@ -280,13 +287,14 @@ def classify_levels(energies_eV: np.ndarray, vectors: np.ndarray, kg_cart_invA: 
         return ()
     top = max(a + g for a, g in levels)
     bands = np.arange(top)
-    p = _momentum_rows(np.asarray(vectors), np.asarray(kg_cart_invA, dtype=float), bands)
+    p = _momentum_rows(np.asarray(vectors), np.asarray(kg_cart_invA, dtype=float), bands,
+                       kinetic_factor)
     d = p.shape[0]
     out = []
     for a, g in levels:
         group = np.arange(a, a + g)
         if g == 1:
-            h = sum_over_states_hessian(e, p[:, a, :], a, group)
+            h = sum_over_states_hessian(e, p[:, a, :], a, group, kinetic_factor)
             h = 0.5 * (h + h.T)
             gradient = float(np.linalg.norm(np.real(p[:, a, a])))
             w = np.linalg.eigvalsh(h / (2.0 * C))
@@ -298,7 +306,8 @@ def classify_levels(energies_eV: np.ndarray, vectors: np.ndarray, kg_cart_invA: 
             out.append(LevelCriticalPoint(a, 1, float(e[a]), "hessian", gradient, h,
                                           _symmetry_residual(h, rotations_cart), 0.0, (band,)))
         else:
-            method, gradient, linear, bcps = _degenerate_level(e, p[:, group, :], group, d)
+            method, gradient, linear, bcps = _degenerate_level(e, p[:, group, :], group, d,
+                                                               kinetic_factor)
             out.append(LevelCriticalPoint(a, g, float(e[group].mean()), method, gradient, None,
                                           None, linear, bcps))
     return tuple(out)
@@ -376,6 +385,6 @@ def label_and_classify(material: Material, cutoff_eV: float, points: dict[str, n
         levels = [(lv.first_band, lv.degeneracy) for lv in ps.levels]
         labels.append(ps)
         with single_blas_thread():  # small products: threads only contend
-            classified = classify_levels(w, v, kg, levels, rot)
+            classified = classify_levels(w, v, kg, levels, rot, model.kinetic_factor)
         critical.append(PointCriticalPoints(lab, k, classified, ""))
     return tuple(labels), tuple(critical)

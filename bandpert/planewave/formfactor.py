@@ -216,6 +216,17 @@ class ContinuousFit:
         }
 
 
+def with_kinetic_factor(table: dict[str, Any], document: dict[str, Any]) -> dict[str, Any]:
+    """``table`` (a new ``[potential]`` table) with the ``kinetic_factor`` of ``document``'s.
+
+    β belongs to H0, not to v(q): a potential rewritten in another form keeps it.
+    """
+    old = document.get("potential")
+    if isinstance(old, dict) and "kinetic_factor" in old:
+        return {**table, "kinetic_factor": old["kinetic_factor"]}
+    return table
+
+
 def _lattice_shells(material: Material, q_max_invA: float
                     ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Non-zero lattice G up to q_max: Miller indices, Cartesian G, and a shell label per G."""
@@ -431,7 +442,7 @@ def continuous_document(doc: dict[str, Any], source: str = "",
     """
     fit = fit_continuous_potential(parse_material(doc, source), shared=shared)
     out = copy.deepcopy(doc)
-    out["potential"] = fit.potential_table()
+    out["potential"] = with_kinetic_factor(fit.potential_table(), doc)
     out["source"] = (f"{doc['source']}; continuous form factors v(q) of Friedel, Hybertsen & "
                      "Schlüter, Phys. Rev. B 39, 7974 (1989) fitted to them by bandpert")
     return out

@@ -345,10 +345,11 @@ def iterative_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.nd
     step = max(1, n_k // 50)
     for i, kk in enumerate(k):
         kg = kk + g_all
-        kinetic_all = HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", kg, kg)
+        free_all = HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", kg, kg)  # the cutoff's
+        kinetic_all = model.kinetic_factor * free_all  # H0's diagonal
         if centred:
-            lowest = np.partition(kinetic_all, n_bands - 1)[n_bands - 1]
-            sel = np.flatnonzero(kinetic_all <= max(limit, lowest * (1 + 1e-12)))
+            lowest = np.partition(free_all, n_bands - 1)[n_bands - 1]
+            sel = np.flatnonzero(free_all <= max(limit, lowest * (1 + 1e-12)))
         else:
             sel = np.arange(len(kinetic_all))
         kinetic = kinetic_all[sel]

@@ -2,10 +2,11 @@
 
 On a fixed set of plane waves {G} the local model is exactly quadratic in k:
 
-    H(k) = H0 + (ħ²/m0) Σ_i k_i Q_i + (ħ²/2m0) |k|² 1,
-    H0 = V + diag(ħ²|G|²/2m0),  Q_i = diag(G_i),
+    H(k) = H0 + β(ħ²/m0) Σ_i k_i Q_i + β(ħ²/2m0) |k|² 1,
+    H0 = V + diag(β ħ²|G|²/2m0),  Q_i = diag(G_i),
 
-and p = ħ(k + G) is diagonal in plane waves, so the velocity is (1/ħ) ∂H/∂k = (ħ/m0)(k + Q).
+and p = ħ(k + G) is diagonal in plane waves, so the velocity is (1/ħ) ∂H/∂k = β(ħ/m0)(k + Q)
+(β the model's kinetic factor, 1 for the free-electron mass).
 The same three pieces survive any change to another orthonormal basis B (columns in plane-wave
 coefficients): H0 → B†H0B, Q_i → B†Q_iB, the |k|² term unchanged. This is what makes the
 reduced-basis interpolation of :mod:`bandpert.physics.reduced_basis` cheap: the small matrices are
@@ -108,7 +109,7 @@ class ProjectedSpinOrbit:
 
 @dataclass(frozen=True)
 class KPolynomial:
-    """H(k) = H0 + (ħ²/m0) k·Q + (ħ²/2m0)|k|² on one fixed orthonormal basis.
+    """H(k) = H0 + β(ħ²/m0) k·Q + β(ħ²/2m0)|k|² on one fixed orthonormal basis.
 
     Attributes
     ----------
@@ -119,11 +120,19 @@ class KPolynomial:
         the basis is plane waves; the momentum is p = ħ(k + Q).
     spin_orbit : ProjectedSpinOrbit or None
         The spin–orbit term, added at each k (spinor bases only).
+    kinetic_factor : float
+        β of the kinetic term (:attr:`~bandpert.planewave.model.PlaneWaveModel.kinetic_factor`).
     """
 
     h0_eV: np.ndarray
     q_invA: np.ndarray
     spin_orbit: ProjectedSpinOrbit | None = None
+    kinetic_factor: float = 1.0
+
+    @property
+    def kinetic_constant_eV_A2(self) -> float:
+        """β ħ²/2m0 (eV Å²)."""
+        return self.kinetic_factor * HBAR2_OVER_2M0_EV_A2
 
     @property
     def size(self) -> int:
@@ -137,10 +146,10 @@ class KPolynomial:
         h = np.empty((len(k), self.size, self.size), dtype=dtype)
         h[:] = self.h0_eV
         if self.q_invA.ndim == 3:
-            h += 2.0 * HBAR2_OVER_2M0_EV_A2 * np.tensordot(k, self.q_invA, axes=(1, 0))
+            h += 2.0 * self.kinetic_constant_eV_A2 * np.tensordot(k, self.q_invA, axes=(1, 0))
         else:
             idx = np.arange(self.size)
-            h[:, idx, idx] += 2.0 * HBAR2_OVER_2M0_EV_A2 * (k @ self.q_invA)
+            h[:, idx, idx] += 2.0 * self.kinetic_constant_eV_A2 * (k @ self.q_invA)
         if self.spin_orbit is not None:
             h += self.spin_orbit.matrices(k)
         return h
@@ -168,7 +177,8 @@ class KPolynomial:
         for s in starts:
             kb = k[s:s + block]
             w = np.linalg.eigvalsh(self.hamiltonians(kb))[:, :n_bands]
-            out[s:s + len(kb)] = w + HBAR2_OVER_2M0_EV_A2 * np.einsum("ki,ki->k", kb, kb)[:, None]
+            out[s:s + len(kb)] = w + self.kinetic_constant_eV_A2 * np.einsum("ki,ki->k", kb,
+                                                                              kb)[:, None]
         return out
 
     def eigensystem(self, k_cart_invA: np.ndarray, n_bands: int
@@ -185,15 +195,16 @@ class KPolynomial:
         self._check(n_bands)
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
         w, c = np.linalg.eigh(self.hamiltonians(k))
-        shift = HBAR2_OVER_2M0_EV_A2 * np.einsum("ki,ki->k", k, k)[:, None]
+        shift = self.kinetic_constant_eV_A2 * np.einsum("ki,ki->k", k, k)[:, None]
         return w[:, :n_bands] + shift, c[:, :, :n_bands]
 
     def momentum(self, k_cart_invA: np.ndarray, vectors: np.ndarray) -> np.ndarray:
         """Velocity matrix elements as (m0/ħ²)⟨n|∂H/∂k|m⟩ between eigenvectors, (n_k, d, n_b, n_b).
 
-        In Å⁻¹: for the local model this is ⟨n|k + G|m⟩, p_nm = ħ⟨n|k + G|m⟩, exact in this
-        basis (H is quadratic in k with the free-electron k² term). With spin–orbit coupling
-        the velocity is (1/ħ)∂H/∂k, not p/m0: the term (m0/ħ²)⟨n|∂H_so/∂k|m⟩ is added, from
+        In Å⁻¹: for the local model this is β⟨n|k + G|m⟩ (β the kinetic factor; p_nm =
+        ħ⟨n|k + G|m⟩), exact in this basis (H is quadratic in k with the k² term β ħ²k²/2m0).
+        With spin–orbit coupling the velocity is (1/ħ)∂H/∂k, not p/m0: the term
+        (m0/ħ²)⟨n|∂H_so/∂k|m⟩ is added, from
         central differences of the projected H_so (step :data:`VELOCITY_STEP_INVA`, error
         O(step²)).
         """
@@ -204,7 +215,7 @@ class KPolynomial:
             qc = np.einsum("iab,kbm->kiam", self.q_invA, vectors)
         out = np.einsum("kan,kiam->kinm", vectors.conj(), qc)
         eye = np.eye(vectors.shape[2])
-        out = out + k[:, :, None, None] * eye
+        out = self.kinetic_factor * (out + k[:, :, None, None] * eye)
         if self.spin_orbit is not None:
             h = VELOCITY_STEP_INVA
             for axis in range(k.shape[1]):
@@ -227,14 +238,16 @@ class KPolynomial:
             q = np.einsum("ab,ibc,cd->iad", bh, self.q_invA, b, optimize=True)
         so = None if self.spin_orbit is None else self.spin_orbit.project(b)
         return KPolynomial(h0_eV=0.5 * (h0 + h0.conj().T),
-                           q_invA=0.5 * (q + np.swapaxes(q, 1, 2).conj()), spin_orbit=so)
+                           q_invA=0.5 * (q + np.swapaxes(q, 1, 2).conj()), spin_orbit=so,
+                           kinetic_factor=self.kinetic_factor)
 
 
 def k_polynomial(model: PlaneWaveModel) -> KPolynomial:
     """The fixed-basis plane-wave model as H0, Q (:class:`KPolynomial`).
 
-    H0 = V + diag(ħ²|G|²/2m0) and Q_i = diag(G_i) on the model's plane waves, so that
-    H0 + (ħ²/m0) k·Q + (ħ²/2m0)|k|² equals ``model.hamiltonian(k)`` at every k. With
+    H0 = V + diag(β ħ²|G|²/2m0) and Q_i = diag(G_i) on the model's plane waves, so that
+    H0 + β(ħ²/m0) k·Q + β(ħ²/2m0)|k|² equals ``model.hamiltonian(k)`` at every k (β the
+    model's kinetic factor, 1 for the free-electron mass). With
     spin–orbit coupling on spinor plane waves: 1₂ ⊗ H0, Q ⊗ 1₂ and the term
     :class:`ProjectedSpinOrbit` added per k.
 
@@ -252,12 +265,13 @@ def k_polynomial(model: PlaneWaveModel) -> KPolynomial:
         raise InputError("nonlocal terms are not polynomial in k and are not projected; "
                          "expected a material without a nonlocal table", key="nonlocal")
     idx = np.arange(model.size)
-    h0[idx, idx] += HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", g, g)
+    h0[idx, idx] += model.kinetic_constant_eV_A2 * np.einsum("gi,gi->g", g, g)
+    beta = model.kinetic_factor
     if model.spin_orbit is None:
-        return KPolynomial(h0_eV=h0, q_invA=np.ascontiguousarray(g.T))
+        return KPolynomial(h0_eV=h0, q_invA=np.ascontiguousarray(g.T), kinetic_factor=beta)
     n = model.size
     spinor = np.zeros((2 * n, 2 * n), dtype=complex)
     spinor[:n, :n] = h0
     spinor[n:, n:] = h0
     return KPolynomial(h0_eV=spinor, q_invA=np.ascontiguousarray(np.tile(g.T, (1, 2))),
-                       spin_orbit=ProjectedSpinOrbit(model))
+                       spin_orbit=ProjectedSpinOrbit(model), kinetic_factor=beta)

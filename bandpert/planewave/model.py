@@ -66,6 +66,9 @@ class PlaneWaveModel:
     nonlocal_term : NonlocalTerm or None
         The nonlocal square wells (:mod:`~bandpert.planewave.nonlocal_term`); None for a local
         potential.
+    kinetic_factor : float
+        β of H0 = β ħ²|k+G|²/2m0 (1: the free-electron mass; the material's
+        ``potential.kinetic_factor``). Every velocity ∂H0/∂k and curvature ∂²H0/∂k² carries it.
     """
 
     basis: PlaneWaveBasis
@@ -74,6 +77,12 @@ class PlaneWaveModel:
     spin_orbit: SpinOrbitTerm | None = None
     structure: np.ndarray | None = field(default=None, repr=False)
     nonlocal_term: NonlocalTerm | None = None
+    kinetic_factor: float = 1.0
+
+    @property
+    def kinetic_constant_eV_A2(self) -> float:
+        """β ħ²/2m0 (eV Å²): H0 = this × |k+G|²."""
+        return self.kinetic_factor * HBAR2_OVER_2M0_EV_A2
 
     @property
     def k_dependent(self) -> bool:
@@ -106,10 +115,10 @@ class PlaneWaveModel:
         return self.spin_orbit.coupling(k + self.basis.g_cart_invA, self.structure)
 
     def kinetic_eV(self, k_cart_invA: np.ndarray) -> np.ndarray:
-        """H0: ħ²|k+G|²/2m0 for each k (rows) and G (columns), shape (n_k, n) in eV."""
+        """H0: β ħ²|k+G|²/2m0 for each k (rows) and G (columns), shape (n_k, n) in eV."""
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
         kg = k[:, None, :] + self.basis.g_cart_invA[None, :, :]
-        return HBAR2_OVER_2M0_EV_A2 * np.einsum("kgi,kgi->kg", kg, kg)
+        return self.kinetic_constant_eV_A2 * np.einsum("kgi,kgi->kg", kg, kg)
 
     def unperturbed_eV(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """Diagonal of H0 ⊗ 1 in the layout of :meth:`hamiltonian`, shape (n_k, matrix_size).
@@ -197,12 +206,14 @@ def _model(material: Material, basis: PlaneWaveBasis, b: np.ndarray) -> PlaneWav
     v = _potential_matrix(material, basis.miller)
     term = spin_orbit_term(material)
     wells = nonlocal_term(material)
+    beta = material.potential.kinetic_factor
     if term is None and wells is None:
-        return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v)
+        return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v,
+                              kinetic_factor=beta)
     diff = basis.miller[:, None, :] - basis.miller[None, :, :]
     return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v, spin_orbit=term,
                           structure=structure_factors(material, diff)[1],
-                          nonlocal_term=wells)
+                          nonlocal_term=wells, kinetic_factor=beta)
 
 
 def _potential_matrix(material: Material, miller: np.ndarray) -> np.ndarray:
@@ -296,6 +307,16 @@ class KCentredModel:
     def k_dependent(self) -> bool:
         """True when spin–orbit or nonlocal terms make H(k) − H0(k) depend on k."""
         return self.gamma.k_dependent
+
+    @property
+    def kinetic_factor(self) -> float:
+        """β of H0 = β ħ²|k+G|²/2m0 (:class:`PlaneWaveModel`)."""
+        return self.gamma.kinetic_factor
+
+    @property
+    def kinetic_constant_eV_A2(self) -> float:
+        """β ħ²/2m0 (eV Å²) of H0 = β ħ²|k+G|²/2m0 (:class:`PlaneWaveModel`)."""
+        return self.gamma.kinetic_constant_eV_A2
 
     @property
     def size(self) -> int:

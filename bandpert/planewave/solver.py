@@ -238,11 +238,12 @@ def _k_centred_energies(model: KCentredModel, k_cart_invA: np.ndarray, n_bands: 
         for start in range(0, n_k, block):
             stop = min(n_k, start + block)
             kg = k[start:stop, None, :] + g[None, :, :]
-            kinetic = HBAR2_OVER_2M0_EV_A2 * np.einsum("kgi,kgi->kg", kg, kg)
+            free = HBAR2_OVER_2M0_EV_A2 * np.einsum("kgi,kgi->kg", kg, kg)  # the cutoff's
+            kinetic = model.kinetic_factor * free  # H0's diagonal
             # at a cutoff so small that some k holds fewer plane waves than bands, that k takes
             # the whole shells up to its n_bands-th lowest plane wave (still symmetric)
-            lowest = np.partition(kinetic, n_bands - 1, axis=1)[:, n_bands - 1]
-            inside = kinetic <= np.maximum(limit, lowest * (1 + 1e-12))[:, None]
+            lowest = np.partition(free, n_bands - 1, axis=1)[:, n_bands - 1]
+            inside = free <= np.maximum(limit, lowest * (1 + 1e-12))[:, None]
             sizes = inside.sum(axis=1)
             if sizes.min() < n_bands:
                 raise InputError(f"{n_bands} bands asked for but the basis at some k holds only "
@@ -359,9 +360,9 @@ def per_k_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.nd
     for kk in k:
         if centred:
             kg_all = kk + g_all
-            kinetic_all = HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", kg_all, kg_all)
-            lowest = np.partition(kinetic_all, min_plane_waves - 1)[min_plane_waves - 1]
-            inside = kinetic_all <= max(limit, lowest * (1 + 1e-12))
+            free_all = HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", kg_all, kg_all)
+            lowest = np.partition(free_all, min_plane_waves - 1)[min_plane_waves - 1]
+            inside = free_all <= max(limit, lowest * (1 + 1e-12))
             if members is None or not np.array_equal(inside, members):
                 members = inside
                 sel = np.flatnonzero(inside)
@@ -370,7 +371,7 @@ def per_k_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.nd
                 base = table[diff]
                 structure = structure_rows[:, diff]
                 g = g_all[sel]
-            kinetic = kinetic_all[sel]
+            kinetic = model.kinetic_factor * free_all[sel]
         else:
             kinetic = model.kinetic_eV(kk)[0]
         n = len(g)

@@ -335,18 +335,19 @@ def k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int | N
                      ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Miller indices of the basis centred on k, and its lowest eigenpairs.
 
-    H_ij = ħ²|k+G_i|²/2m0 δ_ij + V(G_i − G_j), gathered from the model's table of V
+    H_ij = β ħ²|k+G_i|²/2m0 δ_ij + V(G_i − G_j) (β the kinetic factor), gathered from the
+    model's table of V
     (:meth:`bandpert.planewave.model.KCentredModel.candidates`), in the basis
     {G : ħ²|k+G|²/2m0 ≤ cutoff}, which every little-group operation maps onto itself.
     ``n_states`` None: every eigenpair (the full decomposition).
     """
     cand, flat, table, origin = model.candidates(float(np.linalg.norm(k_cart)))
     kg = k_cart + cand.g_cart_invA
-    kinetic = HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", kg, kg)
-    inside = np.flatnonzero(kinetic <= model.cutoff_eV * (1 + 1e-12))
+    free = HBAR2_OVER_2M0_EV_A2 * np.einsum("gi,gi->g", kg, kg)  # the cutoff's measure
+    inside = np.flatnonzero(free <= model.cutoff_eV * (1 + 1e-12))
     codes = flat[inside]
     h = table[origin + codes[:, None] - codes[None, :]]
-    h[np.diag_indices(inside.size)] += kinetic[inside]
+    h[np.diag_indices(inside.size)] += model.kinetic_factor * free[inside]
     if model.nonlocal_term is not None:  # nonlocal wells, built per k (planewave.nonlocal_term)
         s = model.structure_table(float(np.linalg.norm(k_cart)))
         pairs = origin + codes[:, None] - codes[None, :]
