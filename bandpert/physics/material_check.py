@@ -101,7 +101,14 @@ class MaterialCheck:
 
 
 def potential_summary(material: Material) -> str:
-    """One line on a material's potential: its form, what it holds, the file's unit."""
+    """One line on a material's potential: its form, what it holds, the file's unit (and the
+    kinetic factor β of H0 = β ħ²|k+G|²/2m0 when it is not 1)."""
+    beta = material.potential.kinetic_factor
+    text = _potential_form(material)
+    return text if beta == 1.0 else f"{text}; kinetic factor β = {beta:.6g}"
+
+
+def _potential_form(material: Material) -> str:
     p = material.potential
     if p.form == "empty":
         return "empty lattice (V = 0)"

@@ -31,6 +31,10 @@ STRAIN_COMPONENTS = {"xx": (0, 0), "yy": (1, 1), "zz": (2, 2), "xy": (0, 1), "xz
 #: Integer keys that count something: the two ends of an alloy must agree on them.
 COUNT_KEYS = ("electrons.valence", "basis.bands")
 
+#: Optional numeric keys a sweep or a fit may vary although the file omits them, with the value
+#: an absent key means (the kinetic factor β of H0 = β ħ²|k+G|²/2m0).
+OPTIONAL_NUMBERS = {"potential.kinetic_factor": 1.0}
+
 #: Largest number of parameter points one sweep accepts.
 MAX_POINTS = 100_000
 
@@ -122,7 +126,13 @@ def _split_key(key: str) -> list[str | int]:
 
 
 def get_value(doc: dict[str, Any], key: str, source: str = "") -> Any:
-    """The value at a dotted key of a document (InputError naming the key if absent)."""
+    """The value at a dotted key of a document (InputError naming the key if absent; an absent
+    key of :data:`OPTIONAL_NUMBERS` under a table the file has gives its default)."""
+    if key in OPTIONAL_NUMBERS:
+        parent, _, last = key.rpartition(".")
+        table = get_value(doc, parent, source)
+        if isinstance(table, dict) and last not in table:
+            return OPTIONAL_NUMBERS[key]
     node: Any = doc
     walked = ""
     for step in _split_key(key):
