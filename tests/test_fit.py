@@ -51,9 +51,12 @@ def test_hellmann_feynman_jacobian_equals_finite_differences():
     # source: Hellmann–Feynman theorem (H. Hellmann 1937; R. P. Feynman, Phys. Rev. 56, 340
     # (1939)): dE_n/dp = <n|dH/dp|n>; checked against central differences of the eigenvalues
     doc, path = silicon_doc()
+    # the kinetic factor is absent from the file (default 1) and changes H0 itself
     keys = ["potential.symmetric[0]", "potential.symmetric[2]",
-            "spin_orbit.species.Si.strength_eV", "lattice.a_A"]
-    spec = parse_targets(targets_doc(keys, ENERGIES), "t.toml", parse_material(doc, path))
+            "spin_orbit.species.Si.strength_eV", "lattice.a_A", "potential.kinetic_factor"]
+    assert "kinetic_factor" not in doc["potential"]
+    spec = parse_targets(targets_doc(keys, ENERGIES + [MASS]), "t.toml",
+                         parse_material(doc, path))
     fit = Fit(doc, path, spec)
     hf = fit.jacobian(fit.start)
     fd = fit.jacobian(fit.start, finite_differences=True)

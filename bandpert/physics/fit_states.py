@@ -137,7 +137,8 @@ class ParameterSlopes:
     depths and radii) changes only some terms of H = 1₂ ⊗ (H0 + V + V_NL(k)) + H_so(k): the
     difference is built from those terms alone (V(p ± δ) once per plane-wave set, V_NL and
     H_so per point only when they change); H0 and every unchanged term cancel exactly. A
-    parameter that moves the lattice takes the difference of the whole matrices.
+    parameter that moves the lattice or changes H0 itself (the kinetic factor β) takes the
+    difference of the whole matrices.
 
     Parameters
     ----------
@@ -162,7 +163,9 @@ class ParameterSlopes:
         base = states.material
         self._terms = []
         for plus, minus, _ in perturbed:
-            if not (_same_lattice(plus, base) and _same_lattice(minus, base)):
+            if not (_same_lattice(plus, base) and _same_lattice(minus, base)
+                    and plus.potential.kinetic_factor == base.potential.kinetic_factor
+                    == minus.potential.kinetic_factor):  # H0 itself changes: whole matrices
                 self._terms.append(None)
                 continue
             so = (spin_orbit_term(plus), spin_orbit_term(minus))
