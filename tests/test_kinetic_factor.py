@@ -53,6 +53,7 @@ def _pair(name: str, beta: float = BETA) -> tuple:
     scaled = copy.deepcopy(doc)
     doc["potential"]["kinetic_factor"] = beta
     pot = scaled["potential"]
+    pot["kinetic_factor"] = 1.0  # a bundled file may carry its own β
     for key in ("symmetric", "antisymmetric"):
         if key in pot:
             pot[key] = [v / beta for v in pot[key]]
