@@ -5,6 +5,8 @@ H0 = ħ²|k+G|²/2m0 ⊗ 1₂, V(k) = 1₂ ⊗ (V + V_NL(k)) + H_so(k), expanded
 
 from __future__ import annotations
 
+import copy
+
 import numpy as np
 import pytest
 from conftest import bundled
@@ -239,3 +241,61 @@ def test_full_zone_projection_of_spinor_models():
     assert np.max(np.abs(whole - exact_energies(model, k, 16))) < 1e-9
     few = projected_energies(model, np.zeros(3), 40, k, 16)
     assert np.all(few >= exact_energies(model, k, 16) - 1e-9)  # Cauchy interlacing
+
+
+def test_sweep_of_a_spin_orbit_file_gives_spinor_edges_and_refuses_spinless_masses():
+    # source: the band structure of the same file at the same cutoff (the sweep's point must
+    # equal a direct calculation), and Kramers pairs counted as two bands (8 valence electrons
+    # fill 8 spinor bands: the gap lies between bands 8 and 9)
+    from bandpert.errors import InputError
+    from bandpert.physics.bands import compute_band_structure
+    from bandpert.runs.execution import Engine
+    from bandpert.runs.sweep import prepare, run_sweep
+    from bandpert.runs.sweep_spec import parse_axis
+
+    material = bundled("silicon-spin-orbit")
+    doc = read_toml_document(material.file)
+    doc.setdefault("basis", {})["cutoff_eV"] = SMALL_CUTOFF_EV
+    axes = (parse_axis("spin_orbit.species.Si.strength_eV=0.0:0.02:2"),)
+    spec, _, note = prepare(doc, str(material.file), axes, ("edges", "gaps"), ("Γ",), n_k=12)
+    assert spec.lower_band == 8
+    result = run_sweep(spec, Engine("serial"), note=note)
+    last_doc = copy.deepcopy(doc)
+    last_doc["spin_orbit"]["species"]["Si"]["strength_eV"] = 0.02
+    direct = compute_band_structure(parse_material(last_doc, "<test>"), n_k=12,
+                                    cutoff_eV=SMALL_CUTOFF_EV, check_cutoff=False)
+    assert result.n_points == 2 and not result.failures
+    last = {name: result.columns[name][-1] for name in ("gap_Γ_eV", "direct_gap_eV", "gap_eV")}
+    assert last["gap_eV"] > 0.3  # silicon stays a semiconductor
+    assert last["direct_gap_eV"] == pytest.approx(direct.edges.direct_gap_eV, abs=1e-9)
+    e = direct.energies_eV[direct.path.label_indices[0]]
+    assert last["gap_Γ_eV"] == pytest.approx(e[8] - e[7], abs=1e-9)
+    with pytest.raises(InputError, match="sum over states") as info:
+        prepare(doc, str(material.file), axes, ("masses",), ("Γ",), n_k=12)
+    assert info.value.key == "quantities"
+
+
+@pytest.mark.parametrize("command", ["bands", "gaps", "fullzone"])
+def test_default_commands_run_on_a_fitted_file(command, tmp_path):
+    # common practice, no source: the default command on a bundled spin–orbit file succeeds
+    # (it used to stop with "the perturbative series expands a spinless H0 + V"), and the bands
+    # JSON carries the perturbative bands with their proven bound
+    import contextlib
+    import io
+    import json
+
+    import bandpert.cli.app as cli
+
+    args = [command, "silicon-fitted", "--k-points", "8", "--cutoff-eV", str(SMALL_CUTOFF_EV),
+            "--out", str(tmp_path)]
+    if command == "fullzone":
+        args += ["--basis", "30"]
+    stdout, stderr = io.StringIO(), io.StringIO()
+    with contextlib.redirect_stdout(stdout), contextlib.redirect_stderr(stderr):
+        with pytest.raises(SystemExit) as stop:
+            cli.main(args)
+    assert stop.value.code in (0, None), stderr.getvalue()
+    if command == "bands":
+        doc = json.loads((tmp_path / "silicon-fitted-bands.json").read_text())
+        pert = doc["results"]["perturbative"]
+        assert pert is not None and len(pert["energies_eV"][0]) == 16

@@ -320,8 +320,10 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         zero, kind, edges = energy_reference(material, reference, mesh_energies, fermi_mesh,
                                              fermi_method, smearing_eV)
     else:
-        zero, kind, edges = choose_energy_zero(reference, material.valence_electrons,
-                                               lambda: 0.0)
+        # spinor bands hold one electron each (as in energy_reference)
+        n_el = None if material.valence_electrons is None else (
+            material.valence_electrons * 2 // material.electrons_per_band)
+        zero, kind, edges = choose_energy_zero(reference, n_el, lambda: 0.0)
         if edges is None:
             zero, kind = 0.0, "absolute"
     return BandStructure(material=material, symmetry=crystal_symmetry(material), path=path,

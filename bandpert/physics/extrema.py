@@ -243,7 +243,7 @@ def locate_edges(bs, reference_rotations: np.ndarray | None = None) -> list[Edge
     list of EdgeLocation
         Conduction minimum first, then valence maximum.
     """
-    n_val = bs.material.valence_electrons // 2
+    n_val = bs.material.valence_electrons // bs.material.electrons_per_band  # spinor: 1 per band
     out = []
     for name, index, band, maximum in (
             ("conduction minimum", bs.edges.conduction_min_index, n_val, False),

@@ -238,10 +238,14 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
         if "gaps" in quantities and (n_el is None or n_el % 2):
             raise InputError("gaps at points need the band below the gap: give lower_band (or "
                              "an even electrons.valence)", source, "lower_band")
-        lower_band = (n_el or 2) // 2
+        lower_band = (n_el or 2) // reference.electrons_per_band
     if lower_band < 1 or lower_band >= nb:
         raise InputError(f"band {lower_band} must lie between 1 and {nb - 1} (bands computed: "
                          f"{nb})", source, "lower_band")
+    if "masses" in quantities and (reference.spin_orbit or reference.nonlocal_terms):
+        raise InputError("the masses of a sweep come from the sum over states of the local "
+                         "spinless model and the material has spin-orbit or nonlocal terms; "
+                         "expected quantities edges or gaps", source, "quantities")
     if ({"edges", "masses", "deformation"} & set(quantities)
             and (n_el is None or n_el % 2)):
         raise InputError("edges, masses and deformation potentials need a semiconductor: an "
@@ -260,7 +264,9 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
                                  source, "points")
             chosen.append(name)
         labels = tuple(dict.fromkeys(chosen))
-    cutoff = choose_cutoff(reference, nb, cutoff_eV, check_convergence=False)
+    # the cutoff rule converges the spinless local bands (as compute_band_structure does)
+    cutoff = choose_cutoff(reference.local_spinless(), -(-nb * reference.electrons_per_band // 2),
+                           cutoff_eV, check_convergence=False)
     rotations = point_group_rotations(reference) if strained else None
     spec = SweepSpec(document=doc, source=source, axes=tuple(axes), quantities=tuple(quantities),
                      points=labels, n_k=n_k, n_bands=nb, lower_band=lower_band,
@@ -271,7 +277,8 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     grid = parameter_grid(spec.axes)
     for values in (grid[0], grid[-1]):
         m = point_material(spec, tuple(values))
-        build_model(m, point_cutoff(spec, m))  # a range leaving the basis limit fails here
+        # a range leaving the basis limit fails here
+        build_model(m, point_cutoff(spec, m), spin_orbit=True)
     return spec, reference, form_factor_note(reference, spec.axes, form_factors, window)
 
 
