@@ -33,15 +33,17 @@ from bandpert.planewave.solver import exact_energies, single_blas_thread
 
 FITTED = {"silicon": "silicon-fitted", "germanium": "germanium-fitted",
           "gallium-arsenide": "gallium-arsenide-fitted",
-          "indium-phosphide": "indium-phosphide-fitted"}
+          "indium-phosphide": "indium-phosphide-fitted",
+          "aluminium-arsenide": "aluminium-arsenide-fitted"}
 
 #: The zincblende files whose Γ conduction mass (not a fit target) checks the fit, in m0.
 #: source: I. Vurgaftman, J. R. Meyer & L. R. Ram-Mohan, J. Appl. Phys. 89, 5815 (2001), the
-#: tables of GaAs (0.067) and InP (0.0795; from memory)
-CONDUCTION_MASS = {"gallium-arsenide": 0.067, "indium-phosphide": 0.0795}
+#: tables of GaAs (0.067), InP (0.0795; from memory) and AlAs (0.15 at Γ; from memory)
+CONDUCTION_MASS = {"gallium-arsenide": 0.067, "indium-phosphide": 0.0795,
+                   "aluminium-arsenide": 0.15}
 
 #: The files whose k·p file (masses --write-kp) is checked against their own valence bands.
-WRITE_KP = ("indium-phosphide",)
+WRITE_KP = ("indium-phosphide", "aluminium-arsenide")
 
 #: (material, target name) → the model value the fit reached, outside the tolerance.
 OUTSIDE = {
