@@ -14,8 +14,8 @@ Slopes by first-order perturbation theory (Hellmann–Feynman, ∂E_n/∂x = ⟨
 H (not of eigenvalues), on the same plane waves:
 
 * along k (:meth:`PointStates.k_slope`): ∂H/∂k·d = [H(k + εd) − H(k − εd)]/(2ε), exact for
-  the kinetic and spin–orbit terms (quadratic and bilinear in k + G) and O(ε²) for the
-  nonlocal wells;
+  the kinetic term (quadratic in k + G) and O(ε²) for the radial factors of the spin–orbit
+  term and the nonlocal wells;
 * along a parameter (:class:`ParameterSlopes`): ∂H/∂p = [H(p + δ; k(p + δ)) − H(p − δ;
   k(p − δ))]/(2δ), k at fixed fractional coordinates (exact for the parameters H is linear
   in: form factors, spin–orbit strengths, well depths).
@@ -24,13 +24,14 @@ H (not of eigenvalues), on the same plane waves:
 from __future__ import annotations
 
 from collections.abc import Callable
+from dataclasses import replace
 
 import numpy as np
 import scipy.linalg
 
 from ..input.material import Material
 from ..planewave.model import PlaneWaveModel, model_on_miller
-from ..planewave.nonlocal_term import nonlocal_term
+from ..planewave.nonlocal_term import NonlocalTerm, nonlocal_term
 from ..planewave.potential import fourier_coefficients
 from ..planewave.spinorbit import SpinOrbitTerm, spin_orbit_term, spinor_hamiltonian
 
@@ -130,15 +131,59 @@ def _same_spin_orbit(a: SpinOrbitTerm | None, b: SpinOrbitTerm | None) -> bool:
             and a.unit_invA == b.unit_invA)
 
 
+#: A term's slope ∂T/∂p as a function of (K = k + G of the basis, structure factors).
+TermSlope = Callable[[np.ndarray, np.ndarray], np.ndarray]
+
+#: Marks a term whose slope needs the whole matrices (a term that appears or disappears).
+WHOLE = "whole"
+
+
+def _spin_orbit_slope(a: SpinOrbitTerm | None, b: SpinOrbitTerm | None, delta: float
+                      ) -> TermSlope | str | None:
+    """∂W/∂p from the terms at p ± δ: W is linear in the strengths, so a change of strengths
+    alone is one coupling with the strengths' slope; anything else the difference of two."""
+    if _same_spin_orbit(a, b):
+        return None
+    if a is None or b is None:
+        return WHOLE
+    if (a.species, a.core_shells, a.zetas_invA, a.unit_invA) == (
+            b.species, b.core_shells, b.zetas_invA, b.unit_invA):
+        return replace(a, strengths_eV=(a.strengths_eV - b.strengths_eV) / (2.0 * delta)
+                       ).coupling
+    return lambda kg, s: (a.coupling(kg, s) - b.coupling(kg, s)) / (2.0 * delta)
+
+
+def _wells_slope(a: NonlocalTerm | None, b: NonlocalTerm | None, delta: float
+                 ) -> TermSlope | str | None:
+    """∂V_NL/∂p from the terms at p ± δ: V_NL is linear in the depths A_l, so a change of depths
+    alone is one term of the changed channels with the depths' slope; anything else (a radius)
+    the difference of two."""
+    if a == b:
+        return None
+    if a is None or b is None:
+        return WHOLE
+
+    def shape(term: NonlocalTerm) -> list:
+        return [[(ell, r) for ell, _, r in channels] for channels in term.channels]
+
+    if (a.species, a.atom_volume_A3, shape(a)) == (b.species, b.atom_volume_A3, shape(b)):
+        channels = tuple(tuple((ell, (x - y) / (2.0 * delta), r)
+                               for (ell, x, r), (_, y, _) in zip(ca, cb, strict=True) if x != y)
+                         for ca, cb in zip(a.channels, b.channels, strict=True))
+        return replace(a, channels=channels).matrix
+    return lambda kg, s: (a.matrix(kg, s) - b.matrix(kg, s)) / (2.0 * delta)
+
+
 class ParameterSlopes:
     """⟨n|∂H/∂p|n⟩ at points of a :class:`PointStates`, for every parameter (module docstring).
 
     A parameter that keeps the lattice and the atoms (form factors, spin–orbit strengths, well
     depths and radii) changes only some terms of H = 1₂ ⊗ (H0 + V + V_NL(k)) + H_so(k): the
     difference is built from those terms alone (V(p ± δ) once per plane-wave set, V_NL and
-    H_so per point only when they change); H0 and every unchanged term cancel exactly. A
-    parameter that moves the lattice or changes H0 itself (the kinetic factor β) takes the
-    difference of the whole matrices.
+    H_so per point only when they change, as one term with the slope of the strengths or depths
+    they are linear in); H0 and every unchanged term cancel exactly. A parameter that moves the
+    lattice or changes H0 itself (the kinetic factor β) takes the difference of the whole
+    matrices.
 
     Parameters
     ----------
@@ -161,17 +206,15 @@ class ParameterSlopes:
         self._potential: dict[tuple[int, int], np.ndarray | None] = {}
         self._done: dict[tuple[int, bytes], np.ndarray] = {}
         base = states.material
-        self._terms = []
-        for plus, minus, _ in perturbed:
-            if not (_same_lattice(plus, base) and _same_lattice(minus, base)
+        self._terms: list[tuple[TermSlope | None, TermSlope | None] | None] = []
+        for plus, minus, delta in perturbed:
+            terms = None
+            if (_same_lattice(plus, base) and _same_lattice(minus, base)
                     and plus.potential.kinetic_factor == base.potential.kinetic_factor
-                    == minus.potential.kinetic_factor):  # H0 itself changes: whole matrices
-                self._terms.append(None)
-                continue
-            so = (spin_orbit_term(plus), spin_orbit_term(minus))
-            wells = (nonlocal_term(plus), nonlocal_term(minus))
-            self._terms.append((None if _same_spin_orbit(*so) else so,
-                                None if wells[0] == wells[1] else wells))
+                    == minus.potential.kinetic_factor):  # else H0 itself changes: whole matrices
+                terms = (_spin_orbit_slope(spin_orbit_term(plus), spin_orbit_term(minus), delta),
+                         _wells_slope(nonlocal_term(plus), nonlocal_term(minus), delta))
+            self._terms.append(None if terms is None or WHOLE in terms else terms)
 
     @property
     def n_parameters(self) -> int:
@@ -209,19 +252,15 @@ class ParameterSlopes:
             return projected(dh, vectors)
         so, wells = self._terms[j]
         model = self.states.model(miller)
-        k = k_of(self.states.material)
-        kg = k + model.basis.g_cart_invA
+        kg = k_of(self.states.material) + model.basis.g_cart_invA
         n = model.size
         ds = self._potential_slope(j, miller)
         if wells is not None:
-            dw = (wells[0].matrix(kg, model.structure)
-                  - wells[1].matrix(kg, model.structure)) / (2.0 * delta)
+            dw = wells(kg, model.structure)
             ds = dw if ds is None else ds + dw
         if so is not None:
-            w = (so[0].coupling(kg, model.structure)
-                 - so[1].coupling(kg, model.structure)) / (2.0 * delta)
-            return projected(spinor_hamiltonian(np.zeros((n, n)) if ds is None else ds, w),
-                             vectors)
+            return projected(spinor_hamiltonian(np.zeros((n, n)) if ds is None else ds,
+                                                so(kg, model.structure)), vectors)
         if ds is None:
             return np.zeros(vectors.shape[1])
         if model.n_components == 1:
