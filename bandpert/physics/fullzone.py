@@ -82,11 +82,10 @@ def projected_energies(model: PlaneWaveModel, k0_cart_invA: np.ndarray, n_basis:
     (Rayleigh–Ritz in the fixed span; by Cauchy interlacing each lies at or above the exact
     band of the same index). For a local spinless model this is exactly the full-zone k·p
     matrix E_n δ_nm + 2C q·π_nm + βC q² δ_nm, since H(k0 + q) − H(k0) = βC(2q·(k0 + G) + q²)
-    δ_GG′ (β the kinetic factor); the spin–orbit term (its radial factors B(|k + G|)) and
-    the nonlocal wells are not polynomial in k, so they are projected at each k instead, as
-    the reduced-basis
-    interpolation does (Shirley, Phys. Rev. B 54, 16464 (1996)). Spinor models count spinor
-    states (a Kramers pair is two).
+    δ_GG′ (β the kinetic factor); the spin–orbit term (its radial factors B(|k + G|)) and the
+    nonlocal wells are not polynomial in k, so they are projected at each k instead, as the
+    reduced-basis interpolation does (Shirley, Phys. Rev. B 54, 16464 (1996)). Spinor models
+    count spinor states (a Kramers pair is two).
 
     Parameters and returns as :func:`kp_basis_energies`.
     """

@@ -122,7 +122,8 @@ class PerturbativeBands:
     max_coupling_ratio : numpy.ndarray
         (n_k, n_bands) largest |λV_mn|/|E_m − E_n| to a level outside the band's group.
     group_size : numpy.ndarray
-        (n_k, n_bands) plane waves in the band's group (1 for non-degenerate).
+        (n_k, n_bands) plane waves in the band's group (1 for non-degenerate); spinor states for
+        a spinor model (a spin pair counts two).
     trustworthy : numpy.ndarray
         (n_k, n_bands) bool, see :func:`trust_mask`.
     threshold_used : numpy.ndarray

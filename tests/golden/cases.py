@@ -25,6 +25,10 @@ CASES: dict[str, list[str]] = {
     "bands-germanium": ["bands", "{m}/germanium.toml", "--k-points", "16", "--exact-only"],
     "bands-chain": ["bands", "{m}/cosine-chain.toml", "--k-points", "30"],
     "bands-square": ["bands", "{m}/square-demo.toml", "--k-points", "20"],
+    # spinor plane waves with spin-orbit and nonlocal terms, perturbative beside exact (a
+    # small cutoff keeps it cheap; a refit of the bundled file changes it on purpose)
+    "bands-silicon-fitted": ["bands", "{m}/silicon-fitted.toml", "--k-points", "12",
+                             "--cutoff-eV", "60"],
     "gaps-aluminium": ["gaps", "{m}/aluminium.toml", "--k-points", "20"],
     "gaps-silicon-X": ["gaps", "{m}/silicon.toml", "--point", "X", "--k-points", "20"],
     "masses-silicon": ["masses", "{m}/silicon.toml"],
