@@ -27,6 +27,7 @@ def fit_results(result: FitResult, spec: FitSpec, written: str) -> dict[str, Any
                      "source": t.source}
                     for t, m, r in zip(spec.targets, result.model_values, result.residuals,
                                        strict=True)],
+        "warnings": list(result.warnings),
         "cost": result.cost,
         "evaluations": result.evaluations,
         "material_file": written,

@@ -27,6 +27,7 @@ import scipy.optimize
 
 from ..errors import InputError
 from ..input.material import Material, parse_material
+from ..physics.fit_checks import moved_minima
 from ..physics.fit_targets import Evaluation, FitSpec, TargetModel
 from ..planewave.cutoff import converged_cutoff
 from ..planewave.solver import single_blas_thread
@@ -83,6 +84,9 @@ class FitResult:
     evaluations : int
     document : dict
         The material document with the fitted values and a source naming the targets.
+    warnings : tuple of str
+        What the targets cannot see (:func:`~bandpert.physics.fit_checks.moved_minima`: a
+        followed conduction minimum that is no longer its band's lowest).
     """
 
     keys: tuple[str, ...]
@@ -98,6 +102,7 @@ class FitResult:
     cost: float
     evaluations: int
     document: dict = field(repr=False)
+    warnings: tuple[str, ...] = ()
 
 
 class Fit:
@@ -260,11 +265,15 @@ def _solve(fit: Fit, spec: FitSpec, document: dict[str, Any],
     model_values = fit.evaluate(p).values
     doc = fit.document_at(p)
     doc["source"] = _fitted_source(str(document.get("source", "")), spec)
+    warnings = moved_minima(fit.targets, fit.material(p))
+    if warnings:  # the written file says it too
+        doc["note"] = " ".join([str(doc.get("note", "")), "Fit warning:", *warnings]).strip()
     return FitResult(keys=spec.parameters, start=fit.start, values=p, uncertainties=sigma,
                      correlations=corr, rank=rank, undetermined=undetermined,
                      target_values=fit.target_values, model_values=model_values,
                      residuals=(model_values - fit.target_values) / fit.tolerances,
-                     cost=float(result.cost), evaluations=fit.state.evaluations, document=doc)
+                     cost=float(result.cost), evaluations=fit.state.evaluations, document=doc,
+                     warnings=warnings)
 
 
 def _fitted_source(source: str, spec: FitSpec) -> str:

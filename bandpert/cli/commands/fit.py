@@ -106,4 +106,6 @@ def fit(
     outside = int(np.sum(np.abs(result.residuals) > 1))
     if outside:
         err.print(f"warning: {outside} target(s) outside their tolerance")
+    for warning in result.warnings:
+        err.print(f"warning: {warning}")
     out.print(f"wrote {toml_path}, {json_path}")
