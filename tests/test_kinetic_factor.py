@@ -188,3 +188,17 @@ def test_spinor_models_scale(name):
     np.testing.assert_allclose(e[0], BETA * e[1], atol=1e-9)
     g = [gamma8_luttinger_sum_over_states(m, 60.0).gammas for m in (with_beta, reference)]
     np.testing.assert_allclose(g[0], BETA * np.array(g[1]), rtol=1e-6)
+
+
+def test_spinless_sum_over_states_refuses_nonlocal_wells():
+    # the velocity β(k + G) of the sum over states is that of a local potential: nonlocal wells
+    # add ∂V_NL/∂k (Chelikowsky & Cohen, Phys. Rev. B 14, 556 (1976), the l-dependent terms),
+    # so the spinless sum over states must refuse them rather than print wrong masses
+    path = find_material("silicon-fitted", "planewave")
+    doc = read_toml_document(path)
+    del doc["spin_orbit"]
+    # spin_orbit=True: the caller handles the k-dependent terms (a spinless model here)
+    model = build_model(parse_material(doc, str(path)), 60.0, spin_orbit=True)
+    assert model.n_components == 1 and model.nonlocal_term is not None
+    with pytest.raises(InputError, match="nonlocal"):
+        eigenstates(model, np.zeros(3))

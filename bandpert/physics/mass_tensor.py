@@ -85,6 +85,10 @@ def eigenstates(model: PlaneWaveModel, k0_cart_invA: np.ndarray,
         raise InputError("the sum over states here is spinless and the model has spin-orbit "
                          "coupling; expected a material without a spin_orbit table",
                          key="spin_orbit")
+    if model.nonlocal_term is not None:  # π = β⟨k + G⟩ lacks ∂V_NL/∂k
+        raise InputError("the sum over states here uses the velocity of a local potential and "
+                         "the model has nonlocal wells; expected a material without a nonlocal "
+                         "table", key="nonlocal")
     k0 = np.asarray(k0_cart_invA, dtype=float)
     n = model.size if n_states is None else min(n_states, model.size)
     h = model.hamiltonian(k0)
