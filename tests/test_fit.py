@@ -211,3 +211,19 @@ def test_a_targets_file_key_is_not_rendered_as_a_flag(tmp_path, capsys):
                 str(tmp_path / "out")]) == 2
     err = capsys.readouterr().err
     assert f"{tmp_path / 't.toml'}: cutoff_eV:" in err and "--cutoff-eV" not in err
+
+
+def test_a_trial_step_out_of_a_keys_range_is_named_as_the_fits(tmp_path, capsys):
+    # common practice, no source: a negative Δso cannot be reached with a strength ≥ 0, so the
+    # least-squares steps push the strength below 0; the message must blame the fit's step and
+    # name the targets file's parameter, not call the starting material file bad
+    target = {**ENERGIES[-1], "value": -0.05}
+    targets = targets_doc(["spin_orbit.species.Si.strength_eV"], [target])
+    (tmp_path / "t.toml").write_text(to_toml(targets), encoding="utf-8")
+    out = tmp_path / "out"
+    capsys.readouterr()
+    assert run(["fit", "silicon-spin-orbit", str(tmp_path / "t.toml"), "--out", str(out)]) == 2
+    err = capsys.readouterr().err
+    assert err.count("\n") == 1 and "t.toml" in err and "parameters[0]" in err
+    assert "trial step of the fit" in err and "spin_orbit.species.Si.strength_eV" in err
+    assert not out.exists() or not any(out.iterdir())

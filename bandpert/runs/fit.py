@@ -145,7 +145,18 @@ class Fit:
         return doc
 
     def material(self, p: np.ndarray) -> Material:
-        return parse_material(self.document_at(p), self.source)
+        """The material at parameters ``p``; a trial step that leaves a key's accepted range is
+        the fit's doing, not the file's, and is named as such (in the targets file's terms)."""
+        try:
+            return parse_material(self.document_at(p), self.source)
+        except InputError as exc:
+            if exc.key not in self.spec.parameters or np.array_equal(p, self.start):
+                raise
+            i = self.spec.parameters.index(exc.key)
+            raise InputError(f"a trial step of the fit moved {exc.key} out of the range its key "
+                             f"accepts ({exc.problem}); expected targets these parameters reach "
+                             "inside the accepted ranges, a closer start, or this parameter held "
+                             "fixed", self.spec.source or None, f"parameters[{i}]") from None
 
     def steps(self, p: np.ndarray) -> np.ndarray:
         return RELATIVE_STEP * np.maximum(np.abs(p), 1e-3)
