@@ -95,6 +95,9 @@ def main() -> None:
     outside = sum(abs(r) > 1 for r in result.residuals)
     print(f"  targets outside their tolerance: {outside} of {len(spec.targets)}; Jacobian rank "
           f"{result.rank} of {len(spec.parameters)} (target: a fit under 60 s on 2 cores)")
+    if len(rows) == 1:
+        for key, a, s in zip(spec.parameters, result.values, result.uncertainties, strict=True):
+            print(f"    {key:38s} {a: .9g}  (± {s:.2g})")
     if len(rows) == 2:
         new, old = rows[0][1], rows[1][1]
         rel = np.abs(new.values / old.values - 1)
