@@ -196,3 +196,21 @@ def test_secant_search_finds_brents_minimum():
     e3, t3, _ = follow_minimum(PointStates(material, 8), short, 4, False, 0.95)
     assert (e3, t3) == pytest.approx(valley_minimum(material, short, 4, False, 0.95))
     assert t3 == 1.0
+
+
+def test_secant_search_near_a_symmetric_end_point():
+    # common practice, no source: germanium's minimum lies at L (the end of Γ–L; on the line's
+    # fixed plane waves just inside it), where pairs of plane waves with |K| = |K'| made a
+    # two-point k difference of H too noisy for the secant; the search must meet Brent's
+    # minimum without falling back to it (a fallback costs some fifteen diagonalisations)
+    from bandpert.physics.fit_states import PointStates
+    from bandpert.physics.fit_valley import follow_minimum
+
+    material = bundled("germanium-fitted")
+    line = find_valley_line(material, 90.0, 8)
+    assert {line.start_label, line.end_label} == {"Γ", "L"}
+    states = PointStates(material, 12)
+    e, t, _ = follow_minimum(states, line, 8, True, line.t_start)
+    e_ref, t_ref = valley_minimum(material, line, 8, True, line.t_start)
+    assert t == pytest.approx(t_ref, abs=3e-8) and e == pytest.approx(e_ref, abs=1e-11)
+    assert states.diagonalisations <= 6
