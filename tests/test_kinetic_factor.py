@@ -35,6 +35,7 @@ from bandpert.physics.mass_tensor import (
     finite_difference_inverse_mass,
     inverse_mass_tensor,
 )
+from bandpert.physics.nfe_gaps import gap_analysis
 from bandpert.physics.perturbative_bands import PerturbationSettings
 from bandpert.physics.spinor_sos import gamma8_luttinger_sum_over_states
 from bandpert.physics.van_hove import label_and_classify
@@ -202,3 +203,19 @@ def test_spinless_sum_over_states_refuses_nonlocal_wells():
     assert model.n_components == 1 and model.nonlocal_term is not None
     with pytest.raises(InputError, match="nonlocal"):
         eigenstates(model, np.zeros(3))
+
+
+def test_gap_openings_scale(silicon):
+    # zone-boundary degeneracies of H0 = βT: the same plane waves at the same k (β scales every
+    # free-electron level), and every predicted and exact level of a group scales by β
+    with_beta, reference = silicon
+    reports = [gap_analysis(m, cutoff_eV=60.0, points=["X", "L"], crossings=False)
+               for m in (with_beta, reference)]
+    for pa, pb in zip(reports[0].points, reports[1].points, strict=True):
+        assert len(pa.groups) == len(pb.groups) > 0
+        for ga, gb in zip(pa.groups, pb.groups, strict=True):
+            np.testing.assert_array_equal(ga.miller, gb.miller)
+            assert ga.free_electron_eV == pytest.approx(BETA * gb.free_electron_eV, rel=1e-12)
+            for field in ("first_order_eV", "second_order_eV", "exact_eV"):
+                np.testing.assert_allclose(getattr(ga, field), BETA * getattr(gb, field),
+                                           atol=1e-9)
