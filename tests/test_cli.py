@@ -356,6 +356,16 @@ def test_check_3d_material():
     # Crystallography, Vol. A, 1983)
     assert "227" in out
     assert "plane waves at cutoff" in out
+    # the measured deformation potentials the strain runs fit to, as the file lists them
+    # (source beside each in materials/planewave/silicon.toml)
+    flat = " ".join(out.split())
+    assert "deformation targets indirect_gap +1.38" in flat and "xi_u +8.6" in flat
+
+
+def test_check_names_the_kinetic_factor():
+    code, out, err = run(["check", "gallium-arsenide-fitted"])
+    assert code == 0, err
+    assert "kinetic factor β = 1.077" in " ".join(out.split())
 
 
 # ---------------------------------------------------------------------------------------------

@@ -105,7 +105,13 @@ def potential_summary(material: Material) -> str:
     kinetic factor β of H0 = β ħ²|k+G|²/2m0 when it is not 1)."""
     beta = material.potential.kinetic_factor
     text = _potential_form(material)
-    return text if beta == 1.0 else f"{text}; kinetic factor β = {beta:.6g}"
+    if beta != 1.0:
+        text += f"; kinetic factor β = {beta:.6g}"
+    targets = material.potential.deformation_targets
+    if targets:  # what the strain runs fit the slopes of v(q) to (physics/deformation_fit)
+        text += "; deformation targets " + ", ".join(
+            f"{t.name} {t.value_eV:+.4g} ± {t.uncertainty_eV:.2g} eV" for t in targets)
+    return text
 
 
 def _potential_form(material: Material) -> str:
