@@ -6,6 +6,7 @@ Each builder returns a :class:`matplotlib.figure.Figure` drawn the way the comma
 
 from __future__ import annotations
 
+import dataclasses
 import sys
 from pathlib import Path
 
@@ -37,6 +38,12 @@ def own_crystal() -> Material:
                              {"miller": [1, 1, 0], "value": -1.2},
                              {"miller": [2, 0, 0], "value": 0.6}]},
                          electrons={"valence": 2})
+
+
+def long_named(m: Material) -> Material:
+    """The material under a name of 130 characters (the titles that carry it must wrap)."""
+    return dataclasses.replace(m, name=f"{m.name}: a name long enough to run past both edges "
+                                       "of every figure whose title carries it, unless it wraps")
 
 
 def bands_exact(m: Material, n_k: int = 30, window=None):
@@ -131,6 +138,10 @@ def all_cases() -> dict:
         "comparison-own": lambda: bands_comparison(own()),
         # spinor plane waves with spin-orbit and nonlocal terms, perturbative beside exact
         "comparison-silicon-fitted": lambda: bands_comparison(bundled("silicon-fitted"), 20),
+        # a material name longer than a figure is wide (gallium-arsenide-fitted's is 102
+        # characters): the title wraps instead of running past both edges
+        "comparison-long-name": lambda: bands_comparison(long_named(bundled("silicon")), 20),
+        "dos-long-name": lambda: dos(long_named(bundled("silicon"))),
         # a small basis keeps the gap search fast; the layout is what is tested
         "gaps-silicon": lambda: gaps(bundled("silicon"), cutoff_eV=60.0),
         "gaps-gaas": lambda: gaps(bundled("gallium-arsenide"), cutoff_eV=60.0),

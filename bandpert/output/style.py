@@ -171,6 +171,16 @@ def legend_outside(ax: Axes, handles=None, *, title: str | None = None, ncol: in
     return ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), **kw)
 
 
+#: Characters per line of a figure title (a long material name wraps instead of running past the
+#: figure's edges).
+TITLE_WIDTH = 80
+
+
+def title(text: str) -> str:
+    """A figure title wrapped at :data:`TITLE_WIDTH` characters (each given line apart)."""
+    return "\n".join(wrap(line, TITLE_WIDTH) for line in text.split("\n"))
+
+
 def wrap(text: str, width: int = 130) -> str:
     """Break a long note into lines of at most ``width`` characters."""
     return "\n".join(textwrap.wrap(text, width))

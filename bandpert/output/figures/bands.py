@@ -111,7 +111,7 @@ def draw_bands_panel(ax: Axes, bs: BandStructure,
     style.energy_ticks(ax)
     style.style_axes(ax)
     ax.set_ylabel(style.energy_label(bs.energy_zero_kind), fontsize=style.LABEL_SIZE)
-    ax.set_title(bs.material.name, fontsize=style.TITLE_SIZE)
+    ax.set_title(style.title(bs.material.name), fontsize=style.TITLE_SIZE)
 
 
 def band_groups(bs: BandStructure) -> list[tuple[str, np.ndarray]]:

@@ -96,8 +96,9 @@ def dos_figure(result, energy_window_eV: tuple[float, float] | None = None) -> F
         style.style_axes(a, grid=True)
     how = d.method + ("" if d.smearing_eV is None else f", σ = {d.smearing_eV:g} eV")
     mesh = "×".join(str(n) for n in result.mesh.shape)
-    ax.set_title(f"{result.material.name}\n{how}, mesh {mesh} "
-                 f"({len(result.mesh.k_frac)} irreducible points)", fontsize=style.TITLE_SIZE)
+    ax.set_title(style.title(f"{result.material.name}\n{how}, mesh {mesh} "
+                             f"({len(result.mesh.k_frac)} irreducible points)"),
+                 fontsize=style.TITLE_SIZE)
     warning = smearing_warning(result)
     if warning:
         ax.text(0.01, 0.99, style.wrap("warning: " + warning, 70), transform=ax.transAxes,

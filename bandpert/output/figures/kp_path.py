@@ -54,7 +54,7 @@ def kp_path_figure(bands: PathBands, material_name: str, source: str,
     ax.set_xlabel(f"k along Γ–L, Γ–X, Γ–K (units of 2π/a), |k| ≤ {bands.k_max_invA:.3f} Å⁻¹",
                   fontsize=style.LABEL_SIZE)
     style.legend_outside(ax, handles, title=style.wrap(material_name, 24))
-    ax.set_title(f"{material_name}: k·p bands near Γ", fontsize=style.TITLE_SIZE)
+    ax.set_title(style.title(f"{material_name}: k·p bands near Γ"), fontsize=style.TITLE_SIZE)
     style.footer(fig, f"Parameters: {source}. Energy zero: the valence-band top at Γ (the "
                  "models' own zero).", width=120)
     return fig

@@ -67,8 +67,9 @@ def optics_figure(result, energy_window_eV: tuple[float | None, float | None] | 
         style.style_axes(a, grid=True)
     mesh = "×".join(str(n) for n in result.mesh.shape)
     how = "interpolated" if result.interpolation is not None else "exact"
-    ax.set_title(f"{result.material.name}\none-electron spectrum, mesh {mesh} ({how}), "
-                 f"σ = {result.broadening_eV:g} eV", fontsize=style.TITLE_SIZE)
+    ax.set_title(style.title(f"{result.material.name}\none-electron spectrum, mesh {mesh} "
+                             f"({how}), σ = {result.broadening_eV:g} eV"),
+                 fontsize=style.TITLE_SIZE)
     style.footer(fig, f"f-sum: n_eff = {result.n_eff_total:.3f} electrons per cell "
                       f"(interband {result.n_eff_interband:.3f}, intraband "
                       f"{result.n_eff_intraband:.3f}, {result.n_bands} bands); no excitonic "

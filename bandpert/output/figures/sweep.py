@@ -150,7 +150,7 @@ def sweep_figure(result) -> Figure:
         ax.set_visible(False)
     vca = " (virtual-crystal approximation)" if any(a.kind == "alloy" for a in spec.axes) else ""
     name = spec.document.get("name") or spec.source
-    fig.suptitle(f"{name}: sweep of the {xlabel.split(' (')[0]}{vca}",
+    fig.suptitle(style.title(f"{name}: sweep of the {xlabel.split(' (')[0]}{vca}"),
                  fontsize=style.TITLE_SIZE)
     more = ("One line per value of " + ", ".join(a.key for a in spec.axes[1:]) + ". "
             if len(spec.axes) > 1 else "")
