@@ -34,12 +34,10 @@ import numpy as np
 import scipy.sparse
 import scipy.sparse.csgraph
 
-from ..crystal.lattice import reciprocal_vectors
 from ..input.material import Material
 from ..physics.extrema import NearestExtremum, levels, momentum, nearest_extremum, splittings
-from ..planewave.basis import PlaneWaveBasis, plane_wave_basis
 from ..planewave.model import PlaneWaveModel
-from ..planewave.potential import fourier_coefficients
+from ..planewave.model import centred_model as planewave_centred_model
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
 
 #: A splitting (eV) below this in the basis centred on k is required by symmetry.
@@ -165,21 +163,9 @@ class CriticalPoint:
 def centred_model(material: Material, k_cart_invA: np.ndarray, cutoff_eV: float
                   ) -> PlaneWaveModel:
     """The plane-wave model on the basis ħ²|k + G|²/2m0 ≤ cutoff (invariant under the little
-    group of k, so symmetry-required degeneracies at k are exact; common practice, no source)."""
-    k = np.asarray(k_cart_invA, dtype=float)
-    b = reciprocal_vectors(material.vectors_A)
-    reach = np.sqrt(cutoff_eV / C) + np.linalg.norm(k)
-    wide = plane_wave_basis(b, C * reach**2)
-    kg = wide.g_cart_invA + k
-    keep = C * np.einsum("ij,ij->i", kg, kg) <= cutoff_eV * (1 + 1e-12)
-    basis = PlaneWaveBasis(miller=wide.miller[keep], g_cart_invA=wide.g_cart_invA[keep],
-                           cutoff_eV=float(cutoff_eV))
-    diff = basis.miller[:, None, :] - basis.miller[None, :, :]
-    v = fourier_coefficients(material, diff)
-    if np.max(np.abs(v.imag), initial=0.0) <= 1e-12 * max(1.0, np.max(np.abs(v), initial=0.0)):
-        v = np.ascontiguousarray(v.real)
-    return PlaneWaveModel(basis=basis, reciprocal_invA=b, potential_eV=v,
-                          kinetic_factor=material.potential.kinetic_factor)
+    group of k, so symmetry-required degeneracies at k are exact; common practice, no source):
+    :func:`bandpert.planewave.model.centred_model`, in this module's argument order."""
+    return planewave_centred_model(material, cutoff_eV, np.asarray(k_cart_invA, dtype=float))
 
 
 def degenerate_group(material: Material, model: PlaneWaveModel, k_cart_invA: np.ndarray,
