@@ -273,10 +273,11 @@ def _solve(fit: Fit, spec: FitSpec, document: dict[str, Any],
                       for k, x in zip(spec.parameters, sigma, strict=True)])
     with np.errstate(all="ignore"):
         corr = cov / np.outer(sigma, sigma)
-    model_values = fit.evaluate(p).values
+    evaluation = fit.evaluate(p)
+    model_values = evaluation.values
     doc = fit.document_at(p)
     doc["source"] = _fitted_source(str(document.get("source", "")), spec)
-    warnings = moved_minima(fit.targets, fit.material(p))
+    warnings = moved_minima(fit.targets, evaluation.material)
     if warnings:  # the written file says it too
         doc["note"] = " ".join([str(doc.get("note", "")), "Fit warning:", *warnings]).strip()
     return FitResult(keys=spec.parameters, start=fit.start, values=p, uncertainties=sigma,
