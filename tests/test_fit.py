@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import copy
 import dataclasses
+import json
+import math
 import tomllib
 
 import numpy as np
@@ -12,6 +14,7 @@ from conftest import bundled
 
 from bandpert.cli.app import main
 from bandpert.errors import InputError
+from bandpert.input.key_ranges import KeyRange
 from bandpert.input.material import parse_material
 from bandpert.input.reader import read_toml_document
 from bandpert.input.toml_text import to_toml
@@ -213,10 +216,16 @@ def test_a_targets_file_key_is_not_rendered_as_a_flag(tmp_path, capsys):
     assert f"{tmp_path / 't.toml'}: cutoff_eV:" in err and "--cutoff-eV" not in err
 
 
-def test_a_trial_step_out_of_a_keys_range_is_named_as_the_fits(tmp_path, capsys):
-    # common practice, no source: a negative Δso cannot be reached with a strength ≥ 0, so the
-    # least-squares steps push the strength below 0; the message must blame the fit's step and
+def test_a_step_breaking_a_constraint_the_bounds_miss_is_named_as_the_fits(tmp_path, capsys,
+                                                                          monkeypatch):
+    # common practice, no source: a negative Δso cannot be reached with a strength ≥ 0. With
+    # the key's range withheld from the fit (as for a constraint between keys, which no bound
+    # carries) the steps push the strength below 0; the message must blame the fit's step and
     # name the targets file's parameter, not call the starting material file bad
+    import bandpert.runs.fit as fit_module
+
+    monkeypatch.setattr(fit_module, "key_range", lambda key, document=None: KeyRange(
+        -math.inf, math.inf))
     target = {**ENERGIES[-1], "value": -0.05}
     targets = targets_doc(["spin_orbit.species.Si.strength_eV"], [target])
     (tmp_path / "t.toml").write_text(to_toml(targets), encoding="utf-8")
@@ -227,3 +236,99 @@ def test_a_trial_step_out_of_a_keys_range_is_named_as_the_fits(tmp_path, capsys)
     assert err.count("\n") == 1 and "t.toml" in err and "parameters[0]" in err
     assert "trial step of the fit" in err and "spin_orbit.species.Si.strength_eV" in err
     assert not out.exists() or not any(out.iterdir())
+
+
+def test_a_target_only_reachable_below_a_bound_ends_on_it():
+    # common practice, no source: Δso = E(Γ8) − E(Γ7) grows from 0 with the strength λ ≥ 0,
+    # so a target of −0.05 eV is met best at λ = 0, the closed lower end of its range
+    doc, path = silicon_doc()
+    target = {**ENERGIES[-1], "value": -0.05}
+    spec = parse_targets(targets_doc(["spin_orbit.species.Si.strength_eV"], [target]),
+                         "t.toml", parse_material(doc, path))
+    result = run_fit(doc, path, spec)
+    assert result.at_bound == ("lower",) and result.values[0] == 0.0
+    assert np.isnan(result.uncertainties[0]) and result.keys_at_bound == result.keys
+    assert abs(result.model_values[0]) < 1e-9
+    assert any("lower bound" in w for w in result.warnings)
+
+
+def width_target(value):
+    return {"quantity": "energy", "at": "Γ:v1", "from": "Γ:v7", "value": value,
+            "tolerance": 0.05, "source": SOURCE}
+
+
+def test_cli_fit_ending_at_a_bound_reports_it(tmp_path, capsys):
+    # exact by construction: the valence width grows with the kinetic factor β (≤ 1.5 by its
+    # key); its target is the tool's width at 1.5 extrapolated linearly to β = 1.6, so the
+    # unbounded optimum lies beyond 1.5; the strength λ stays free and fits Δso
+    doc, path = silicon_doc()
+    keys = ["potential.kinetic_factor", "spin_orbit.species.Si.strength_eV"]
+    spec = parse_targets(targets_doc(keys, [width_target(12.0), ENERGIES[-1]]), "t.toml",
+                         parse_material(doc, path))
+    probe = Fit(doc, path, spec)
+    at = {b: probe.targets.values(probe.material(np.array([b, probe.start[1]])))[0]
+          for b in (1.4, 1.5)}
+    assert at[1.5] > at[1.4]
+    beyond = float(2 * at[1.5] - at[1.4])
+    targets = targets_doc(keys, [width_target(beyond), ENERGIES[-1]])
+    (tmp_path / "t.toml").write_text(to_toml(targets), encoding="utf-8")
+    out = tmp_path / "out"
+    capsys.readouterr()
+    assert run(["fit", "silicon-spin-orbit", str(tmp_path / "t.toml"), "--out", str(out),
+                "--name", "si"]) == 0
+    captured = capsys.readouterr()
+    assert "at bound" in captured.out and "upper bound" in captured.err
+    written = out / "si.toml"
+    fitted = parse_material(tomllib.loads(written.read_text(encoding="utf-8")), str(written))
+    assert fitted.potential.kinetic_factor == 1.5
+    assert "upper bound" in fitted.note
+    res = json.loads((out / "si.json").read_text(encoding="utf-8"))["results"]
+    beta, lam = res["parameters"]
+    assert beta["at_bound"] == "upper" and beta["uncertainty"] is None
+    assert beta["range"] == {"low": 0.5, "high": 1.5, "open_low": False, "open_high": False}
+    assert lam["at_bound"] is None and lam["uncertainty"] > 0
+    assert res["at_bound"] == ["potential.kinetic_factor"]
+    assert res["jacobian_rank"] == 1 and not res["undetermined"]
+
+
+@pytest.mark.parametrize("beta, side", [(0.5, "lower"), (1.5, "upper")])
+def test_one_sided_differences_at_a_bound_equal_hellmann_feynman(beta, side):
+    # source: Hellmann–Feynman theorem (H. Hellmann 1937; R. P. Feynman, Phys. Rev. 56, 340
+    # (1939)); at an end of β's range [0.5, 1.5] both ∂H/∂β and the eigenvalue differences are
+    # one-sided of second order (numerical analysis, common practice, no source)
+    doc, path = silicon_doc()
+    doc["potential"]["kinetic_factor"] = beta
+    keys = ["potential.kinetic_factor", "potential.symmetric[0]",
+            "spin_orbit.species.Si.strength_eV"]
+    spec = parse_targets(targets_doc(keys, ENERGIES + [MASS]), "t.toml",
+                         parse_material(doc, path))
+    fit = Fit(doc, path, spec)
+    assert fit.bound_sides(fit.start) == (side, "", "")
+    pairs, _ = fit.differences(fit.start)
+    assert all(0.5 <= m.potential.kinetic_factor <= 1.5 for pair in pairs for m in pair[:2])
+    hf = fit.jacobian(fit.start)
+    fd = fit.jacobian(fit.start, finite_differences=True)
+    assert np.max(np.abs(hf - fd)) <= 1e-6 * np.max(np.abs(fd))
+    # inside the range the one-sided columns equal the central ones
+    p = fit.start.copy()
+    p[0] = 1.2
+    central = fit.jacobian(p)
+    fit.lower, fit.upper = p.copy(), np.full(3, np.inf)  # every parameter on a lower bound
+    forward = fit.jacobian(p)
+    assert np.max(np.abs(forward - central)) <= 1e-6 * np.max(np.abs(central))
+
+
+def test_differences_keep_off_an_open_end():
+    # common practice, no source: a radius > 0 is searched from a margin above 0, and the
+    # Jacobian's steps go up from there (the fit never evaluates at 0 or below)
+    doc, path = silicon_doc()
+    doc["nonlocal"] = {"species": {"Si": {"A0_eV": 1.0, "R0_A": 1.0}}}
+    spec = parse_targets(targets_doc(["nonlocal.species.Si.R0_A"], ENERGIES[:1]), "t.toml",
+                         parse_material(doc, path))
+    fit = Fit(doc, path, spec)
+    lower = fit.lower[0]
+    assert lower == pytest.approx(5e-6) and fit.upper[0] == 5.0
+    pairs, combine = fit.differences(np.array([lower]))
+    radii = [m.nonlocal_terms.species["Si"][0][2] for pair in pairs for m in pair[:2]]
+    assert min(radii) == lower and len(pairs) == 2 and list(combine[:, 0]) == [2.0, -1.0]
+    assert np.all(np.isfinite(fit.jacobian(np.array([lower]))))

@@ -15,6 +15,13 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
+from .key_ranges import (
+    FRACTIONAL_COORDINATE,
+    LATTICE_ANGLE_DEG,
+    LATTICE_LENGTH_A,
+    MIN_LATTICE_LENGTH_A,
+    VECTOR_COMPONENT_A,
+)
 from .reader import TableReader, describe, entries, number_list
 
 #: Lattice types by name, their dimension and the constants they take.
@@ -33,31 +40,8 @@ LATTICE_TYPES: dict[str, tuple[int, tuple[str, ...]]] = {
     "vectors": (0, ("vectors_A", "a_A")),
 }
 
-#: Forms of the crystal potential.
-
-
-#: Closest allowed distance between two atoms, in Å.
-MIN_ATOM_DISTANCE_A = 0.3
-
-#: Largest accepted magnitude of a fractional atomic coordinate (guards the arithmetic only).
-
-
-#: Largest accepted magnitude of a fractional atomic coordinate (guards the arithmetic only).
-MAX_FRACTIONAL_COORDINATE = 1000.0
-
-#: Largest accepted magnitude of a Miller index of an explicit Fourier coefficient. Far beyond
-#: any basis the plane-wave model allows, and small enough for its integer index arithmetic.
-
-
-#: Longest accepted lattice length (lattice constants and vector lengths), Å. A longer period
-#: puts the first reciprocal shell below 4e-6 eV: every band energy would be a numerical
-#: rounding of the free-electron continuum.
-MAX_LATTICE_LENGTH_A = 1000.0
-
-#: Largest accepted |V| of a Fourier coefficient or form factor, as a multiple of the kinetic
-#: scale ħ²(2π/a)²/2m0 (silicon's strongest form factor is 0.56 of it). A stronger potential
-#: binds states on a length scale no plane-wave basis of at most :data:`MAX_BANDS` waves
-#: resolves; its bands would be numbers without meaning.
+#: Closest allowed distance between two atoms, in Å (the shortest accepted lattice length too).
+MIN_ATOM_DISTANCE_A = MIN_LATTICE_LENGTH_A
 
 
 @dataclass(frozen=True)
@@ -120,20 +104,20 @@ def read_lattice(r: TableReader) -> tuple[str, int, np.ndarray, float]:
         vectors = np.array([number_list(v, r, "vectors_A", length=dim) for v in raw])
         a = r.number("a_A", required=False, positive=True,
                      default=float(np.linalg.norm(vectors[0])))
-        if np.max(np.abs(vectors)) > MAX_LATTICE_LENGTH_A:
+        if not all(VECTOR_COMPONENT_A.contains(x) for x in vectors.ravel()):
             raise r.fail("vectors_A", f"a component of {np.max(np.abs(vectors)):g} Å is outside "
-                                      f"the accepted range (at most {MAX_LATTICE_LENGTH_A:g} Å "
+                                      f"the accepted range (at most {VECTOR_COMPONENT_A.hi:g} Å "
                                       "per component; a longer period leaves no resolved bands)")
-        if a > MAX_LATTICE_LENGTH_A:
+        if not LATTICE_LENGTH_A.contains(a):
             _length_range(r, "a_A", a)
     else:
         consts = {k: r.number(k, positive=k != "gamma_deg") for k in keys}
         for k, value in consts.items():
-            if k != "gamma_deg" and value > MAX_LATTICE_LENGTH_A:
+            if k != "gamma_deg" and not LATTICE_LENGTH_A.contains(value):
                 _length_range(r, k, value)
-        if kind == "oblique" and not 0.0 < consts["gamma_deg"] < 180.0:
-            raise r.fail("gamma_deg", "must lie strictly between 0 and 180, got "
-                                      f"{consts['gamma_deg']:g}")
+        if kind == "oblique" and not LATTICE_ANGLE_DEG.contains(consts["gamma_deg"]):
+            raise r.fail("gamma_deg", f"must lie strictly between {LATTICE_ANGLE_DEG.lo:g} and "
+                                      f"{LATTICE_ANGLE_DEG.hi:g}, got {consts['gamma_deg']:g}")
         a = consts["a_A"]
         vectors = lattice_vectors(kind, a, consts.get("b_A"), consts.get("c_A"),
                                   consts.get("gamma_deg"))
@@ -163,9 +147,10 @@ def read_lattice(r: TableReader) -> tuple[str, int, np.ndarray, float]:
 
 
 def _length_range(r: TableReader, key: str, value: float) -> None:
-    raise r.fail(key, f"{value:g} Å is outside the accepted range 0.3 to {MAX_LATTICE_LENGTH_A:g} "
-                      "Å (a longer period leaves no resolved bands; expected a lattice "
-                      "constant in Å)")
+    why = ("a shorter one puts every atom on its own periodic image" if value < LATTICE_LENGTH_A.lo
+           else "a longer period leaves no resolved bands")
+    raise r.fail(key, f"{value:g} Å is outside the accepted range {LATTICE_LENGTH_A.lo:g} to "
+                      f"{LATTICE_LENGTH_A.hi:g} Å ({why}; expected a lattice constant in Å)")
 
 
 def _image_shifts(dim: int) -> np.ndarray:
@@ -194,7 +179,7 @@ def read_atoms(raw: Any, source: str, dim: int, vectors: np.ndarray) -> tuple[At
         if not species.strip():
             raise r.fail("species", "must not be empty")
         pos = number_list(r.raw("position"), r, "position", length=dim)
-        if any(abs(x) > MAX_FRACTIONAL_COORDINATE for x in pos):
+        if not all(FRACTIONAL_COORDINATE.contains(x) for x in pos):
             raise r.fail("position", f"{list(pos)} is not a fractional position; expected "
                                      "fractions of the lattice vectors (usually between 0 and 1)")
         r.finish()

@@ -23,9 +23,9 @@ import numpy as np
 
 from ..data import find_material
 from ..units import ENERGY_UNITS_TO_EV
+from .key_ranges import CUTOFF_EV, CUTOFF_RY, FRACTIONAL_COORDINATE, MAX_CUTOFF_EV
 from .lattice_input import (
     LATTICE_TYPES,
-    MAX_FRACTIONAL_COORDINATE,
     Atom,
     lattice_vectors,
     read_atoms,
@@ -77,20 +77,10 @@ __all__ = [
 #: Labels accepted on input for Γ.
 GAMMA_ALIASES = {"G": "Γ", "Gamma": "Γ", "GAMMA": "Γ", "Γ": "Γ"}
 
-#: Closest allowed distance between two atoms, in Å.
-
-
 #: Largest number of bands, and of plane waves (the plane-wave model's own limit,
 #: ``bandpert.planewave.model.MAX_BASIS``: a 4000 × 4000 complex matrix is 256 MB).
 MAX_BANDS = 4000
 
-#: Largest accepted plane-wave cutoff, eV (7350 Ry): beyond any basis the tool builds.
-
-
-#: Largest accepted plane-wave cutoff, eV (7350 Ry): beyond any basis the tool builds.
-MAX_CUTOFF_EV = 1.0e5
-
-#: Largest |G|² of a listed form-factor shell, in (2π/a)²: far beyond any basis the tool builds.
 
 
 def canonical_label(label: str) -> str:
@@ -202,9 +192,9 @@ def _read_path(r: TableReader, dim: int) -> CustomPath:
             raise pts_r.fail(label, f"'{label}' and '{given[name]}' both name the point {name}; "
                                     "expected each point once")
         points[name] = number_list(pts_r.raw(label), pts_r, label, length=dim)
-        if any(abs(x) > MAX_FRACTIONAL_COORDINATE for x in points[name]):
+        if not all(FRACTIONAL_COORDINATE.contains(x) for x in points[name]):
             raise pts_r.fail(label, f"{show_list(list(points[name]))} is outside the accepted "
-                                    f"range (magnitude at most {MAX_FRACTIONAL_COORDINATE:g}); "
+                                    f"range (magnitude at most {FRACTIONAL_COORDINATE.hi:g}); "
                                     "expected fractions of the reciprocal vectors")
         given[name] = label
     pts_r.finish()
@@ -265,9 +255,9 @@ def parse_material(doc: dict[str, Any], source: str = "") -> Material:
     if basis is not None:
         why = "beyond any basis of at most 4000 plane waves"
         c_ev = basis.number("cutoff_eV", required=False, positive=True,
-                            bounds=(0.0, MAX_CUTOFF_EV), meaning=why)
+                            bounds=CUTOFF_EV.closed, meaning=why)
         c_ry = basis.number("cutoff_Ry", required=False, positive=True,
-                            bounds=(0.0, MAX_CUTOFF_EV / ENERGY_UNITS_TO_EV["Ry"]), meaning=why)
+                            bounds=CUTOFF_RY.closed, meaning=why)
         if c_ev is not None and c_ry is not None:
             raise basis.fail("cutoff_Ry", "give either cutoff_eV or cutoff_Ry, not both")
         cutoff = c_ev if c_ev is not None else (

@@ -15,7 +15,19 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass, field, replace
 
-from ..units import ENERGY_UNITS_TO_EV, HBAR2_OVER_2M0_EV_A2
+from ..units import ENERGY_UNITS_TO_EV
+from .key_ranges import (
+    CONTINUOUS_A3,
+    DEFORMATION_UNCERTAINTY_EV,
+    DEFORMATION_VALUE_EV,
+    KINETIC_FACTOR,
+    MAX_POTENTIAL_RATIO,
+    POSITIVE,
+    SHELL_G2,
+    TAPER_START_INVA,
+    kinetic_scale_eV,
+    potential_limit_eV,
+)
 from .lattice_input import Atom
 from .reader import (
     TableReader,
@@ -45,17 +57,9 @@ MAX_MILLER_INDEX = 100_000
 
 #: Accepted range of the kinetic factor β (``kinetic_factor``, H0 = β ħ²|k+G|²/2m0): the
 #: kinetic-energy scaling of Wang & Zunger (Phys. Rev. B 51, 17398 (1995), from memory) takes
-#: values near 1; beyond ±50 % the model is no longer a free-electron plane-wave model.
-KINETIC_FACTOR_RANGE = (0.5, 1.5)
-
-#: Largest accepted |V| of a Fourier coefficient or form factor, as a multiple of the kinetic
-#: scale ħ²(2π/a)²/2m0 (silicon's strongest form factor is 0.56 of it). A stronger potential
-#: binds states on a length scale no plane-wave basis of at most :data:`MAX_BANDS` waves
-#: resolves; its bands would be numbers without meaning.
-MAX_POTENTIAL_RATIO = 100.0
-
-#: Largest |G|² of a listed form-factor shell, in (2π/a)²: far beyond any basis the tool builds.
-MAX_SHELL_G2 = 1.0e4
+#: values near 1; beyond ±50 % the model is no longer a free-electron plane-wave model. The
+#: range itself, like every key's, lives in :mod:`.key_ranges`.
+KINETIC_FACTOR_RANGE = KINETIC_FACTOR.closed
 
 #: Relative tolerance under which two |G|² shells count as the same shell.
 SHELL_MATCH_TOLERANCE = 1e-6
@@ -80,10 +84,6 @@ DEFORMATION_TARGETS = {
     "b": "b = (l − m)/3 of the threefold valence top",
     "d": "d = n/√3 of the threefold valence top",
 }
-
-#: Largest accepted |value| and uncertainty of a deformation-potential target (eV): measured
-#: deformation potentials of semiconductors lie within about ±20 eV.
-MAX_DEFORMATION_EV = 50.0
 
 
 @dataclass(frozen=True)
@@ -181,20 +181,11 @@ def _energies_ev(values: tuple[float, ...], to_ev: float, reader: TableReader,
     return tuple(convert_to_ev(v, to_ev, reader, name).real for v in values)
 
 
-def kinetic_scale_eV(a_A: float) -> float:
-    """The kinetic scale ħ²(2π/a)²/2m0 of a lattice constant ``a`` (Å), in eV.
-
-    It is the free-electron energy of the first reciprocal shell of a simple cubic lattice of
-    edge ``a``, the natural unit of the form factors (5.10 eV for silicon's a = 5.43 Å).
-    """
-    return HBAR2_OVER_2M0_EV_A2 * (2.0 * math.pi / a_A) ** 2
-
-
 def _check_strength(r: TableReader, key: str, values_eV, a_A: float, what: str = "|V|") -> None:
     """Refuse a potential stronger than :data:`MAX_POTENTIAL_RATIO` × the kinetic scale."""
     largest = max((abs(complex(v)) for v in values_eV), default=0.0)
     scale = kinetic_scale_eV(a_A)
-    if largest > MAX_POTENTIAL_RATIO * scale:
+    if largest > potential_limit_eV(a_A):
         raise r.fail(key, f"{what} = {largest:.4g} eV is {largest / scale:.3g} times the kinetic "
                           f"scale ħ²(2π/a)²/2m0 = {scale:.4g} eV; expected at most "
                           f"{MAX_POTENTIAL_RATIO:g} times (a potential that strong needs a basis "
@@ -217,10 +208,10 @@ def _read_targets(r: TableReader, form: str) -> tuple[DeformationTarget, ...]:
             raise t.fail(name, f"unknown deformation potential; expected one of: "
                                f"{', '.join(DEFORMATION_TARGETS)}")
         e = t.sub(name)
-        value = e.number("value_eV", bounds=(-MAX_DEFORMATION_EV, MAX_DEFORMATION_EV),
+        value = e.number("value_eV", bounds=DEFORMATION_VALUE_EV.closed,
                          meaning="measured deformation potentials lie within about ±20 eV")
         sigma = e.number("uncertainty_eV", required=False, positive=True,
-                         bounds=(0.0, MAX_DEFORMATION_EV),
+                         bounds=DEFORMATION_UNCERTAINTY_EV.closed,
                          meaning="the weight of the target in the fit is 1/uncertainty")
         source = e.string("source")
         if not source.strip():
@@ -312,9 +303,10 @@ def _read_form(r: TableReader, atoms: tuple[Atom, ...], dim: int, a_A: float,
     shells = number_list(r.raw("shells"), r, "shells")
     if not shells:
         raise r.fail("shells", "expected at least one |G|² shell")
-    if any(not 0 <= s <= MAX_SHELL_G2 for s in shells):
+    if not all(SHELL_G2.contains(s) for s in shells):
         raise r.fail("shells", f"{list(shells)} has a |G|² outside the accepted range "
-                               f"0 to {MAX_SHELL_G2:g}; expected non-negative values in units "
+                               f"{SHELL_G2.lo:g} to {SHELL_G2.hi:g}; expected non-negative "
+                               "values in units "
                                "of (2π/a)²")
     ordered = sorted(shells)
     for lo, hi in zip(ordered, ordered[1:], strict=False):
@@ -368,7 +360,7 @@ def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: st
     taper = r.raw("taper_invA", required=False)
     if taper is not None:
         taper = number_list(taper, r, "taper_invA", length=2)
-        if taper[0] < 0:
+        if not TAPER_START_INVA.contains(taper[0]):
             raise r.fail("taper_invA", f"q1 = {taper[0]:g} Å⁻¹ is negative; expected "
                                        "0 <= q1 < q2 (Å⁻¹)")
         if taper[0] >= taper[1]:
@@ -389,10 +381,10 @@ def _read_continuous(r: TableReader, atoms: tuple[Atom, ...], dim: int, unit: st
         a3 = s.number("a3")
         a4 = s.number("a4_A2")
         bumps = _read_slopes(s, to_ev)
-        if a4 <= 0:
+        if not POSITIVE.contains(a4):
             raise s.fail("a4_A2", f"must be positive, got {a4:g}; expected a4 > 0 (Å²) so that "
                                   "v(q) decays like exp(-a4 q²) at large q")
-        if a3 <= 1:
+        if not CONTINUOUS_A3.contains(a3):
             where = ("vanishes at q = "
                      f"{math.sqrt(-math.log(a3) / a4):.4g} Å⁻¹" if 0 < a3 < 1 else
                      "vanishes at q = 0" if a3 == 1 else "is negative for every q")

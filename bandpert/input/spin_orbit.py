@@ -17,18 +17,19 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+from .key_ranges import MAX_STRENGTH_EV, SLATER_EXPONENT_INVA, SPIN_ORBIT_STRENGTH_EV
 from .reader import TableReader, species_tables
 
 #: Principal quantum numbers of the core p shells the radial factor has closed forms for.
 CORE_SHELLS = (2, 3, 4, 5)
 
-#: Largest accepted strength λ_s, eV: the fitted strengths of the bundled files are of order
-#: 0.01–0.1 eV; 10 eV would split the valence top by tens of eV.
-MAX_STRENGTH_EV = 10.0
-
 #: Accepted range of the Slater exponent ζ, Å⁻¹ (core p orbitals of the elements up to Xe lie
-#: between about 3 and 40 Å⁻¹ by Slater's rules).
-SLATER_EXPONENT_RANGE_INVA = (0.5, 200.0)
+#: between about 3 and 40 Å⁻¹ by Slater's rules). Every key's range lives in :mod:`.key_ranges`
+#: (the strength's too: :data:`MAX_STRENGTH_EV` is re-exported from there).
+SLATER_EXPONENT_RANGE_INVA = SLATER_EXPONENT_INVA.closed
+
+__all__ = ["CORE_SHELLS", "MAX_STRENGTH_EV", "SLATER_EXPONENT_RANGE_INVA", "SpeciesSpinOrbit",
+           "SpinOrbit", "read_spin_orbit"]
 
 
 @dataclass(frozen=True)
@@ -87,7 +88,7 @@ def read_spin_orbit(r: TableReader, species_names: set[str], dimension: int = 3)
             raise sp.fail(name, f"missing spin-orbit parameters for species '{name}' (atoms list "
                                 "it); expected a table with strength_eV (0 switches it off)")
         s = sp.sub(name)
-        strength = s.number("strength_eV", bounds=(0.0, MAX_STRENGTH_EV),
+        strength = s.number("strength_eV", bounds=SPIN_ORBIT_STRENGTH_EV.closed,
                             meaning="λ in eV: 0 switches the species off, and fitted strengths "
                                     "are of order 0.01-0.1 eV")
         shell = s.integer("core_shell", required=False, minimum=min(CORE_SHELLS),

@@ -2,17 +2,27 @@
 
 The residual of target i is r_i = (model_i − value_i)/tolerance_i, minimised over the named
 parameters (dotted keys of the file, as in a sweep) by :func:`scipy.optimize.least_squares`
-(trust-region reflective). The Jacobian comes from first-order perturbation theory
-(Hellmann–Feynman, :meth:`~bandpert.physics.fit_targets.TargetModel.energy_derivatives`: energies,
-and masses through their stencils); it is taken at the parameters of a residual evaluation, whose
+(trust-region reflective, which keeps every iterate strictly inside its bounds) within the range
+each key accepts (:func:`bandpert.input.key_ranges.key_range`, the range the readers check; an
+open end, such as a radius > 0, kept a margin inside). The Jacobian comes from first-order
+perturbation theory (Hellmann–Feynman,
+:meth:`~bandpert.physics.fit_targets.TargetModel.energy_derivatives`: energies, and masses
+through their stencils); it is taken at the parameters of a residual evaluation, whose
 eigenpairs it reuses (:meth:`Fit.evaluate` keeps the last few, keyed by the parameter vector).
+Its differences in a parameter (∂H/∂p, and the targets without a Hellmann–Feynman row) are
+central, [f(p + δ) − f(p − δ)]/2δ, except within δ of a bound, where they are one-sided of the
+same order, [−3f(p) + 4f(p + δ) − f(p + 2δ)]/2δ (or its mirror), so no step leaves the range
+(:meth:`Fit.differences`).
 
-At the solution, with J the Jacobian of r and J = U S Vᵀ: the rank is the number of singular
-values above :data:`RANK_RTOL` × the largest; the covariance of the parameters is
-V S⁻² Vᵀ over those (the tolerances taken as standard deviations), giving the uncertainties
-and correlations; a parameter with a weight above 0.3 on a dropped singular vector is reported
-as not determined by the targets (W. H. Press et al., Numerical Recipes, 3rd ed. 2007, §15.4.2,
-SVD solution of least squares; from memory).
+A parameter that ends within :data:`AT_BOUND_RTOL` of the range's width of a bound is set on
+the bound and reported as at its bound: the targets pull it beyond what its key accepts. Its
+uncertainty means nothing (reported as none); the statistics of the others are those with it
+held there. At the solution, with J the Jacobian of r over the parameters not at a bound and
+J = U S Vᵀ: the rank is the number of singular values above :data:`RANK_RTOL` × the largest;
+the covariance of the parameters is V S⁻² Vᵀ over those (the tolerances taken as standard
+deviations), giving the uncertainties and correlations; a parameter with a weight above 0.3 on a
+dropped singular vector is reported as not determined by the targets (W. H. Press et al.,
+Numerical Recipes, 3rd ed. 2007, §15.4.2, SVD solution of least squares; from memory).
 """
 
 from __future__ import annotations
@@ -26,6 +36,7 @@ import numpy as np
 import scipy.optimize
 
 from ..errors import InputError
+from ..input.key_ranges import KeyRange, key_range
 from ..input.material import Material, parse_material
 from ..physics.fit_checks import moved_minima
 from ..physics.fit_targets import Evaluation, FitSpec, TargetModel
@@ -44,6 +55,14 @@ MAX_EVALUATIONS = 400
 
 #: Evaluations kept (keyed by the parameter vector) for a Jacobian at the same parameters.
 KEPT_EVALUATIONS = 4
+
+#: Distance from a bound, as a fraction of the range's width (of max(1, |bound|) for a
+#: half-open range), within which a fitted parameter counts as at its bound.
+AT_BOUND_RTOL = 1e-6
+
+#: One difference column: the material at the upper and the lower point and half their
+#: distance in the parameter (the column is [f(upper) − f(lower)]/(2 × that)).
+Pair = tuple[Material, Material, float]
 
 Progress = Callable[[int, float], None]
 
@@ -86,7 +105,12 @@ class FitResult:
         The material document with the fitted values and a source naming the targets.
     warnings : tuple of str
         What the targets cannot see (:func:`~bandpert.physics.fit_checks.moved_minima`: a
-        followed conduction minimum that is no longer its band's lowest).
+        followed conduction minimum that is no longer its band's lowest), and the parameters
+        that ended at a bound of their range.
+    ranges : tuple of KeyRange
+        The accepted range of each parameter's key.
+    at_bound : tuple of str
+        Per parameter: "lower" or "upper" when it ended at that bound of its range, else "".
     """
 
     keys: tuple[str, ...]
@@ -103,6 +127,13 @@ class FitResult:
     evaluations: int
     document: dict = field(repr=False)
     warnings: tuple[str, ...] = ()
+    ranges: tuple[KeyRange, ...] = ()
+    at_bound: tuple[str, ...] = ()
+
+    @property
+    def keys_at_bound(self) -> tuple[str, ...]:
+        """The keys of the parameters that ended at a bound."""
+        return tuple(k for k, side in zip(self.keys, self.at_bound, strict=True) if side)
 
 
 class Fit:
@@ -125,6 +156,16 @@ class Fit:
                                  "key to fit", source, key)
             start.append(float(v))
         self.start = np.array(start)
+        ranges = []
+        for i, key in enumerate(spec.parameters):
+            try:
+                ranges.append(key_range(key, self.document))
+            except InputError as exc:
+                raise InputError(f"cannot be fitted ({key} {exc.problem})", spec.source or None,
+                                 f"parameters[{i}]") from None
+        self.ranges = tuple(ranges)
+        inner = np.array([r.inner() for r in self.ranges]).reshape(-1, 2)
+        self.lower, self.upper = inner[:, 0], inner[:, 1]
         material = self.material(self.start)
         cutoff = spec.cutoff_eV or material.cutoff_eV or converged_cutoff(
             material.local_spinless(), 8)
@@ -145,21 +186,74 @@ class Fit:
         return doc
 
     def material(self, p: np.ndarray) -> Material:
-        """The material at parameters ``p``; a trial step that leaves a key's accepted range is
-        the fit's doing, not the file's, and is named as such (in the targets file's terms)."""
+        """The material at parameters ``p``. The bounds keep every key in its own range; a
+        trial step that breaks a constraint between keys (atoms closer than the reader allows,
+        a form factor above the limit of a lattice constant being fitted) is the fit's doing,
+        not the file's, and is named as such (in the targets file's terms)."""
         try:
             return parse_material(self.document_at(p), self.source)
         except InputError as exc:
-            if exc.key not in self.spec.parameters or np.array_equal(p, self.start):
+            key = next((k for k in self.spec.parameters if exc.key is not None and (
+                k == exc.key or k.startswith(exc.key + "["))), None)
+            if key is None or np.array_equal(p, self.start):
                 raise
-            i = self.spec.parameters.index(exc.key)
-            raise InputError(f"a trial step of the fit moved {exc.key} out of the range its key "
-                             f"accepts ({exc.problem}); expected targets these parameters reach "
-                             "inside the accepted ranges, a closer start, or this parameter held "
-                             "fixed", self.spec.source or None, f"parameters[{i}]") from None
+            i = self.spec.parameters.index(key)
+            raise InputError(f"a trial step of the fit moved {key} to a value the file refuses "
+                             f"({exc.problem}); expected targets these parameters reach inside "
+                             "the accepted ranges, a closer start, or this parameter held fixed",
+                             self.spec.source or None, f"parameters[{i}]") from None
 
     def steps(self, p: np.ndarray) -> np.ndarray:
         return RELATIVE_STEP * np.maximum(np.abs(p), 1e-3)
+
+    def differences(self, p: np.ndarray) -> tuple[list[Pair], np.ndarray]:
+        """The difference columns of the Jacobian at ``p`` and how they combine.
+
+        Central, (p + δ, p − δ, δ), where both points lie inside the bounds; else one-sided
+        of second order (module docstring), as two columns (p + δ, p, δ/2) and (p + 2δ, p, δ)
+        (their mirrors at an upper bound) combined 2 × first − second, δ shrunk if need be so
+        that p ± 2δ stays inside.
+
+        Returns
+        -------
+        pairs : list of (Material, Material, float)
+            The columns (:data:`Pair`).
+        combine : numpy.ndarray
+            (n_columns, n_parameters): ∂f/∂p = (f-columns) @ combine.
+        """
+        p = np.asarray(p, dtype=float)
+        base: Material | None = None
+        pairs: list[Pair] = []
+        weights: list[tuple[int, float]] = []
+        for j, step in enumerate(self.steps(p)):
+            if p[j] - step >= self.lower[j] and p[j] + step <= self.upper[j]:
+                up, down = p.copy(), p.copy()
+                up[j] += step
+                down[j] -= step
+                pairs.append((self.material(up), self.material(down), float(step)))
+                weights.append((j, 1.0))
+                continue
+            if base is None:
+                base = self.material(p)
+            room = (self.upper[j] - p[j]) if p[j] - step < self.lower[j] else (
+                p[j] - self.lower[j])
+            sign = 1.0 if p[j] - step < self.lower[j] else -1.0
+            step = min(step, room / 2.0)
+            if step <= 0:
+                raise InputError(f"the range of {self.spec.parameters[j]} is too narrow to "
+                                 "difference in; expected a range wider than the parameter's "
+                                 "step", self.spec.source or None, f"parameters[{j}]")
+            for multiple, weight in ((1.0, 2.0), (2.0, -1.0)):
+                moved = p.copy()
+                moved[j] += sign * multiple * step
+                far = self.material(moved)
+                pairs.append((far, base, multiple * step / 2.0) if sign > 0
+                             else (base, far, multiple * step / 2.0))
+                weights.append((j, weight))
+        combine = np.zeros((len(pairs), len(p)))
+        for column, (j, weight) in enumerate(weights):
+            combine[column, j] = weight
+        return pairs, combine
 
     def evaluate(self, p: np.ndarray) -> Evaluation:
         """The targets at p; the last :data:`KEPT_EVALUATIONS` are kept for the Jacobian."""
@@ -183,19 +277,15 @@ class Fit:
         return r
 
     def jacobian(self, p: np.ndarray, finite_differences: bool = False) -> np.ndarray:
-        """∂r/∂p: Hellmann–Feynman rows for energies, central differences for masses.
+        """∂r/∂p: Hellmann–Feynman rows for energies and masses, differences of the targets
+        for any row without one; one-sided at a bound (:meth:`differences`).
 
-        With ``finite_differences`` every row comes from central differences of the targets
-        (the check of the Hellmann–Feynman rows).
+        With ``finite_differences`` every row comes from differences of the targets (the check
+        of the Hellmann–Feynman rows).
         """
-        h = self.steps(p)
-        pairs = []
-        for j, step in enumerate(h):
-            up, down = p.copy(), p.copy()
-            up[j] += step
-            down[j] -= step
-            pairs.append((self.material(up), self.material(down), float(step)))
-        jac = np.full((len(self.target_values), len(p)), np.nan)
+        p = np.asarray(p, dtype=float)
+        pairs, combine = self.differences(p)
+        jac = np.full((len(self.target_values), len(pairs)), np.nan)
         if not finite_differences:
             evaluation = self.evaluate(p)
             jac = self.targets.energy_derivatives(evaluation.material, pairs, evaluation)
@@ -205,7 +295,18 @@ class Fit:
                 diff = (self.targets.values(up, need)
                         - self.targets.values(down, need)) / (2 * step)
                 jac[need, j] = diff[need]
-        return jac / self.tolerances[:, None]
+        return (jac @ combine) / self.tolerances[:, None]
+
+    def bound_sides(self, p: np.ndarray) -> tuple[str, ...]:
+        """Per parameter "lower", "upper" or "": within :data:`AT_BOUND_RTOL` of a bound."""
+        sides = []
+        for x, lo, hi in zip(p, self.lower, self.upper, strict=True):
+            width = hi - lo
+            near = [AT_BOUND_RTOL * (width if np.isfinite(width) else max(1.0, abs(b)))
+                    for b in (lo, hi)]
+            sides.append("lower" if np.isfinite(lo) and x - lo <= near[0] else
+                         "upper" if np.isfinite(hi) and hi - x <= near[1] else "")
+        return tuple(sides)
 
 
 def run_fit(document: dict[str, Any], source: str, spec: FitSpec,
@@ -250,42 +351,71 @@ def _solve(fit: Fit, spec: FitSpec, document: dict[str, Any],
             progress(fit.state.evaluations, fit.state.cost)
         return r
 
+    x0 = np.clip(fit.start, fit.lower, fit.upper)  # a start within an open end's margin
     with np.errstate(all="ignore"):
         result = scipy.optimize.least_squares(
-            residuals, fit.start, jac=fit.jacobian, method="trf", x_scale="jac",
-            xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=MAX_EVALUATIONS)
+            residuals, x0, jac=fit.jacobian, bounds=(fit.lower, fit.upper), method="trf",
+            x_scale="jac", xtol=1e-12, ftol=1e-12, gtol=1e-12, max_nfev=MAX_EVALUATIONS)
     if result.status <= 0:
         raise InputError(f"the fit did not converge in {result.nfev} evaluations (cost "
                          f"{result.cost:.4g}); expected targets the parameters can reach, or "
                          "a closer starting point", fit.source, "parameters")
-    p = result.x
-    jac = fit.jacobian(p)
-    _, s_some, vt = np.linalg.svd(jac, full_matrices=True)  # vt: every direction of p
-    s = np.zeros(len(p))
-    s[:len(s_some)] = s_some
-    keep = s > RANK_RTOL * s.max() if s.max() > 0 else np.zeros(s.shape, bool)
-    rank = int(keep.sum())
-    cov = (vt[keep].T / s[keep] ** 2) @ vt[keep]
-    sigma = np.sqrt(np.clip(np.diag(cov), 0.0, None))
-    undetermined = tuple(k for j, k in enumerate(spec.parameters)
-                         if np.any(np.abs(vt[~keep][:, j]) > 0.3)) if rank < len(p) else ()
-    sigma = np.array([np.nan if k in undetermined else x
-                      for k, x in zip(spec.parameters, sigma, strict=True)])
-    with np.errstate(all="ignore"):
-        corr = cov / np.outer(sigma, sigma)
+    sides = fit.bound_sides(result.x)
+    p = np.where([s == "lower" for s in sides], fit.lower,
+                 np.where([s == "upper" for s in sides], fit.upper, result.x))
+    free = np.array([not s for s in sides], dtype=bool)
+    rank, sigma, corr, undetermined = _statistics(fit.jacobian(p), free, spec.parameters)
     evaluation = fit.evaluate(p)
     model_values = evaluation.values
+    residual = (model_values - fit.target_values) / fit.tolerances
     doc = fit.document_at(p)
     doc["source"] = _fitted_source(str(document.get("source", "")), spec)
-    warnings = moved_minima(fit.targets, evaluation.material)
+    warnings = (*moved_minima(fit.targets, evaluation.material),
+                *_bound_warnings(spec.parameters, sides, p))
     if warnings:  # the written file says it too
         doc["note"] = " ".join([str(doc.get("note", "")), "Fit warning:", *warnings]).strip()
     return FitResult(keys=spec.parameters, start=fit.start, values=p, uncertainties=sigma,
                      correlations=corr, rank=rank, undetermined=undetermined,
                      target_values=fit.target_values, model_values=model_values,
-                     residuals=(model_values - fit.target_values) / fit.tolerances,
-                     cost=float(result.cost), evaluations=fit.state.evaluations, document=doc,
-                     warnings=warnings)
+                     residuals=residual, cost=0.5 * float(residual @ residual),
+                     evaluations=fit.state.evaluations, document=doc, warnings=warnings,
+                     ranges=fit.ranges, at_bound=sides)
+
+
+def _statistics(jac: np.ndarray, free: np.ndarray, keys: tuple[str, ...]
+                ) -> tuple[int, np.ndarray, np.ndarray, tuple[str, ...]]:
+    """Rank, uncertainties, correlations and undetermined keys from the Jacobian over the
+    ``free`` parameters (module docstring); NaN for the others (at a bound)."""
+    n = len(keys)
+    sigma = np.full(n, np.nan)
+    corr = np.full((n, n), np.nan)
+    idx = np.flatnonzero(free)
+    if not len(idx):
+        return 0, sigma, corr, ()
+    _, s_some, vt = np.linalg.svd(jac[:, idx], full_matrices=True)  # vt: every free direction
+    s = np.zeros(len(idx))
+    s[:len(s_some)] = s_some
+    keep = s > RANK_RTOL * s.max() if s.max() > 0 else np.zeros(s.shape, bool)
+    rank = int(keep.sum())
+    cov = (vt[keep].T / s[keep] ** 2) @ vt[keep]
+    sub = np.sqrt(np.clip(np.diag(cov), 0.0, None))
+    undetermined = tuple(keys[j] for col, j in enumerate(idx)
+                         if np.any(np.abs(vt[~keep][:, col]) > 0.3)) if rank < len(idx) else ()
+    sub = np.array([np.nan if keys[j] in undetermined else x
+                    for j, x in zip(idx, sub, strict=True)])
+    sigma[idx] = sub
+    with np.errstate(all="ignore"):
+        corr[np.ix_(idx, idx)] = cov / np.outer(sub, sub)
+    return rank, sigma, corr, undetermined
+
+
+def _bound_warnings(keys: tuple[str, ...], sides: tuple[str, ...], p: np.ndarray
+                    ) -> tuple[str, ...]:
+    """One line per parameter that ended at a bound."""
+    return tuple(f"{k} ended at the {side} bound of its accepted range ({x:g}): the targets pull "
+                 "it beyond what its key accepts, so its uncertainty is not meaningful (the "
+                 "others' are with it held there)."
+                 for k, side, x in zip(keys, sides, p, strict=True) if side)
 
 
 def _fitted_source(source: str, spec: FitSpec) -> str:

@@ -15,7 +15,7 @@ from ...input.material import parse_material
 from ...input.reader import read_toml_document
 from ...input.toml_text import to_toml
 from ...io import write_json, write_text
-from ...output.fit_report import fit_results
+from ...output.fit_report import fit_results, uncertainty_text
 from ...output.report import document
 from ...physics.fit_targets import parse_targets
 from ...runs.fit import MAX_EVALUATIONS, Fit, run_fit
@@ -88,9 +88,9 @@ def fit(
     table = Table(title=f"{material.name}: fitted parameters", title_justify="left")
     for col in ("parameter", "start", "fitted", "± 1σ"):
         table.add_column(col, justify="left" if col == "parameter" else "right")
-    for k, s, v, u in zip(result.keys, result.start, result.values, result.uncertainties,
-                          strict=True):
-        table.add_row(k, f"{s:.6g}", f"{v:.6g}", "undetermined" if u != u else f"{u:.2g}")
+    for k, s, v, u, side in zip(result.keys, result.start, result.values, result.uncertainties,
+                                result.at_bound, strict=True):
+        table.add_row(k, f"{s:.6g}", f"{v:.6g}", uncertainty_text(u, side))
     out.print(table)
     table = Table(title="targets", title_justify="left")
     for col in ("target", "value", "model", "residual / tolerance"):
