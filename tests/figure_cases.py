@@ -123,6 +123,9 @@ def all_cases() -> dict:
         "bands-own": lambda: bands_exact(own()),
         "bands-labelled-silicon": lambda: bands_labelled(bundled("silicon")),
         "bands-van-hove-gaas": lambda: bands_van_hove(bundled("gallium-arsenide")),
+        # spin–orbit and nonlocal terms: Kramers pairs, double-group labels
+        "bands-van-hove-germanium-fitted": lambda: bands_van_hove(
+            bundled("germanium-fitted"), n_k=16, window=(-4.0, 4.0)),
         "bands-van-hove-aluminium-window": lambda: bands_van_hove(bundled("aluminium"),
                                                                   window=(-2.0, 8.0)),
         "comparison-van-hove-silicon": lambda: bands_van_hove(bundled("silicon"),

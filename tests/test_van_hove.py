@@ -243,12 +243,3 @@ def test_figure_marks_every_classified_level_and_names_the_types(tmp_path):
                           "--van-hove-marks", "--out", str(tmp_path)])
     assert code == 0, err
     assert "[M0]" in out and "[crossing]" in out
-
-
-def test_spin_orbit_models_are_labelled_but_not_classified():
-    # the sum over states holds ∂H/∂k = 2C(k+G) only: a spin–orbit model says so instead of
-    # classifying with a wrong Hessian
-    m = bundled("silicon-spin-orbit")
-    labels, critical = label_and_classify(m, 5 * RY, {"Γ": np.zeros(3)}, 8)
-    assert labels[0].levels[0].label == "Γ6+"
-    assert critical[0].levels == () and "spin–orbit" in critical[0].note

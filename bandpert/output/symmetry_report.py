@@ -18,6 +18,12 @@ CRITICAL_POINTS_METHOD = (
     "over 200 directions (block: all up M0, all down M3, mixed a saddle of index 1 or 2 where "
     "the sign pattern on the sphere is a quadratic form's, else a warped saddle without index)")
 
+#: The same with spin–orbit or nonlocal terms (∂H/∂k from matrix differences, Kramers pairs).
+CRITICAL_POINTS_METHOD_K_DEPENDENT = CRITICAL_POINTS_METHOD + (
+    "; spin–orbit and nonlocal terms: ∂H/∂k and ∂²H/∂k∂k by central differences of the model's "
+    "H(k) on the k-centred basis, and a Kramers pair whose block is a multiple of the identity "
+    "is one band carried twice, with one Hessian")
+
 
 def critical_point_results(c: LevelCriticalPoint) -> dict[str, Any]:
     """One level's ``critical_point`` entry (keys in the README)."""
@@ -67,7 +73,8 @@ def symmetry_results(points: tuple[PointSymmetry, ...], energy_zero_eV: float = 
         "origin": first.origin if first else None,
         "note": first.note if first else note,
         "basis": "k-centred: ħ²|k+G|²/2m0 ≤ cutoff at each point",
-        **({"critical_points_method": CRITICAL_POINTS_METHOD,
+        **({"critical_points_method": CRITICAL_POINTS_METHOD_K_DEPENDENT
+            if any(c.matrix_differences for c in critical) else CRITICAL_POINTS_METHOD,
             "critical_points_note": cnote} if critical else {}),
         "points": [{
             "point": p.point,

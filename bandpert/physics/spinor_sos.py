@@ -11,8 +11,9 @@ inversion symmetry; in zincblende it is Kane's small k-linear term, left out her
 P the projector on the level. The velocity is ∂H/∂k, not p/m: the spin–orbit and nonlocal
 terms depend on k (their radial factors on |k + G|), so V_a and W_ab are the first and second
 derivatives of the whole H(k), taken as central differences of the matrix on the fixed set of
-plane waves centred on Γ (the kinetic part is exact; the others are smooth in k, so the matrix
-differences are accurate to O(δ²) with δ = 1e-4·2π/a). The sum runs over every state of the
+plane waves centred on Γ (:mod:`bandpert.physics.hamiltonian_derivatives`: the kinetic part is
+exact; the others are smooth in k, so the matrix differences are accurate to O(δ²) with
+δ = 1e-4·2π/a). The sum runs over every state of the
 basis, so the result is the exact curvature of the finite model at Γ.
 
 Along a direction n the eigenvalues of D(n) = Σ_ab n_a n_b D_ab are the curvatures of the heavy
@@ -33,9 +34,7 @@ from ..input.material import Material
 from ..planewave.model import centred_model
 from ..planewave.solver import single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
-
-#: Step of the matrix differences ∂H/∂k, ∂²H/∂k², in units of 2π/a.
-MATRIX_STEP = 1e-4
+from .hamiltonian_derivatives import MATRIX_STEP, hamiltonian_derivatives
 
 #: Levels closer than this belong to Γ8 (eV).
 DEGENERACY_EV = 1e-6
@@ -74,33 +73,22 @@ def gamma8_luttinger_sum_over_states(material: Material, cutoff_eV: float
                          "electrons.valence", material.file, "spin_orbit")
     model = centred_model(material, cutoff_eV, np.zeros(3), spin_orbit=True)
     top = material.valence_electrons - 1  # spinor bands hold one electron each
-    step = MATRIX_STEP * 2.0 * np.pi / material.a_A
-    eye = np.eye(3)
     with single_blas_thread():
-        h0 = model.hamiltonian(np.zeros(3))
-        w, c = scipy.linalg.eigh(h0, check_finite=False)
+        der = hamiltonian_derivatives(model, np.zeros(3), MATRIX_STEP * 2.0 * np.pi
+                                      / material.a_A)
+        w, c = scipy.linalg.eigh(der.hamiltonian_eV, check_finite=False)
         level = np.flatnonzero(np.abs(w - w[top]) < DEGENERACY_EV)
         if level.size != 4 or level.max() != top:
             raise InputError(f"the valence top at Γ is {level.size}-fold, expected the fourfold "
                              "Γ8 level of a cubic semiconductor", material.file, "spin_orbit")
-        plus = [model.hamiltonian(step * eye[a]) for a in range(3)]
-        minus = [model.hamiltonian(-step * eye[a]) for a in range(3)]
-        v = [c.conj().T @ ((plus[a] - minus[a]) / (2 * step)) @ c for a in range(3)]
-        w2 = {}
-        for a in range(3):
-            w2[a, a] = c.conj().T @ ((plus[a] - 2 * h0 + minus[a]) / step**2) @ c
-            for b in range(a + 1, 3):
-                pp = model.hamiltonian(step * (eye[a] + eye[b]))
-                pm = model.hamiltonian(step * (eye[a] - eye[b]))
-                mp = model.hamiltonian(step * (-eye[a] + eye[b]))
-                mm = model.hamiltonian(-step * (eye[a] + eye[b]))
-                w2[a, b] = w2[b, a] = c.conj().T @ ((pp - pm - mp + mm) / (4 * step**2)) @ c
-    others = np.setdiff1d(np.arange(len(w)), level)
+        others = np.setdiff1d(np.arange(len(w)), level)
+        v = der.first_projected(c[:, level], c)  # ⟨Γ8|V_a|m⟩ for every m
+        w2 = der.second_projected(c[:, level], c[:, level])
     denom = w[top] - w[others]
 
     def block(a: int, b: int) -> np.ndarray:
-        second = v[a][np.ix_(level, others)] @ (v[b][np.ix_(others, level)] / denom[:, None])
-        return 0.5 * w2[a, b][np.ix_(level, level)] + 0.5 * (second + second.conj().T)
+        second = v[a][:, others] @ (v[b][:, others].conj().T / denom[:, None])
+        return 0.5 * w2[a, b] + 0.5 * (second + second.conj().T)
 
     d = {(a, b): block(a, b) for a in range(3) for b in range(3)}
 

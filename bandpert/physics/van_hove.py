@@ -35,8 +35,16 @@ which the irreducible-representation labels use too, so classifying adds no diag
   U of the fcc path lie on mirror planes only, where the gradient along the C2 axis may not
   vanish).
 
-Spin–orbit and nonlocal terms add k-dependent parts to ∂H/∂k that this sum does not hold; those
-models get a note and no classification.
+Spin–orbit and nonlocal terms depend on k themselves, so p_i = 2βC(k+G)_i misses part of
+∂H/∂k and 2βC δ_ij part of ∂²H/∂k_i∂k_j. Those models (:func:`classify_k_dependent`) take
+both from matrix differences of the model's own H(k) on the one basis centred on k
+(:mod:`bandpert.physics.hamiltonian_derivatives`) and use the same sums with W_ij^{nn} in place
+of 2βC δ_ij. With spin, every level of a crystal with inversion is at least a Kramers pair; a
+twofold level whose second-order block is a multiple of 1₂ along every direction is one band
+carried twice and gets the Hessian ∂²E/∂k_i∂k_j = tr M_ij (method ``"hessian"``, both bands
+alike). Without inversion Kramers pairs split linearly in k at some points (Dresselhaus, Phys.
+Rev. 100, 580 (1955)): such a level is a crossing, and the points carry
+:data:`K_LINEAR_NOTE`.
 """
 
 from __future__ import annotations
@@ -44,9 +52,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.linalg
 
+from ..crystal.lattice import reciprocal_vectors
 from ..input.material import Material
-from ..planewave.model import KCentredModel, build_k_centred_model
+from ..planewave.model import KCentredModel, build_k_centred_model, centred_model
 from ..planewave.solver import single_blas_thread
 from ..symmetry import PointSymmetry, label_points, space_group_frame
 from ..symmetry.labels import k_centred_states, label_point, unlabelled_reason
@@ -57,12 +67,17 @@ from .critical_points import (
     curvature_kind,
     fibonacci_directions,
 )
+from .hamiltonian_derivatives import MATRIX_STEP, hamiltonian_derivatives
 
 __all__ = [
     "DIRECTIONS",
     "BandCriticalPoint",
     "LevelCriticalPoint",
+    "K_LINEAR_NOTE",
+    "KRAMERS_TOLERANCE",
     "PointCriticalPoints",
+    "classify_from_derivatives",
+    "classify_k_dependent",
     "classify_levels",
     "label_and_classify",
     "sum_over_states_hessian",
@@ -70,6 +85,10 @@ __all__ = [
 
 #: Directions sampled on the unit sphere for a degenerate block (as ``masses`` does).
 DIRECTIONS: int = 200
+
+#: A twofold spinor level whose block curvatures differ by less than this (relative) along
+#: every direction is a Kramers pair with one Hessian (rounding leaves ~1e-10).
+KRAMERS_TOLERANCE: float = 1e-6
 
 
 @dataclass(frozen=True)
@@ -161,13 +180,17 @@ class PointCriticalPoints:
     levels : tuple of LevelCriticalPoint
         Ascending, the same levels as the irreducible-representation labels.
     note : str
-        ``""`` or why nothing was classified.
+        ``""``, why nothing was classified, or :data:`K_LINEAR_NOTE`.
+    matrix_differences : bool
+        ∂H/∂k and ∂²H/∂k∂k came from matrix differences (spin–orbit or nonlocal terms,
+        :func:`classify_k_dependent`), not from 2βC(k+G).
     """
 
     point: str
     k_frac: np.ndarray
     levels: tuple[LevelCriticalPoint, ...]
     note: str
+    matrix_differences: bool = False
 
 
 def _momentum_rows(vectors: np.ndarray, kg: np.ndarray, bands: np.ndarray, beta: float
@@ -178,27 +201,34 @@ def _momentum_rows(vectors: np.ndarray, kg: np.ndarray, bands: np.ndarray, beta:
 
 
 def sum_over_states_hessian(energies_eV: np.ndarray, p_row: np.ndarray, band: int,
-                            exclude: np.ndarray, kinetic_factor: float = 1.0) -> np.ndarray:
-    """∂²E_n/∂k_i∂k_j = 2βC δ_ij + Σ_m 2 Re[p_i^{nm} p_j^{mn}]/(E_n − E_m) (eV Å²).
+                            exclude: np.ndarray, kinetic_factor: float = 1.0,
+                            second_eV_A2: np.ndarray | None = None) -> np.ndarray:
+    """∂²E_n/∂k_i∂k_j = W_ij^{nn} + Σ_m 2 Re[p_i^{nm} p_j^{mn}]/(E_n − E_m) (eV Å²).
+
+    W = ∂²H/∂k_i∂k_j is 2βC δ_ij for a local model (the kinetic term alone).
 
     Parameters
     ----------
     energies_eV : numpy.ndarray
         (n,) every eigenvalue of the basis.
     p_row : numpy.ndarray
-        (d, n) p_i^{nm} for the band n and every m (eV Å).
+        (d, n) p_i^{nm} = ⟨n|∂H/∂k_i|m⟩ for the band n and every m (eV Å).
     band : int
         n.
     exclude : numpy.ndarray
         Indices left out of the sum (n itself, and its level).
     kinetic_factor : float
-        β of the kinetic term β C|k+G|².
+        β of the kinetic term β C|k+G|² (used when ``second_eV_A2`` is None).
+    second_eV_A2 : numpy.ndarray, optional
+        (d, d) ⟨n|∂²H/∂k_i∂k_j|n⟩ of a model whose H depends on k beyond the kinetic term.
     """
     keep = np.ones(energies_eV.size, dtype=bool)
     keep[exclude] = False
     p = p_row[:, keep]
     t = np.einsum("im,jm,m->ij", p, p.conj(), 1.0 / (energies_eV[band] - energies_eV[keep]))
-    return 2.0 * kinetic_factor * C * np.eye(p_row.shape[0]) + 2.0 * t.real
+    first = (2.0 * kinetic_factor * C * np.eye(p_row.shape[0]) if second_eV_A2 is None
+             else np.real(second_eV_A2))
+    return first + 2.0 * t.real
 
 
 def _by_index(index: int, d: int) -> str:
@@ -224,24 +254,51 @@ def _block_curvatures(block: np.ndarray, u: np.ndarray) -> np.ndarray:
     return np.linalg.eigvalsh(h) / C
 
 
-def _degenerate_level(e: np.ndarray, p: np.ndarray, group: np.ndarray, d: int, beta: float
-                      ) -> tuple[str, float, float, tuple[BandCriticalPoint, ...]]:
-    """(method, |mean gradient|, linear splitting, bands) of a multiplet (module docstring)."""
+def _hessian_level(first: int, degeneracy: int, energy: float, h: np.ndarray,
+                   gradient: float, linear: float, rotations_cart: np.ndarray | None
+                   ) -> LevelCriticalPoint:
+    """A level whose bands share one Hessian h (a single band, or a Kramers pair)."""
+    h = 0.5 * (h + h.T)
+    d = h.shape[0]
+    w = np.linalg.eigvalsh(h / (2.0 * C))
+    index = int(np.sum(w < 0))
+    kind = "not stationary" if gradient > STATIONARY_GRADIENT_EV_A else _by_index(index, d)
+    bands = tuple(BandCriticalPoint(b, kind, None if kind == "not stationary" else f"M{index}",
+                                    index, w, np.array([w[0], w[-1]]))
+                  for b in range(first, first + degeneracy))
+    return LevelCriticalPoint(first, degeneracy, energy, "hessian", gradient, h,
+                              _symmetry_residual(h, rotations_cart), linear, bands)
+
+
+def _degenerate_level(e: np.ndarray, p: np.ndarray, second: np.ndarray, group: np.ndarray,
+                      rotations_cart: np.ndarray | None, kramers: bool) -> LevelCriticalPoint:
+    """A multiplet (module docstring): crossing, Kramers pair or second-order block.
+
+    ``p`` (d, g, n): ⟨a|∂H/∂k_i|m⟩ for the set and every m; ``second`` (d, d, g, g):
+    ⟨a|∂²H/∂k_i∂k_j|b⟩ inside the set.
+    """
+    d = p.shape[0]
+    energy = float(e[group].mean())
     inner = p[:, :, group]  # (d, g, g)
     mean = np.mean(np.real(np.einsum("inn->in", inner)), axis=1)
     gradient = float(np.linalg.norm(mean))
     linear = float(np.max(np.abs(inner - np.eye(group.size) * mean[:, None, None])))
     if linear > LINEAR_SPLITTING_EV_A:
-        return "crossing", gradient, linear, tuple(
-            BandCriticalPoint(int(b), "crossing", None, None, None) for b in group)
+        return LevelCriticalPoint(int(group[0]), group.size, energy, "crossing", gradient, None,
+                                  None, linear, tuple(
+            BandCriticalPoint(int(b), "crossing", None, None, None) for b in group))
     keep = np.ones(e.size, dtype=bool)
     keep[group] = False
     q = p[:, :, keep]  # (d, g, M)
-    t = np.einsum("iam,jbm,m->ijab", q, q.conj(), 1.0 / (e[group].mean() - e[keep]))
-    block = 0.5 * (t + t.transpose(1, 0, 2, 3)) + beta * C * np.einsum(
-        "ij,ab->ijab", np.eye(d), np.eye(group.size))
+    t = np.einsum("iam,jbm,m->ijab", q, q.conj(), 1.0 / (energy - e[keep]))
+    block = 0.5 * (t + t.transpose(1, 0, 2, 3)) + 0.5 * second
     u = fibonacci_directions(DIRECTIONS, d)
     values = _block_curvatures(block, u)  # (N, g)
+    if kramers and group.size == 2 and np.max(np.ptp(values, axis=1)) <= KRAMERS_TOLERANCE * max(
+            1.0, float(np.max(np.abs(values)))):
+        # one band carried twice: E(q) = Σ q_i q_j M_ij^{aa}, so ∂²E/∂q_i∂q_j = tr_ab M_ij
+        h = np.real(np.einsum("ijaa->ij", block))
+        return _hessian_level(int(group[0]), 2, energy, h, gradient, linear, rotations_cart)
     # the range also over the axes ⟨100⟩, ⟨110⟩, ⟨111⟩ of the Cartesian frame, where cubic
     # crystals have their extreme curvatures (the sample may pass beside them)
     axes = _AXES if d == 3 else np.eye(d)
@@ -254,14 +311,18 @@ def _degenerate_level(e: np.ndarray, p: np.ndarray, group: np.ndarray, d: int, b
         vh = None if kind == "not stationary" or index is None else f"M{index}"
         out.append(BandCriticalPoint(int(b), kind, vh, index, None,
                                      np.array([both[:, a].min(), both[:, a].max()])))
-    return "degenerate block", gradient, linear, tuple(out)
+    return LevelCriticalPoint(int(group[0]), group.size, energy, "degenerate block", gradient,
+                              None, None, linear, tuple(out))
 
 
 def classify_levels(energies_eV: np.ndarray, vectors: np.ndarray, kg_cart_invA: np.ndarray,
                     levels: list[tuple[int, int]],
                     rotations_cart: np.ndarray | None = None, kinetic_factor: float = 1.0
                     ) -> tuple[LevelCriticalPoint, ...]:
-    """Classify each level of one k-point from the full eigen-decomposition there.
+    """Classify each level of one k-point of a local spinless model from its eigenstates.
+
+    ∂H/∂k_i = 2βC (k + G)_i δ_GG′ and ∂²H/∂k_i∂k_j = 2βC δ_ij exactly
+    (:func:`classify_from_derivatives`).
 
     Parameters
     ----------
@@ -282,34 +343,56 @@ def classify_levels(energies_eV: np.ndarray, vectors: np.ndarray, kg_cart_invA: 
     -------
     tuple of LevelCriticalPoint
     """
-    e = np.asarray(energies_eV, dtype=float)
     if not levels:
         return ()
     top = max(a + g for a, g in levels)
-    bands = np.arange(top)
-    p = _momentum_rows(np.asarray(vectors), np.asarray(kg_cart_invA, dtype=float), bands,
-                       kinetic_factor)
+    p = _momentum_rows(np.asarray(vectors), np.asarray(kg_cart_invA, dtype=float),
+                       np.arange(top), kinetic_factor)
     d = p.shape[0]
+    second = 2.0 * kinetic_factor * C * np.einsum("ij,ab->ijab", np.eye(d), np.eye(top))
+    return classify_from_derivatives(energies_eV, p, second, levels, rotations_cart)
+
+
+def classify_from_derivatives(energies_eV: np.ndarray, p: np.ndarray, second: np.ndarray,
+                              levels: list[tuple[int, int]],
+                              rotations_cart: np.ndarray | None = None, kramers: bool = False
+                              ) -> tuple[LevelCriticalPoint, ...]:
+    """Classify each level of one k-point from ∂H/∂k and ∂²H/∂k∂k in its eigenbasis.
+
+    Parameters
+    ----------
+    energies_eV : numpy.ndarray
+        (n,) every eigenvalue of H(k) in the fixed basis, ascending.
+    p : numpy.ndarray
+        (d, top, n) ⟨a|∂H/∂k_i|m⟩ for the bands a below the top of the last level and every m.
+    second : numpy.ndarray
+        (d, d, top, top) ⟨a|∂²H/∂k_i∂k_j|b⟩ between those bands.
+    levels : list of (int, int)
+        (first band, degeneracy) of each level.
+    rotations_cart : numpy.ndarray, optional
+        (r, d, d) Cartesian rotations of the little co-group, for the symmetry residual.
+    kramers : bool
+        A spinor model: a twofold level whose second-order block is a multiple of the identity
+        along every direction (to :data:`KRAMERS_TOLERANCE`) is a Kramers pair, one band
+        carried twice, classified by its one Hessian.
+
+    Returns
+    -------
+    tuple of LevelCriticalPoint
+    """
+    e = np.asarray(energies_eV, dtype=float)
     out = []
     for a, g in levels:
         group = np.arange(a, a + g)
         if g == 1:
-            h = sum_over_states_hessian(e, p[:, a, :], a, group, kinetic_factor)
-            h = 0.5 * (h + h.T)
-            gradient = float(np.linalg.norm(np.real(p[:, a, a])))
-            w = np.linalg.eigvalsh(h / (2.0 * C))
-            index = int(np.sum(w < 0))
-            kind = ("not stationary" if gradient > STATIONARY_GRADIENT_EV_A
-                    else _by_index(index, d))
-            band = BandCriticalPoint(a, kind, None if kind == "not stationary" else f"M{index}",
-                                     index, w, np.array([w[0], w[-1]]))
-            out.append(LevelCriticalPoint(a, 1, float(e[a]), "hessian", gradient, h,
-                                          _symmetry_residual(h, rotations_cart), 0.0, (band,)))
+            h = sum_over_states_hessian(e, p[:, a, :], a, group,
+                                        second_eV_A2=second[:, :, a, a])
+            out.append(_hessian_level(a, 1, float(e[a]), h,
+                                      float(np.linalg.norm(np.real(p[:, a, a]))), 0.0,
+                                      rotations_cart))
         else:
-            method, gradient, linear, bcps = _degenerate_level(e, p[:, group, :], group, d,
-                                                               kinetic_factor)
-            out.append(LevelCriticalPoint(a, g, float(e[group].mean()), method, gradient, None,
-                                          None, linear, bcps))
+            out.append(_degenerate_level(e, p[:, group, :], second[:, :, a:a + g, a:a + g],
+                                         group, rotations_cart, kramers))
     return tuple(out)
 
 
@@ -321,17 +404,60 @@ def _little_cogroup_cart(rotations_cart: np.ndarray, reciprocal_invA: np.ndarray
     return rotations_cart[np.all(np.abs(frac - np.rint(frac)) < 1e-6, axis=1)]
 
 
-def not_classified_reason(material: Material, model: KCentredModel | None = None) -> str:
-    """Why the levels of a material are not classified (``""`` when they are)."""
+def not_classified_reason(material: Material) -> str:
+    """Why the levels of a material are not classified (``""`` when they are): 1D and 2D."""
     if unlabelled_reason(material):
         return unlabelled_reason(material).replace("no labels", "no critical points")
-    if getattr(material, "spin_orbit", None) is not None:
-        return ("critical points not classified with spin–orbit: the k-derivative of the "
-                "spin–orbit term is not in the sum over states")
-    if model is not None and model.nonlocal_term is not None:
-        return ("critical points not classified with nonlocal wells: their k-derivative is "
-                "not in the sum over states")
     return ""
+
+
+#: The remark on a spinor model of a crystal without inversion (``critical_points_note``).
+K_LINEAR_NOTE: str = (
+    "spin–orbit without inversion: Kramers pairs may split linearly in k (Dresselhaus 1955); "
+    f"a level whose linear splitting exceeds {LINEAR_SPLITTING_EV_A:g} eV·Å is listed as a "
+    "crossing, its bands non-analytic there, with no Hessian")
+
+
+def classify_k_dependent(material: Material, cutoff_eV: float, k_cart_invA: np.ndarray,
+                         levels: list[tuple[int, int]],
+                         rotations_cart: np.ndarray | None = None
+                         ) -> tuple[LevelCriticalPoint, ...]:
+    """Classify the levels at k of a model with spin–orbit or nonlocal terms.
+
+    H(k) is built by the model's own builder on the basis {G : ħ²|k+G|²/2m0 ≤ cutoff} centred
+    on k (:func:`bandpert.planewave.model.centred_model`), fully diagonalised; ∂H/∂k and
+    ∂²H/∂k∂k are its matrix differences on that one basis
+    (:mod:`bandpert.physics.hamiltonian_derivatives`, step :data:`MATRIX_STEP`·2π/a), taken to
+    the eigenbasis, and :func:`classify_from_derivatives` does the rest (a spinor model's
+    twofold levels may be Kramers pairs).
+
+    Parameters
+    ----------
+    material : Material
+    cutoff_eV : float
+    k_cart_invA : numpy.ndarray
+        (3,) Cartesian k (Å⁻¹).
+    levels : list of (int, int)
+        (first band, degeneracy), e.g. of the labels at k.
+    rotations_cart : numpy.ndarray, optional
+        (r, d, d) the little co-group, for the symmetry residual.
+
+    Returns
+    -------
+    tuple of LevelCriticalPoint
+    """
+    if not levels:
+        return ()
+    k = np.asarray(k_cart_invA, dtype=float)
+    model = centred_model(material, cutoff_eV, k, spin_orbit=True)
+    top = max(a + g for a, g in levels)
+    with single_blas_thread():  # small products: threads only contend
+        der = hamiltonian_derivatives(model, k, MATRIX_STEP * 2.0 * np.pi / material.a_A)
+        w, c = scipy.linalg.eigh(der.hamiltonian_eV, driver="evd", check_finite=False)
+        p = der.first_projected(c[:, :top], c)
+        second = der.second_projected(c[:, :top], c[:, :top])
+        return classify_from_derivatives(w, p, second, levels, rotations_cart,
+                                         kramers=model.n_components == 2)
 
 
 def label_and_classify(material: Material, cutoff_eV: float, points: dict[str, np.ndarray],
@@ -340,9 +466,10 @@ def label_and_classify(material: Material, cutoff_eV: float, points: dict[str, n
                        ) -> tuple[tuple[PointSymmetry, ...], tuple[PointCriticalPoints, ...]]:
     """Irreducible-representation labels and van Hove types at the labelled points.
 
-    One full diagonalisation per point in the basis centred on it serves both
-    (:func:`bandpert.symmetry.label_point` and :func:`classify_levels`); the levels classified
-    are the labelled ones.
+    For a local spinless model one full diagonalisation per point in the basis centred on it
+    serves both (:func:`bandpert.symmetry.label_point` and :func:`classify_levels`). A model
+    with spin–orbit or nonlocal terms is labelled as usual and each labelled level classified
+    by :func:`classify_k_dependent`. The levels classified are the labelled ones.
 
     Parameters
     ----------
@@ -360,19 +487,29 @@ def label_and_classify(material: Material, cutoff_eV: float, points: dict[str, n
     labels : tuple of PointSymmetry
         As :func:`bandpert.symmetry.label_points` returns them.
     critical : tuple of PointCriticalPoints
-        One per point, in the same order; empty where the labels are empty; with a note and
-        no levels for spin–orbit and nonlocal models (:func:`not_classified_reason`).
+        One per point, in the same order; empty where the labels are empty. A spinor model of
+        a crystal without inversion carries :data:`K_LINEAR_NOTE`.
     """
     if unlabelled_reason(material):
         return (), ()
     if getattr(material, "spin_orbit", None) is None:
         model = build_k_centred_model(material, cutoff_eV) if model is None else model
-    why = not_classified_reason(material, model)
-    if why:
+    frame = space_group_frame(material, origin_atom)
+    reciprocal = reciprocal_vectors(material.vectors_A)
+    if getattr(material, "spin_orbit", None) is not None or model.nonlocal_term is not None:
         labels = label_points(material, cutoff_eV, points, n_bands, model=model,
                               origin_atom=origin_atom)
-        return labels, tuple(PointCriticalPoints(p.point, p.k_frac, (), why) for p in labels)
-    frame = space_group_frame(material, origin_atom)
+        inversion = bool(np.any(np.isclose(np.trace(frame.rotations_cart, axis1=1, axis2=2),
+                                           -3.0)))
+        note = K_LINEAR_NOTE if material.spin_orbit is not None and not inversion else ""
+        critical = []
+        for ps in labels:
+            k_cart = ps.k_frac @ reciprocal
+            rot = _little_cogroup_cart(frame.rotations_cart, reciprocal, k_cart)
+            levels = [(lv.first_band, lv.degeneracy) for lv in ps.levels]
+            critical.append(PointCriticalPoints(ps.point, ps.k_frac, classify_k_dependent(
+                material, cutoff_eV, k_cart, levels, rot), note, True))
+        return labels, tuple(critical)
     labels, critical = [], []
     for lab, k in points.items():
         k = np.asarray(k, dtype=float)

@@ -36,6 +36,9 @@ VAN_HOVE_MARKERS: dict[str, tuple[str, str, str]] = {
     "crossing": ("x", "#333333", "crossing (no critical point)"),
 }
 
+#: Characters per line of the axes title once the van Hove legend beside the axes narrows them.
+NARROW_TITLE_WIDTH = 56
+
 #: Horizontal spacing (points) of the markers of one level with several types.
 MARKER_STEP_PT = 5.5
 
@@ -184,6 +187,8 @@ def draw_critical_points(ax: Axes, distance_invA, label_indices, labels, energy_
                               mew=1.1, label="open: a degenerate level,\nits second-order block"))
     old = ax.get_legend()
     if old is None:
+        # the legend narrows the axes: their title (a long material name) wraps to fit them
+        ax.title.set_text(style.wrap(ax.get_title().replace("\n", " "), NARROW_TITLE_WIDTH))
         return style.legend_outside(ax, handles, title="van Hove type")
     # one legend beside the axes (the layout makes room for one): the one already there, then
     # a heading line and the van Hove types

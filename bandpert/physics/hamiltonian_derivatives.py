@@ -1,0 +1,121 @@
+"""∂H/∂k and ∂²H/∂k∂k of a plane-wave model by matrix differences on one fixed set of plane waves.
+
+With spin–orbit or nonlocal terms the velocity is ∂H/∂k, not p/m: those terms depend on k
+through their radial factors on |k + G|, so the sum over states of a band's curvature needs the
+derivatives of the whole H(k). They are taken as central differences of the matrix that the
+model itself builds (:meth:`bandpert.planewave.model.PlaneWaveModel.hamiltonian`) on the model's
+one basis, shared by every point of the stencil (a basis following k would add and drop plane
+waves between the points). With H(k) = H0(k) ⊗ 1 + V(k) (V(k) the model's
+:meth:`~bandpert.planewave.model.PlaneWaveModel.perturbation_eV`: potential, nonlocal wells,
+spin–orbit),
+
+    V_a  = ∂H0/∂k_a + [V(k + δ e_a) − V(k − δ e_a)] / 2δ,
+    W_aa = ∂²H0/∂k_a² + [V(k + δ e_a) − 2V(k) + V(k − δ e_a)] / δ²,
+    W_ab = [V(k + δe_a + δe_b) − V(k + δe_a − δe_b) − V(k − δe_a + δe_b) + V(k − δe_a − δe_b)]
+           / 4δ²   (a ≠ b)
+
+(Abramowitz & Stegun, *Handbook of Mathematical Functions*, 1964, 25.3.23 and 25.3.26, from
+memory), with the kinetic derivatives exact, ∂H0/∂k_a = 2βC(k+G)_a, ∂²H0/∂k_a∂k_b = 2βC δ_ab
+(C = ħ²/2m0, β the kinetic factor): differencing the kinetic diagonal (up to the cutoff, ~200
+eV) would leave a rounding of ε·200 eV/δ² ≈ 3e-6 eV·Å² in W, where V(k) leaves ~1e-8. The
+spin–orbit and nonlocal parts are smooth in k, so their error is O(δ²) with δ =
+:data:`MATRIX_STEP`·2π/a. Whatever k dependence the model's V(k) has (a new term included) is
+differentiated without being named here.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..planewave.model import PlaneWaveModel
+
+__all__ = ["MATRIX_STEP", "HamiltonianDerivatives", "hamiltonian_derivatives"]
+
+#: Step δ of the matrix differences, in units of 2π/a.
+MATRIX_STEP: float = 1e-3
+
+
+@dataclass(frozen=True)
+class HamiltonianDerivatives:
+    """H(k) and its first and second k-derivatives on one fixed basis.
+
+    Attributes
+    ----------
+    hamiltonian_eV : numpy.ndarray
+        (N, N) H(k).
+    first_eV_A : numpy.ndarray
+        (d, N, N) V_a = ∂H/∂k_a.
+    second_eV_A2 : numpy.ndarray
+        (d, d, N, N) W_ab = ∂²H/∂k_a∂k_b (W_ab = W_ba).
+    step_invA : float
+        δ.
+    """
+
+    hamiltonian_eV: np.ndarray
+    first_eV_A: np.ndarray
+    second_eV_A2: np.ndarray
+    step_invA: float
+
+    def first_projected(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        """(d, r, c) U† V_a U′ for the columns U (rows) and U′ (cols), e.g. eigenvectors."""
+        left = rows.conj().T
+        return np.stack([left @ v @ cols for v in self.first_eV_A])
+
+    def second_projected(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        """(d, d, r, c) U† W_ab U′ for the columns U (rows) and U′ (cols)."""
+        left = rows.conj().T
+        d = self.first_eV_A.shape[0]
+        out = np.empty((d, d, rows.shape[1], cols.shape[1]), dtype=complex)
+        for a in range(d):
+            for b in range(a, d):
+                out[a, b] = out[b, a] = left @ self.second_eV_A2[a, b] @ cols
+        return out
+
+
+def hamiltonian_derivatives(model: PlaneWaveModel, k_cart_invA: np.ndarray, step_invA: float
+                            ) -> HamiltonianDerivatives:
+    """H(k), V_a and W_ab of ``model`` at k by the central differences of the module docstring.
+
+    Parameters
+    ----------
+    model : PlaneWaveModel
+        A fixed-basis model (e.g. :func:`bandpert.planewave.model.centred_model` around k):
+        every point of the stencil is built on its one basis.
+    k_cart_invA : numpy.ndarray
+        (d,) Cartesian k (Å⁻¹).
+    step_invA : float
+        δ (Å⁻¹).
+
+    Returns
+    -------
+    HamiltonianDerivatives
+    """
+    k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
+    d = k.size
+    eye = np.eye(d) * step_invA
+    v = model.perturbation_eV
+    v0 = v(k)
+    plus = [v(k + eye[a]) for a in range(d)]
+    minus = [v(k - eye[a]) for a in range(d)]
+    # the kinetic diagonal βC|k+G|² (once per spin component) exactly: 2βC(k+G)_a, 2βC δ_ab
+    kg = np.tile(k + model.basis.g_cart_invA, (model.n_components, 1))
+    beta_c = model.kinetic_constant_eV_A2
+    idx = np.arange(kg.shape[0])
+    h0 = np.array(v0, dtype=np.result_type(v0, float), copy=True)
+    h0[idx, idx] += model.unperturbed_eV(k)[0]
+    first = np.stack([(plus[a] - minus[a]) / (2 * step_invA) for a in range(d)]).astype(
+        np.result_type(v0, float))
+    first[:, idx, idx] += 2.0 * beta_c * kg.T
+    second = np.empty((d, d) + h0.shape, dtype=np.result_type(h0, complex))
+    for a in range(d):
+        second[a, a] = (plus[a] - 2 * v0 + minus[a]) / step_invA**2
+        second[a, a][idx, idx] += 2.0 * beta_c
+        for b in range(a + 1, d):
+            pp = v(k + eye[a] + eye[b])
+            pm = v(k + eye[a] - eye[b])
+            mp = v(k - eye[a] + eye[b])
+            mm = v(k - eye[a] - eye[b])
+            second[a, b] = second[b, a] = (pp - pm - mp + mm) / (4 * step_invA**2)
+    return HamiltonianDerivatives(h0, first, second, float(step_invA))
