@@ -41,7 +41,7 @@ def fit_results(result: FitResult, spec: FitSpec, written: str) -> dict[str, Any
                        for k, s, v, u, rng, side in zip(result.keys, result.start,
                                                         result.values, result.uncertainties,
                                                         ranges, sides, strict=True)],
-        "at_bound": list(result.keys_at_bound) if result.at_bound else [],
+        "at_bound": list(result.keys_at_bound),
         "correlations": [[None if not np.isfinite(c) else float(c) for c in row]
                          for row in result.correlations],
         "jacobian_rank": result.rank,

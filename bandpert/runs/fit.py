@@ -133,7 +133,7 @@ class FitResult:
     @property
     def keys_at_bound(self) -> tuple[str, ...]:
         """The keys of the parameters that ended at a bound."""
-        return tuple(k for k, side in zip(self.keys, self.at_bound, strict=True) if side)
+        return tuple(k for k, side in zip(self.keys, self.at_bound, strict=False) if side)
 
 
 class Fit:

@@ -99,7 +99,10 @@ def fit(
         table.add_row(t.name, f"{t.value:.4g} {t.unit}", f"{m:.4g}",
                       f"{r:+.2f}" + ("" if abs(r) <= 1 else "  (outside)"))
     out.print(table)
-    out.print(f"Jacobian rank {result.rank} of {len(result.keys)}"
+    free = len(result.keys) - len(result.keys_at_bound)
+    out.print(f"Jacobian rank {result.rank} of {free}"
+              + (f" (the parameters not at a bound; at a bound: "
+                 f"{', '.join(result.keys_at_bound)})" if result.keys_at_bound else "")
               + (f"; not determined by the targets: {', '.join(result.undetermined)}"
                  if result.undetermined else "")
               + f"; {result.evaluations} evaluations")
