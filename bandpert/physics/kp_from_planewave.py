@@ -14,13 +14,19 @@ From the eigenstates at Γ (:mod:`bandpert.physics.mass_tensor`):
   E(Γ8) − E(Γ7) of the spinor model, Eg = E(Γ6) − E(Γ8), γ1, γ2, γ3 by the sum over states of
   the Γ8 level with the velocity ∂H/∂k (:mod:`bandpert.physics.spinor_sos`; the second
   differences of :func:`spin_orbit_valence_top` agree to O(h²)), the conduction mass by
-  second differences and F from it by the formula above; Ep from the spinless states (the
-  momentum matrix element of the p-like triplet; the spin–orbit term's own velocity is left out).
+  second differences and F from it by the formula above.
+
+Ep of a spin–orbit model comes from its spinless states with the nonlocal wells kept, as the
+velocity matrix element Σ_j |⟨c|∂H/∂k_a|v_j⟩|²/C (:mod:`bandpert.physics.kane_coupling`; for a
+local model the 4C Σ_j |π^a_{c v_j}|² above); the spin–orbit term's own velocity is left out.
+The conduction state (the s-like level, and the lowest conduction level at Γ when it is
+another, silicon's Γ15) is found and labelled on that spinless model with its wells, which move
+the levels.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import numpy as np
@@ -36,10 +42,8 @@ from ..planewave.model import PlaneWaveModel, centred_model
 from ..planewave.solver import exact_energies
 from ..symmetry.labels import label_point
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
+from .kane_coupling import kane_coupling, s_like_conduction
 from .spinor_sos import gamma8_luttinger_sum_over_states
-
-#: A conduction state couples to the valence triplet when Σ|π|² exceeds this (Å⁻²).
-COUPLING_FLOOR_INVA2 = 1e-6
 
 
 @dataclass(frozen=True)
@@ -91,17 +95,9 @@ def extract_kp_parameters(material: Material, model: PlaneWaveModel) -> Extracte
     if triplet.size != 3:
         raise InputError(f"the valence top at Γ is {triplet.size}-fold, expected the threefold "
                          "p-like level of a cubic semiconductor", material.file, "electrons")
-    pi = states.momentum_invA  # (3, n, n)
-    coupling = np.sum(np.abs(pi[:, :, triplet]) ** 2, axis=(0, 2))
-    conduction = None
-    for c in range(triplet.max() + 1, len(states.energies_eV)):
-        if degenerate_set(states, c).size == 1 and coupling[c] > COUPLING_FLOOR_INVA2:
-            conduction = c
-            break
-    if conduction is None:
-        raise InputError("no s-like conduction state at Γ couples to the valence top",
-                         material.file, "potential")
-    per_axis = 4.0 * C * np.sum(np.abs(pi[:, conduction, triplet]) ** 2, axis=1)
+    # ⟨v|∂H/∂k_a|m⟩ = 2C π^a_vm (π carries the kinetic factor β)
+    conduction, per_axis = s_like_conduction(
+        material, states.energies_eV, triplet, 2.0 * C * states.momentum_invA[:, triplet, :])
     ep = float(per_axis.mean())
     eg = float(states.energies_eV[conduction] - states.energies_eV[top])
     m_inv = inverse_mass_tensor(states, conduction)
@@ -126,11 +122,12 @@ class ConductionAtGamma:
     state : str
         Irrep of the s-like level the Kane models use (``"Γ2′"``, ``"Γ1"``).
     energy_eV : float
-        Its energy above the valence top.
+        Its energy above the valence top (with spin–orbit: of its Kramers pair above Γ8, Eg).
     lowest_state : str or None
         The lowest conduction level at Γ when it is another (silicon: ``"Γ15"``).
     lowest_eV : float or None
-        Its energy above the valence top.
+        Its energy above the valence top (with spin–orbit: of the lowest spinor level it
+        gives, above Γ8).
     lowest_degeneracy : int
     """
 
@@ -206,9 +203,11 @@ def kp_material_text(material: Material, extracted: ExtractedParameters) -> str:
         f"source = {q(origin)}",
         "note = " + q(("Delta_so_eV = 0: the local pseudopotential has no spin-orbit coupling. "
                        if material.spin_orbit is None else
-                       "Delta_so_eV, Eg, gamma1-3 and the conduction mass from the spin-orbit "
-                       "model (second differences at Gamma, Kramers pairs averaged); Ep from "
-                       "its spinless states. ")
+                       "Delta_so_eV, Eg and the conduction mass from the spin-orbit model "
+                       "(second differences at Gamma, Kramers pairs averaged), gamma1-3 from its "
+                       "sum over states (velocity dH/dk); Ep from its spinless states (velocity "
+                       "dH/dk" + (", nonlocal wells included). " if material.nonlocal_terms
+                                  else "). "))
                       + (extracted.conduction_state.sentence + " "
                          if extracted.conduction_state else "")
                       + "Model estimates, not measured values."),
@@ -308,6 +307,8 @@ class SpinOrbitTop:
         Hole mass of the Γ7 pair (mean over [100], [111]).
     conduction_m0 : float
         Mass of the conduction pair (mean over [100], [111]).
+    lowest_conduction_eV : float
+        The lowest conduction level at Γ above Γ8 (Eg when the reported pair is the lowest).
     """
 
     delta_so_eV: float
@@ -318,6 +319,7 @@ class SpinOrbitTop:
     light_hole_m0: dict[str, float]
     split_off_m0: float
     conduction_m0: float
+    lowest_conduction_eV: float = float("nan")
 
 
 def spin_orbit_valence_top(material: Material, cutoff_eV: float,
@@ -373,15 +375,15 @@ def spin_orbit_valence_top(material: Material, cutoff_eV: float,
         heavy_hole_m0={d: float(1.0 / v) for d, v in hh.items()},
         light_hole_m0={d: float(1.0 / v) for d, v in lh.items()},
         split_off_m0=float(2.0 / -(inv["100"][pair_v - 3] + inv["111"][pair_v - 3])),
-        conduction_m0=float(2.0 / (inv["100"][pair_c] + inv["111"][pair_c])))
+        conduction_m0=float(2.0 / (inv["100"][pair_c] + inv["111"][pair_c])),
+        lowest_conduction_eV=float(e0[n_val] - top[0]))
 
 
 def _extract_with_spin_orbit(material: Material, cutoff_eV: float) -> ExtractedParameters:
     """:func:`extract_kp_parameters` of a spin–orbit model (module docstring)."""
-    spinless = extract_kp_parameters(material.without_spin_orbit(), centred_model(
-        material.without_spin_orbit(), cutoff_eV, np.zeros(3)))
-    so = spin_orbit_valence_top(material, cutoff_eV, spinless.conduction_band)
-    ep = spinless.parameters.Ep_eV
+    kane = kane_coupling(material, cutoff_eV)
+    so = spin_orbit_valence_top(material, cutoff_eV, kane.conduction_band)
+    ep = kane.ep_eV
     eg, delta = so.eg_eV, so.delta_so_eV
     f = 0.5 * (1.0 / so.conduction_m0 - 1.0 - ep / 3.0 * (2.0 / eg + 1.0 / (eg + delta)))
     # the exact curvature at Γ (sum over every state, velocity ∂H/∂k), free of the O(h²) error
@@ -389,7 +391,12 @@ def _extract_with_spin_orbit(material: Material, cutoff_eV: float) -> ExtractedP
     g1, g2, g3 = gamma8_luttinger_sum_over_states(material, cutoff_eV).gammas
     params = KPParameters(Eg_eV=eg, Delta_so_eV=delta, Ep_eV=ep, F=float(f), gamma1=g1,
                           gamma2=g2, gamma3=g3)
-    return ExtractedParameters(parameters=params, conduction_band=spinless.conduction_band,
-                               valence_bands=spinless.valence_bands,
-                               conduction_mass_m0=so.conduction_m0, isotropy=spinless.isotropy,
-                               conduction_state=spinless.conduction_state)
+    state = conduction_at_gamma(material.without_spin_orbit(), cutoff_eV,
+                                int(kane.valence_bands.max()), kane.conduction_band)
+    if state is not None:  # spinless labels, energies of the spinor levels above Γ8
+        state = replace(state, energy_eV=eg, lowest_eV=(None if state.lowest_state is None
+                                                        else so.lowest_conduction_eV))
+    return ExtractedParameters(parameters=params, conduction_band=kane.conduction_band,
+                               valence_bands=kane.valence_bands,
+                               conduction_mass_m0=so.conduction_m0, isotropy=kane.isotropy,
+                               conduction_state=state)

@@ -39,7 +39,7 @@ def masses_with_spin_orbit(material: Material, file: Path, cutoff_eV: float | No
     if material.dimension != 3 or not material.valence_electrons:
         raise InputError("the valence top needs a 3D crystal with electrons.valence",
                          material.file, "electrons.valence")
-    spinless = material.without_spin_orbit()
+    spinless = material.local_spinless()  # the cutoff rule's model, as every command's
     cutoff = choose_cutoff(spinless, default_bands(spinless), cutoff_eV)
     extracted = extract_kp_parameters(material, build_model(material, cutoff, spin_orbit=True))
     top = spin_orbit_valence_top(material, cutoff, extracted.conduction_band)
@@ -82,5 +82,6 @@ def masses_with_spin_orbit(material: Material, file: Path, cutoff_eV: float | No
                       f"{top.heavy_hole_m0[d]:.4f} / {top.light_hole_m0[d]:.4f} m0")
     table.add_row("split-off hole", f"{top.split_off_m0:.4f} m0")
     table.add_row("conduction (s-like pair)", f"{top.conduction_m0:.4f} m0")
+    table.add_row("Ep, F (Kane; velocity ∂H/∂k)", f"{p.Ep_eV:.3f} eV, {p.F:.4f}")
     out.print(table)
     out.print("wrote " + ", ".join(str(p) for p in written))
