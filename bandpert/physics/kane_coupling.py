@@ -12,7 +12,8 @@ with π = β⟨k + G⟩ (:mod:`bandpert.physics.mass_tensor`). A nonlocal square
 (:mod:`bandpert.planewave.nonlocal_term`) depends on k through |k + G| and the angle between
 k + G and k + G′, so ∂V_NL/∂k ≠ 0: ∂H/∂k is the kinetic part exactly plus a central difference
 of the model's own V(k) (potential and wells) on the one basis centred on Γ, at ±δ,
-δ = :data:`VELOCITY_STEP`·2π/a (error O(δ²); for a local model the difference is exactly 0).
+δ = 1e-3·2π/a (:mod:`bandpert.physics.hamiltonian_derivatives`, shared with the Γ8 sum over
+states and the van Hove classification; error O(δ²); for a local model the difference is 0).
 
 The model is spinless with its wells: Ep belongs to the spinless p-like triplet, and the
 spin–orbit term's own velocity is left out. The s-like state is the lowest non-degenerate state
@@ -34,6 +35,7 @@ from ..input.material import Material
 from ..planewave.model import centred_model
 from ..planewave.solver import single_blas_thread
 from ..units import HBAR2_OVER_2M0_EV_A2 as C  # ħ²/2m0 in eV Å²
+from .hamiltonian_derivatives import MATRIX_STEP, hamiltonian_derivatives
 from .mass_tensor import DEGENERACY_TOL_EV
 
 #: A conduction state couples to the valence triplet when Σ|π|² exceeds this (Å⁻²), i.e. when
@@ -105,18 +107,16 @@ class KaneCoupling:
         return float(np.ptp(self.ep_per_axis_eV) / self.ep_eV)
 
 
-#: Step of the matrix difference ∂H/∂k at Γ, in units of 2π/a.
-VELOCITY_STEP = 1e-3
-
-
 def kane_coupling(material: Material, cutoff_eV: float) -> KaneCoupling:
     """Ep and the s-like conduction state of the spinless model with its nonlocal wells.
 
     Ep_a = Σ_j |⟨c|∂H/∂k_a|v_j⟩|²/C (Kane, J. Phys. Chem. Solids 1, 249 (1957); module
     docstring) on the basis centred on Γ; ∂H/∂k = 2βC(k + G) + ∂V(k)/∂k, the second term a
     central difference of the model's V(k) (potential and nonlocal wells) at ±δ,
-    δ = :data:`VELOCITY_STEP`·2π/a (O(δ²); zero for a local model, which gives back
-    4C Σ_j |π^a_{c v_j}|² to rounding). A ``spin_orbit`` table is ignored here.
+    δ = :data:`~bandpert.physics.hamiltonian_derivatives.MATRIX_STEP`·2π/a
+    (:func:`~bandpert.physics.hamiltonian_derivatives.hamiltonian_derivatives`; O(δ²); zero for
+    a local model, which gives back 4C Σ_j |π^a_{c v_j}|² to rounding). A ``spin_orbit`` table
+    is ignored here.
 
     Raises
     ------
@@ -127,23 +127,15 @@ def kane_coupling(material: Material, cutoff_eV: float) -> KaneCoupling:
     # spin_orbit=True: this caller handles the k-dependent wells (the material is spinless)
     model = centred_model(spinless, cutoff_eV, np.zeros(3), spin_orbit=True)
     top = material.valence_electrons // 2 - 1
-    step = VELOCITY_STEP * 2.0 * np.pi / material.a_A
     with single_blas_thread():
-        w, vec = scipy.linalg.eigh(model.hamiltonian(np.zeros(3)), check_finite=False)
+        der = hamiltonian_derivatives(model, np.zeros(3), MATRIX_STEP * 2.0 * np.pi / material.a_A)
+        w, vec = scipy.linalg.eigh(der.hamiltonian_eV, check_finite=False)
         triplet = np.flatnonzero(np.abs(w - w[top]) <= DEGENERACY_TOL_EV)
         if triplet.size != 3:
             raise InputError(f"the valence top at Γ is {triplet.size}-fold, expected the "
                              "threefold p-like level of a cubic semiconductor", material.file,
                              "electrons")
-        left = vec[:, triplet].conj().T
-        kg = model.basis.g_cart_invA
-        velocity = np.empty((3, 3, w.size), dtype=complex)
-        for a in range(3):
-            d = np.zeros(3)
-            d[a] = step
-            dv = (model.perturbation_eV(d) - model.perturbation_eV(-d)) / (2.0 * step)
-            dv[np.diag_indices(w.size)] += 2.0 * model.kinetic_constant_eV_A2 * kg[:, a]
-            velocity[a] = left @ dv @ vec
+        velocity = der.first_projected(vec[:, triplet], vec)  # ⟨v_j|∂H/∂k_a|m⟩
     conduction, per_axis = s_like_conduction(material, w, triplet, velocity)
     return KaneCoupling(energies_eV=w, valence_bands=triplet, conduction_band=conduction,
                         ep_per_axis_eV=per_axis)
