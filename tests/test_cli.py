@@ -368,6 +368,18 @@ def test_check_names_the_kinetic_factor():
     assert "kinetic factor β = 1.077" in " ".join(out.split())
 
 
+def test_check_lists_the_nonlocal_wells():
+    # the file's own [nonlocal] table, read back (common practice, no source)
+    code, out, err = run(["check", "germanium-fitted"])
+    assert code == 0, err
+    from bandpert.input.material import load_material
+    from bandpert.physics.material_check import nonlocal_summary
+
+    summary = nonlocal_summary(load_material("germanium-fitted"))
+    assert summary.startswith("Ge: A0 = -3.08511 eV, R0 = 1.2 Å, energy slope -0.349989")
+    assert "│ nonlocal" in out and "Ge: A0 = -3.08511 eV" in out
+
+
 # ---------------------------------------------------------------------------------------------
 # masses and kp
 # ---------------------------------------------------------------------------------------------

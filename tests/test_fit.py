@@ -150,6 +150,13 @@ def test_cli_fit_writes_a_material_and_refuses_bad_targets(tmp_path, capsys):
     fitted = parse_material(tomllib.loads(written.read_text(encoding="utf-8")), str(written))
     assert fitted.spin_orbit.species["Si"].strength_eV > 0
     assert (out / "silicon-spin-orbit-fitted.json").exists()
+    # common practice, no source: the targets were met on the fit's plane waves, so the file
+    # pins the cutoff the fit used, and its note says the fit changed what the old note
+    # described
+    used = json.loads((out / "silicon-spin-orbit-fitted.json").read_text(encoding="utf-8"))
+    assert fitted.cutoff_eV == used["settings"]["cutoff_eV"]
+    assert fitted.note.startswith("Parameters spin_orbit.species.Si.strength_eV fitted by "
+                                  "bandpert fit")
     bad = copy.deepcopy(targets)
     bad["targets"][0] = {**ENERGIES[0], "at": "Q:c1"}
     (tmp_path / "bad.toml").write_text(to_toml(bad), encoding="utf-8")

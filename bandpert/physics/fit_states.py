@@ -16,9 +16,11 @@ H (not of eigenvalues), on the same plane waves:
 * along k (:meth:`PointStates.k_slope`): ∂H/∂k·d by the four-point central difference
   [8(H(k + εd) − H(k − εd)) − (H(k + 2εd) − H(k − 2εd))]/(12ε), exact for the kinetic term
   (quadratic in k + G) and O(ε⁴) for the radial factors of the spin–orbit term and the
-  nonlocal wells; ε = 1e-3, not smaller, because the wells' radial overlap loses digits where
+  nonlocal wells; ε = 1e-3, not smaller: the wells' radial overlap once lost digits where
   |K| ≈ |K′| (pairs of plane waves equal at a symmetric point such as L), which a two-point
-  difference at ε = 1e-5 turned into 1e-6 eV of noise in the slope;
+  difference at ε = 1e-5 turned into 1e-6 eV of noise in the slope (the overlap now keeps them,
+  :func:`~bandpert.planewave.nonlocal_term.radial_overlap`; the four-point step stays, and
+  its O(ε⁴) error is below the rounding of a smaller step);
 * along a parameter (:class:`ParameterSlopes`): ∂H/∂p = [H(p + δ; k(p + δ)) − H(p − δ;
   k(p − δ))]/(2δ), k at fixed fractional coordinates (exact for the parameters H is linear
   in: form factors, spin–orbit strengths, well depths).
@@ -158,20 +160,21 @@ def _spin_orbit_slope(a: SpinOrbitTerm | None, b: SpinOrbitTerm | None, delta: f
 
 def _wells_slope(a: NonlocalTerm | None, b: NonlocalTerm | None, delta: float
                  ) -> TermSlope | str | None:
-    """∂V_NL/∂p from the terms at p ± δ: V_NL is linear in the depths A_l, so a change of depths
-    alone is one term of the changed channels with the depths' slope; anything else (a radius)
-    the difference of two."""
+    """∂V_NL/∂p from the terms at p ± δ: V_NL is linear in the depths A_l and their energy slopes
+    s_l, so a change of those alone is one term of the changed channels with their slopes in p;
+    anything else (a radius) the difference of two."""
     if a == b:
         return None
     if a is None or b is None:
         return WHOLE
 
     def shape(term: NonlocalTerm) -> list:
-        return [[(ell, r) for ell, _, r in channels] for channels in term.channels]
+        return [[(ell, r) for ell, _, r, _ in channels] for channels in term.channels]
 
     if (a.species, a.atom_volume_A3, shape(a)) == (b.species, b.atom_volume_A3, shape(b)):
-        channels = tuple(tuple((ell, (x - y) / (2.0 * delta), r)
-                               for (ell, x, r), (_, y, _) in zip(ca, cb, strict=True) if x != y)
+        channels = tuple(tuple((ell, (x - y) / (2.0 * delta), r, (u - v) / (2.0 * delta))
+                               for (ell, x, r, u), (_, y, _, v) in zip(ca, cb, strict=True)
+                               if (x, u) != (y, v))
                          for ca, cb in zip(a.channels, b.channels, strict=True))
         return replace(a, channels=channels).matrix
     return lambda kg, s: (a.matrix(kg, s) - b.matrix(kg, s)) / (2.0 * delta)

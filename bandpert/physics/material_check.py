@@ -52,6 +52,8 @@ class MaterialCheck:
         One line on the potential's form, its coefficients and the file's unit.
     spin_orbit_summary : str or None
         One line on the spin–orbit parameters of each species (None: no spin–orbit coupling).
+    nonlocal_summary : str or None
+        One line on the nonlocal wells of each species (None: a local potential).
     path_legs : tuple of tuple of str
         Labelled points of each continuous leg of the path.
     path_points_frac : dict of str to numpy.ndarray
@@ -89,6 +91,7 @@ class MaterialCheck:
     has_inversion: bool | None
     potential_summary: str
     spin_orbit_summary: str | None
+    nonlocal_summary: str | None
     path_legs: tuple[tuple[str, ...], ...]
     path_points_frac: dict[str, np.ndarray]
     cutoff_eV: float
@@ -140,6 +143,20 @@ def spin_orbit_summary(material: Material) -> str | None:
         for s, p in material.spin_orbit.species.items())
 
 
+def nonlocal_summary(material: Material) -> str | None:
+    """One line on the nonlocal wells of each species (depth, radius, energy slope of each
+    channel; :mod:`bandpert.planewave.nonlocal_term`), or None without them."""
+    if material.nonlocal_terms is None:
+        return None
+    parts = []
+    for s, channels in material.nonlocal_terms.species.items():
+        wells = [f"A{ell} = {depth:.6g} eV, R{ell} = {radius:g} Å"
+                 + (f", energy slope {slope:.6g}" if slope else "")
+                 for ell, depth, radius, slope in channels]
+        parts.append(f"{s}: " + (", ".join(wells) if wells else "no wells"))
+    return "; ".join(parts)
+
+
 def check_material(material: Material, cutoff_eV: float | None = None) -> MaterialCheck:
     """Everything a material file implies before any band is computed.
 
@@ -175,6 +192,7 @@ def check_material(material: Material, cutoff_eV: float | None = None) -> Materi
         space_group_number=sym.number, space_group_symbol=sym.international,
         has_inversion=sym.has_inversion, potential_summary=potential_summary(material),
         spin_orbit_summary=spin_orbit_summary(material),
+        nonlocal_summary=nonlocal_summary(material),
         path_legs=tuple(tuple(leg) for leg in legs),
         path_points_frac={label: np.asarray(points[label], dtype=float) for label in labels},
         cutoff_eV=float(cutoff), cutoff_given=bool(cutoff_eV or material.cutoff_eV),

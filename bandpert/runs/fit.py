@@ -185,6 +185,14 @@ class Fit:
             set_value(doc, key, float(value), self.source)
         return doc
 
+    def pinned_document(self, p: np.ndarray) -> dict[str, Any]:
+        """The document at ``p`` with ``basis.cutoff_eV`` set to the fit's cutoff: the targets
+        were met on that cutoff's plane waves, and without it a run of the written file would
+        take the converged cutoff of the new parameters and miss them."""
+        doc = self.document_at(p)
+        doc.setdefault("basis", {})["cutoff_eV"] = self.targets.cutoff_eV
+        return doc
+
     def material(self, p: np.ndarray) -> Material:
         """The material at parameters ``p``. The bounds keep every key in its own range; a
         trial step that breaks a constraint between keys (atoms closer than the reader allows,
@@ -368,8 +376,9 @@ def _solve(fit: Fit, spec: FitSpec, document: dict[str, Any],
     evaluation = fit.evaluate(p)
     model_values = evaluation.values
     residual = (model_values - fit.target_values) / fit.tolerances
-    doc = fit.document_at(p)
+    doc = fit.pinned_document(p)
     doc["source"] = _fitted_source(str(document.get("source", "")), spec)
+    doc["note"] = _fitted_note(str(document.get("note", "")), spec)
     warnings = (*moved_minima(fit.targets, evaluation.material),
                 *_bound_warnings(spec.parameters, sides, p))
     if warnings:  # the written file says it too
@@ -416,6 +425,14 @@ def _bound_warnings(keys: tuple[str, ...], sides: tuple[str, ...], p: np.ndarray
                  "it beyond what its key accepts, so its uncertainty is not meaningful (the "
                  "others' are with it held there)."
                  for k, side, x in zip(keys, sides, p, strict=True) if side)
+
+
+def _fitted_note(note: str, spec: FitSpec) -> str:
+    """The new file's note: what the fit changed before the starting file's own words (which
+    may describe the parameters as they were)."""
+    head = (f"Parameters {', '.join(spec.parameters)} fitted by bandpert fit at the cutoff "
+            "below (source: the targets); a model estimate, not a measured band structure.")
+    return f"{head} The starting file's note, written before the fit: {note}" if note else head
 
 
 def _fitted_source(source: str, spec: FitSpec) -> str:

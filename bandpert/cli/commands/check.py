@@ -40,6 +40,8 @@ def check(
     table.add_row("potential", c.potential_summary)
     if c.spin_orbit_summary is not None:
         table.add_row("spin-orbit", c.spin_orbit_summary)
+    if c.nonlocal_summary is not None:
+        table.add_row("nonlocal", c.nonlocal_summary)
     table.add_row("path", " | ".join("–".join(leg) for leg in c.path_legs))
     for label, point in c.path_points_frac.items():
         table.add_row(f"  {label}", _vec(point))

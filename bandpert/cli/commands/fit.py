@@ -71,7 +71,7 @@ def fit(
         if state.state.parameters is None:
             raise
         kept = base.with_name(f"{base.name}-interrupted-best-so-far.toml")
-        best = state.document_at(state.state.parameters)
+        best = state.pinned_document(state.state.parameters)
         best["source"] = (f"{doc.get('source', '')}; NOT A CONVERGED FIT: best point after "
                           f"{state.state.evaluations} evaluations of an interrupted bandpert fit")
         write_text(kept, to_toml(best))
