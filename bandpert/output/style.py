@@ -186,6 +186,21 @@ def wrap(text: str, width: int = 130) -> str:
     return "\n".join(textwrap.wrap(text, width))
 
 
+#: Longest source quoted in a figure's note (characters, about four lines of the note): a
+#: fitted file's source names every target and its reference, and whole it pushed the axes
+#: and their labels off a 640 × 480 figure.
+SOURCE_NOTE_CHARS = 420
+
+
+def short_source(source: str, limit: int = SOURCE_NOTE_CHARS) -> str:
+    """A material's source for a figure note: whole up to ``limit`` characters, else cut at the
+    last word before it and said to be cut (the whole text stays in the file and the JSON)."""
+    if len(source) <= limit:
+        return source
+    cut = source[:limit].rsplit(" ", 1)[0].rstrip(" ;,")
+    return f"{cut} … (cut here; the whole source is in the material file)"
+
+
 def footer(fig: Figure, text: str, width: int = 130) -> None:
     """A small note under the axes (the parameters' source, how a run was made).
 

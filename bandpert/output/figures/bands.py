@@ -69,7 +69,7 @@ def _level_labels(ax: Axes, bs: BandStructure, level_labels: tuple[PointSymmetry
 
 def source_note(bs: BandStructure) -> str:
     """The note beneath a band figure: where the parameters come from, and the energy zero."""
-    return (f"Parameters: {bs.material.source}. Energy zero: "
+    return (f"Parameters: {style.short_source(bs.material.source)}. Energy zero: "
             f"{zero_phrase(bs.energy_zero_kind, bs.energy_zero_eV)}.")
 
 

@@ -89,7 +89,7 @@ def kp_figure(title: str, source: str, bands_by_model: dict, exact: dict | None 
                fontsize=style.LEGEND_SIZE, frameon=False, title=style.wrap(title, 26),
                title_fontsize=style.LEGEND_SIZE)
     fig.suptitle(style.title(f"{title}: bands near Γ"), fontsize=style.TITLE_SIZE)
-    style.footer(fig, f"Parameters: {source}", width=40 * len(directions))
+    style.footer(fig, f"Parameters: {style.short_source(source)}", width=40 * len(directions))
     return fig
 
 

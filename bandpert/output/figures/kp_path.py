@@ -55,8 +55,8 @@ def kp_path_figure(bands: PathBands, material_name: str, source: str,
                   fontsize=style.LABEL_SIZE)
     style.legend_outside(ax, handles, title=style.wrap(material_name, 24))
     ax.set_title(style.title(f"{material_name}: k·p bands near Γ"), fontsize=style.TITLE_SIZE)
-    style.footer(fig, f"Parameters: {source}. Energy zero: the valence-band top at Γ (the "
-                 "models' own zero).", width=120)
+    style.footer(fig, f"Parameters: {style.short_source(source)}. Energy zero: the "
+                 "valence-band top at Γ (the models' own zero).", width=120)
     return fig
 
 
