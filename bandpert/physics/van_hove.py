@@ -56,9 +56,14 @@ import scipy.linalg
 
 from ..crystal.lattice import reciprocal_vectors
 from ..input.material import Material
-from ..planewave.model import KCentredModel, build_k_centred_model, centred_model
+from ..planewave.model import (
+    KCentredModel,
+    PlaneWaveModel,
+    build_k_centred_model,
+    centred_model,
+)
 from ..planewave.solver import single_blas_thread
-from ..symmetry import PointSymmetry, label_points, space_group_frame
+from ..symmetry import PointSymmetry, space_group_frame
 from ..symmetry.labels import k_centred_states, label_point, unlabelled_reason
 from ..units import HBAR2_OVER_2M0_EV_A2 as C
 from .critical_points import (
@@ -67,7 +72,7 @@ from .critical_points import (
     curvature_kind,
     fibonacci_directions,
 )
-from .hamiltonian_derivatives import MATRIX_STEP, hamiltonian_derivatives
+from .hamiltonian_derivatives import MATRIX_STEP, HamiltonianDerivatives, hamiltonian_derivatives
 
 __all__ = [
     "DIRECTIONS",
@@ -448,12 +453,30 @@ def classify_k_dependent(material: Material, cutoff_eV: float, k_cart_invA: np.n
     """
     if not levels:
         return ()
+    return _classify_states(_k_dependent_states(material, cutoff_eV, k_cart_invA), levels,
+                            rotations_cart)
+
+
+def _k_dependent_states(material: Material, cutoff_eV: float, k_cart_invA: np.ndarray
+                        ) -> tuple[PlaneWaveModel, HamiltonianDerivatives, np.ndarray,
+                                   np.ndarray]:
+    """(model centred on k, its derivatives at k, every eigenvalue, every eigenvector)."""
     k = np.asarray(k_cart_invA, dtype=float)
     model = centred_model(material, cutoff_eV, k, spin_orbit=True)
-    top = max(a + g for a, g in levels)
     with single_blas_thread():  # small products: threads only contend
         der = hamiltonian_derivatives(model, k, MATRIX_STEP * 2.0 * np.pi / material.a_A)
         w, c = scipy.linalg.eigh(der.hamiltonian_eV, driver="evd", check_finite=False)
+    return model, der, w, c
+
+
+def _classify_states(states: tuple, levels: list[tuple[int, int]],
+                     rotations_cart: np.ndarray | None) -> tuple[LevelCriticalPoint, ...]:
+    """:func:`classify_from_derivatives` on the states of :func:`_k_dependent_states`."""
+    if not levels:
+        return ()
+    model, der, w, c = states
+    top = max(a + g for a, g in levels)
+    with single_blas_thread():
         p = der.first_projected(c[:, :top], c)
         second = der.second_projected(c[:, :top], c[:, :top])
         return classify_from_derivatives(w, p, second, levels, rotations_cart,
@@ -497,19 +520,23 @@ def label_and_classify(material: Material, cutoff_eV: float, points: dict[str, n
     frame = space_group_frame(material, origin_atom)
     reciprocal = reciprocal_vectors(material.vectors_A)
     if getattr(material, "spin_orbit", None) is not None or model.nonlocal_term is not None:
-        labels = label_points(material, cutoff_eV, points, n_bands, model=model,
-                              origin_atom=origin_atom)
         inversion = bool(np.any(np.isclose(np.trace(frame.rotations_cart, axis1=1, axis2=2),
                                            -3.0)))
         note = K_LINEAR_NOTE if material.spin_orbit is not None and not inversion else ""
-        critical = []
-        for ps in labels:
-            k_cart = ps.k_frac @ reciprocal
+        labels, critical = [], []
+        for lab, k in points.items():
+            k = np.asarray(k, dtype=float)
+            k_cart = k @ reciprocal
+            states = _k_dependent_states(material, cutoff_eV, k_cart)
+            ps = label_point(material, cutoff_eV, k, lab, n_bands, frame=frame, model=model,
+                             origin_atom=origin_atom,
+                             states=(states[0].basis.miller, states[2], states[3]))
             rot = _little_cogroup_cart(frame.rotations_cart, reciprocal, k_cart)
             levels = [(lv.first_band, lv.degeneracy) for lv in ps.levels]
-            critical.append(PointCriticalPoints(ps.point, ps.k_frac, classify_k_dependent(
-                material, cutoff_eV, k_cart, levels, rot), note, True))
-        return labels, tuple(critical)
+            labels.append(ps)
+            critical.append(PointCriticalPoints(lab, k, _classify_states(states, levels, rot),
+                                                note, True))
+        return tuple(labels), tuple(critical)
     labels, critical = [], []
     for lab, k in points.items():
         k = np.asarray(k, dtype=float)

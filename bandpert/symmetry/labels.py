@@ -221,7 +221,8 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
     states : tuple of numpy.ndarray, optional
         ``(miller, energies_eV, vectors)`` of the k-centred basis at k, as
         :func:`k_centred_states` returns them (e.g. the full decomposition the van Hove
-        classification also uses), instead of diagonalising here.
+        classification also uses), instead of diagonalising here; for a spin–orbit model the
+        spinor eigenvectors (2·len(miller) rows, spin index slowest).
 
     Returns
     -------
@@ -230,7 +231,7 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
     k_frac = np.asarray(k_frac, dtype=float)
     if getattr(material, "spin_orbit", None) is not None:
         return _spinor_point(material, cutoff_eV, k_frac, point, n_bands, frame, origin_atom,
-                             level_tol_eV)
+                             level_tol_eV, states)
     model = build_k_centred_model(material, cutoff_eV) if model is None else model
     miller, w, v = (k_centred_states(model, k_frac @ model.reciprocal_invA, n_bands + 12)
                     if states is None else states)
@@ -275,7 +276,9 @@ def label_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point:
 
 def _spinor_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, point: str,
                   n_bands: int, frame: SpaceGroupFrame | None, origin_atom: int | None,
-                  level_tol_eV: float) -> PointSymmetry:
+                  level_tol_eV: float,
+                  states: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
+                  ) -> PointSymmetry:
     """Double-group labels (:mod:`bandpert.symmetry.spinor`) with Herring's spinor indicator."""
     frame = space_group_frame(material, origin_atom) if frame is None else frame
     if not frame.primitive or frame.order == 1:
@@ -283,7 +286,7 @@ def _spinor_point(material: Material, cutoff_eV: float, k_frac: np.ndarray, poin
         return PointSymmetry(point, k_frac, frame.international, "", 1, (), (), (), (), note,
                              cutoff_eV)
     raw, names, dims, order, herring = spinor_levels(material, cutoff_eV, frame, k_frac, point,
-                                                     n_bands, level_tol_eV)
+                                                     n_bands, level_tol_eV, states)
     levels = tuple(LevelLabel(e, a, g, c, label, len(c) > 1 and not tr, tr)
                    for e, a, g, c, label, tr in raw)
     return PointSymmetry(point, k_frac, frame.international, frame.origin, order, tuple(names),

@@ -62,10 +62,14 @@ def _names(frame: SpaceGroupFrame, k: np.ndarray, indices: np.ndarray, chars: np
 
 
 def spinor_levels(material: Material, cutoff_eV: float, frame: SpaceGroupFrame,
-                  k_frac: np.ndarray, point: str, n_bands: int, level_tol_eV: float
+                  k_frac: np.ndarray, point: str, n_bands: int, level_tol_eV: float,
+                  states: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
                   ) -> tuple[list[tuple[float, int, int, tuple[int, ...], str, bool]], list[str],
                              np.ndarray, int, np.ndarray]:
     """Levels of the spinor H(k) with their double-group irreps.
+
+    ``states``: ``(miller, energies_eV, vectors)`` of the spinor basis centred on k (every
+    eigenpair, vectors of 2·len(miller) rows, spin index slowest) instead of diagonalising here.
 
     Returns
     -------
@@ -80,13 +84,17 @@ def spinor_levels(material: Material, cutoff_eV: float, frame: SpaceGroupFrame,
         Herring's indicator per irrep (:func:`spinor_herring`).
     """
     k = np.asarray(k_frac, dtype=float)
-    model = centred_model(material, cutoff_eV, k @ np.linalg.inv(frame.lattice_t) * 2 * np.pi,
-                          spin_orbit=True)
-    k_cart = k @ model.reciprocal_invA
-    h = model.hamiltonian(k_cart)
-    top = min(h.shape[0], n_bands + 16)
-    with single_blas_thread():
-        w, v = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
+    if states is None:
+        model = centred_model(material, cutoff_eV,
+                              k @ np.linalg.inv(frame.lattice_t) * 2 * np.pi, spin_orbit=True)
+        h = model.hamiltonian(k @ model.reciprocal_invA)
+        size, top = h.shape[0], min(h.shape[0], n_bands + 16)
+        with single_blas_thread():
+            w, v = scipy.linalg.eigh(h, subset_by_index=(0, top - 1), driver="evr")
+        miller = model.basis.miller
+    else:  # every eigenpair of the basis centred on k (e.g. the van Hove classification's)
+        miller, w, v = states
+        size = top = w.size
     irreps, _, unitary, mapping = get_spacegroup_spinor_irreps_from_primitive_symmetry(
         frame.lattice_t.T, frame.rotations, frame.translations, kpoint=k)
     mapping = np.asarray(mapping, dtype=int)
@@ -94,7 +102,7 @@ def spinor_levels(material: Material, cutoff_eV: float, frame: SpaceGroupFrame,
     dims = np.array([ir.shape[1] for ir in irreps], dtype=int)
     names = _names(frame, k, mapping, chars, np.asarray(unitary), dims, point)
     herring = spinor_herring(frame, k, mapping, chars, np.asarray(unitary))
-    miller = model.basis.miller.astype(np.int64)
+    miller = np.asarray(miller).astype(np.int64)
     n = miller.shape[0]
     index = {tuple(m): i for i, m in enumerate(miller.tolist())}
     perms, phases = [], []
@@ -107,7 +115,7 @@ def spinor_levels(material: Material, cutoff_eV: float, frame: SpaceGroupFrame,
     ends = np.concatenate([starts[1:], [w.size]])
     levels = []
     for a, b in zip(starts, ends, strict=True):
-        if a >= n_bands or (b == w.size and top < h.shape[0]):
+        if a >= n_bands or (b == w.size and top < size):
             break
         vec = v[:, a:b].reshape(2, n, b - a)  # component s·n + i
         chi = np.empty(mapping.size, dtype=complex)
