@@ -97,8 +97,11 @@ def test_written_file_names_its_conduction_state_and_qualifies_silicon(written):
     # s-like Γ2′ (E0 ≈ 4.1 eV) (D. E. Aspnes & A. A. Studna, Solid State Commun. 11, 1375 (1972);
     # Cohen & Bergstresser, Phys. Rev. 141, 789 (1966), Fig. 2; from memory); in germanium Γ2′
     # (E0 = 0.898 eV, Madelung 2004, from memory) is the lowest
-    stem, _, doc = written
+    stem, report, doc = written
     assert doc["conduction"]["state"] == "Γ2′"
+    said = report["results"]["spin_orbit_valence_top"]["conduction_state"]  # the JSON agrees
+    assert said["state"] == "Γ2′" and said["lowest_state"] == doc["conduction"].get("lowest_state")
+    assert said["energy_eV"] == pytest.approx(doc["parameters"]["Eg_eV"], rel=1e-9)
     if stem == "silicon":
         assert doc["conduction"]["lowest_state"] == "Γ15"
         assert 3.2 < doc["conduction"]["lowest_eV"] < doc["parameters"]["Eg_eV"]

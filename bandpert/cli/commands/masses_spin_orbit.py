@@ -44,6 +44,7 @@ def masses_with_spin_orbit(material: Material, file: Path, cutoff_eV: float | No
     extracted = extract_kp_parameters(material, build_model(material, cutoff, spin_orbit=True))
     top = spin_orbit_valence_top(material, cutoff, extracted.conduction_band)
     g1, g2, g3 = top.gammas
+    state = extracted.conduction_state  # spinless labels, spinor energies above Γ8
     results = {
         "spin_orbit_valence_top": {
             "method": f"second differences at ±{SPIN_ORBIT_STEP}·2π/a on the spinor basis "
@@ -53,6 +54,9 @@ def masses_with_spin_orbit(material: Material, file: Path, cutoff_eV: float | No
             "heavy_hole_m0": top.heavy_hole_m0, "light_hole_m0": top.light_hole_m0,
             "split_off_m0": top.split_off_m0, "conduction_m0": top.conduction_m0,
             "conduction_band": extracted.conduction_band + 1,
+            "conduction_state": None if state is None else {
+                "state": state.state, "energy_eV": state.energy_eV,
+                "lowest_state": state.lowest_state, "lowest_eV": state.lowest_eV},
             "sum_over_states": {
                 "method": "Löwdin second order in k over every state of the basis, velocity "
                           "∂H/∂k (spin-orbit and nonlocal terms included)",
@@ -82,6 +86,10 @@ def masses_with_spin_orbit(material: Material, file: Path, cutoff_eV: float | No
                       f"{top.heavy_hole_m0[d]:.4f} / {top.light_hole_m0[d]:.4f} m0")
     table.add_row("split-off hole", f"{top.split_off_m0:.4f} m0")
     table.add_row("conduction (s-like pair)", f"{top.conduction_m0:.4f} m0")
+    if state is not None:
+        table.add_row("its level at Γ (spinless label)", state.state if state.lowest_state is None
+                      else f"{state.state}; the lowest is {state.lowest_state}, "
+                           f"{state.lowest_eV:.4f} eV (not in the Kane models)")
     table.add_row("Ep, F (Kane; velocity ∂H/∂k)", f"{p.Ep_eV:.3f} eV, {p.F:.4f}")
     out.print(table)
     out.print("wrote " + ", ".join(str(p) for p in written))
