@@ -61,7 +61,7 @@ def read_nonlocal(r: TableReader, species_names: set[str], dimension: int = 3) -
                                                                                  f"A{l}_eV")
                 raise s.fail(missing, f"missing while {given} is given; expected both the depth "
                                       f"and the radius of the l = {l} channel, or neither")
-            if radius is not None and radius <= 0:
+            if radius is not None and not NONLOCAL_RADIUS_A.contains(radius):  # the open end
                 raise s.fail(f"R{l}_A", f"must be positive, got {radius:g}; expected a radius "
                                         "in Å")
             slope = s.number(f"A{l}_energy_slope", required=False,
