@@ -22,7 +22,9 @@ CRITICAL_POINTS_METHOD = (
 CRITICAL_POINTS_METHOD_K_DEPENDENT = CRITICAL_POINTS_METHOD + (
     "; spin–orbit and nonlocal terms: ∂H/∂k and ∂²H/∂k∂k by central differences of the model's "
     "H(k) on the k-centred basis, and a Kramers pair whose block is a multiple of the identity "
-    "is one band carried twice, with one Hessian")
+    "is one band carried twice, with one Hessian; a level where H(k) itself has a kink (its "
+    "second difference along e_a + e_b differs from what those along the axes and the mixed "
+    "one give) is non-analytic, not classified")
 
 
 def critical_point_results(c: LevelCriticalPoint) -> dict[str, Any]:

@@ -18,11 +18,13 @@ put 5e-8 of the diagonal into the off-diagonal Hessian of silicon-fitted's Γ6, 
 The kinetic derivatives are exact, ∂H0/∂k_a = 2βC(k+G)_a and ∂²H0/∂k_a∂k_b = 2βC δ_ab (C =
 ħ²/2m0, β the kinetic factor): differenced, the kinetic diagonal (up to the cutoff, ~200 eV)
 would leave a rounding of ε·200 eV/δ² in W. The step δ = :data:`MATRIX_STEP`·2π/a balances
-the O(δ²) truncation of the spin–orbit and nonlocal parts against rounding, which the closed
-form of the nonlocal wells makes large where |k+G| ≈ |k+G′| (measured on the Hessians of
-germanium-fitted: 6e-6 relative at 1e-4·2π/a, below 2e-7 at 1e-3, 5e-6 at 1e-2). Whatever k
+the O(δ²) truncation of the spin–orbit and nonlocal parts against rounding (measured on the
+Hessians of germanium-fitted: truncation 4e-6 relative at 1e-2·2π/a, 4e-8 at 1e-3; at 1e-4
+the nonlocal wells' closed form, evaluated where |k+G| ≈ |k+G′|, left a rounding of 6e-6
+before its radial overlap was made more accurate, 1e-8 since). Whatever k
 dependence the model's V(k) has (a new term included) is differentiated without being named
-here.
+here; where it is not smooth at k (a kink b|k|), the second difference along e_a + e_b
+disagrees with the axes' (:attr:`HamiltonianDerivatives.kink_eV_A2`), and W means nothing.
 """
 
 from __future__ import annotations
@@ -53,17 +55,29 @@ class HamiltonianDerivatives:
         (d, d, N, N) W_ab = ∂²H/∂k_a∂k_b (W_ab = W_ba).
     step_invA : float
         δ.
+    kink_eV_A2 : numpy.ndarray
+        (d(d−1)/2, N, N), for each pair a < b: K_ab = [V(k + δe_a + δe_b) + V(k − δe_a − δe_b)
+        − 2V(k)]/2δ² − ½(V_aa + V_bb) − V_ab, the second difference along e_a + e_b against
+        what the second differences along the axes and the mixed one predict there (V's parts
+        of W): O(δ²) where V is smooth at k, (√2 − 2)·b/δ at a kink b|k| (e.g. |k + G| at
+        k + G = 0), from the builds W needs anyway.
     """
 
     hamiltonian_eV: np.ndarray
     first_eV_A: np.ndarray
     second_eV_A2: np.ndarray
     step_invA: float
+    kink_eV_A2: np.ndarray
 
     def first_projected(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
         """(d, r, c) U† V_a U′ for the columns U (rows) and U′ (cols), e.g. eigenvectors."""
         left = rows.conj().T
         return np.stack([left @ v @ cols for v in self.first_eV_A])
+
+    def kink_projected(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        """(d(d−1)/2, r, c) U† K_ab U′ (:attr:`kink_eV_A2`)."""
+        left = rows.conj().T
+        return np.stack([left @ x @ cols for x in self.kink_eV_A2])
 
     def second_projected(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
         """(d, d, r, c) U† W_ab U′ for the columns U (rows) and U′ (cols)."""
@@ -111,13 +125,20 @@ def hamiltonian_derivatives(model: PlaneWaveModel, k_cart_invA: np.ndarray, step
         np.result_type(v0, float))
     first[:, idx, idx] += 2.0 * beta_c * kg.T
     second = np.empty((d, d) + h0.shape, dtype=np.result_type(h0, complex))
+    curve = [(plus[a] - 2 * v0 + minus[a]) / step_invA**2 for a in range(d)]
+    kink = []
     for a in range(d):
-        second[a, a] = (plus[a] - 2 * v0 + minus[a]) / step_invA**2
+        second[a, a] = curve[a]
         second[a, a][idx, idx] += 2.0 * beta_c
         for b in range(a + 1, d):
             pp = v(k + eye[a] + eye[b])
             pm = v(k + eye[a] - eye[b])
             mp = v(k - eye[a] + eye[b])
             mm = v(k - eye[a] - eye[b])
-            second[a, b] = second[b, a] = (pp - pm - mp + mm) / (4 * step_invA**2)
-    return HamiltonianDerivatives(h0, first, second, float(step_invA))
+            mixed = (pp - pm - mp + mm) / (4 * step_invA**2)
+            second[a, b] = second[b, a] = mixed
+            # the second difference along e_a + e_b against what V_aa, V_bb, V_ab predict there
+            kink.append((pp + mm - 2 * v0) / (2 * step_invA**2) - 0.5 * (curve[a] + curve[b])
+                        - mixed)
+    return HamiltonianDerivatives(h0, first, second, float(step_invA),
+                                  np.stack(kink) if kink else np.zeros((0,) + h0.shape))
