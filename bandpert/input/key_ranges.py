@@ -74,11 +74,6 @@ MAX_STRENGTH_EV = 10.0
 MAX_DEPTH_EV = 100.0
 MAX_RADIUS_A = 5.0
 
-#: Largest accepted |s_l| of a well's energy-dependent depth A_l + s_l √(E⁰(K) E⁰(K′)): the
-#: depth changes by s_l eV per eV of free-electron energy; published slopes are a few tenths
-#: (Chelikowsky & Cohen 1976; from memory).
-MAX_ENERGY_SLOPE = 5.0
-
 
 class KeyRange(NamedTuple):
     """The accepted values of one key: lo ≤ x ≤ hi, with < where an end is open.
@@ -144,7 +139,6 @@ SPIN_ORBIT_STRENGTH_EV = KeyRange(0.0, MAX_STRENGTH_EV)
 SLATER_EXPONENT_INVA = KeyRange(0.5, 200.0)
 NONLOCAL_DEPTH_EV = KeyRange(-MAX_DEPTH_EV, MAX_DEPTH_EV)
 NONLOCAL_RADIUS_A = KeyRange(0.0, MAX_RADIUS_A, open_low=True)
-NONLOCAL_ENERGY_SLOPE = KeyRange(-MAX_ENERGY_SLOPE, MAX_ENERGY_SLOPE)
 
 
 def kinetic_scale_eV(a_A: float) -> float:
@@ -208,7 +202,6 @@ REGISTRY: tuple[tuple[str, Resolver], ...] = (
     (rf"spin_orbit\.species\.{_NAME}\.slater_exponent_invA", SLATER_EXPONENT_INVA),
     (rf"nonlocal\.species\.{_NAME}\.A[02]_eV", NONLOCAL_DEPTH_EV),
     (rf"nonlocal\.species\.{_NAME}\.R[02]_A", NONLOCAL_RADIUS_A),
-    (rf"nonlocal\.species\.{_NAME}\.A[02]_energy_slope", NONLOCAL_ENERGY_SLOPE),
 )
 
 _COMPILED = tuple((re.compile(pattern + r"\Z"), resolver) for pattern, resolver in REGISTRY)

@@ -7,11 +7,8 @@ Schema (energies in eV, radii in Å), per species and for l = 0 and l = 2, each 
     R0_A = 1.2         # its radius
     A2_eV = 1.6
     R2_A = 1.6
-    A0_energy_slope = 0.3   # optional, dimensionless: the depth's slope with energy
 
-Species without a table, and channels without their pair of keys, add nothing. A channel's
-optional ``A{l}_energy_slope`` (needs its depth and radius) makes the depth energy-dependent,
-A_l + s_l √(E⁰(K) E⁰(K′)) with E⁰ the free-electron energies of the two plane waves. The term is
+Species without a table, and channels without their pair of keys, add nothing. The term is
 documented in :mod:`bandpert.planewave.nonlocal_term`.
 """
 
@@ -19,7 +16,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .key_ranges import NONLOCAL_DEPTH_EV, NONLOCAL_ENERGY_SLOPE, NONLOCAL_RADIUS_A
+from .key_ranges import NONLOCAL_DEPTH_EV, NONLOCAL_RADIUS_A
 from .reader import TableReader, species_tables
 
 #: Angular momenta of the channels.
@@ -27,12 +24,9 @@ CHANNELS = (0, 2)
 
 @dataclass(frozen=True)
 class Nonlocal:
-    """The ``[nonlocal]`` table: species → ((l, A_l in eV, R_l in Å, s_l), …).
+    """The ``[nonlocal]`` table: species → ((l, A_l in eV, R_l in Å), …)."""
 
-    s_l is the dimensionless energy slope of the depth (0 without ``A{l}_energy_slope``).
-    """
-
-    species: dict[str, tuple[tuple[int, float, float, float], ...]]
+    species: dict[str, tuple[tuple[int, float, float], ...]]
 
 
 def read_nonlocal(r: TableReader, species_names: set[str], dimension: int = 3) -> Nonlocal:
@@ -42,12 +36,11 @@ def read_nonlocal(r: TableReader, species_names: set[str], dimension: int = 3) -
     ------
     InputError
         Unknown species, a depth without its radius (or the reverse), a radius that is not
-        positive or above 5 Å, a depth above 100 eV, an energy slope without its channel or
-        above 5 in size, a lattice that is not 3D.
+        positive or above 5 Å, a depth above 100 eV, a lattice that is not 3D.
     """
     sp = species_tables(r, species_names, dimension, "nonlocal",
                         "nonlocal terms need a 3D lattice (spherical harmonics)")
-    out: dict[str, tuple[tuple[int, float, float, float], ...]] = {}
+    out: dict[str, tuple[tuple[int, float, float], ...]] = {}
     for name in sorted(sp.table):
         s = sp.sub(name)
         channels = []
@@ -64,16 +57,8 @@ def read_nonlocal(r: TableReader, species_names: set[str], dimension: int = 3) -
             if radius is not None and not NONLOCAL_RADIUS_A.contains(radius):  # the open end
                 raise s.fail(f"R{l}_A", f"must be positive, got {radius:g}; expected a radius "
                                         "in Å")
-            slope = s.number(f"A{l}_energy_slope", required=False,
-                             bounds=NONLOCAL_ENERGY_SLOPE.closed,
-                             meaning="a dimensionless slope of the depth with energy (eV/eV)")
-            if slope is not None and depth is None:
-                raise s.fail(f"A{l}_energy_slope",
-                             f"given without A{l}_eV and R{l}_A; expected the l = {l} channel's "
-                             "depth and radius with it")
             if depth is not None:
-                channels.append((l, float(depth), float(radius),
-                                 0.0 if slope is None else float(slope)))
+                channels.append((l, float(depth), float(radius)))
         s.finish()
         out[name] = tuple(channels)
     sp.finish()

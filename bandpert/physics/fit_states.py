@@ -160,21 +160,20 @@ def _spin_orbit_slope(a: SpinOrbitTerm | None, b: SpinOrbitTerm | None, delta: f
 
 def _wells_slope(a: NonlocalTerm | None, b: NonlocalTerm | None, delta: float
                  ) -> TermSlope | str | None:
-    """∂V_NL/∂p from the terms at p ± δ: V_NL is linear in the depths A_l and their energy slopes
-    s_l, so a change of those alone is one term of the changed channels with their slopes in p;
-    anything else (a radius) the difference of two."""
+    """∂V_NL/∂p from the terms at p ± δ: V_NL is linear in the depths A_l, so a change of depths
+    alone is one term of the changed channels with the depths' slope; anything else (a radius)
+    the difference of two."""
     if a == b:
         return None
     if a is None or b is None:
         return WHOLE
 
     def shape(term: NonlocalTerm) -> list:
-        return [[(ell, r) for ell, _, r, _ in channels] for channels in term.channels]
+        return [[(ell, r) for ell, _, r in channels] for channels in term.channels]
 
     if (a.species, a.atom_volume_A3, shape(a)) == (b.species, b.atom_volume_A3, shape(b)):
-        channels = tuple(tuple((ell, (x - y) / (2.0 * delta), r, (u - v) / (2.0 * delta))
-                               for (ell, x, r, u), (_, y, _, v) in zip(ca, cb, strict=True)
-                               if (x, u) != (y, v))
+        channels = tuple(tuple((ell, (x - y) / (2.0 * delta), r)
+                               for (ell, x, r), (_, y, _) in zip(ca, cb, strict=True) if x != y)
                          for ca, cb in zip(a.channels, b.channels, strict=True))
         return replace(a, channels=channels).matrix
     return lambda kg, s: (a.matrix(kg, s) - b.matrix(kg, s)) / (2.0 * delta)

@@ -144,15 +144,14 @@ def spin_orbit_summary(material: Material) -> str | None:
 
 
 def nonlocal_summary(material: Material) -> str | None:
-    """One line on the nonlocal wells of each species (depth, radius, energy slope of each
-    channel; :mod:`bandpert.planewave.nonlocal_term`), or None without them."""
+    """One line on the nonlocal wells of each species (depth and radius of each channel;
+    :mod:`bandpert.planewave.nonlocal_term`), or None without them."""
     if material.nonlocal_terms is None:
         return None
     parts = []
     for s, channels in material.nonlocal_terms.species.items():
         wells = [f"A{ell} = {depth:.6g} eV, R{ell} = {radius:g} Å"
-                 + (f", energy slope {slope:.6g}" if slope else "")
-                 for ell, depth, radius, slope in channels]
+                 for ell, depth, radius in channels]
         parts.append(f"{s}: " + (", ".join(wells) if wells else "no wells"))
     return "; ".join(parts)
 

@@ -23,7 +23,8 @@ Spin–orbit coupling: the fixed set holds spinor plane waves, the coarse states
 spin–orbit term, not polynomial in k (its radial factors depend on |k + G|), is projected onto
 each reduced basis at each k, B†H_so(k)B (:class:`~bandpert.planewave.k_polynomial.
 ProjectedSpinOrbit`): O(n_f² n_r) per k for n_f plane waves and n_r reduced states, against
-O((2n_f)³) for the exact spinor matrix. Nonlocal terms are refused.
+O((2n_f)³) for the exact spinor matrix. Nonlocal wells are projected at each k the same way
+(:class:`~bandpert.planewave.k_polynomial.ProjectedNonlocal`).
 """
 
 from __future__ import annotations
@@ -212,10 +213,6 @@ def fixed_superset_model(material: Material, cutoff_eV: float, k_cart_invA: np.n
     -------
     PlaneWaveModel
     """
-    if material.nonlocal_terms is not None:
-        raise InputError("the reduced basis handles local potentials (with or without "
-                         "spin-orbit coupling) and the material has nonlocal terms; expected a "
-                         "material without a nonlocal table", material.file, "nonlocal")
     k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
     reach = float(np.max(np.linalg.norm(k, axis=1), initial=0.0))
     wide = HBAR2_OVER_2M0_EV_A2 * (np.sqrt(cutoff_eV / HBAR2_OVER_2M0_EV_A2) + reach) ** 2
@@ -244,7 +241,7 @@ def fixed_superset_model(material: Material, cutoff_eV: float, k_cart_invA: np.n
     return PlaneWaveModel(basis=basis, reciprocal_invA=full.reciprocal_invA,
                           potential_eV=np.ascontiguousarray(full.potential_eV[np.ix_(keep, keep)]),
                           spin_orbit=full.spin_orbit, structure=structure,
-                          kinetic_factor=full.kinetic_factor)
+                          kinetic_factor=full.kinetic_factor, nonlocal_term=full.nonlocal_term)
 
 
 @dataclass(frozen=True)

@@ -18,7 +18,8 @@ Terms that are not polynomial in k do not fit this form. The spin–orbit term o
 basis at each k instead (:class:`ProjectedSpinOrbit`): B†H_so(k)B costs one product of the
 (3n × n) coupling with the (n × 2n_r) basis per k, O(n² n_r), against O(n³) for the exact
 spinor diagonalisation. On spinor plane waves (spin index slowest) H0 → 1₂ ⊗ H0 and Q → Q ⊗ 1₂.
-Nonlocal terms are not handled here.
+The nonlocal wells of :mod:`bandpert.planewave.nonlocal_term` depend on |k + G| and on the
+angles between the k + G, and are projected at each k the same way (:class:`ProjectedNonlocal`).
 """
 
 from __future__ import annotations
@@ -31,7 +32,8 @@ from ..errors import InputError
 from ..units import HBAR2_OVER_2M0_EV_A2
 from .model import PlaneWaveModel
 
-#: Step (Å⁻¹) of the central differences of the projected spin–orbit term (its velocity part).
+#: Step (Å⁻¹) of the central differences of the projected spin–orbit and nonlocal terms (their
+#: velocity part).
 VELOCITY_STEP_INVA = 1e-4
 
 #: Bytes of Hamiltonians held at once when a block of k-points is diagonalised together.
@@ -108,6 +110,49 @@ class ProjectedSpinOrbit:
 
 
 @dataclass(frozen=True)
+class ProjectedNonlocal:
+    """B†(1_c ⊗ V_NL(k))B of a fixed plane-wave model's nonlocal wells on the columns B.
+
+    V_NL(k) depends on k through |k + G| and the angles between the k + G
+    (:mod:`~bandpert.planewave.nonlocal_term`), so it is built on the fixed plane waves at each
+    k and projected, O(n_f² n_r) per k, like the spin–orbit term. It is spin-independent: on
+    spinor columns (c = 2 components, spin index slowest) the projection is the sum over the
+    two spin blocks.
+
+    Attributes
+    ----------
+    model : PlaneWaveModel
+        The fixed set of plane waves with its nonlocal term (and structure factors).
+    basis : numpy.ndarray or None
+        (c·n, n_r) columns; None for the plane waves themselves.
+    """
+
+    model: PlaneWaveModel = field(repr=False)
+    basis: np.ndarray | None = field(default=None, repr=False)
+
+    def matrices(self, k_cart_invA: np.ndarray) -> np.ndarray:
+        """(n_k, n_r, n_r) projected V_NL(k) (eV)."""
+        k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
+        model = self.model
+        n, c = model.size, model.n_components
+        r = c * n if self.basis is None else self.basis.shape[1]
+        out = np.empty((len(k), r, r), dtype=complex)
+        for i, ki in enumerate(k):
+            v = model.nonlocal_term.matrix(ki + model.basis.g_cart_invA, model.structure)
+            if self.basis is None:
+                out[i] = np.kron(np.eye(c), v)
+                continue
+            blocks = [self.basis[s * n:(s + 1) * n] for s in range(c)]
+            out[i] = sum(b.conj().T @ (v @ b) for b in blocks)
+        return 0.5 * (out + np.swapaxes(out, 1, 2).conj())
+
+    def project(self, basis: np.ndarray) -> ProjectedNonlocal:
+        """The same term on the columns ``basis`` of this one's basis."""
+        b = np.asarray(basis)
+        return ProjectedNonlocal(self.model, b if self.basis is None else self.basis @ b)
+
+
+@dataclass(frozen=True)
 class KPolynomial:
     """H(k) = H0 + β(ħ²/m0) k·Q + β(ħ²/2m0)|k|² on one fixed orthonormal basis.
 
@@ -120,6 +165,8 @@ class KPolynomial:
         the basis is plane waves; the momentum is p = ħ(k + Q).
     spin_orbit : ProjectedSpinOrbit or None
         The spin–orbit term, added at each k (spinor bases only).
+    nonlocal_wells : ProjectedNonlocal or None
+        The nonlocal wells, added at each k.
     kinetic_factor : float
         β of the kinetic term (:attr:`~bandpert.planewave.model.PlaneWaveModel.kinetic_factor`).
     """
@@ -128,6 +175,12 @@ class KPolynomial:
     q_invA: np.ndarray
     spin_orbit: ProjectedSpinOrbit | None = None
     kinetic_factor: float = 1.0
+    nonlocal_wells: ProjectedNonlocal | None = None
+
+    @property
+    def k_terms(self) -> tuple:
+        """The terms built and projected at each k (spin–orbit, nonlocal wells)."""
+        return tuple(t for t in (self.spin_orbit, self.nonlocal_wells) if t is not None)
 
     @property
     def kinetic_constant_eV_A2(self) -> float:
@@ -142,7 +195,7 @@ class KPolynomial:
     def hamiltonians(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """(n_k, n, n) H(k) without the |k|² term (a shift of every level, added by callers)."""
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
-        dtype = complex if self.spin_orbit is not None else self.h0_eV.dtype
+        dtype = complex if self.k_terms else self.h0_eV.dtype
         h = np.empty((len(k), self.size, self.size), dtype=dtype)
         h[:] = self.h0_eV
         if self.q_invA.ndim == 3:
@@ -150,8 +203,8 @@ class KPolynomial:
         else:
             idx = np.arange(self.size)
             h[:, idx, idx] += 2.0 * self.kinetic_constant_eV_A2 * (k @ self.q_invA)
-        if self.spin_orbit is not None:
-            h += self.spin_orbit.matrices(k)
+        for term in self.k_terms:
+            h += term.matrices(k)
         return h
 
     def _blocks(self, n_k: int):
@@ -203,10 +256,9 @@ class KPolynomial:
 
         In Å⁻¹: for the local model this is β⟨n|k + G|m⟩ (β the kinetic factor; p_nm =
         ħ⟨n|k + G|m⟩), exact in this basis (H is quadratic in k with the k² term β ħ²k²/2m0).
-        With spin–orbit coupling the velocity is (1/ħ)∂H/∂k, not p/m0: the term
-        (m0/ħ²)⟨n|∂H_so/∂k|m⟩ is added, from
-        central differences of the projected H_so (step :data:`VELOCITY_STEP_INVA`, error
-        O(step²)).
+        With spin–orbit coupling or nonlocal wells the velocity is (1/ħ)∂H/∂k, not p/m0: the
+        terms (m0/ħ²)⟨n|∂H_so/∂k|m⟩ and (m0/ħ²)⟨n|∂V_NL/∂k|m⟩ are added, from central
+        differences of the projected terms (step :data:`VELOCITY_STEP_INVA`, error O(step²)).
         """
         k = np.atleast_2d(np.asarray(k_cart_invA, dtype=float))
         if self.q_invA.ndim == 2:  # plane waves: Q diagonal
@@ -216,13 +268,12 @@ class KPolynomial:
         out = np.einsum("kan,kiam->kinm", vectors.conj(), qc)
         eye = np.eye(vectors.shape[2])
         out = self.kinetic_factor * (out + k[:, :, None, None] * eye)
-        if self.spin_orbit is not None:
-            h = VELOCITY_STEP_INVA
+        h = VELOCITY_STEP_INVA
+        for term in self.k_terms:
             for axis in range(k.shape[1]):
                 step = np.zeros(k.shape[1])
                 step[axis] = h
-                d = (self.spin_orbit.matrices(k + step)
-                     - self.spin_orbit.matrices(k - step)) / (2.0 * h)
+                d = (term.matrices(k + step) - term.matrices(k - step)) / (2.0 * h)
                 out[:, axis] += np.einsum("kan,kab,kbm->knm", vectors.conj(), d, vectors,
                                           optimize=True) / (2.0 * HBAR2_OVER_2M0_EV_A2)
         return out
@@ -237,9 +288,10 @@ class KPolynomial:
         else:
             q = np.einsum("ab,ibc,cd->iad", bh, self.q_invA, b, optimize=True)
         so = None if self.spin_orbit is None else self.spin_orbit.project(b)
+        wells = None if self.nonlocal_wells is None else self.nonlocal_wells.project(b)
         return KPolynomial(h0_eV=0.5 * (h0 + h0.conj().T),
                            q_invA=0.5 * (q + np.swapaxes(q, 1, 2).conj()), spin_orbit=so,
-                           kinetic_factor=self.kinetic_factor)
+                           kinetic_factor=self.kinetic_factor, nonlocal_wells=wells)
 
 
 def k_polynomial(model: PlaneWaveModel) -> KPolynomial:
@@ -249,7 +301,8 @@ def k_polynomial(model: PlaneWaveModel) -> KPolynomial:
     H0 + β(ħ²/m0) k·Q + β(ħ²/2m0)|k|² equals ``model.hamiltonian(k)`` at every k (β the
     model's kinetic factor, 1 for the free-electron mass). With
     spin–orbit coupling on spinor plane waves: 1₂ ⊗ H0, Q ⊗ 1₂ and the term
-    :class:`ProjectedSpinOrbit` added per k.
+    :class:`ProjectedSpinOrbit` added per k; nonlocal wells, :class:`ProjectedNonlocal`, per k
+    too (H(k) is then not a polynomial in k, but the same sum of projected matrices).
 
     Parameters
     ----------
@@ -261,17 +314,17 @@ def k_polynomial(model: PlaneWaveModel) -> KPolynomial:
     """
     g = model.basis.g_cart_invA
     h0 = np.array(model.potential_eV, copy=True)
-    if model.nonlocal_term is not None:
-        raise InputError("nonlocal terms are not polynomial in k and are not projected; "
-                         "expected a material without a nonlocal table", key="nonlocal")
     idx = np.arange(model.size)
     h0[idx, idx] += model.kinetic_constant_eV_A2 * np.einsum("gi,gi->g", g, g)
     beta = model.kinetic_factor
+    wells = None if model.nonlocal_term is None else ProjectedNonlocal(model)
     if model.spin_orbit is None:
-        return KPolynomial(h0_eV=h0, q_invA=np.ascontiguousarray(g.T), kinetic_factor=beta)
+        return KPolynomial(h0_eV=h0, q_invA=np.ascontiguousarray(g.T), kinetic_factor=beta,
+                           nonlocal_wells=wells)
     n = model.size
     spinor = np.zeros((2 * n, 2 * n), dtype=complex)
     spinor[:n, :n] = h0
     spinor[n:, n:] = h0
     return KPolynomial(h0_eV=spinor, q_invA=np.ascontiguousarray(np.tile(g.T, (1, 2))),
-                       spin_orbit=ProjectedSpinOrbit(model), kinetic_factor=beta)
+                       spin_orbit=ProjectedSpinOrbit(model), kinetic_factor=beta,
+                       nonlocal_wells=wells)

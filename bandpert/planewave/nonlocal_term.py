@@ -5,22 +5,13 @@ the l component of the wave function around each atom, V_NL = Σ_l A_l θ(R_l �
 form of Chelikowsky & Cohen, Phys. Rev. B 14, 556 (1976) (quoted from memory). Its plane-wave
 matrix elements are
 
-    V_NL(K, K′) = (4π/Ω_atom) Σ_s S_s(G − G′) Σ_l (2l + 1) A_l(K, K′) P_l(cos θ_KK′) F_l(K, K′),
+    V_NL(K, K′) = (4π/Ω_atom) Σ_s S_s(G − G′) Σ_l (2l + 1) A_l P_l(cos θ_KK′) F_l(K, K′),
     F_l(K, K′) = ∫_0^R_l j_l(Kr) j_l(K′r) r² dr,
 
 with K = k + G, Ω_atom the cell volume per atom and S_s the structure factor of the species
-(:func:`bandpert.planewave.spinorbit.structure_factors`). The depth is either a constant (the
-energy-independent form) or, with a slope s_l, energy-dependent in the way Chelikowsky & Cohen
-approximate the dependence of the well on the state's energy by the free-electron energies
-E⁰(K) = ħ²K²/2m0 of the two plane waves it couples (from memory; their reference energy is
-absorbed here into the constant A_l):
-
-    A_l(K, K′) = A_l + s_l √(E⁰(K) E⁰(K′)) = A_l + s_l (ħ²/2m0) |K| |K′|.
-
-It stays real, symmetric in K ↔ K′ and a function of |K|, |K′| only, so the term keeps
-Hermiticity, the point-group symmetry and Kramers pairs; it is linear in A_l and s_l. The free
-energies are those of the bare electron mass: the kinetic factor of the model does not scale
-them. F_l has the closed (Lommel) forms
+(:func:`bandpert.planewave.spinorbit.structure_factors`). The depths are constants (the
+energy-independent form); an energy-dependent depth is not offered (DEVELOPERS.md, "Nonlocal
+wells: why the depth is constant"). F_l has the closed (Lommel) forms
 
     F_l = R² [K′ j_{l−1}(K′R) j_l(KR) − K j_{l−1}(KR) j_l(K′R)] / (K² − K′²),   K ≠ K′,
     F_l = (R³/2) [j_l(KR)² − j_{l−1}(KR) j_{l+1}(KR)],                            K = K′,
@@ -40,7 +31,6 @@ import numpy as np
 from scipy.special import eval_legendre, spherical_jn
 
 from ..input.material import Material
-from ..units import HBAR2_OVER_2M0_EV_A2
 
 #: |K − K′| (Å⁻¹) below which F_l comes from the diagonal form and a second-order correction
 #: (:func:`radial_overlap`): the Lommel quotient loses digits as K′ → K.
@@ -139,13 +129,13 @@ class NonlocalTerm:
     species : tuple of str
         Sorted species names of the structure factors (all species of the atoms).
     channels : tuple
-        Per species, ((l, A_l in eV, R_l in Å, s_l dimensionless energy slope), …).
+        Per species, ((l, A_l in eV, R_l in Å), …).
     atom_volume_A3 : float
         Ω_atom.
     """
 
     species: tuple[str, ...]
-    channels: tuple[tuple[tuple[int, float, float, float], ...], ...]
+    channels: tuple[tuple[tuple[int, float, float], ...], ...]
     atom_volume_A3: float
 
     def matrix(self, kg_cart_invA: np.ndarray, structure: np.ndarray) -> np.ndarray:
@@ -164,18 +154,13 @@ class NonlocalTerm:
         cos = np.clip(unit @ unit.T, -1.0, 1.0)
         out = np.zeros(cos.shape, dtype=complex)
         scale = 4.0 * np.pi / self.atom_volume_A3
-        free = None  # √(E⁰(K) E⁰(K′)) (eV), built only when a channel has a slope
         for s, channels in enumerate(self.channels):
             if not channels:
                 continue
             radial = np.zeros(cos.shape)
-            for l, depth, radius, slope in channels:  # noqa: E741 - two channels at most
+            for l, depth, radius in channels:  # noqa: E741 - two channels at most
                 legendre = (1.0 if l == 0 else 1.5 * cos * cos - 0.5 if l == 2
                             else eval_legendre(l, cos))
-                if slope:
-                    if free is None:
-                        free = HBAR2_OVER_2M0_EV_A2 * np.outer(k, k)
-                    depth = depth + slope * free
                 radial += ((2 * l + 1) * depth * legendre
                            * radial_overlap(l, k[:, None], k[None, :], radius))
             out += scale * structure[s] * radial
