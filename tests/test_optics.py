@@ -149,6 +149,17 @@ def test_optics_command_writes_its_outputs(tmp_path):
     assert (tmp_path / "silicon-optics.png").exists() and (tmp_path / "silicon-optics.csv").exists()
 
 
+def test_the_f_sum_reference_carries_the_kinetic_factor(tmp_path):
+    # source: the Thomas–Reiche–Kuhn sum rule with H0 = βħ²|k+G|²/2m0: ∂²H/∂k² = β ħ²/m0, so
+    # the f-sum of N electrons is βN (e.g. F. Bassani & G. Pastori Parravicini, Electronic
+    # States and Optical Transitions in Solids, 1975, §5; from memory)
+    code, out, err = run(["optics", "gallium-arsenide-fitted", "--mesh", "4", "--exact",
+                          "--cutoff-eV", "40", "--out", str(tmp_path)])
+    assert code == 0, err
+    flat = " ".join(out.split())
+    assert "β = 1.077" in flat and "is β × 8 = 8.6" in flat
+
+
 @pytest.mark.parametrize("flags, fragment", [(["--broadening-meV", "0"], "--broadening-meV"),
                                              (["--step-meV", "500"], "--step-meV"),
                                              (["--tolerance-meV", "-1"], "--tolerance-meV")])

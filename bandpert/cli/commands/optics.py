@@ -100,9 +100,13 @@ def optics(
     table.add_column()
     table.add_row("mesh", f"{mesh} per axis: {result.mesh.n_full} points, "
                   f"{len(result.mesh.k_frac)} irreducible; {result.n_bands} bands")
+    beta = material.potential.kinetic_factor
+    rule = ("" if beta == 1.0 else f"; with the kinetic factor β = {beta:g} the sum rule of "
+            f"H0 = βħ²|k+G|²/2m0 is β × {material.valence_electrons} = "
+            f"{beta * material.valence_electrons:.4f}")
     table.add_row("f-sum", f"n_eff = {result.n_eff_total:.4f} (interband "
                   f"{result.n_eff_interband:.4f}, intraband {result.n_eff_intraband:.4f}) of "
-                  f"{material.valence_electrons} valence electrons")
+                  f"{material.valence_electrons} valence electrons{rule}")
     table.add_row("ε1(0)", f"{result.eps1[0]:.3f} (Kramers–Kronig), "
                   f"{result.eps1_zero_direct:.3f} (from the transitions)")
     if result.critical_points_eV:
