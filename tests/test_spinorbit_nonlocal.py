@@ -59,6 +59,28 @@ def test_radial_overlap_keeps_its_digits_as_k_prime_approaches_k(l):  # noqa: E7
     assert worst < 3e-11, worst
 
 
+def test_the_well_matrix_equals_the_overlap_pair_by_pair():
+    # common practice, no source: the matrix builder evaluates each Bessel function once per
+    # basis and takes equal-length pairs from the diagonal form; it must equal radial_overlap
+    # (checked against quadrature above) pair by pair, at Γ (many equal lengths), near Γ and
+    # at a general point
+    from bandpert.planewave.nonlocal_term import nonlocal_term
+
+    material = bundled("germanium-fitted")
+    fixed = build_model(material, CUTOFF_EV, spin_orbit=True)
+    wells = nonlocal_term(material)
+    for k in ([0, 0, 0], [1e-4, 0, 0], [0.3, 0.1, 0.05]):
+        kg = np.asarray(k, float) + fixed.basis.g_cart_invA
+        norm = np.linalg.norm(kg, axis=1)
+        unit_k = kg / np.where(norm > 0, norm, 1.0)[:, None]
+        cos = np.clip(unit_k @ unit_k.T, -1, 1)
+        radial = sum((2 * ell + 1) * depth * (1.0 if ell == 0 else 1.5 * cos**2 - 0.5)
+                     * radial_overlap(ell, norm[:, None], norm[None, :], radius)
+                     for ell, depth, radius in wells.channels[0])
+        expected = 4 * np.pi / wells.atom_volume_A3 * fixed.structure[0] * radial
+        assert np.max(np.abs(wells.matrix(kg, fixed.structure) - expected)) < 1e-11
+
+
 def test_zero_depths_give_the_local_model():
     # source: exact identity (A_l = 0 adds nothing)
     local = bundled("gallium-arsenide")

@@ -39,6 +39,10 @@ CLOSE_INVA = 5e-4
 #: |K² − K′²| (Å⁻²) below which the same holds (both K and K′ near 0).
 CLOSE_SQUARES_INVA2 = 1e-5
 
+#: |K − K′| (Å⁻¹) below which two plane waves count as equally long (symmetry partners whose
+#: lengths differ by rounding only).
+EQUAL_INVA = 1e-9
+
 #: The half-separation h0 (Å⁻¹) of the well-conditioned Lommel evaluation that fixes the
 #: second-order coefficient of the close pairs.
 CURVATURE_STEP_INVA = 2e-3
@@ -101,11 +105,45 @@ def radial_overlap(l: int, k1: np.ndarray, k2: np.ndarray, radius: float) -> np.
         mid = 0.5 * (k1b[close] + k2b[close])
         h = 0.5 * np.abs(k1b[close] - k2b[close])
         centre = _diagonal(l, mid, radius)
-        apart = h > 0  # pairs of equal |K| (symmetry partners) need no correction
+        # pairs of equal |K| (symmetry partners, equal to rounding) need no correction: c h²
+        # is below 1e-17 of F there
+        apart = h > EQUAL_INVA
         if apart.any():
             centre[apart] += (_lommel_about(l, mid[apart], CURVATURE_STEP_INVA, radius)
                               - centre[apart]) * (h[apart] / CURVATURE_STEP_INVA) ** 2
         out[close] = centre
+    return out
+
+
+def _overlap_square(l: int, k: np.ndarray, radius: float, bessel) -> np.ndarray:  # noqa: E741
+    """F_l(K_i, K_j) (n, n) for the lengths ``k`` of one basis: :func:`radial_overlap` with each
+    spherical Bessel function evaluated once on the vector (``bessel(order, R)``), the diagonal
+    and the pairs of equal length from the same vectors; only pairs close but not equal take
+    the expansion of :func:`radial_overlap`."""
+    x = k * radius
+    jl, jup = bessel(l, radius), bessel(l + 1, radius)
+    tiny = x < 1e-6
+    if l == 0:  # K j_{−1}(KR) = cos(KR)/R; j_{−1}(x) = cos(x)/x
+        lower_k = np.cos(x) / radius
+        lower = np.cos(x) / np.where(tiny, 1.0, x)
+    else:
+        lower = bessel(l - 1, radius)
+        lower_k = k * lower
+    squares = k[:, None] ** 2 - k[None, :] ** 2
+    gap = np.abs(k[:, None] - k[None, :])
+    close = (gap < CLOSE_INVA) | (np.abs(squares) < CLOSE_SQUARES_INVA2)
+    out = (radius**2 * (lower_k[None, :] * jl[:, None] - lower_k[:, None] * jl[None, :])
+           / np.where(close, 1.0, squares))
+    diagonal = 0.5 * radius**3 * (jl * jl - lower * jup)
+    if tiny.any():  # K → 0: the diagonal form at KR = 1e-6, as radial_overlap takes it
+        diagonal[tiny] = _diagonal(l, k[tiny], radius)
+    equal = close & (gap <= 2.0 * EQUAL_INVA)
+    i, j = np.nonzero(equal)
+    out[i, j] = 0.5 * (diagonal[i] + diagonal[j])
+    rest = close & ~equal
+    if rest.any():
+        i, j = np.nonzero(rest)
+        out[i, j] = radial_overlap(l, k[i], k[j], radius)
     return out
 
 
@@ -154,6 +192,14 @@ class NonlocalTerm:
         cos = np.clip(unit @ unit.T, -1.0, 1.0)
         out = np.zeros(cos.shape, dtype=complex)
         scale = 4.0 * np.pi / self.atom_volume_A3
+        cache: dict[tuple[int, float], np.ndarray] = {}
+
+        def bessel(order: int, radius: float) -> np.ndarray:
+            """j_order(|K| R) on the basis, each (order, R) evaluated once per matrix."""
+            if (order, radius) not in cache:
+                cache[order, radius] = spherical_jn(order, k * radius)
+            return cache[order, radius]
+
         for s, channels in enumerate(self.channels):
             if not channels:
                 continue
@@ -162,7 +208,7 @@ class NonlocalTerm:
                 legendre = (1.0 if l == 0 else 1.5 * cos * cos - 0.5 if l == 2
                             else eval_legendre(l, cos))
                 radial += ((2 * l + 1) * depth * legendre
-                           * radial_overlap(l, k[:, None], k[None, :], radius))
+                           * _overlap_square(l, k, radius, bessel))
             out += scale * structure[s] * radial
         return out
 
