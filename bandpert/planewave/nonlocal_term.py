@@ -55,6 +55,13 @@ def _k_j_lower(l: int, k: np.ndarray, radius: float) -> np.ndarray:  # noqa: E74
     return k * spherical_jn(l - 1, k * radius)
 
 
+def _close_pairs(k1: np.ndarray, k2: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """K² − K′² and the pairs the Lommel quotient cannot take (closer than :data:`CLOSE_INVA`,
+    or with |K² − K′²| below :data:`CLOSE_SQUARES_INVA2`), broadcast over K, K′."""
+    squares = k1 * k1 - k2 * k2
+    return squares, (np.abs(k1 - k2) < CLOSE_INVA) | (np.abs(squares) < CLOSE_SQUARES_INVA2)
+
+
 def _lommel(l: int, k1: np.ndarray, k2: np.ndarray, radius: float) -> np.ndarray:  # noqa: E741
     """F_l by the Lommel quotient (K ≠ K′; module docstring)."""
     j1, j2 = spherical_jn(l, k1 * radius), spherical_jn(l, k2 * radius)
@@ -95,8 +102,7 @@ def radial_overlap(l: int, k1: np.ndarray, k2: np.ndarray, radius: float) -> np.
     # the Bessel functions of each argument once (an (n, 1) and a (1, n) input stay vectors:
     # n evaluations, not n² of them); the pairs only meet in the arithmetic below
     j1, j2 = spherical_jn(l, k1 * radius), spherical_jn(l, k2 * radius)
-    squares = k1 * k1 - k2 * k2
-    close = (np.abs(k1 - k2) < CLOSE_INVA) | (np.abs(squares) < CLOSE_SQUARES_INVA2)
+    squares, close = _close_pairs(k1, k2)
     diff = np.where(close, 1.0, squares)
     out = radius**2 * (_k_j_lower(l, k2, radius) * j1 - _k_j_lower(l, k1, radius) * j2) / diff
     out = np.array(np.broadcast_to(out, close.shape), dtype=float)
@@ -129,9 +135,8 @@ def _overlap_square(l: int, k: np.ndarray, radius: float, bessel) -> np.ndarray:
     else:
         lower = bessel(l - 1, radius)
         lower_k = k * lower
-    squares = k[:, None] ** 2 - k[None, :] ** 2
+    squares, close = _close_pairs(k[:, None], k[None, :])
     gap = np.abs(k[:, None] - k[None, :])
-    close = (gap < CLOSE_INVA) | (np.abs(squares) < CLOSE_SQUARES_INVA2)
     out = (radius**2 * (lower_k[None, :] * jl[:, None] - lower_k[:, None] * jl[None, :])
            / np.where(close, 1.0, squares))
     diagonal = 0.5 * radius**3 * (jl * jl - lower * jup)
