@@ -311,7 +311,7 @@ def test_one_sided_differences_at_a_bound_equal_hellmann_feynman(beta, side):
                          parse_material(doc, path))
     fit = Fit(doc, path, spec)
     assert fit.bound_sides(fit.start) == (side, "", "")
-    pairs, _ = fit.differences(fit.start)
+    pairs, _, _ = fit.differences(fit.start)
     assert all(0.5 <= m.potential.kinetic_factor <= 1.5 for pair in pairs for m in pair[:2])
     hf = fit.jacobian(fit.start)
     fd = fit.jacobian(fit.start, finite_differences=True)
@@ -335,7 +335,7 @@ def test_differences_keep_off_an_open_end():
     fit = Fit(doc, path, spec)
     lower = fit.lower[0]
     assert lower == pytest.approx(5e-6) and fit.upper[0] == 5.0
-    pairs, combine = fit.differences(np.array([lower]))
+    pairs, combine, _ = fit.differences(np.array([lower]))
     radii = [m.nonlocal_terms.species["Si"][0][2] for pair in pairs for m in pair[:2]]
     assert min(radii) == lower and len(pairs) == 2 and list(combine[:, 0]) == [2.0, -1.0]
     assert np.all(np.isfinite(fit.jacobian(np.array([lower]))))

@@ -11,16 +11,19 @@ The derivative needs no further diagonalisation beyond the three with eigenvecto
 
     ∂m/∂p = σ 2C (2h h′ Δ − h² Δ′) / Δ²,   Δ′ = Σ_s w_s ∂E_s/∂p,  w = (1, −2, 1),
 
-with ∂E_s/∂p = ⟨n_s|∂H/∂p|n_s⟩ by Hellmann–Feynman at each stencil point (the mean over the
-pair), ∂H/∂p = [H(p + δ) − H(p − δ)]/(2δ) on the same plane waves, and h′ from the lattice
-constant. At a minimum off the labelled points (:mod:`bandpert.physics.fit_valley`) the stencil is
-centred on the minimum found for the current parameters, which moves with p: the total
-derivative adds (∂m/∂t)(dt_min/dp), with dt_min/dp = −(∂²E/∂k∂p)/(∂²E/∂k²)/L from the
-Hellmann–Feynman derivatives of a stencil along the line (L its length in Å⁻¹; the implicit
-function theorem on ∂E/∂k = 0) and ∂m/∂t = −m Δ_t/Δ with Δ_t = Σ_s w_s ∂E_s/∂t, again by
-Hellmann–Feynman, ∂E_s/∂t = ⟨n_s|∂H/∂k·(dk/dt)|n_s⟩ (:func:`minimum_mass_derivatives`). The
-eigenpairs come from the fit's :class:`~bandpert.physics.fit_states.PointStates`, where the
-residuals at the same parameters left them.
+with ∂E_s/∂p = ⟨n_s|∂H/∂p|n_s⟩ by Hellmann–Feynman at each stencil point (the mean over the pair;
+within a degenerate group the member's eigenvalue of ∂H/∂p in the group, one-sided where the
+parameter splits it: :mod:`bandpert.physics.fit_states`; at spin–orbit strength 0 the heavy holes
+along [100] are a spinor quartet at k0 ± h d that the strength splits),
+∂H/∂p = [H(p + δ) − H(p − δ)]/(2δ) on the same plane waves, and h′ from the lattice constant.
+At a minimum off the labelled points (:mod:`bandpert.physics.fit_valley`) the stencil is centred on
+the minimum found for the current parameters, which moves with p: the total derivative adds
+(∂m/∂t)(dt_min/dp), with dt_min/dp = −(∂²E/∂k∂p)/(∂²E/∂k²)/L from the Hellmann–Feynman derivatives
+of a stencil along the line (L its length in Å⁻¹; the implicit function theorem on ∂E/∂k = 0) and
+∂m/∂t = −m Δ_t/Δ with Δ_t = Σ_s w_s ∂E_s/∂t, again by Hellmann–Feynman, ∂E_s/∂t =
+⟨n_s|∂H/∂k·(dk/dt)|n_s⟩ (:func:`minimum_mass_derivatives`). The eigenpairs come from the fit's
+:class:`~bandpert.physics.fit_states.PointStates`, where the residuals at the same parameters left
+them.
 """
 
 from __future__ import annotations

@@ -24,12 +24,30 @@ H (not of eigenvalues), on the same plane waves:
 * along a parameter (:class:`ParameterSlopes`): ∂H/∂p = [H(p + δ; k(p + δ)) − H(p − δ;
   k(p − δ))]/(2δ), k at fixed fractional coordinates (exact for the parameters H is linear
   in: form factors, spin–orbit strengths, well depths).
+
+Degenerate levels (a group of d levels within :data:`DEGENERACY_EV`, with projector P): the
+derivative of each member is not ⟨n|∂H/∂p|n⟩ of whatever basis the eigensolver returned, but
+(degenerate first-order perturbation theory; L. D. Landau & E. M. Lifshitz, Quantum Mechanics,
+3rd ed. 1977, §39; from memory) an eigenvalue μ_1 ≤ … ≤ μ_d of the d × d matrix
+M = ⟨i|∂H/∂p|j⟩ (i, j in the group): E_i(p) = E_0 + μ_i (p − p0) + O((p − p0)²) for p above
+p0, so the k-th lowest member of the group moves with μ_k. Below p0 the order reverses (the
+lowest member moves with μ_d): the derivative of a sorted band is one-sided where a parameter
+splits a group at first order, as the spin–orbit strength does from 0 (the spinless triplet Γ25′
+doubled into a sextet that splits linearly into Γ8 and Γ7). :class:`ParameterSlopes` gives the
+one-sided derivative in the direction each column says (``directions``: +1, p increasing, the
+default, and what the fit uses inside a range and at a lower bound, where least squares can only
+increase p; −1 at an upper bound). Each parameter is diagonalised within the group on its own
+(two parameters may split a group along different eigenbases). Where M is a multiple of the
+identity (the parameter keeps the group degenerate: every parameter that keeps the double
+group's level, e.g. a form factor at a spin–orbit Γ8) its eigenvalues are the group mean
+Tr(P ∂H/∂p P)/d, which is returned as such (:data:`SPLIT_RTOL`). :class:`PointStates` keeps
+every level of the highest group it keeps, so no group is cut at the top.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from dataclasses import replace
+from collections.abc import Callable, Sequence
+from dataclasses import fields, replace
 
 import numpy as np
 import scipy.linalg
@@ -43,6 +61,17 @@ from ..planewave.spinorbit import SpinOrbitTerm, spin_orbit_term, spinor_hamilto
 #: Step ε of the four-point difference of H along k, in units of the direction vector given.
 K_STEP = 1e-3
 
+#: Levels closer than this (consecutive, eV) are one degenerate group.
+DEGENERACY_EV = 1e-6
+
+#: A group's block of ∂H/∂p counts as a multiple of the identity (the group mean is every
+#: member's derivative) when it differs from its mean diagonal by at most this fraction of its
+#: own size (Frobenius norms).
+SPLIT_RTOL = 1e-9
+
+#: Levels added when the highest kept group may continue above the kept ones.
+GROUP_EXTRA = 8
+
 #: k (Å⁻¹) of a point for a material's lattice (fixed fractional coordinates).
 KOf = Callable[[Material], np.ndarray]
 
@@ -50,6 +79,59 @@ KOf = Callable[[Material], np.ndarray]
 def projected(dh: np.ndarray, vectors: np.ndarray) -> np.ndarray:
     """Re diag(C† dH C): the expectation value of dH in each column of C."""
     return np.real(np.einsum("in,in->n", vectors.conj(), dh @ vectors))
+
+
+def level_groups(w: np.ndarray) -> list[slice]:
+    """The degenerate groups of sorted levels ``w``: runs whose consecutive gaps are below
+    :data:`DEGENERACY_EV`."""
+    breaks = np.flatnonzero(np.diff(w) >= DEGENERACY_EV) + 1
+    edges = [0, *breaks.tolist(), len(w)]
+    return [slice(a, b) for a, b in zip(edges[:-1], edges[1:], strict=True)]
+
+
+def sorted_level_slopes(vectors: np.ndarray, dh_vectors: np.ndarray, groups: list[slice],
+                        direction: float = 1.0) -> np.ndarray:
+    """One-sided derivatives of sorted levels from ∂H/∂p (module docstring).
+
+    M = C† ∂H/∂p C is formed once; a group whose block is a multiple of the identity to
+    :data:`SPLIT_RTOL` (Frobenius norm of the block less its mean diagonal against the block's)
+    gets the block's mean diagonal, a single level its ⟨n|∂H/∂p|n⟩, and only a group that
+    splits is diagonalised.
+
+    Parameters
+    ----------
+    vectors : numpy.ndarray
+        (N, n) eigenvectors C (columns, by ascending level).
+    dh_vectors : numpy.ndarray
+        (N, n) ∂H/∂p C.
+    groups : list of slice
+        The degenerate groups (:func:`level_groups`), contiguous and covering the n levels.
+    direction : float
+        +1: the derivative for p increasing (the k-th member of a group moves with the k-th
+        lowest eigenvalue of its block); −1: for p decreasing (the order reversed).
+
+    Returns
+    -------
+    numpy.ndarray
+        (n,) dE_n/dp.
+    """
+    m = vectors.conj().T @ dh_vectors
+    starts = np.array([g.start for g in groups])
+    sizes = np.array([g.stop - g.start for g in groups])
+    label = np.repeat(np.arange(len(groups)), sizes)
+    block = label[:, None] == label[None, :]
+    mean = np.add.reduceat(m.diagonal().real, starts) / sizes
+    out = mean[label]
+    m2 = np.where(block, np.abs(m) ** 2, 0.0)
+    dev2 = m2.copy()
+    dev2[np.diag_indices_from(dev2)] = (m.diagonal().real - out) ** 2 + m.diagonal().imag ** 2
+    spread = np.sqrt(np.add.reduceat(dev2.sum(axis=1), starts))
+    scale = np.sqrt(np.add.reduceat(m2.sum(axis=1), starts))
+    for i in np.flatnonzero(spread > SPLIT_RTOL * scale):
+        g = groups[i]
+        mu = np.linalg.eigvalsh(0.5 * (m[g, g] + m[g, g].conj().T))
+        out[g] = mu if direction > 0 else mu[::-1]
+    return out
 
 
 class PointStates:
@@ -88,16 +170,29 @@ class PointStates:
 
     def eigenpairs(self, miller: np.ndarray, k_cart: np.ndarray
                    ) -> tuple[np.ndarray, np.ndarray]:
-        """The lowest ``n_bands`` eigenvalues (eV) and eigenvectors (columns) of H(k)."""
+        """The lowest ``n_bands`` eigenvalues (eV) and eigenvectors (columns) of H(k), and
+        the rest of the highest one's degenerate group (:func:`level_groups`: one level more
+        is solved for to see whether it continues; a group cut at the top would give its
+        members wrong derivatives)."""
         k = np.ascontiguousarray(k_cart, dtype=float)
         key = (id(miller), k.tobytes())
         if key in self._pairs:
             return self._pairs[key]
         h = self.model(miller).hamiltonian(k)
-        n = min(self.n_bands, h.shape[0])
-        pair = scipy.linalg.eigh(h, subset_by_index=(0, n - 1), driver="evr",
-                                 check_finite=False)
-        self.diagonalisations += 1
+        size = h.shape[0]
+        keep = min(self.n_bands, size)
+        solve = keep + 1
+        while True:
+            solve = min(solve, size)
+            w, c = scipy.linalg.eigh(h, subset_by_index=(0, solve - 1), driver="evr",
+                                     check_finite=False)
+            self.diagonalisations += 1
+            while keep < solve and w[keep] - w[keep - 1] < DEGENERACY_EV:
+                keep += 1
+            if keep < solve or solve == size:
+                break
+            solve = keep + GROUP_EXTRA
+        pair = (w[:keep], c[:, :keep])
         if self.share:
             self._pairs[key] = pair
         return pair
@@ -158,11 +253,18 @@ def _spin_orbit_slope(a: SpinOrbitTerm | None, b: SpinOrbitTerm | None, delta: f
     return lambda kg, s: (a.coupling(kg, s) - b.coupling(kg, s)) / (2.0 * delta)
 
 
+#: The depth-only shortcut of :func:`_wells_slope` knows a :class:`NonlocalTerm` of exactly these
+#: fields with channels (l, A_l, R_l); a term with more (another kind of well) takes the exact
+#: difference of the two terms.
+_DEPTH_LINEAR_FIELDS = {f.name for f in fields(NonlocalTerm)} == {
+    "species", "channels", "atom_volume_A3"}
+
+
 def _wells_slope(a: NonlocalTerm | None, b: NonlocalTerm | None, delta: float
                  ) -> TermSlope | str | None:
     """∂V_NL/∂p from the terms at p ± δ: V_NL is linear in the depths A_l, so a change of depths
-    alone is one term of the changed channels with the depths' slope; anything else (a radius)
-    the difference of two."""
+    alone is one term of the changed channels with the depths' slope; anything else (a radius,
+    or a term of another form than (l, A_l, R_l) channels) the difference of two."""
     if a == b:
         return None
     if a is None or b is None:
@@ -171,7 +273,8 @@ def _wells_slope(a: NonlocalTerm | None, b: NonlocalTerm | None, delta: float
     def shape(term: NonlocalTerm) -> list:
         return [[(ell, r) for ell, _, r in channels] for channels in term.channels]
 
-    if (a.species, a.atom_volume_A3, shape(a)) == (b.species, b.atom_volume_A3, shape(b)):
+    if (_DEPTH_LINEAR_FIELDS and all(len(c) == 3 for t in (a, b) for s in t.channels for c in s)
+            and (a.species, a.atom_volume_A3, shape(a)) == (b.species, b.atom_volume_A3, shape(b))):
         channels = tuple(tuple((ell, (x - y) / (2.0 * delta), r)
                                for (ell, x, r), (_, y, _) in zip(ca, cb, strict=True) if x != y)
                          for ca, cb in zip(a.channels, b.channels, strict=True))
@@ -180,7 +283,7 @@ def _wells_slope(a: NonlocalTerm | None, b: NonlocalTerm | None, delta: float
 
 
 class ParameterSlopes:
-    """⟨n|∂H/∂p|n⟩ at points of a :class:`PointStates`, for every parameter (module docstring).
+    """dE_n/dp at points of a :class:`PointStates`, for every parameter (module docstring).
 
     A parameter that keeps the lattice and the atoms (form factors, spin–orbit strengths, well
     depths and radii) changes only some terms of H = 1₂ ⊗ (H0 + V + V_NL(k)) + H_so(k): the
@@ -188,7 +291,8 @@ class ParameterSlopes:
     H_so per point only when they change, as one term with the slope of the strengths or depths
     they are linear in); H0 and every unchanged term cancel exactly. A parameter that moves the
     lattice or changes H0 itself (the kinetic factor β) takes the difference of the whole
-    matrices.
+    matrices. Levels of a degenerate group get the eigenvalues of ∂H/∂p within the group,
+    sorted for the direction of the column (:func:`sorted_level_slopes`).
 
     Parameters
     ----------
@@ -199,13 +303,21 @@ class ParameterSlopes:
     differences : dict, optional
         A cache, kept by the caller across Jacobians, of the distinct G − G′ of each
         plane-wave set (V is evaluated on those only).
+    directions : sequence of float, optional
+        Per column, +1 (default) for the derivative with p increasing, −1 with p decreasing:
+        they differ where the parameter splits a degenerate group (module docstring).
     """
 
     def __init__(self, states: PointStates,
                  perturbed: list[tuple[Material, Material, float]],
-                 differences: dict | None = None):
+                 differences: dict | None = None,
+                 directions: Sequence[float] | None = None):
         self.states = states
         self.perturbed = perturbed
+        self.directions = (np.ones(len(perturbed)) if directions is None
+                           else np.asarray(directions, dtype=float))
+        if self.directions.shape != (len(perturbed),):
+            raise ValueError("one direction per column of perturbed materials expected")
         self._differences = {} if differences is None else differences
         self._models: dict[tuple[int, int, int], tuple[np.ndarray, PlaneWaveModel]] = {}
         self._potential: dict[tuple[int, int], np.ndarray | None] = {}
@@ -247,14 +359,14 @@ class ParameterSlopes:
             self._potential[key] = (dv[inverse].reshape(n, n) if np.any(dv != 0) else None)
         return self._potential[key]
 
-    def _slope(self, j: int, miller: np.ndarray, k_of: KOf, vectors: np.ndarray
-               ) -> np.ndarray:
-        """⟨n|∂H/∂p_j|n⟩ for the columns of ``vectors``."""
+    def _applied(self, j: int, miller: np.ndarray, k_of: KOf, vectors: np.ndarray
+                 ) -> np.ndarray | None:
+        """∂H/∂p_j applied to the columns of ``vectors`` (None: ∂H/∂p_j = 0 here)."""
         plus, minus, delta = self.perturbed[j]
         if self._terms[j] is None:  # the lattice moves: whole matrices
             dh = (self._model(j, 0, miller).hamiltonian(k_of(plus))
                   - self._model(j, 1, miller).hamiltonian(k_of(minus))) / (2.0 * delta)
-            return projected(dh, vectors)
+            return dh @ vectors
         so, wells = self._terms[j]
         model = self.states.model(miller)
         kg = k_of(self.states.material) + model.basis.g_cart_invA
@@ -264,16 +376,17 @@ class ParameterSlopes:
             dw = wells(kg, model.structure)
             ds = dw if ds is None else ds + dw
         if so is not None:
-            return projected(spinor_hamiltonian(np.zeros((n, n)) if ds is None else ds,
-                                                so(kg, model.structure)), vectors)
+            return spinor_hamiltonian(np.zeros((n, n)) if ds is None else ds,
+                                      so(kg, model.structure)) @ vectors
         if ds is None:
-            return np.zeros(vectors.shape[1])
+            return None
         if model.n_components == 1:
-            return projected(ds, vectors)
-        return projected(ds, vectors[:n]) + projected(ds, vectors[n:])
+            return ds @ vectors
+        return np.concatenate([ds @ vectors[:n], ds @ vectors[n:]])
 
     def at(self, miller: np.ndarray, k_of: KOf) -> np.ndarray:
-        """(n_states, n_parameters) ∂E_n/∂p at the point k_of(material) for every kept state.
+        """(n_states, n_parameters) dE_n/dp at the point k_of(material) for every kept state
+        (sorted bands; one-sided as :attr:`directions` says where a group splits).
 
         ``k_of`` gives the point's k for a material's lattice (so a lattice constant moves it).
         """
@@ -281,10 +394,13 @@ class ParameterSlopes:
         key = (id(miller), k.tobytes())
         if key in self._done:
             return self._done[key]
-        _, c = self.states.eigenpairs(miller, k)
-        out = np.empty((c.shape[1], self.n_parameters))
+        w, c = self.states.eigenpairs(miller, k)
+        groups = level_groups(w)
+        out = np.zeros((c.shape[1], self.n_parameters))
         for j in range(self.n_parameters):
-            out[:, j] = self._slope(j, miller, k_of, c)
+            applied = self._applied(j, miller, k_of, c)
+            if applied is not None:
+                out[:, j] = sorted_level_slopes(c, applied, groups, self.directions[j])
         if self.states.share:
             self._done[key] = out
         return out

@@ -28,11 +28,16 @@ A fit's targets file (TOML, read by :func:`parse_targets`)::
     source = "..."
 
 Energies are exact eigenvalues of H(k) on a set of plane waves fixed per target point when the
-fit starts (:class:`TargetModel`), so the targets are smooth functions of the parameters. Their
-derivatives by first-order perturbation theory (Hellmann–Feynman: ∂E_n/∂p = ⟨n|∂H/∂p|n⟩; for a
-level of a degenerate group the mean over the group, Tr(P ∂H/∂p P)/d, which is the derivative of
-each member when the parameters keep the crystal's symmetry, as every material parameter does)
-are in :meth:`TargetModel.energy_derivatives`. Masses are second differences of E(k) on the
+fit starts (:class:`TargetModel`), so the targets are smooth functions of the parameters (except
+where a parameter splits a degenerate level, below). Their derivatives by first-order
+perturbation theory (Hellmann–Feynman: ∂E_n/∂p = ⟨n|∂H/∂p|n⟩) are in
+:meth:`TargetModel.energy_derivatives`. For a level of a degenerate group they are the
+eigenvalues of ∂H/∂p within the group, the k-th lowest for the k-th member
+(:mod:`bandpert.physics.fit_states`): the group mean Tr(P ∂H/∂p P)/d where the parameter keeps
+the group degenerate, and a one-sided derivative where it splits the group at first order (the
+spin–orbit strength at exactly 0 splits the doubled spinless Γ25′ sextet into Γ8 and Γ7; the
+Jacobian then gives the derivative for the strength increasing, the only way least squares can
+move it from its lower bound 0). Masses are second differences of E(k) on the
 same fixed basis, m*/m0 = 2 (ħ²/2m0) / (∂²E/∂k²) (negated for valence bands); with spin–orbit
 coupling the two bands of a Kramers pair are averaged first (without inversion symmetry a single
 branch is not analytic at the point).
@@ -72,9 +77,6 @@ MINIMUM = "min"
 
 #: Directions of a mass at a minimum named by words (:meth:`ValleyLine.direction`).
 VALLEY_DIRECTIONS = ("along", "across")
-
-#: Levels closer than this are one degenerate group (eV).
-DEGENERACY_EV = 1e-6
 
 _BAND = re.compile(r"^([vc])([1-9][0-9]*)$")
 
@@ -382,12 +384,14 @@ class TargetModel:
 
     def energy_derivatives(self, material: Material,
                            perturbed: list[tuple[Material, Material, float]],
-                           evaluation: Evaluation | None = None) -> np.ndarray:
+                           evaluation: Evaluation | None = None,
+                           directions: np.ndarray | None = None) -> np.ndarray:
         """∂(target)/∂p by Hellmann–Feynman: energies, and masses through their stencils.
 
-        ∂E_n/∂p = ⟨n|∂H/∂p|n⟩, the mean over n's degenerate group (module docstring), with
-        ∂H/∂p = [H(p + δ) − H(p − δ)]/(2δ) on the same plane waves and fractional k (exact
-        for the parameters H is linear in: form factors and spin–orbit strengths).
+        ∂E_n/∂p = ⟨n|∂H/∂p|n⟩, within n's degenerate group the eigenvalue of ∂H/∂p of n's rank
+        in the group (module docstring), with ∂H/∂p = [H(p + δ) − H(p − δ)]/(2δ) on the same
+        plane waves and fractional k (exact for the parameters H is linear in: form factors
+        and spin–orbit strengths).
 
         Parameters
         ----------
@@ -398,6 +402,9 @@ class TargetModel:
         evaluation : Evaluation, optional
             :meth:`evaluate` of the same material (its eigenpairs and minima are reused);
             evaluated here when not given.
+        directions : numpy.ndarray, optional
+            Per column, +1 (default) for the derivative with the parameter increasing, −1
+            decreasing (:class:`~bandpert.physics.fit_states.ParameterSlopes`).
 
         Returns
         -------
@@ -408,7 +415,7 @@ class TargetModel:
             evaluation = self.evaluate(material)
         states, t_min = evaluation.states, evaluation.t_min
         material = states.material
-        slopes = ParameterSlopes(states, perturbed, self._differences)
+        slopes = ParameterSlopes(states, perturbed, self._differences, directions)
         jac = np.full((len(self.targets), len(perturbed)), np.nan)
 
         def slope(ref: BandRef) -> np.ndarray:
@@ -418,8 +425,7 @@ class TargetModel:
                 miller, k_of = line.miller, (lambda m: line.k_cart(m, t))
             else:
                 miller, k_of = self.miller[ref.label], self._k_of(ref.label)
-            w, _ = states.eigenpairs(miller, k_of(material))
-            return slopes.at(miller, k_of)[_groups(w)[band]].mean(axis=0)
+            return slopes.at(miller, k_of)[band]
 
         for i, t in enumerate(self.targets):
             if t.quantity == "mass" and t.at.label == MINIMUM:
@@ -446,10 +452,3 @@ def _minimum_bands(target: Target, n_valence: int) -> set[int]:
     return {ref.index(n_valence) for ref in (target.at, target.start)
             if ref is not None and ref.label == MINIMUM}
 
-
-def _groups(w: np.ndarray) -> list[np.ndarray]:
-    """For each level the indices of its degenerate group (levels within DEGENERACY_EV)."""
-    out = []
-    for e in w:
-        out.append(np.flatnonzero(np.abs(w - e) < DEGENERACY_EV))
-    return out

@@ -12,7 +12,10 @@ eigenpairs it reuses (:meth:`Fit.evaluate` keeps the last few, keyed by the para
 Its differences in a parameter (∂H/∂p, and the targets without a Hellmann–Feynman row) are
 central, [f(p + δ) − f(p − δ)]/2δ, except within δ of a bound, where they are one-sided of the
 same order, [−3f(p) + 4f(p + δ) − f(p + 2δ)]/2δ (or its mirror), so no step leaves the range
-(:meth:`Fit.differences`).
+(:meth:`Fit.differences`). Where a parameter splits a degenerate level at first order (a
+spin–orbit strength at 0) the sorted bands have a kink and their Hellmann–Feynman row is the
+one-sided derivative least squares can use: for p increasing inside the range and at a lower
+bound, for p decreasing at an upper bound (:class:`~bandpert.physics.fit_states.ParameterSlopes`).
 
 A parameter that ends within :data:`AT_BOUND_RTOL` of the range's width of a bound is set on
 the bound and reported as at its bound: the targets pull it beyond what its key accepts. Its
@@ -214,8 +217,9 @@ class Fit:
     def steps(self, p: np.ndarray) -> np.ndarray:
         return RELATIVE_STEP * np.maximum(np.abs(p), 1e-3)
 
-    def differences(self, p: np.ndarray) -> tuple[list[Pair], np.ndarray]:
-        """The difference columns of the Jacobian at ``p`` and how they combine.
+    def differences(self, p: np.ndarray) -> tuple[list[Pair], np.ndarray, np.ndarray]:
+        """The difference columns of the Jacobian at ``p``, how they combine, and the side of
+        each.
 
         Central, (p + δ, p − δ, δ), where both points lie inside the bounds; else one-sided
         of second order (module docstring), as two columns (p + δ, p, δ/2) and (p + 2δ, p, δ)
@@ -228,11 +232,17 @@ class Fit:
             The columns (:data:`Pair`).
         combine : numpy.ndarray
             (n_columns, n_parameters): ∂f/∂p = (f-columns) @ combine.
+        directions : numpy.ndarray
+            (n_columns,) the side whose derivative a column stands for where a parameter splits
+            a degenerate level (:class:`~bandpert.physics.fit_states.ParameterSlopes`): −1
+            (p decreasing) at an upper bound, the only way the fit can move there; else +1
+            (p increasing: inside the range by convention, at a lower bound by necessity).
         """
         p = np.asarray(p, dtype=float)
         base: Material | None = None
         pairs: list[Pair] = []
         weights: list[tuple[int, float]] = []
+        directions: list[float] = []
         for j, step in enumerate(self.steps(p)):
             if p[j] - step >= self.lower[j] and p[j] + step <= self.upper[j]:
                 up, down = p.copy(), p.copy()
@@ -240,6 +250,7 @@ class Fit:
                 down[j] -= step
                 pairs.append((self.material(up), self.material(down), float(step)))
                 weights.append((j, 1.0))
+                directions.append(1.0)
                 continue
             if base is None:
                 base = self.material(p)
@@ -258,10 +269,11 @@ class Fit:
                 pairs.append((far, base, multiple * step / 2.0) if sign > 0
                              else (base, far, multiple * step / 2.0))
                 weights.append((j, weight))
+                directions.append(sign)
         combine = np.zeros((len(pairs), len(p)))
         for column, (j, weight) in enumerate(weights):
             combine[column, j] = weight
-        return pairs, combine
+        return pairs, combine, np.array(directions)
 
     def evaluate(self, p: np.ndarray) -> Evaluation:
         """The targets at p; the last :data:`KEPT_EVALUATIONS` are kept for the Jacobian."""
@@ -292,11 +304,12 @@ class Fit:
         of the Hellmann–Feynman rows).
         """
         p = np.asarray(p, dtype=float)
-        pairs, combine = self.differences(p)
+        pairs, combine, directions = self.differences(p)
         jac = np.full((len(self.target_values), len(pairs)), np.nan)
         if not finite_differences:
             evaluation = self.evaluate(p)
-            jac = self.targets.energy_derivatives(evaluation.material, pairs, evaluation)
+            jac = self.targets.energy_derivatives(evaluation.material, pairs, evaluation,
+                                                  directions)
         need = np.isnan(jac).any(axis=1)
         if need.any():
             for j, (up, down, step) in enumerate(pairs):
