@@ -8,7 +8,9 @@ import copy
 import numpy as np
 import pytest
 from conftest import MATERIALS
+from test_cli import assert_user_error, run
 
+import bandpert.runs.sweep as sweep_module
 from bandpert.data import MATERIALS_DIR
 from bandpert.errors import InputError
 from bandpert.input.material import parse_material, read_toml_document
@@ -20,6 +22,7 @@ from bandpert.runs.sweep import prepare, run_sweep
 from bandpert.runs.sweep_point import faithful_at
 from bandpert.runs.sweep_spec import (
     SweepAxis,
+    check_axis_ranges,
     get_value,
     parameter_grid,
     parse_axis,
@@ -220,13 +223,63 @@ def test_edges_fail_per_point_where_the_gap_closes(si_doc):
     ({"lower_band": 9}, "lower_band"),
     ({"axes": (SweepAxis("alloy.x", np.array([0.0, 1.0])),)}, "alloy_end"),
     ({"axes": (SweepAxis("strain.xx", np.array([0.0, 0.01])),)}, "form_factors"),
-    ({"axes": (SweepAxis("lattice.a_A", np.array([5.43, -2.0])),)}, "lattice.a_A"),
+    ({"axes": (SweepAxis("lattice.a_A", np.array([5.43, -2.0])),)}, "axes"),
 ])
 def test_prepare_refuses_bad_sweeps_before_any_work(si_doc, kwargs, key):
     args = {"axes": (parse_axis("lattice.a_A=5.4:5.5:2"),)} | kwargs
     with pytest.raises(InputError) as exc:
         prepare(si_doc, SILICON, **args)
     assert exc.value.key == key
+
+
+@pytest.mark.parametrize("axis, words", [
+    ("lattice.a_A=0.1:5.4:3", ["lattice.a_A = 0.1", "START", "0.3 <= x <= 1000"]),
+    ("potential.kinetic_factor=1:1.6:4", ["potential.kinetic_factor = 1.6", "STOP",
+                                          "0.5 <= x <= 1.5"]),
+    # ±100 ħ²(2π/a)²/2m0 at a = 5.43 Å, in Ry: 100 × 5.101 eV / 13.606 eV = 37.49 Ry
+    ("potential.symmetric[0]=-0.2:-500:3", ["potential.symmetric[0] = -500", "STOP",
+                                            "-37.49", "<= 37.49"]),
+    ("alloy.x=0:2:3", ["alloy.x = 2", "STOP", "0 <= x <= 1"]),
+])
+def test_a_value_outside_its_keys_range_is_refused_before_any_work(si_doc, axis, words,
+                                                                    monkeypatch):
+    # source: the ranges of bandpert/input/key_ranges.py (the readers' and the fit's); the
+    # form-factor limit is ±100 × ħ²(2π/a)²/2m0 (that module), alloy.x a share between 0 and 1
+    # (common practice, no source). No model, no parsed material: the check is on the document.
+    def no_work(*args, **kwargs):
+        raise AssertionError("the sweep started work before checking its ranges")
+
+    monkeypatch.setattr(sweep_module, "parse_material", no_work)
+    with pytest.raises(InputError) as exc:
+        prepare(si_doc, SILICON, (parse_axis(axis),), alloy_end=read_toml_document(GERMANIUM),
+                alloy_source=GERMANIUM)
+    assert exc.value.key == "axes"
+    assert all(w in exc.value.problem for w in words), exc.value.problem
+    assert "\n" not in str(exc.value)
+
+
+def test_cli_names_the_key_value_and_range_in_one_line_and_writes_nothing(tmp_path):
+    # source: potential.kinetic_factor accepts 0.5 <= β <= 1.5 (bandpert/input/key_ranges.py)
+    code, _, err = run(["sweep", SILICON, "--vary", "potential.kinetic_factor=1:1.6:4",
+                        "--engine", "serial", "--out", str(tmp_path / "o")])
+    assert_user_error(code, err, "--vary", "potential.kinetic_factor = 1.6", "STOP",
+                      "0.5 <= x <= 1.5")
+    assert not (tmp_path / "o").exists()
+
+
+def test_a_form_factor_range_follows_the_swept_lattice_constant(si_doc):
+    # source: the limit ±100 ħ²(2π/a)²/2m0 of bandpert/input/key_ranges.py scales as 1/a²: a
+    # form factor of 30 Ry is inside it at a = 5.43 Å (37.49 Ry) and outside at a = 6.5 Å
+    # (37.494 × (5.43/6.5)² = 26.166 Ry)
+    inside = (parse_axis("lattice.a_A=5.43:5.43:1"),
+              parse_axis("potential.symmetric[0]=30:30:1"))
+    outside = (parse_axis("lattice.a_A=5.43:6.5:2"),
+               parse_axis("potential.symmetric[0]=-0.2:30:2"))
+    check_axis_ranges(si_doc, inside, SILICON)
+    with pytest.raises(InputError) as exc:
+        check_axis_ranges(si_doc, outside, SILICON)
+    assert "potential.symmetric[0] = 30 (the STOP" in exc.value.problem
+    assert "-26.16" in exc.value.problem
 
 
 def test_tabulated_form_factors_are_said_to_stay_fixed(si_doc):

@@ -60,6 +60,7 @@ from .sweep_spec import (
     QUANTITIES,
     SweepAxis,
     SweepSpec,
+    check_axis_ranges,
     is_kp_document,
     parameter_grid,
     point_cutoff,
@@ -159,8 +160,10 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     The reference material is the file itself (x = 0 for an alloy); its cutoff (given, or the
     converged default of :func:`~bandpert.planewave.cutoff.converged_cutoff`) is the reference
     cutoff.
-    The first and last parameter points are built and validated here, so a range that leaves
-    the physical domain is refused before any work starts.
+    First of all, every axis's START and STOP are checked against the range its key accepts
+    (:func:`~bandpert.runs.sweep_spec.check_axis_ranges`, on the document alone); then the
+    first and last parameter points are built and validated here, so a range that leaves the
+    physical domain is refused before the sweep runs.
 
     Returns
     -------
@@ -192,6 +195,7 @@ def prepare(document: dict[str, Any], source: str, axes: tuple[SweepAxis, ...],
     if any(a.kind == "alloy" for a in axes) and alloy_end is None:
         raise InputError("alloy.x needs the second end of the alloy (alloy_end)", source,
                          "alloy_end")
+    check_axis_ranges(document, tuple(axes), source)  # before any work, in the sweep's terms
     doc = copy.deepcopy(document)
     if is_kp_document(doc):
         return _prepare_kp(doc, source, tuple(axes), alloy_end, alloy_source, form_factors)

@@ -19,6 +19,7 @@ from typing import Any
 import numpy as np
 
 from ..errors import InputError
+from ..input.key_ranges import KeyRange, key_range, registered_pattern
 from ..input.material import Material, parse_material
 from ..physics.internal_strain import internal_displacements, internal_strain_parameter
 
@@ -37,6 +38,10 @@ OPTIONAL_NUMBERS = {"potential.kinetic_factor": 1.0}
 
 #: Largest number of parameter points one sweep accepts.
 MAX_POINTS = 100_000
+
+#: The values ``alloy.x`` accepts: the share of the second file, 0 (this file) to 1 (the other);
+#: beyond them the virtual crystal would extrapolate the two files, not mix them.
+ALLOY_X = KeyRange(0.0, 1.0)
 
 _SEGMENT = re.compile(r"^([A-Za-z_][A-Za-z0-9_\-]*)((?:\[\d+\])*)$")
 
@@ -123,6 +128,46 @@ def _split_key(key: str) -> list[str | int]:
         steps.append(m.group(1))
         steps.extend(int(i) for i in re.findall(r"\[(\d+)\]", m.group(2)))
     return steps
+
+
+def check_axis_ranges(document: dict[str, Any], axes: tuple[SweepAxis, ...],
+                      source: str = "") -> None:
+    """Refuse an axis whose START or STOP lies outside the values its key accepts.
+
+    A document key of a plane-wave material file is checked against its range in
+    :mod:`bandpert.input.key_ranges` (the one the material reader and a fit's bounds use; a
+    form factor's depends on the lattice constant and energy unit, taken from the document with
+    every document axis at the same end), ``alloy.x`` against :data:`ALLOY_X`. The values of an
+    axis are monotonic (``numpy.linspace``), so its two ends decide. Keys with no registered
+    range (counts, a k·p file's parameters) and ``strain.*`` are left to the reader, which
+    validates the first and last point of the sweep. Only dictionary operations: this runs
+    before any model is built.
+
+    Raises
+    ------
+    InputError
+        Key ``axes``: one line naming the key, the offending value, which end it is and the
+        accepted range.
+    """
+    kp = is_kp_document(document)
+    for end, name in ((0, "START"), (-1, "STOP")):
+        doc = copy.deepcopy(document)
+        for axis in axes:
+            if axis.kind == "document":
+                set_value(doc, axis.key, float(axis.values[end]), source)
+        for axis in axes:
+            value = float(axis.values[end])
+            if axis.kind == "alloy":
+                accepted = ALLOY_X
+            elif axis.kind == "document" and not kp and registered_pattern(axis.key):
+                accepted = key_range(axis.key, doc)
+            else:
+                continue
+            if not accepted.contains(value):
+                raise InputError(
+                    f"{axis.key} = {value:g} (the {name} of its values) is outside the values "
+                    f"the key accepts, {accepted.text()}; expected START and STOP within them",
+                    source, "axes")
 
 
 def get_value(doc: dict[str, Any], key: str, source: str = "") -> Any:
