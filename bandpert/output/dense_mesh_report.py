@@ -68,6 +68,8 @@ def optics_results(result: OpticalSpectrum) -> dict[str, Any]:
         "n_eff_intraband": result.n_eff_intraband,
         "n_eff_total": result.n_eff_total,
         "valence_electrons": result.material.valence_electrons,
+        "sum_rule": result.sum_rule,
+        "sum_rule_terms": list(result.k_terms),
         "eps1_zero_kramers_kronig": float(result.eps1[0]),
         "eps1_zero_direct": result.eps1_zero_direct,
         "critical_points_eV": result.critical_points_eV,

@@ -35,7 +35,8 @@ import numpy as np
 
 from ..planewave.model import PlaneWaveModel
 
-__all__ = ["MATRIX_STEP", "HamiltonianDerivatives", "hamiltonian_derivatives"]
+__all__ = ["MATRIX_STEP", "HamiltonianDerivatives", "hamiltonian_derivatives",
+           "projected_gradient_laplacian"]
 
 #: Step δ of the matrix differences, in units of 2π/a.
 MATRIX_STEP: float = 1e-3
@@ -142,3 +143,55 @@ def hamiltonian_derivatives(model: PlaneWaveModel, k_cart_invA: np.ndarray, step
                         - mixed)
     return HamiltonianDerivatives(h0, first, second, float(step_invA),
                                   np.stack(kink) if kink else np.zeros((0,) + h0.shape))
+
+
+
+def projected_gradient_laplacian(model: PlaneWaveModel, k_cart_invA: np.ndarray,
+                                 step_invA: float, vectors: np.ndarray
+                                 ) -> tuple[np.ndarray, np.ndarray]:
+    """U†V_aU and the diagonal of U†(Σ_a W_aa)U for the columns U, from 2d + 1 builds of V(k).
+
+    The same central differences as :func:`hamiltonian_derivatives` (module docstring), with
+    the kinetic parts exact (2βC(k+G)_a and 2βC·d on the diagonal), projected onto U as each
+    axis is built: no (d, d, N, N) array and no mixed differences (the Laplacian Σ_a W_aa
+    needs the axes only). For velocities and the effective-mass sum rule on many k-points.
+
+    Parameters
+    ----------
+    model : PlaneWaveModel
+        A fixed-basis model; every point of the stencil is built on its one basis.
+    k_cart_invA : numpy.ndarray
+        (d,) Cartesian k (Å⁻¹).
+    step_invA : float
+        δ (Å⁻¹).
+    vectors : numpy.ndarray
+        (N, r) columns U in the model's basis (N = ``model.matrix_size``), e.g. eigenvectors.
+
+    Returns
+    -------
+    first : numpy.ndarray
+        (d, r, r) U†(∂H/∂k_a)U (eV Å).
+    laplacian : numpy.ndarray
+        (r,) real diagonal of U†(Σ_a ∂²H/∂k_a²)U (eV Å²).
+    """
+    k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
+    d = k.size
+    u = np.asarray(vectors)
+    uh = u.conj().T
+    eye = np.eye(d) * step_invA
+    v = model.perturbation_eV
+    v0 = v(k)
+    kg = np.tile(k + model.basis.g_cart_invA, (model.n_components, 1))
+    idx = np.arange(kg.shape[0])
+    two_beta_c = 2.0 * model.kinetic_constant_eV_A2
+    first = np.empty((d, u.shape[1], u.shape[1]), dtype=np.result_type(v0, u, complex))
+    curve = np.zeros(v0.shape, dtype=np.result_type(v0, float))
+    for a in range(d):
+        plus, minus = v(k + eye[a]), v(k - eye[a])
+        slope = (plus - minus) / (2 * step_invA)
+        slope[idx, idx] += two_beta_c * kg[:, a]
+        first[a] = uh @ (slope @ u)
+        curve += (plus - v0) + (minus - v0)
+    curve /= step_invA**2
+    curve[idx, idx] += two_beta_c * d
+    return first, np.einsum("an,an->n", u.conj(), curve @ u).real

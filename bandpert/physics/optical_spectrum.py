@@ -2,9 +2,11 @@
 reduced-basis interpolation (:mod:`bandpert.physics.reduced_basis`) or from the exact fixed
 plane-wave basis, summed into ε2, the joint DOS, ε1 and the f-sum (:mod:`bandpert.physics.optics`).
 
-One-electron spectrum: no excitonic or local-field effects; local potentials, with or without
-spin–orbit coupling (then spinor bands of one electron each, and the velocity (1/ħ)∂H/∂k includes
-the spin–orbit term: :meth:`~bandpert.planewave.k_polynomial.KPolynomial.momentum`).
+One-electron spectrum: no excitonic or local-field effects. Local potentials, spin–orbit
+coupling (spinor bands of one electron each) and nonlocal wells: the matrix elements are those of
+the velocity (1/ħ)∂H/∂k of the model's whole H(k), and the f-sum is compared with the
+effective-mass sum rule's reference, βN for a local model
+(:mod:`bandpert.physics.optics_velocity`).
 """
 
 from __future__ import annotations
@@ -22,6 +24,7 @@ from ..planewave.k_polynomial import k_polynomial
 from ..planewave.model import build_k_centred_model
 from ..planewave.solver import exact_energies, single_blas_thread
 from .dos import fermi_level_from_count
+from .hamiltonian_derivatives import MATRIX_STEP
 from .optics import (
     HBAR2_OVER_M0_EV_A2,
     OpticalSums,
@@ -33,6 +36,7 @@ from .optics import (
     n_eff_factor,
     occupations,
 )
+from .optics_velocity import velocities
 from .reduced_basis import ReducedBasisSettings, fixed_superset_model, threaded_map
 from .reduced_basis_check import InterpolatedBands, interpolated_bands
 from .tetrahedra import occupations as tetrahedron_occupations
@@ -79,6 +83,13 @@ class OpticalSpectrum:
         (n_E,) effective electron number below each energy (interband).
     n_eff_interband, n_eff_intraband : float
         Interband f-sum of every pair (no broadening) and the Drude weight.
+    sum_rule : float
+        What their sum tends to with every band and a dense mesh: the zone average
+        g Σ_k w_k Σ_n f_n (m0/ħ²)⟨n|∂²H/∂k²⟩ (direction-averaged) of the occupied states
+        (:mod:`~bandpert.physics.optics_velocity`); βN exactly for a local model.
+    k_terms : tuple of str
+        The k-dependent terms of H(k) that make ``sum_rule`` differ from βN
+        ("spin-orbit", "nonlocal"); empty for a local model.
     eps1_zero_direct : float
         1 + (2/π)∫ε2/E dE from the transitions directly (to check Kramers–Kronig).
     broadening_eV : float
@@ -106,6 +117,8 @@ class OpticalSpectrum:
     n_eff: np.ndarray
     n_eff_interband: float
     n_eff_intraband: float
+    sum_rule: float
+    k_terms: tuple[str, ...]
     eps1_zero_direct: float
     broadening_eV: float
     complete_below_eV: float
@@ -121,10 +134,6 @@ class OpticalSpectrum:
 
 
 def _check(material: Material, broadening_eV: float, energy_step_eV: float) -> None:
-    if material.nonlocal_terms is not None:
-        raise InputError("the optical spectrum is built for local potentials (with or without "
-                         "spin-orbit coupling) and the material has nonlocal terms; expected a "
-                         "material without a nonlocal table", material.file, "nonlocal")
     if material.dimension != 3:
         raise InputError(f"a {material.dimension}-dimensional crystal; expected a 3D one (ε "
                          "is a bulk property)", material.file, "lattice")
@@ -152,8 +161,9 @@ def _labelled_transitions(material: Material, cutoff_eV: float, n_occupied: int)
             for i, (name, _) in enumerate(found)}
 
 
-def _states(source, k: np.ndarray, n_bands: int, block: int):
-    """(polynomial, rows, energies, momentum) blocks: from reduced bases (grouped) or one.
+def _states(source, k: np.ndarray, n_bands: int, block: int, step_invA: float):
+    """(polynomial, rows, energies, momentum, curvature) blocks: from reduced bases (grouped)
+    or one (:func:`~bandpert.physics.optics_velocity.velocities`).
 
     The blocks are diagonalised on :data:`~bandpert.physics.reduced_basis.THREADS` threads and
     come back in order.
@@ -165,7 +175,7 @@ def _states(source, k: np.ndarray, n_bands: int, block: int):
     def work(item):
         poly, r = item
         e, v = poly.eigensystem(k[r], n_bands)
-        return poly, r, e, poly.momentum(k[r], v)
+        return (poly, r, e) + velocities(poly, k[r], v, step_invA)
 
     yield from threaded_map(work, blocks)
 
@@ -217,7 +227,7 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
     Parameters
     ----------
     material : Material
-        3D, with ``electrons.valence``; spin–orbit coupling allowed, nonlocal terms not.
+        3D, with ``electrons.valence``; spin–orbit coupling and nonlocal wells allowed.
     n_per_axis : int or tuple of int
         Mesh points per reciprocal axis (its irreducible points are used: the direction average
         of ε is invariant under the point group).
@@ -276,8 +286,10 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
     # a metal's levels are occupied by the tetrahedron weights at E_F (the count that fixed E_F)
     f_metal = None if insulator else tetrahedron_occupations(mesh, window, e_f)
     drude = 0.0
+    rule = 0.0
+    step = MATRIX_STEP * 2.0 * np.pi / material.a_A
     with single_blas_thread():
-        for poly, rows, e, q in _states(source, k, nb, block):
+        for poly, rows, e, q, curvature in _states(source, k, nb, block, step):
             if grid is None:
                 reach = span if span is not None else 1.05 * float(e[:, -1].max() - e[:, 0].min())
                 n_grid = int(np.ceil((reach + KERNEL_PAD * broadening_eV) / energy_step_eV)) + 1
@@ -296,6 +308,12 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
                     x = inverse_mass(poly, k[rows], top_band)
                     drude += g * float(mesh.weights[rows] @ np.sum(f[:, :top_band] * x, axis=1))
             sums = accumulate(grid, e, q, mesh.weights[rows], f, g, sums)
+            rule += g * float(mesh.weights[rows] @ np.sum(f * curvature, axis=1))
+    terms = tuple(name for name, present in (("spin-orbit", material.spin_orbit is not None),
+                                             ("nonlocal", material.nonlocal_terms is not None))
+                  if present)
+    if not terms:  # ∂²H/∂k² = βħ²/m0 exactly: the f-sum rule βN itself
+        rule = material.potential.kinetic_factor * n_e
     eps2 = eps2_prefactor(material.volume_A, g) * gaussian_broaden(grid, sums.strength,
                                                                     broadening_eV)
     jdos = g * gaussian_broaden(grid, sums.joint, broadening_eV)
@@ -312,7 +330,8 @@ def optical_spectrum(material: Material, n_per_axis: int | tuple[int, ...],
     return OpticalSpectrum(
         material=material, mesh=mesh, cutoff_eV=float(cutoff), n_bands=int(nb),
         all_bands=all_bands, energies_eV=grid, eps2=eps2, eps1=eps1, jdos_per_eV=jdos,
-        n_eff=n_eff, n_eff_interband=sums.f_sum, n_eff_intraband=drude,
+        n_eff=n_eff, n_eff_interband=sums.f_sum, n_eff_intraband=drude, sum_rule=float(rule),
+        k_terms=terms,
         eps1_zero_direct=float(eps1_zero), broadening_eV=float(broadening_eV),
         complete_below_eV=float(complete), fermi_level_eV=e_f, critical_points_eV=critical,
         peaks_eV=grid[peaks], interpolation=run)

@@ -9,12 +9,14 @@ Gaussian units, e² → e²/4πε0):
     ε2(E) = 4π² (e²/4πε0) (ħ²/m0)² / (Ω E_cv²) · g_s Σ_k w_k Σ_{c,v} (f_v − f_c) |⟨c|k+G|v⟩|²/3
             · δ(E_cv − E)
 
-with p = ħ(k + G) diagonal in plane waves (the velocity of the local model is p/m0), Ω the cell
+with p = ħ(k + G) diagonal in plane waves (the velocity of the local model is p/m0; of any
+model (1/ħ)∂H/∂k, :mod:`~bandpert.physics.optics_velocity`, which replaces k + G), Ω the cell
 volume, g_s = 2 electrons per spinless band and E_cv = E_c − E_v; the 1/E_cv² sits inside the sum
 so that the broadened spectrum stays finite at E → 0. Every δ is a Gaussian exp(−x²/σ²)/(σ√π),
 laid onto a uniform grid by linear binning and a discrete convolution. The effective electron
 number n_eff(E) = Ω/(2π² (e²/4πε0) ħ²/m0) ∫_0^E E' ε2(E') dE' tends to the valence count (the
-Thomas–Reiche–Kuhn f-sum rule, ∫ ω ε2 dω = (π/2) ω_p²); for a metal the intraband (Drude) weight
+Thomas–Reiche–Kuhn f-sum rule, ∫ ω ε2 dω = (π/2) ω_p²; for a k-dependent H(k) its generalisation,
+:mod:`~bandpert.physics.optics_velocity`); for a metal the intraband (Drude) weight
 completes it: g_s Σ_n ∫ δ(E_n − E_F) (m0/ħ²)|∇E_n|²/3 dk/V_zone, integrated by parts over the
 periodic zone into g_s Σ_n ∫ f_n (m0/m*_n) dk/V_zone, the occupied-region integral of the
 direction-averaged inverse effective mass (N. W. Ashcroft and N. D. Mermin, Solid State Physics
@@ -103,7 +105,8 @@ def accumulate(grid_eV: np.ndarray, energies_eV: np.ndarray, momentum_invA: np.n
     energies_eV : numpy.ndarray
         (n_k, n_b) levels, ascending at each k.
     momentum_invA : numpy.ndarray
-        (n_k, d, n_b, n_b) ⟨n|k+G|m⟩ (Å⁻¹).
+        (n_k, d, n_b, n_b) (m0/ħ²)⟨n|∂H/∂k|m⟩ (Å⁻¹): ⟨n|k+G|m⟩ for a local model with β = 1
+        (:mod:`~bandpert.physics.optics_velocity`).
     weights : numpy.ndarray
         (n_k,) k-point weights (summing to 1 over the whole mesh).
     occupations : numpy.ndarray

@@ -68,11 +68,14 @@ def optics(
     json_path: Annotated[Path | None, json_option("optics")] = None,
     name: Annotated[str | None, name_option("<file>-optics")] = None,
 ) -> None:
-    """One-electron optical spectrum: ε2 from interband momentum matrix elements, ε1 by
+    """One-electron optical spectrum: ε2 from interband velocity matrix elements, ε1 by
     Kramers–Kronig, the joint DOS and the f-sum, on a dense mesh.
 
-    The bands and matrix elements come from reduced bases (checked against exact bands at 1 %
-    of the points) unless --exact or --all-bands is given. No excitonic or local-field effects.
+    The matrix elements are those of the velocity (1/ħ)∂H/∂k of the whole model, spin–orbit and
+    nonlocal terms included; with those terms the f-sum is compared with the effective-mass sum
+    rule (m0/ħ²)⟨∂²H/∂k²⟩ of the occupied states instead of the electron count. The bands and
+    matrix elements come from reduced bases (checked against exact bands at 1 % of the points)
+    unless --exact or --all-bands is given. No excitonic or local-field effects.
     """
     check_count(mesh, "--mesh", 2)
     check_count(n_bands, "--bands", 1)
@@ -100,13 +103,9 @@ def optics(
     table.add_column()
     table.add_row("mesh", f"{mesh} per axis: {result.mesh.n_full} points, "
                   f"{len(result.mesh.k_frac)} irreducible; {result.n_bands} bands")
-    beta = material.potential.kinetic_factor
-    rule = ("" if beta == 1.0 else f"; with the kinetic factor β = {beta:g} the sum rule of "
-            f"H0 = βħ²|k+G|²/2m0 is β × {material.valence_electrons} = "
-            f"{beta * material.valence_electrons:.4f}")
     table.add_row("f-sum", f"n_eff = {result.n_eff_total:.4f} (interband "
                   f"{result.n_eff_interband:.4f}, intraband {result.n_eff_intraband:.4f}) of "
-                  f"{material.valence_electrons} valence electrons{rule}")
+                  f"{material.valence_electrons} valence electrons{_rule(result)}")
     table.add_row("ε1(0)", f"{result.eps1[0]:.3f} (Kramers–Kronig), "
                   f"{result.eps1_zero_direct:.3f} (from the transitions)")
     if result.critical_points_eV:
@@ -118,3 +117,20 @@ def optics(
         table.add_row("interpolation", interpolation_line(result.interpolation))
     out.print(table)
     out.print(f"wrote {image}, {csv_path}, {json_path}")
+
+
+def _rule(result) -> str:
+    """What n_eff tends to, named: N, βN, or the effective-mass sum rule of a k-dependent H."""
+    material = result.material
+    n, beta = material.valence_electrons, material.potential.kinetic_factor
+    kinetic = f"the kinetic factor β = {beta:g}" if beta != 1.0 else ""
+    if result.k_terms:
+        terms = " and ".join(result.k_terms) + " terms"
+        local = f"β × {n} = {beta * n:.4f}" if beta != 1.0 else f"{n}"
+        return (f"; with {' and '.join(filter(None, (kinetic, terms)))} ∂²H/∂k² is not ħ²/m0 "
+                "and the sum rule (effective-mass sum rule: the occupied states' zone average "
+                f"of (m0/ħ²)⟨∂²H/∂k²⟩; {local} without the {terms}) is {result.sum_rule:.4f}")
+    if beta == 1.0:
+        return ""
+    return (f"; with {kinetic} the sum rule of H0 = βħ²|k+G|²/2m0 is "
+            f"β × {n} = {result.sum_rule:.4f}")

@@ -70,8 +70,9 @@ def optics_figure(result, energy_window_eV: tuple[float | None, float | None] | 
     ax.set_title(style.title(f"{result.material.name}\none-electron spectrum, mesh {mesh} "
                              f"({how}), σ = {result.broadening_eV:g} eV"),
                  fontsize=style.TITLE_SIZE)
+    rule = (f"; sum rule (m0/ħ²)⟨∂²H/∂k²⟩ {result.sum_rule:.3f}" if result.k_terms else "")
     style.footer(fig, f"f-sum: n_eff = {result.n_eff_total:.3f} electrons per cell "
                       f"(interband {result.n_eff_interband:.3f}, intraband "
-                      f"{result.n_eff_intraband:.3f}, {result.n_bands} bands); no excitonic "
-                      "or local-field effects")
+                      f"{result.n_eff_intraband:.3f}, {result.n_bands} bands){rule}; no "
+                      "excitonic or local-field effects")
     return fig
