@@ -129,11 +129,15 @@ def test_optics_command_on_a_nonlocal_file(tmp_path):
     assert 7.0 < res["sum_rule"] < 9.0 and res["sum_rule"] != 8.0
 
 
-def test_optics_figure_of_a_nonlocal_model_names_the_sum_rule():
-    r = optical_spectrum(bundled("silicon-fitted"), 4, cutoff_eV=40.0, interpolation=None)
+@pytest.mark.parametrize("name", ["silicon-fitted", "germanium-fitted", "silicon"])
+def test_optics_figure_text_neither_overlaps_nor_leaves_the_figure(name):
+    # germanium-fitted's long name, centred on the axes, ran past the figure's left edge; on
+    # silicon at this mesh E0 3.26 and E2 4.08 were drawn on one row (a mark's row counted its
+    # near neighbours instead of finding a free row)
+    r = optical_spectrum(bundled(name), 4, cutoff_eV=40.0, interpolation=None)
     fig = optics_figure(r)
     assert text_problems(fig) == []
-    assert "sum rule" in fig._supxlabel.get_text()
+    assert ("sum rule" in fig._supxlabel.get_text()) == (name != "silicon")
 
 
 def test_bad_input_on_a_nonlocal_file_is_one_line(tmp_path):
@@ -141,3 +145,20 @@ def test_bad_input_on_a_nonlocal_file_is_one_line(tmp_path):
                         "--broadening-meV", "-5", "--out", str(tmp_path / "o")])
     assert_user_error(code, err, "--broadening-meV")
     assert not (tmp_path / "o").exists()
+
+
+def test_silicon_fitted_spectrum_against_measured_values():
+    # a documented comparison, not a fit target. Measured (room temperature): ε2 peaks E1 ≈ 3.4
+    # and E2 ≈ 4.25 eV, ε1(0) ≈ 11.7 (source: D. E. Aspnes & A. A. Studna, Phys. Rev. B 27, 985
+    # (1983), from memory; ε1(0) handbook value, e.g. Madelung, Semiconductors: Data Handbook
+    # (2004), from memory). The one-electron spectrum (no excitonic or local-field effects)
+    # of silicon-fitted, spinless (its Δso = 0.044 eV moves the valence top by Δso/3), 12³,
+    # at its own cutoff: peaks 3.50 and 4.40 eV (3.61, 4.43 at 20³; 3.61, 4.47 with
+    # spin–orbit at the default 24³), 0.1–0.2 eV above the measured ones, within 0.3 eV
+    # asserted; ε1(0) 10.50 (10.46 at 20³), 10.6 % below 11.7: the model does not give the
+    # measured value, so the test holds it to its documented shortfall (within 15 %)
+    material = bundled("silicon-fitted").without_spin_orbit()
+    r = optical_spectrum(material, 12, n_bands=12, interpolation=None)
+    assert np.min(np.abs(r.peaks_eV - 3.4)) < 0.3 and np.min(np.abs(r.peaks_eV - 4.25)) < 0.3
+    assert 0.85 * 11.7 < r.eps1[0] < 11.7
+    assert r.eps1[0] == pytest.approx(r.eps1_zero_direct, rel=0.005)  # Kramers–Kronig

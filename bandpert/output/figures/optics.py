@@ -48,10 +48,13 @@ def optics_figure(result, energy_window_eV: tuple[float | None, float | None] | 
             for a in (ax, ax2):
                 a.axvline(energy, color=style.REFERENCE_LINE_COLOUR, lw=0.7, ls=":")
     marks = sorted((v, k) for k, v in result.critical_points_eV.items() if lo <= v <= hi)
-    placed: list[float] = []
-    for energy, name in marks:  # staggered heights so that close marks do not overlap
-        level = 0.97 - 0.07 * sum(abs(energy - p) < 0.09 * (hi - lo) for p in placed)
-        placed.append(energy)
+    placed: list[tuple[float, int]] = []
+    for energy, name in marks:  # staggered: each mark on the highest row free near it
+        row = 0
+        while any(r == row and abs(energy - p) < 0.09 * (hi - lo) for p, r in placed):
+            row += 1
+        placed.append((energy, row))
+        level = 0.97 - 0.07 * row
         ax.annotate(f"{name} {energy:.2f}", (energy, level), xycoords=("data", "axes fraction"),
                     xytext=(2, 0), textcoords="offset points", ha="left", va="top",
                     fontsize=style.ANNOTATION_SIZE, color=style.NOTE_COLOUR,
@@ -67,7 +70,9 @@ def optics_figure(result, energy_window_eV: tuple[float | None, float | None] | 
         style.style_axes(a, grid=True)
     mesh = "×".join(str(n) for n in result.mesh.shape)
     how = "interpolated" if result.interpolation is not None else "exact"
-    ax.set_title(style.title(f"{result.material.name}\none-electron spectrum, mesh {mesh} "
+    # over the figure, not the axes: the legend outside narrows the axes, and a long material
+    # name centred on them ran past the figure's left edge (germanium-fitted)
+    fig.suptitle(style.title(f"{result.material.name}\none-electron spectrum, mesh {mesh} "
                              f"({how}), σ = {result.broadening_eV:g} eV"),
                  fontsize=style.TITLE_SIZE)
     rule = (f"; sum rule (m0/ħ²)⟨∂²H/∂k²⟩ {result.sum_rule:.3f}" if result.k_terms else "")
