@@ -12,13 +12,15 @@ import dataclasses
 
 import numpy as np
 import pytest
+import scipy.linalg
 from conftest import bundled
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from bandpert.crystal.lattice import reciprocal_vectors
 from bandpert.input.material import parse_material
 from bandpert.input.reader import read_toml_document
-from bandpert.physics.fit_states import level_groups, sorted_level_slopes
+from bandpert.physics.fit_states import PointStates, level_groups, sorted_level_slopes
 from bandpert.physics.fit_targets import parse_targets
 from bandpert.planewave.solver import single_blas_thread
 from bandpert.runs.fit import Fit, run_fit
@@ -156,3 +158,27 @@ def test_the_highest_kept_group_is_kept_whole():
     w, c = states.eigenpairs(fit.targets.miller["Γ"], np.zeros(3))
     assert len(w) == c.shape[1] == 14
     assert np.ptp(w[8:14]) < 1e-9
+
+
+def test_k_slopes_of_a_group_split_along_k_equal_one_sided_differences():
+    # source: in the diamond structure the X1 level (twofold without spin) splits linearly along
+    # Δ into Δ1 and Δ2′, the bands crossing at X with opposite slopes (P. Y. Yu & M. Cardona,
+    # Fundamentals of Semiconductors, 4th ed. 2010, Fig. 2.14 and §2.3; from memory); checked
+    # against one-sided differences of numpy/LAPACK eigenvalues (common practice, no source)
+    fit, _, _ = silicon_fit(0.0, [STRENGTH], [(energy("X:c1"), 1e-5)])
+    material = fit.material(fit.start)
+    miller = fit.targets.miller["X"]
+    x = fit.targets.points_frac["X"] @ reciprocal_vectors(material.vectors_A)
+    towards_gamma = -x / np.linalg.norm(x)
+    states = PointStates(material, 12)
+    w, _ = states.eigenpairs(miller, x)
+    slope = states.k_slope(miller, x, towards_gamma)
+    model = states.model(miller)
+    base = 1e-4
+    steps = base * np.arange(7)
+    levels = [scipy.linalg.eigh(model.hamiltonian(x + t * towards_gamma), eigvals_only=True,
+                                subset_by_index=(0, len(w) - 1)) for t in steps]
+    ref = np.polynomial.polynomial.polyfit(steps / base, np.array(levels), 4)[1] / base
+    assert np.ptp(w[:4]) < 1e-9 and w[4] - w[3] > 0.1  # the lowest X level is a quartet
+    assert slope[1] < -1.0 and slope[2] > 1.0  # which splits at first order along Δ
+    assert np.max(np.abs(slope - ref)) <= 1e-6 * np.max(np.abs(ref))

@@ -41,7 +41,9 @@ increase p; −1 at an upper bound). Each parameter is diagonalised within the g
 identity (the parameter keeps the group degenerate: every parameter that keeps the double
 group's level, e.g. a form factor at a spin–orbit Γ8) its eigenvalues are the group mean
 Tr(P ∂H/∂p P)/d, which is returned as such (:data:`SPLIT_RTOL`). :class:`PointStates` keeps
-every level of the highest group it keeps, so no group is cut at the top.
+every level of the highest group it keeps, so no group is cut at the top. The slopes along k
+(:meth:`PointStates.k_slope`) take the same form, towards +d: the X1 level of the diamond
+structure (a quartet with spin) splits linearly along Δ.
 """
 
 from __future__ import annotations
@@ -74,11 +76,6 @@ GROUP_EXTRA = 8
 
 #: k (Å⁻¹) of a point for a material's lattice (fixed fractional coordinates).
 KOf = Callable[[Material], np.ndarray]
-
-
-def projected(dh: np.ndarray, vectors: np.ndarray) -> np.ndarray:
-    """Re diag(C† dH C): the expectation value of dH in each column of C."""
-    return np.real(np.einsum("in,in->n", vectors.conj(), dh @ vectors))
 
 
 def level_groups(w: np.ndarray) -> list[slice]:
@@ -199,17 +196,19 @@ class PointStates:
 
     def k_slope(self, miller: np.ndarray, k_cart: np.ndarray, direction: np.ndarray
                 ) -> np.ndarray:
-        """⟨n|∂H/∂k·d|n⟩ (eV per unit of d) for every kept state n at k (module docstring)."""
+        """⟨n|∂H/∂k·d|n⟩ (eV per unit of d) for every kept state n at k (module docstring);
+        within a degenerate group the sorted eigenvalues of ∂H/∂k·d in the group (the slopes
+        of the sorted bands towards +d, :func:`sorted_level_slopes`)."""
         k = np.ascontiguousarray(k_cart, dtype=float)
         d = np.ascontiguousarray(direction, dtype=float)
         key = (id(miller), k.tobytes(), d.tobytes())
         if key in self._k_slopes:
             return self._k_slopes[key]
-        _, c = self.eigenpairs(miller, k)
+        w, c = self.eigenpairs(miller, k)
         model = self.model(miller)
         h = {s: model.hamiltonian(k + s * K_STEP * d) for s in (-2, -1, 1, 2)}
         dh = (8.0 * (h[1] - h[-1]) - (h[2] - h[-2])) / (12.0 * K_STEP)
-        out = projected(dh, c)
+        out = sorted_level_slopes(c, dh @ c, level_groups(w))
         if self.share:
             self._k_slopes[key] = out
         return out
