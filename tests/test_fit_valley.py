@@ -214,3 +214,23 @@ def test_secant_search_near_a_symmetric_end_point():
     e_ref, t_ref = valley_minimum(material, line, 8, True, line.t_start)
     assert t == pytest.approx(t_ref, abs=3e-8) and e == pytest.approx(e_ref, abs=1e-11)
     assert states.diagonalisations <= 6
+
+
+def test_a_table_change_its_term_does_not_show_takes_the_whole_matrices(monkeypatch):
+    # common practice, no source: if a nonlocal key reached the model by another road than
+    # the term ∂H/∂p is built from, the term-wise slope would miss it; the whole matrices see
+    # it. Hidden here by giving ∂H/∂p's builder the starting term at every parameter value.
+    import bandpert.physics.fit_states as fit_states
+
+    reference = spin_orbit_fit(True)
+    expected = reference.jacobian(reference.start)
+    fit = spin_orbit_fit(True)
+    hidden = fit_states.nonlocal_term(fit.material(fit.start))
+    monkeypatch.setattr(fit_states, "nonlocal_term", lambda material: hidden)
+    got = fit.jacobian(fit.start)
+    scale = np.max(np.abs(expected), axis=0)
+    # the whole matrices' difference carries the rounding of their kinetic diagonal (~200 eV)
+    # over δ, which the mass rows (1/Δ of a second difference) raise to ~3e-6 of the column
+    assert np.all(np.abs(got - expected) <= 1e-5 * scale), (
+        np.max(np.abs(got - expected) / scale, axis=0))
+    assert np.max(np.abs(got - expected)) > 0  # it did take the other road

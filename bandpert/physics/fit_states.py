@@ -289,7 +289,8 @@ class ParameterSlopes:
     difference is built from those terms alone (V(p ± δ) once per plane-wave set, V_NL and
     H_so per point only when they change, as one term with the slope of the strengths or depths
     they are linear in); H0 and every unchanged term cancel exactly. A parameter that moves the
-    lattice or changes H0 itself (the kinetic factor β) takes the difference of the whole
+    lattice or changes H0 itself (the kinetic factor β), or changes a ``spin_orbit`` or
+    ``nonlocal`` table in a way its term does not carry, takes the difference of the whole
     matrices. Levels of a degenerate group get the eigenvalues of ∂H/∂p within the group,
     sorted for the direction of the column (:func:`sorted_level_slopes`).
 
@@ -328,8 +329,14 @@ class ParameterSlopes:
             if (_same_lattice(plus, base) and _same_lattice(minus, base)
                     and plus.potential.kinetic_factor == base.potential.kinetic_factor
                     == minus.potential.kinetic_factor):  # else H0 itself changes: whole matrices
-                terms = (_spin_orbit_slope(spin_orbit_term(plus), spin_orbit_term(minus), delta),
-                         _wells_slope(nonlocal_term(plus), nonlocal_term(minus), delta))
+                so = spin_orbit_term(plus), spin_orbit_term(minus)
+                wells = nonlocal_term(plus), nonlocal_term(minus)
+                # a change of the input tables that their terms do not show (a key the model
+                # reads elsewhere) is left to the whole matrices, which see everything
+                if not ((plus.spin_orbit != minus.spin_orbit and _same_spin_orbit(*so))
+                        or (plus.nonlocal_terms != minus.nonlocal_terms
+                            and wells[0] == wells[1])):
+                    terms = (_spin_orbit_slope(*so, delta), _wells_slope(*wells, delta))
             self._terms.append(None if terms is None or WHOLE in terms else terms)
 
     @property
