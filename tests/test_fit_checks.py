@@ -43,12 +43,12 @@ def test_a_followed_valley_above_the_band_minimum_is_named():
     # Bergstresser 1966, Fig. of the bands): a fit that had followed the Γ–L line would describe
     # a valley that is not the lowest, and the check must say so, naming both lines
     material, targets = silicon_targets()
-    (band, line), = targets.valleys.items()
+    (valley, line), = targets.valleys.items()
     points = standard_path(material)[0]
     followed = dataclasses.replace(line, start_label="Γ", end_label="L",
                                    start_frac=np.asarray(points["Γ"], float),
                                    end_frac=np.asarray(points["L"], float), t_start=1.0)
-    targets.valleys[band], targets.t_min[band] = followed, 1.0
+    targets.valleys[valley], targets.t_min[valley] = followed, 1.0
     with single_blas_thread():
         (warning,) = moved_minima(targets, material)
     assert "min:c1" in warning and "Γ–L" in warning and "Γ–X" in warning

@@ -69,7 +69,7 @@ def test_masses_at_the_minimum_equal_a_parabola_through_exact_bands():
     fit = fit_of(["potential.symmetric[0]"], VALLEY)
     material = fit.material(fit.start)
     values = fit.targets.values(material)
-    line, t = fit.targets.valleys[4], fit.targets.t_min[4]
+    line, t = fit.targets.valleys[4, None], fit.targets.t_min[4, None]
     k0 = line.k_cart(material, t)
     model = build_k_centred_model(material, CUTOFF_EV)
     h = np.linspace(-0.02, 0.02, 9) * 2 * np.pi / material.a_A
@@ -179,7 +179,7 @@ def test_secant_search_finds_brents_minimum():
     from bandpert.physics.fit_valley import follow_minimum
 
     fit = fit_of(["potential.symmetric[0]"], VALLEY[:1])
-    material, line = fit.material(fit.start), fit.targets.valleys[4]
+    material, line = fit.material(fit.start), fit.targets.valleys[4, None]
     e_ref, t_ref = valley_minimum(material, line, 4, False, line.t_start)
     states = PointStates(material, 8)
     e, t, curvature = follow_minimum(states, line, 4, False, line.t_start)

@@ -163,7 +163,11 @@ def test_local_only_computations_refuse_wells():
     ({"Si": {"A0_eV": 1.0, "R0_A": 0.0}}, "nonlocal.species.Si.R0_A", "positive"),
     ({"Si": {"A1_eV": 1.0, "R1_A": 1.0}}, "nonlocal.species.Si", "unknown key"),
     ({"Si": {"A0_eV": "1", "R0_A": 1.0}}, "nonlocal.species.Si.A0_eV", "expected a number"),
-    ({"Si": {"A0_eV": 1.0, "R0_A": 1.0, "A0_energy_slope": 0.2}}, "nonlocal.species.Si",
+    ({"Si": {"A2_eV": 1.0, "R2_A": 1.0, "A0_energy_slope": -0.2}},
+     "nonlocal.species.Si.A0_energy_slope", "without the l = 0 well"),
+    ({"Si": {"A0_eV": 1.0, "R0_A": 1.0, "A0_energy_slope": 0.7}},
+     "nonlocal.species.Si.A0_energy_slope", "outside"),
+    ({"Si": {"A0_eV": 1.0, "R0_A": 1.0, "A0_slope": 0.1}}, "nonlocal.species.Si",
      "unknown key"),
 ])
 def test_bad_nonlocal_tables_are_refused_in_one_line(table, key, words):

@@ -74,6 +74,15 @@ MAX_STRENGTH_EV = 10.0
 MAX_DEPTH_EV = 100.0
 MAX_RADIUS_A = 5.0
 
+#: Accepted slope s of an l = 0 depth that follows the state's energy, A_0(E) = A_0 + s E
+#: (dimensionless, eV of depth per eV of energy). With s ≤ 0 the metric 1 − s P_0 of the
+#: eigenproblem (:mod:`bandpert.planewave.nonlocal_term`) is at least 1; a positive s needs
+#: s λ_max(P_0) < 1, checked per k where the model is built (P_0 is a sum of projectors, so
+#: λ_max is 1 while the wells do not overlap). Published energy slopes of the l = 0 well are
+#: a fraction of 1 (Chelikowsky & Cohen, Phys. Rev. B 14, 556 (1976); from memory).
+MIN_ENERGY_SLOPE = -1.0
+MAX_ENERGY_SLOPE = 0.5
+
 
 class KeyRange(NamedTuple):
     """The accepted values of one key: lo ≤ x ≤ hi, with < where an end is open.
@@ -139,6 +148,7 @@ SPIN_ORBIT_STRENGTH_EV = KeyRange(0.0, MAX_STRENGTH_EV)
 SLATER_EXPONENT_INVA = KeyRange(0.5, 200.0)
 NONLOCAL_DEPTH_EV = KeyRange(-MAX_DEPTH_EV, MAX_DEPTH_EV)
 NONLOCAL_RADIUS_A = KeyRange(0.0, MAX_RADIUS_A, open_low=True)
+NONLOCAL_ENERGY_SLOPE = KeyRange(MIN_ENERGY_SLOPE, MAX_ENERGY_SLOPE)
 
 
 def kinetic_scale_eV(a_A: float) -> float:
@@ -202,6 +212,7 @@ REGISTRY: tuple[tuple[str, Resolver], ...] = (
     (rf"spin_orbit\.species\.{_NAME}\.slater_exponent_invA", SLATER_EXPONENT_INVA),
     (rf"nonlocal\.species\.{_NAME}\.A[02]_eV", NONLOCAL_DEPTH_EV),
     (rf"nonlocal\.species\.{_NAME}\.R[02]_A", NONLOCAL_RADIUS_A),
+    (rf"nonlocal\.species\.{_NAME}\.A0_energy_slope", NONLOCAL_ENERGY_SLOPE),
 )
 
 _COMPILED = tuple((re.compile(pattern + r"\Z"), resolver) for pattern, resolver in REGISTRY)

@@ -36,9 +36,11 @@ def moved_minima(targets: TargetModel, material: Material) -> tuple[str, ...]:
         Empty when every followed minimum is still the lowest point of its band on the path.
     """
     out = []
-    for band, line in targets.valleys.items():
+    for (band, named), line in targets.valleys.items():
+        if named is not None:  # a valley on a named line need not be the band's lowest
+            continue
         followed, t_followed = valley_minimum(material, line, band, targets.spinor,
-                                              targets.t_min[band])
+                                              targets.t_min[band, named])
         other = find_valley_line(material, targets.cutoff_eV, band)
         lowest, t_other = valley_minimum(material, other, band, targets.spinor, other.t_start)
         if lowest < followed - MOVED_TOLERANCE_EV:

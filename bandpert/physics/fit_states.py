@@ -254,9 +254,16 @@ def _spin_orbit_slope(a: SpinOrbitTerm | None, b: SpinOrbitTerm | None, delta: f
 
 #: The depth-only shortcut of :func:`_wells_slope` knows a :class:`NonlocalTerm` of exactly these
 #: fields with channels (l, A_l, R_l); a term with more (another kind of well) takes the exact
-#: difference of the two terms.
+#: difference of the two terms. An energy-dependent term never reaches it: S^{-1/2} multiplies
+#: every term, so its parameters take whole matrices (:func:`_energy_dependent`).
 _DEPTH_LINEAR_FIELDS = {f.name for f in fields(NonlocalTerm)} == {
-    "species", "channels", "atom_volume_A3"}
+    "species", "channels", "atom_volume_A3", "energy_slopes", "atom_species", "positions_A"}
+
+
+def _energy_dependent(material: Material) -> bool:
+    """True when a l = 0 depth follows the energy (planewave.nonlocal_term)."""
+    wells = nonlocal_term(material)
+    return wells is not None and wells.energy_dependent
 
 
 def _wells_slope(a: NonlocalTerm | None, b: NonlocalTerm | None, delta: float
@@ -328,7 +335,9 @@ class ParameterSlopes:
             terms = None
             if (_same_lattice(plus, base) and _same_lattice(minus, base)
                     and plus.potential.kinetic_factor == base.potential.kinetic_factor
-                    == minus.potential.kinetic_factor):  # else H0 itself changes: whole matrices
+                    == minus.potential.kinetic_factor
+                    and not any(_energy_dependent(m) for m in (plus, minus, base))):
+                # else H0 itself changes, or S^{-1/2} multiplies every term: whole matrices
                 so = spin_orbit_term(plus), spin_orbit_term(minus)
                 wells = nonlocal_term(plus), nonlocal_term(minus)
                 # a change of the input tables that their terms do not show (a key the model

@@ -20,6 +20,14 @@ A fit's targets file (TOML, read by :func:`parse_targets`)::
     source = "..."
 
     [[targets]]
+    quantity = "energy"               # a conduction minimum: "min:c1" the band's lowest on
+    at = "min(Γ–X):c1"                #   the path, "min(A–B):c1" its lowest on the line A–B
+    from = "min:c1"                   #   (a valley that need not be the lowest)
+    value = 0.11
+    tolerance = 0.05
+    source = "..."
+
+    [[targets]]
     quantity = "mass"                 # m*/m0 of a band along a direction (hole masses of
     at = "Γ:c1"                       #   valence bands positive at a maximum)
     direction = [1, 0, 0]
@@ -75,6 +83,9 @@ MASS_STEP = 0.01
 #: (:mod:`bandpert.physics.fit_valley`): ``"min:c1"``.
 MINIMUM = "min"
 
+#: A minimum on a named line: ``"min(Γ–X)"`` (either dash).
+_LINE_MINIMUM = re.compile(r"^min\(\s*([^()–-]+?)\s*[–-]\s*([^()–-]+?)\s*\)$")
+
 #: Directions of a mass at a minimum named by words (:meth:`ValleyLine.direction`).
 VALLEY_DIRECTIONS = ("along", "across")
 
@@ -83,18 +94,28 @@ _BAND = re.compile(r"^([vc])([1-9][0-9]*)$")
 
 @dataclass(frozen=True)
 class BandRef:
-    """A band at a labelled point: ``label`` and ``side`` ("v" or "c") and ``rank`` (1, 2, …)."""
+    """A band at a labelled point: ``label`` and ``side`` ("v" or "c") and ``rank`` (1, 2, …).
+
+    ``label`` :data:`MINIMUM` is a conduction minimum: the band's lowest on the path, or with
+    ``line`` (two labels) its lowest on that line.
+    """
 
     label: str
     side: str
     rank: int
+    line: tuple[str, str] | None = None
 
     def index(self, n_valence_bands: int) -> int:
         """0-based sorted band index."""
         return n_valence_bands - self.rank if self.side == "v" else n_valence_bands - 1 + self.rank
 
+    def valley(self, n_valence_bands: int) -> tuple[int, tuple[str, str] | None]:
+        """The key of a minimum's followed line: (band index, line or None)."""
+        return self.index(n_valence_bands), self.line
+
     def __str__(self) -> str:
-        return f"{self.label}:{self.side}{self.rank}"
+        point = self.label if self.line is None else f"{self.label}({'–'.join(self.line)})"
+        return f"{point}:{self.side}{self.rank}"
 
 
 @dataclass(frozen=True)
@@ -143,10 +164,21 @@ def _band(text: Any, r: TableReader, key: str, labels: tuple[str, ...]) -> BandR
         raise r.fail(key, f"expected \"POINT:BAND\" such as \"X:c1\" or \"Γ:v1\", got "
                           f"{describe(text)}")
     label, band = text.rsplit(":", 1)
+    line = None
+    named = _LINE_MINIMUM.match(label.strip())
+    if named:
+        line = tuple(canonical_label(x) for x in named.groups())
+        unknown = [x for x in line if x not in labels]
+        if unknown or line[0] == line[1]:
+            raise r.fail(key, f"unknown line '{label.strip()}'; expected \"{MINIMUM}(A–B)\" "
+                              f"with two different labels of the material's path "
+                              f"({', '.join(labels)})")
+        label = MINIMUM
     label = canonical_label(label.strip())
     if label not in labels and label != MINIMUM:
         raise r.fail(key, f"unknown point '{label}'; expected a label of the material's path "
-                          f"({', '.join(labels)}) or \"{MINIMUM}\" (a conduction minimum)")
+                          f"({', '.join(labels)}), \"{MINIMUM}\" (a conduction minimum) or "
+                          f"\"{MINIMUM}(A–B)\" (a minimum on the line A–B)")
     m = _BAND.match(band.strip())
     if not m:
         raise r.fail(key, f"unknown band '{band}'; expected v1, v2, … (valence, from the top) "
@@ -154,7 +186,7 @@ def _band(text: Any, r: TableReader, key: str, labels: tuple[str, ...]) -> BandR
     if label == MINIMUM and m.group(1) != "c":
         raise r.fail(key, f"\"{MINIMUM}\" is the minimum of a conduction band; expected c1, "
                           "c2, …")
-    return BandRef(label, m.group(1), int(m.group(2)))
+    return BandRef(label, m.group(1), int(m.group(2)), line)
 
 
 def parse_targets(doc: dict[str, Any], source: str, material: Material) -> FitSpec:
@@ -243,13 +275,14 @@ class Evaluation:
     states : PointStates
         The material and the eigenpairs at every point used (kept for the Jacobian).
     t_min : dict
-        Band → position of its minimum on its line (:mod:`~bandpert.physics.fit_valley`).
+        Valley (:meth:`BandRef.valley`) → position of its minimum on its line
+        (:mod:`~bandpert.physics.fit_valley`).
     values : numpy.ndarray
         Per target (NaN for rows not asked for).
     """
 
     states: PointStates
-    t_min: dict[int, float]
+    t_min: dict[tuple, float]
     values: np.ndarray
 
     @property
@@ -303,43 +336,46 @@ class TargetModel:
         self._differences: dict = {}  # the distinct G − G′ of each plane-wave set
         # a conduction minimum off the labelled points: its line and plane waves, fixed now;
         # t_min and the curvature there are the warm start of the next search
-        self.valleys: dict[int, ValleyLine] = {}
-        self.t_min: dict[int, float] = {}
-        self.curvature: dict[int, float | None] = {}
+        self.valleys: dict[tuple, ValleyLine] = {}
+        self.t_min: dict[tuple, float] = {}
+        self.curvature: dict[tuple, float | None] = {}
         for ref in [t.at for t in targets] + [t.start for t in targets if t.start]:
-            if ref.label == MINIMUM and ref.index(self.n_valence) not in self.valleys:
-                band = ref.index(self.n_valence)
-                line = find_valley_line(material, self.cutoff_eV, band)
-                self.valleys[band], self.t_min[band] = line, line.t_start
-                self.curvature[band] = None
+            valley = ref.valley(self.n_valence)
+            if ref.label == MINIMUM and valley not in self.valleys:
+                line = find_valley_line(material, self.cutoff_eV, valley[0], ref.line)
+                self.valleys[valley], self.t_min[valley] = line, line.t_start
+                self.curvature[valley] = None
 
     def states_of(self, material: Material) -> PointStates:
         """An empty :class:`PointStates` of the material (sharing as ``reuse`` says)."""
         return PointStates(material, self.n_bands, share=self.reuse)
 
-    def _find_minimum(self, states: PointStates, band: int) -> float:
-        """E at the band's minimum on its line; moves ``t_min`` (the next search's start)."""
+    def _find_minimum(self, states: PointStates, valley: tuple) -> float:
+        """E at a valley's minimum on its line; moves ``t_min`` (the next search's start)."""
+        band = valley[0]
         if self.reuse:
-            e, self.t_min[band], curvature = follow_minimum(
-                states, self.valleys[band], band, self.spinor, self.t_min[band],
-                self.curvature[band])
-            self.curvature[band] = curvature
+            e, self.t_min[valley], curvature = follow_minimum(
+                states, self.valleys[valley], band, self.spinor, self.t_min[valley],
+                self.curvature[valley])
+            self.curvature[valley] = curvature
         else:
-            e, self.t_min[band] = valley_minimum(states.material, self.valleys[band], band,
-                                                 self.spinor, self.t_min[band], states)
+            e, self.t_min[valley] = valley_minimum(states.material, self.valleys[valley], band,
+                                                   self.spinor, self.t_min[valley], states)
         return e
 
     def _k_of(self, label: str) -> KOf:
         frac = self.points_frac[label]
         return lambda m: frac @ reciprocal_vectors(m.vectors_A)
 
-    def stencil(self, material: Material, target: Target, t_min: dict[int, float]) -> Stencil:
+    def stencil(self, material: Material, target: Target, t_min: dict[tuple, float]
+                ) -> Stencil:
         """The mass stencil of a mass target (:mod:`bandpert.physics.fit_masses`); a minimum's
-        is centred at ``t_min`` of its band."""
+        is centred at ``t_min`` of its valley."""
         band = target.at.index(self.n_valence)
         if target.at.label == MINIMUM:
-            line = self.valleys[band]
-            miller, k0 = line.miller, line.k_frac(t_min[band])
+            valley = target.at.valley(self.n_valence)
+            line = self.valleys[valley]
+            miller, k0 = line.miller, line.k_frac(t_min[valley])
             direction = (line.direction(material, target.direction)
                          if isinstance(target.direction, str) else target.direction)
         else:
@@ -357,14 +393,14 @@ class TargetModel:
         are NaN (the finite-difference columns of the Jacobian need the mass rows only).
         """
         states = self.states_of(material)
-        minima = {band: self._find_minimum(states, band) for band in self.valleys
+        minima = {valley: self._find_minimum(states, valley) for valley in self.valleys
                   if any(rows is None or rows[i] for i, t in enumerate(self.targets)
-                         if band in _minimum_bands(t, self.n_valence))}
-        t_min = {band: self.t_min[band] for band in minima}
+                         if valley in _minimum_valleys(t, self.n_valence))}
+        t_min = {valley: self.t_min[valley] for valley in minima}
 
         def level(ref: BandRef) -> float:
             if ref.label == MINIMUM:
-                return minima[ref.index(self.n_valence)]
+                return minima[ref.valley(self.n_valence)]
             w, _ = states.eigenpairs(self.miller[ref.label], self._k_of(ref.label)(material))
             return float(w[ref.index(self.n_valence)])
 
@@ -421,7 +457,8 @@ class TargetModel:
         def slope(ref: BandRef) -> np.ndarray:
             band = ref.index(self.n_valence)
             if ref.label == MINIMUM:  # the envelope theorem: ∂E/∂p at the minimum's k
-                line, t = self.valleys[band], t_min[band]
+                valley = ref.valley(self.n_valence)
+                line, t = self.valleys[valley], t_min[valley]
                 miller, k_of = line.miller, (lambda m: line.k_cart(m, t))
             else:
                 miller, k_of = self.miller[ref.label], self._k_of(ref.label)
@@ -430,8 +467,9 @@ class TargetModel:
         for i, t in enumerate(self.targets):
             if t.quantity == "mass" and t.at.label == MINIMUM:
                 band = t.at.index(self.n_valence)
-                line = self.valleys[band]
-                along = Stencil(line.miller, line.k_frac(t_min[band]),
+                valley = t.at.valley(self.n_valence)
+                line = self.valleys[valley]
+                along = Stencil(line.miller, line.k_frac(t_min[valley]),
                                 line.direction(material, "along"), band, MASS_STEP, 1.0,
                                 self.spinor)
                 jac[i] = minimum_mass_derivatives(
@@ -447,8 +485,9 @@ class TargetModel:
         return jac
 
 
-def _minimum_bands(target: Target, n_valence: int) -> set[int]:
-    """Bands whose minimum off the labelled points the target needs."""
-    return {ref.index(n_valence) for ref in (target.at, target.start)
+def _minimum_valleys(target: Target, n_valence: int) -> set[tuple]:
+    """Valleys (:meth:`BandRef.valley`) whose minimum off the labelled points the target
+    needs."""
+    return {ref.valley(n_valence) for ref in (target.at, target.start)
             if ref is not None and ref.label == MINIMUM}
 

@@ -113,10 +113,12 @@ class ValleyLine:
         return across / np.linalg.norm(across)
 
 
-def find_valley_line(material: Material, cutoff_eV: float, band: int) -> ValleyLine:
+def find_valley_line(material: Material, cutoff_eV: float, band: int,
+                     segment: tuple[str, str] | None = None) -> ValleyLine:
     """The segment of the path holding the lowest value of ``band`` (the whole model, spin–orbit
     and nonlocal terms included: they can move a valley from X to L; ``band`` in the model's
-    own count, spinor bands with spin–orbit).
+    own count, spinor bands with spin–orbit), or the line between the two labelled points of
+    ``segment`` (a valley that is not the band's lowest, such as germanium's Δ valley on Γ–X).
 
     Raises
     ------
@@ -132,17 +134,18 @@ def find_valley_line(material: Material, cutoff_eV: float, band: int) -> ValleyL
     t = np.linspace(0.0, 1.0, SEARCH_POINTS)
     best = (np.inf, "", "", 0.0)
     seen: set[tuple[str, str]] = set()
-    for leg in legs:
-        for a, z in zip(leg[:-1], leg[1:], strict=True):
-            if (a, z) in seen or (z, a) in seen:
-                continue
-            seen.add((a, z))
-            fa, fz = np.asarray(points[a], float), np.asarray(points[z], float)
-            k = (fa + t[:, None] * (fz - fa)) @ b
-            e = exact_energies(model, k, band + 1)[:, band]
-            i = int(np.argmin(e))
-            if e[i] < best[0] - 1e-9:
-                best = (float(e[i]), a, z, float(t[i]))
+    pairs = ([segment] if segment is not None else
+             [(a, z) for leg in legs for a, z in zip(leg[:-1], leg[1:], strict=True)])
+    for a, z in pairs:
+        if (a, z) in seen or (z, a) in seen:
+            continue
+        seen.add((a, z))
+        fa, fz = np.asarray(points[a], float), np.asarray(points[z], float)
+        k = (fa + t[:, None] * (fz - fa)) @ b
+        e = exact_energies(model, k, band + 1)[:, band]
+        i = int(np.argmin(e))
+        if e[i] < best[0] - 1e-9:
+            best = (float(e[i]), a, z, float(t[i]))
     _, a, z, t0 = best
     fa, fz = np.asarray(points[a], float), np.asarray(points[z], float)
     sets = [k_centred_basis(b, cutoff_eV, (fa + s * (fz - fa)) @ b).miller

@@ -144,14 +144,16 @@ def spin_orbit_summary(material: Material) -> str | None:
 
 
 def nonlocal_summary(material: Material) -> str | None:
-    """One line on the nonlocal wells of each species (depth and radius of each channel;
-    :mod:`bandpert.planewave.nonlocal_term`), or None without them."""
+    """One line on the nonlocal wells of each species (depth and radius of each channel, an
+    energy-dependent l = 0 depth as A0 + s·E; :mod:`bandpert.planewave.nonlocal_term`), or
+    None without them."""
     if material.nonlocal_terms is None:
         return None
     parts = []
     for s, channels in material.nonlocal_terms.species.items():
-        wells = [f"A{ell} = {depth:.6g} eV, R{ell} = {radius:g} Å"
-                 for ell, depth, radius in channels]
+        slope = material.nonlocal_terms.energy_slopes.get(s)
+        wells = [f"A{ell} = {depth:.6g} eV" + (f" {slope:+.6g}·E" if ell == 0 and slope else "")
+                 + f", R{ell} = {radius:g} Å" for ell, depth, radius in channels]
         parts.append(f"{s}: " + (", ".join(wells) if wells else "no wells"))
     return "; ".join(parts)
 

@@ -117,7 +117,9 @@ class ProjectedNonlocal:
     (:mod:`~bandpert.planewave.nonlocal_term`), so it is built on the fixed plane waves at each
     k and projected, O(n_f² n_r) per k, like the spin–orbit term. It is spin-independent: on
     spinor columns (c = 2 components, spin index slowest) the projection is the sum over the
-    two spin blocks.
+    two spin blocks. With an energy-dependent well the term is
+    :meth:`~bandpert.planewave.model.PlaneWaveModel.wells_eV`, S^{−1/2} H_c S^{−1/2} less the
+    model without wells, projected whole.
 
     Attributes
     ----------
@@ -137,7 +139,12 @@ class ProjectedNonlocal:
         n, c = model.size, model.n_components
         r = c * n if self.basis is None else self.basis.shape[1]
         out = np.empty((len(k), r, r), dtype=complex)
+        energy_dependent = model.nonlocal_term.energy_dependent
         for i, ki in enumerate(k):
+            if energy_dependent:  # not spin-diagonal: the whole (c·n) matrix
+                v = model.wells_eV(ki)
+                out[i] = v if self.basis is None else self.basis.conj().T @ (v @ self.basis)
+                continue
             v = model.nonlocal_term.matrix(ki + model.basis.g_cart_invA, model.structure)
             if self.basis is None:
                 out[i] = np.kron(np.eye(c), v)

@@ -27,7 +27,7 @@ spin–orbit term is built per k (:meth:`PlaneWaveModel.spin_orbit_coupling`).
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -138,6 +138,12 @@ class PlaneWaveModel:
         if not self.k_dependent:
             return self.potential_eV
         k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
+        if self.nonlocal_term is not None and self.nonlocal_term.energy_dependent:
+            # S^{-1/2} H_c S^{-1/2} is not H0 plus a sum of terms: V is the rest
+            h = self.hamiltonian(k)
+            idx = np.arange(self.matrix_size)
+            h[idx, idx] -= self.unperturbed_eV(k)[0]
+            return h
         v = self.potential_eV.astype(complex)
         if self.nonlocal_term is not None:
             v += self.nonlocal_term.matrix(k + self.basis.g_cart_invA, self.structure)
@@ -145,8 +151,25 @@ class PlaneWaveModel:
             return v
         return spinor_hamiltonian(v, self.spin_orbit_coupling(k))
 
+    def wells_eV(self, k_cart_invA: np.ndarray) -> np.ndarray:
+        """H(k) less the same model without its wells, (matrix_size, matrix_size), at one k.
+
+        1_c ⊗ V_NL(k) for constant depths; with an energy-dependent well S^{−1/2} H_c S^{−1/2}
+        − (H0 + V + H_so) (:mod:`~bandpert.planewave.nonlocal_term`), which is not
+        spin-diagonal in general.
+        """
+        k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
+        wells = self.nonlocal_term
+        if not wells.energy_dependent:
+            v = wells.matrix(k + self.basis.g_cart_invA, self.structure)
+            return v if self.n_components == 1 else np.kron(np.eye(self.n_components), v)
+        return self.hamiltonian(k) - replace(self, nonlocal_term=None).hamiltonian(k)
+
     def hamiltonian(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """Full H(k) = H0(k) + V (+ H_so(k)) for one k-point, shape (matrix_size, matrix_size).
+
+        With an energy-dependent l = 0 well, S^{−1/2} H_c(k) S^{−1/2}
+        (:mod:`~bandpert.planewave.nonlocal_term`): its eigenvalues are the energies.
 
         With spin–orbit the matrix is the spinor one, spin index slowest
         (:func:`~bandpert.planewave.spinorbit.spinor_hamiltonian`); its eigenvectors are the
@@ -155,12 +178,15 @@ class PlaneWaveModel:
         h = self.potential_eV.copy()
         idx = np.arange(self.size)
         h[idx, idx] += self.kinetic_eV(k_cart_invA)[0]
-        if self.nonlocal_term is not None:
+        wells = self.nonlocal_term
+        if wells is not None:
             k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
-            h = h + self.nonlocal_term.matrix(k + self.basis.g_cart_invA, self.structure)
-        if self.spin_orbit is None:
-            return h
-        return spinor_hamiltonian(h, self.spin_orbit_coupling(k_cart_invA))
+            h = h + wells.matrix(k + self.basis.g_cart_invA, self.structure)
+        if self.spin_orbit is not None:
+            h = spinor_hamiltonian(h, self.spin_orbit_coupling(k_cart_invA))
+        if wells is not None and wells.energy_dependent:
+            h = wells.metric_root(k + self.basis.g_cart_invA).apply(h)
+        return h
 
 
 def build_model(material: Material, cutoff_eV: float, spin_orbit: bool = False

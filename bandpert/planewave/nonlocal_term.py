@@ -9,9 +9,7 @@ matrix elements are
     F_l(K, K′) = ∫_0^R_l j_l(Kr) j_l(K′r) r² dr,
 
 with K = k + G, Ω_atom the cell volume per atom and S_s the structure factor of the species
-(:func:`bandpert.planewave.spinorbit.structure_factors`). The depths are constants (the
-energy-independent form); an energy-dependent depth is not offered (DEVELOPERS.md, "Nonlocal
-wells: why the depth is constant"). F_l has the closed (Lommel) forms
+(:func:`bandpert.planewave.spinorbit.structure_factors`). F_l has the closed (Lommel) forms
 
     F_l = R² [K′ j_{l−1}(K′R) j_l(KR) − K j_{l−1}(KR) j_l(K′R)] / (K² − K′²),   K ≠ K′,
     F_l = (R³/2) [j_l(KR)² − j_{l−1}(KR) j_{l+1}(KR)],                            K = K′,
@@ -21,6 +19,35 @@ with j_{−1}(x) = cos(x)/x (G. N. Watson, A Treatise on the Theory of Bessel Fu
 expansion about the diagonal instead (:func:`radial_overlap`). The term depends on k and is built
 per k like the spin–orbit term; it is Hermitian and invariant under the crystal's point group,
 so it keeps every symmetry degeneracy and Kramers pairs.
+
+**A depth that follows the state's energy.** The l = 0 depth of a species may follow the energy
+E of the state it acts on, A_0(E) = A_0 + s E (the ``A0_energy_slope`` key; the idea of an
+energy-dependent l = 0 well is Chelikowsky & Cohen's (1976), who evaluated it at free-electron
+energies of the plane waves; here E is the eigenvalue itself). E is on the model's own scale:
+the zero of the kinetic energy, with the potential's G = 0 coefficient (0 in the bundled files).
+Because the dependence is linear, H(E) = H_c + E M, with H_c the Hamiltonian with every depth at
+its constant part and
+
+    M(K, K′) = (4π/Ω_atom) Σ_s s_s S_s(G − G′) F_0(K, K′; R_0,s)
+
+(the l = 0 well of unit depth times the slope), and H(E)ψ = Eψ is the linear generalised
+eigenproblem H_c ψ = E S ψ with the metric S = 1 − M, Hermitian and positive definite while
+s λ_max(P_0) < 1 (P_0, the l = 0 projector inside the spheres, is a projector for wells that do
+not overlap, λ_max = 1; always for s ≤ 0). Its eigenvalues are those of the ordinary Hermitian
+matrix
+
+    H(k) = S^{−1/2} H_c(k) S^{−1/2}
+
+(Löwdin's symmetric orthogonalisation, P.-O. Löwdin, J. Chem. Phys. 18, 365 (1950); from
+memory). S^{−1/2}
+commutes with every operation of the crystal that S commutes with, so the matrix keeps every
+symmetry degeneracy, and its eigenvectors are S^{1/2}ψ, which carry the irreducible
+representations of ψ; every solver takes this matrix as it takes a constant-depth one
+(:meth:`MetricRoot.apply`). M has few eigenvalues that are not zero to rounding (about
+K_max R_0/π per atom), so S^{−1/2} = 1 + U diag(d) U† with U the (n, r) eigenvectors of M of
+|μ| > :data:`RANK_FLOOR` · max|μ| and d = (1 − μ)^{−1/2} − 1, found from a factored M
+(:meth:`NonlocalTerm.metric_root`), and the product costs O(n² r).
+With s = 0 the key is ignored and the model is the constant-depth one, bit for bit.
 """
 
 from __future__ import annotations
@@ -30,6 +57,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import eval_legendre, spherical_jn
 
+from ..errors import InputError
 from ..input.material import Material
 
 #: |K − K′| (Å⁻¹) below which F_l comes from the diagonal form and a second-order correction
@@ -42,6 +70,14 @@ CLOSE_SQUARES_INVA2 = 1e-5
 #: |K − K′| (Å⁻¹) below which two plane waves count as equally long (symmetry partners whose
 #: lengths differ by rounding only).
 EQUAL_INVA = 1e-9
+
+#: Eigenvalues μ of M with |μ| at most this fraction of the largest are left out of
+#: S^{−1/2} = 1 + U diag(d) U† (module docstring): their d is below 1e-13 of the kept ones'.
+RANK_FLOOR = 1e-14
+
+#: Smallest accepted eigenvalue of the metric S = 1 − M (a positive energy slope with
+#: overlapping wells can make S singular; the eigenproblem then has no meaning).
+METRIC_FLOOR = 0.05
 
 #: The half-separation h0 (Å⁻¹) of the well-conditioned Lommel evaluation that fixes the
 #: second-order coefficient of the close pairs.
@@ -172,14 +208,78 @@ class NonlocalTerm:
     species : tuple of str
         Sorted species names of the structure factors (all species of the atoms).
     channels : tuple
-        Per species, ((l, A_l in eV, R_l in Å), …).
+        Per species, ((l, A_l in eV, R_l in Å), …); for an energy-dependent l = 0 depth,
+        its constant part A_0.
     atom_volume_A3 : float
         Ω_atom.
+    energy_slopes : tuple of float
+        Per species, s of A_0(E) = A_0 + s E (module docstring); () or all 0: constant depths.
+    atom_species, positions_A : tuple
+        Per atom, its index in ``species`` and its Cartesian position (Å): the factored
+        metric of an energy-dependent well (:meth:`metric_root`) needs the atoms themselves.
     """
 
     species: tuple[str, ...]
     channels: tuple[tuple[tuple[int, float, float], ...], ...]
     atom_volume_A3: float
+    energy_slopes: tuple[float, ...] = ()
+    atom_species: tuple[int, ...] = ()
+    positions_A: tuple[tuple[float, float, float], ...] = ()
+
+    @property
+    def energy_dependent(self) -> bool:
+        """True when some l = 0 depth follows the state's energy."""
+        return any(s != 0.0 for s in self.energy_slopes)
+
+    def metric_root(self, kg_cart_invA: np.ndarray) -> MetricRoot | None:
+        """S^{−1/2} of the metric S = 1 − M on the plane waves K = k + G (module docstring).
+
+        M is gathered in factored form, M = Φ D Φ†, from Gauss–Legendre quadrature of F_0,
+
+            F_0(K, K′) = Σ_q w_q r_q² j_0(K r_q) j_0(K′ r_q),
+            Φ_{i,(a,q)} = e^{−iK_i·τ_a} r_q √w_q j_0(K_i r_q),   D_(a,q) = (4π/Ω) s_a
+
+        (a over the atoms of species with a slope, at τ_a; e^{−i(G − G′)·τ} = e^{−iK·τ}
+        e^{iK′·τ}), with :func:`quadrature_order` nodes, so that a thin QR of Φ and the
+        eigenvalues of the small R D R† give M's eigenpairs in O(n m²), m the number of
+        columns, instead of a dense eigendecomposition of M. None for constant depths.
+
+        Raises
+        ------
+        InputError
+            Naming the slope's key, where S is not safely positive definite (a positive slope
+            with overlapping wells).
+        """
+        if not self.energy_dependent:
+            return None
+        kg = np.asarray(kg_cart_invA, dtype=float)
+        k = np.linalg.norm(kg, axis=1)
+        scale = 4.0 * np.pi / (self.atom_volume_A3 * len(self.positions_A))
+        columns, weights = [], []
+        for s, position in zip(self.atom_species, self.positions_A, strict=True):
+            slope = self.energy_slopes[s]
+            if slope == 0.0:
+                continue
+            radius = next(r for ell, _, r in self.channels[s] if ell == 0)
+            x, w = np.polynomial.legendre.leggauss(quadrature_order(float(k.max()), radius))
+            r, w = 0.5 * radius * (x + 1.0), 0.5 * radius * w
+            phase = np.exp(-1j * (kg @ np.asarray(position)))
+            columns.append(phase[:, None] * (r * np.sqrt(w))[None, :]
+                           * np.sinc(k[:, None] * r[None, :] / np.pi))
+            weights.append(np.full(len(r), scale * slope))
+        q, upper = np.linalg.qr(np.hstack(columns))
+        d = np.concatenate(weights)
+        mu, v = np.linalg.eigh(upper @ (d[:, None] * upper.conj().T))
+        lowest = 1.0 - float(mu[-1])
+        if lowest < METRIC_FLOOR:
+            species = next(sp for sp, slope in zip(self.species, self.energy_slopes, strict=True)
+                           if slope > 0)
+            raise InputError(f"makes the metric 1 − s·P_0 of the energy-dependent well nearly "
+                             f"singular (smallest eigenvalue {lowest:.3g}, wells overlapping); "
+                             f"expected a smaller positive slope, a smaller R0_A, or a slope ≤ 0",
+                             key=f"nonlocal.species.{species}.A0_energy_slope")
+        keep = np.abs(mu) > RANK_FLOOR * max(float(np.max(np.abs(mu))), 1e-300)
+        return MetricRoot(q @ v[:, keep], 1.0 / np.sqrt(1.0 - mu[keep]) - 1.0)
 
     def matrix(self, kg_cart_invA: np.ndarray, structure: np.ndarray) -> np.ndarray:
         """V_NL(K_i, K_j) (n, n), complex, for K = k + G of a basis and S_s(G_i − G_j).
@@ -218,12 +318,65 @@ class NonlocalTerm:
         return out
 
 
+@dataclass(frozen=True)
+class MetricRoot:
+    """S^{−1/2} = 1 + U diag(d) U† of an energy-dependent well's metric on one set of plane
+    waves (:meth:`NonlocalTerm.metric_root`).
+
+    Attributes
+    ----------
+    vectors : numpy.ndarray
+        (n, r) U, orthonormal columns.
+    shifts : numpy.ndarray
+        (r,) d = (1 − μ)^{−1/2} − 1.
+    """
+
+    vectors: np.ndarray
+    shifts: np.ndarray
+
+    def apply(self, h: np.ndarray) -> np.ndarray:
+        """S^{−1/2} H_c S^{−1/2} for an (n, n) or spinor (2n, 2n) Hermitian H_c (spin index
+        slowest; the metric is 1₂ ⊗ S there).
+
+        With X = S^{−1/2} − 1 = U D U†, (1 + X) H_c (1 + X) = H_c + U Z + (U Z)†, Z = D U† H_c
+        + ½ (D U† H_c U D) U†, each product taken block by block of spin (U acts on each
+        block alike): 8 r n² complex multiply-adds for a spinor H_c, r the kept rank.
+        """
+        u, d = self.vectors, self.shifts
+        n = u.shape[0]
+        c = h.shape[0] // n
+        uh = u.conj().T
+        blocks = range(c)
+        t = np.vstack([d[:, None] * (uh @ h[s * n:(s + 1) * n]) for s in blocks])  # D U† H_c
+        dd = np.tile(d, c)
+        core = np.hstack([t[:, s * n:(s + 1) * n] @ u for s in blocks]) * (0.5 * dd)[None, :]
+        r = len(d)
+        z = t + np.hstack([core[:, s * r:(s + 1) * r] @ uh for s in blocks])
+        y = np.vstack([u @ z[s * r:(s + 1) * r] for s in blocks])               # U Z
+        out = h + y
+        out += y.conj().T
+        return out
+
+
 def nonlocal_term(material: Material) -> NonlocalTerm | None:
     """The :class:`NonlocalTerm` of a material, None without a ``nonlocal`` table."""
     nl = material.nonlocal_terms
     if nl is None:
         return None
     species = tuple(sorted({a.species for a in material.atoms}))
+    slopes = tuple(nl.energy_slopes.get(s, 0.0) for s in species)
     return NonlocalTerm(species=species,
                         channels=tuple(nl.species.get(s, ()) for s in species),
-                        atom_volume_A3=material.volume_A / len(material.atoms))
+                        atom_volume_A3=material.volume_A / len(material.atoms),
+                        energy_slopes=slopes if any(slopes) else (),
+                        atom_species=tuple(species.index(a.species) for a in material.atoms),
+                        positions_A=tuple(tuple(float(x) for x in r)
+                                          for r in material.positions_cart_A))
+
+
+def quadrature_order(k_max_invA: float, radius_A: float) -> int:
+    """Gauss–Legendre nodes for F_0(K, K′) on [0, R] with K, K′ ≤ K_max: the integrand is
+    entire and oscillates at most like sin(2 K_max r), and the rule of n nodes is exact to
+    degree 2n − 1, so n = K_max R + 16 leaves an error below 1e-14 of F_0 (tested against
+    the closed form for K_max R up to 50)."""
+    return int(np.ceil(k_max_invA * radius_A)) + 16

@@ -316,7 +316,8 @@ def _per_k_energies(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarr
 def per_k_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.ndarray,
                        min_plane_waves: int = 1) -> Iterator[np.ndarray]:
     """H(k) = H0 + V + V_NL(k) (n × n), or with spin–orbit coupling the spinor
-    1₂ ⊗ (H0 + V + V_NL(k)) + H_so(k) (2n × 2n), at each k in turn (Fortran order).
+    1₂ ⊗ (H0 + V + V_NL(k)) + H_so(k) (2n × 2n), at each k in turn (Fortran order); with an
+    energy-dependent well S^{−1/2} H S^{−1/2} (:mod:`~bandpert.planewave.nonlocal_term`).
 
     Per k: V and the structure factors S_s(G_i − G_j) are gathered once per set of plane
     waves (reused while consecutive k-points share it), the spin–orbit coupling W(k) and the
@@ -379,11 +380,12 @@ def per_k_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.nd
         h[np.arange(n), np.arange(n)] += kinetic
         if wells is not None:
             h += wells.matrix(kk + g, structure)
-        if term is None:
-            yield np.asfortranarray(h)
-            continue
-        w = term.coupling(kk + g, structure)
-        yield spinor_hamiltonian(h, w, np.empty((2 * n, 2 * n), complex, order="F"))
+        if term is not None:
+            w = term.coupling(kk + g, structure)
+            h = spinor_hamiltonian(h, w, np.empty((2 * n, 2 * n), complex, order="F"))
+        if wells is not None and wells.energy_dependent:  # S^{-1/2} H_c S^{-1/2}
+            h = wells.metric_root(kk + g).apply(h)
+        yield np.asfortranarray(h)
 
 
 def exact_states(model: PlaneWaveModel, k_cart_invA: np.ndarray, n_bands: int
