@@ -63,16 +63,31 @@ def test_a_named_line_holding_the_lowest_valley_is_the_same_valley():
     assert set(fit.targets.valleys) == {(8, ("Γ", "X")), (8, None)}
 
 
-def test_a_named_line_follows_a_valley_that_is_not_the_lowest():
-    # source: silicon's conduction band on Γ–L has its lowest point at L (L1 about 2 eV above
-    # the valence top, the Δ minimum about 1.1 eV; Cohen & Bergstresser, Phys. Rev. 141, 789
-    # (1966), from memory): the named line's minimum lies at L, well above the band's
-    # lowest, and the moved-minimum check does not count it as moved
-    fit = silicon_fit([target("min(Γ–L):c1", **{"from": "min:c1"})])
+def test_a_named_line_without_an_interior_minimum_is_refused():
+    # source: silicon's conduction band falls monotonically from Γ15 to L1 along Λ (Cohen &
+    # Bergstresser, Phys. Rev. 141, 789 (1966), Fig. of the bands; from memory): Γ–L holds no
+    # valley between its ends, and a named line asks for one
+    with pytest.raises(InputError) as info:
+        silicon_fit([target("min(Γ–L):c1", **{"from": "min:c1"})])
+    assert "no minimum inside the line Γ–L" in str(info.value)
+
+
+def test_germaniums_delta_valley_is_followed_above_its_l_minimum():
+    # source: germanium's conduction band minimum is at L, with the Δ valley near 0.85 of Γ→X
+    # about 0.2 eV higher and Γ2′ between them on Γ–X (O. Madelung, Semiconductors: Data
+    # Handbook (Springer 2004), Ge; from memory): the named line finds the interior Δ valley
+    # (never an end of its line, even where Γ2′ lies lower) and the check does not call it
+    # moved
+    material = bundled("germanium-fitted")
+    doc = read_toml_document(material.file)
+    spec = parse_targets({"parameters": ["potential.symmetric[0]"],
+                          "targets": [target("min(Γ–X):c1", **{"from": "min:c1"})]},
+                         "t.toml", material)
+    fit = Fit(doc, material.file, spec)
     with single_blas_thread():
         evaluation = fit.evaluate(fit.start)
-        assert evaluation.values[0] > 0.5
-        assert evaluation.t_min[8, ("Γ", "L")] > 0.97
+        assert 0.8 < evaluation.t_min[8, ("Γ", "X")] < 0.95
+        assert evaluation.values[0] > 0.05     # Δ above L
         assert moved_minima(fit.targets, fit.material(fit.start)) == ()
 
 
@@ -85,7 +100,7 @@ def test_energy_slope_jacobian_equals_finite_differences():
     # H(k) = S^{-1/2} H_c S^{-1/2} (whole-matrix ∂H/∂p: the metric multiplies every term), and
     # the envelope theorem at the named valley's minimum, against central differences of the
     # targets themselves
-    targets = [target("min(Γ–L):c1", **{"from": "min:c1"}), target("Γ:v7"),
+    targets = [target("min(Γ–X):c1", **{"from": "Γ:c1"}), target("Γ:v7"),
                {"quantity": "delta_so", "value": 0.044, "tolerance": 0.002, "source": SOURCE},
                {"quantity": "mass", "at": "min:c1", "direction": "along", "value": 0.9,
                 "tolerance": 0.02, "source": SOURCE}]

@@ -102,6 +102,8 @@ CASES: list[tuple[str, dict]] = [
     ("spin_orbit.species.Si.slater_exponent_invA", doc(spin_orbit=SO)),
     ("nonlocal.species.Si.A2_eV", doc(**{"nonlocal": NL})),
     ("nonlocal.species.Si.R0_A", doc(**{"nonlocal": NL})),
+    ("nonlocal.species.Si.A0_energy_slope",
+     doc(**{"nonlocal": {"species": {"Si": {**NL["species"]["Si"], "A0_energy_slope": -0.1}}}})),
 ]
 
 

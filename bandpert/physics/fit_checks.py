@@ -13,7 +13,7 @@ from __future__ import annotations
 
 from ..input.material import Material
 from .fit_targets import TargetModel
-from .fit_valley import find_valley_line, valley_minimum
+from .fit_valley import find_valley_line, search_bracket, valley_minimum
 
 #: A minimum elsewhere on the path counts as lower than the followed one beyond this (eV): both
 #: are refined on their own line's plane waves, which differ by a few plane waves at the cutoff.
@@ -37,7 +37,16 @@ def moved_minima(targets: TargetModel, material: Material) -> tuple[str, ...]:
     """
     out = []
     for (band, named), line in targets.valleys.items():
-        if named is not None:  # a valley on a named line need not be the band's lowest
+        if named is not None:  # a valley on a named line need not be the band's lowest, but
+            # it must still be a minimum: not pinned to the end of its search's bracket
+            t_prev = targets.t_min[band, named]
+            lo, hi = search_bracket(t_prev)
+            _, t = valley_minimum(material, line, band, targets.spinor, t_prev)
+            if min(abs(t - lo), abs(t - hi)) < 1e-6:
+                name = f"c{band - targets.n_valence + 1}"
+                out.append(f"the targets at \"min({line.name}):{name}\" followed a valley "
+                           f"that the fitted model no longer has: band {name} falls to the end "
+                           f"of the search around {t_prev:.3f} of {line.name} (at {t:.3f})")
             continue
         followed, t_followed = valley_minimum(material, line, band, targets.spinor,
                                               targets.t_min[band, named])

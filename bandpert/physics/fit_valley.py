@@ -118,12 +118,15 @@ def find_valley_line(material: Material, cutoff_eV: float, band: int,
     """The segment of the path holding the lowest value of ``band`` (the whole model, spin–orbit
     and nonlocal terms included: they can move a valley from X to L; ``band`` in the model's
     own count, spinor bands with spin–orbit), or the line between the two labelled points of
-    ``segment`` (a valley that is not the band's lowest, such as germanium's Δ valley on Γ–X).
+    ``segment``: there the lowest **interior** local minimum (a grid point below both
+    neighbours), a valley that need not be the band's lowest and whose line may hold a lower
+    end (germanium's Δ valley on Γ–X, where Γ2′ at t = 0 lies below it).
 
     Raises
     ------
     InputError
-        If the material is not 3D (the line needs the standard path of a crystal).
+        If the material is not 3D (the line needs the standard path of a crystal), or the
+        named ``segment`` holds no interior minimum of the band.
     """
     if material.dimension != 3:
         raise InputError("a band minimum off the labelled points needs a 3D crystal",
@@ -143,6 +146,13 @@ def find_valley_line(material: Material, cutoff_eV: float, band: int,
         fa, fz = np.asarray(points[a], float), np.asarray(points[z], float)
         k = (fa + t[:, None] * (fz - fa)) @ b
         e = exact_energies(model, k, band + 1)[:, band]
+        if segment is not None:  # interior local minima only
+            inner = np.flatnonzero((e[1:-1] <= e[:-2]) & (e[1:-1] <= e[2:])) + 1
+            if inner.size == 0:
+                raise InputError(f"band {band + 1} has no minimum inside the line {a}–{z} "
+                                 f"(its lowest point there is an end); expected a line with a "
+                                 "valley between its ends", material.file, "targets")
+            e = np.where(np.isin(np.arange(len(e)), inner), e, np.inf)
         i = int(np.argmin(e))
         if e[i] < best[0] - 1e-9:
             best = (float(e[i]), a, z, float(t[i]))
@@ -170,7 +180,8 @@ def _band_energy(material: Material, line: ValleyLine, k_cart: np.ndarray, band:
     return float(w[members(band, spinor)].mean())
 
 
-def _bracket(t_guess: float) -> tuple[float, float]:
+def search_bracket(t_guess: float) -> tuple[float, float]:
+    """The interval a search around ``t_guess`` keeps to (:data:`BRACKET_HALF_WIDTH`)."""
     return max(0.0, t_guess - BRACKET_HALF_WIDTH), min(1.0, t_guess + BRACKET_HALF_WIDTH)
 
 
@@ -182,7 +193,7 @@ def valley_minimum(material: Material, line: ValleyLine, band: int, spinor: bool
     With ``states`` (of the same material) the levels come from, and are kept in, it.
     """
     model = model_on_miller(material, line.miller) if states is None else None
-    lo, hi = _bracket(t_guess)
+    lo, hi = search_bracket(t_guess)
 
     def energy(t: float) -> float:
         k = line.k_cart(material, t)
@@ -222,7 +233,7 @@ def follow_minimum(states: PointStates, line: ValleyLine, band: int, spinor: boo
         d²E/dt² from the widest secant pair (for the next search), or the one given.
     """
     material = states.material
-    lo, hi = _bracket(t_guess)
+    lo, hi = search_bracket(t_guess)
     pair = members(band, spinor)
     dk_dt = line.k_cart(material, 1.0) - line.k_cart(material, 0.0)
 
