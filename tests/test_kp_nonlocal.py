@@ -155,11 +155,11 @@ def test_ep_from_dh_dk_is_the_momentum_formula_of_a_local_model(name):
 
 @pytest.mark.parametrize("stem", NONLOCAL)
 def test_wells_of_zero_depth_give_the_local_ep(stem):
-    # common practice, no source: a well of depth 0 adds nothing
+    # common practice, no source: a well of depth 0 (and no energy slope) adds nothing
     material = bundled(f"{stem}-fitted")
     nl = material.nonlocal_terms
     zero = replace(nl, species={s: tuple((ch[0], 0.0, ch[2]) for ch in chans)
-                                for s, chans in nl.species.items()})
+                                for s, chans in nl.species.items()}, energy_slopes={})
     with single_blas_thread():
         flat = kane_coupling(replace(material, nonlocal_terms=zero), SMALL_CUTOFF_EV)
         local = kane_coupling(material.local_spinless(), SMALL_CUTOFF_EV)
