@@ -212,7 +212,11 @@ def test_secant_search_near_a_symmetric_end_point():
     states = PointStates(material, 12)
     e, t, _ = follow_minimum(states, line, 8, True, line.t_start)
     e_ref, t_ref = valley_minimum(material, line, 8, True, line.t_start)
-    assert t == pytest.approx(t_ref, abs=3e-8) and e == pytest.approx(e_ref, abs=1e-11)
+    # Brent's t is only as sharp as E(t) is above its rounding: eigenvalues of an H with norm
+    # near 100 eV carry about 1e-13 eV, so at this minimum's curvature (4.7 eV per t², the
+    # energy-dependent well's file) t is defined to √(2·1e-13/4.7) ≈ 2e-7; the energies agree
+    # to 1e-11 (measured 2.5e-14, t apart by 1.5e-7)
+    assert t == pytest.approx(t_ref, abs=3e-7) and e == pytest.approx(e_ref, abs=1e-11)
     assert states.diagonalisations <= 6
 
 

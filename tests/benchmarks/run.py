@@ -31,7 +31,7 @@ from iterative import iterative_rows  # sibling script
 from perturbation_driver import driver_rows  # sibling script (run.py runs as a script)
 from reduced_basis import dense_mesh_rows, reduced_basis_rows  # sibling script
 from reduced_basis import spin_orbit_rows as reduced_spin_orbit_rows
-from spin_orbit import spin_orbit_rows  # sibling script
+from spin_orbit import energy_slope_rows, spin_orbit_rows  # sibling script
 from subbands import subband_rows  # sibling script
 from symmetry_labels import symmetry_rows  # sibling script
 from threadpoolctl import threadpool_info, threadpool_limits
@@ -446,6 +446,9 @@ def main(argv: list[str] | None = None) -> int:
     so_results, so_rows = spin_orbit_rows(max(3, reps // 2), say)
     results.update(so_results)
     rows.extend(so_rows)
+    slope_results, slope_rows = energy_slope_rows(max(3, reps // 2), say)
+    results.update(slope_results)
+    rows.extend(slope_rows)
 
     # -- 8. reduced-basis interpolation and the dense-mesh jobs (reduced_basis.py)
     rb_results, rb_rows = reduced_basis_rows(max(3, reps // 2), say, side_by_side)
