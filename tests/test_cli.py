@@ -378,7 +378,8 @@ def test_check_lists_the_nonlocal_wells():
     material = load_material("germanium-fitted")
     wells = tomllib.loads(open(material.file, encoding="utf-8").read())["nonlocal"]["species"]["Ge"]
     summary = nonlocal_summary(material)
-    assert summary == (f"Ge: A0 = {wells['A0_eV']:.6g} eV, R0 = {wells['R0_A']:g} Å, "
+    assert summary == (f"Ge: A0 = {wells['A0_eV']:.6g} eV {wells['A0_energy_slope']:+.6g}·E, "
+                       f"R0 = {wells['R0_A']:g} Å, "
                        f"A2 = {wells['A2_eV']:.6g} eV, R2 = {wells['R2_A']:g} Å")
     code, out, err = run(["check", "germanium-fitted"])
     assert code == 0, err
