@@ -25,6 +25,7 @@ import bandpert.cli.commands.bands as bands_command
 import bandpert.cli.options as options
 from bandpert.data import MATERIALS_DIR
 from bandpert.input.material import load_material
+from bandpert.physics.bands import compute_band_structure
 from bandpert.planewave.model import build_model
 from bandpert.units import HBAR2_OVER_2M0_EV_A2
 
@@ -71,12 +72,13 @@ COMMAND = typer.main.get_command(cli.app)
 
 #: The options each command documents (kept by hand so that a lost option is noticed).
 OPTIONS = {
-    "bands": ["--out", "--k-points", "--bands", "--cutoff-eV", "--format", "--json", "--name",
+    "bands": ["--out", "--k-points", "--bands", "--cutoff-eV", "--fermi-mesh", "--format", "--json",
+              "--name",
               "--emin", "--emax", "--order", "--threshold", "--tolerance-meV", "--radius-points",
               "--no-exact", "--exact-only", "--van-hove-marks", "--solver", "--help"],
     "check": ["--cutoff-eV", "--help"],
-    "gaps": ["--json", "--name", "--point", "--crossings", "--bands", "--cutoff-eV", "--out",
-             "--k-points", "--format", "--emin", "--emax", "--help"],
+    "gaps": ["--json", "--name", "--point", "--crossings", "--bands", "--cutoff-eV",
+             "--fermi-mesh", "--out", "--k-points", "--format", "--emin", "--emax", "--help"],
     "masses": ["--point", "--band", "--temperature", "--cutoff-eV", "--json", "--name", "--out",
                "--write-kp", "--help"],
     "kp": ["--model", "--compare", "--k-max", "--out", "--format", "--json", "--name", "--emin",
@@ -594,3 +596,36 @@ def test_bands_summary_says_metal_or_semiconductor(tmp_path):
                           str(tmp_path)])
     assert code == 0, err
     assert "semiconductor or insulator" in out and "metal (" not in out
+
+
+def test_fermi_mesh_option_sets_and_records_a_metals_mesh(tmp_path):
+    # source: the free-electron Fermi energy of aluminium, 11.7 eV (N. W. Ashcroft & N. D.
+    # Mermin, Solid State Physics (1976), Table 2.1): the band bottom lies about that far below
+    # the Fermi level of a nearly-free-electron aluminium, at the default mesh and a coarse one
+    # alike, and the two Fermi levels agree to a few tens of meV
+    material = load_material(str(MATERIALS / "aluminium.toml"))
+    bottoms = {}
+    for mesh in (None, 10):
+        bs = compute_band_structure(material, n_k=10, fermi_mesh=mesh)
+        assert bs.energy_zero_kind == "Fermi level" and bs.fermi_mesh == (mesh or 24)
+        bottoms[mesh] = float(np.min(bs.energies_eV)) - bs.energy_zero_eV
+        assert bottoms[mesh] == pytest.approx(-11.7, abs=0.4)
+    assert abs(bottoms[None] - bottoms[10]) < 0.05
+    code, _, err = run(["gaps", str(MATERIALS / "aluminium.toml"), "--fermi-mesh", "10",
+                        "--k-points", "10", "--no-crossings", "--out", str(tmp_path)])
+    assert code == 0, err
+    settings = json.loads((tmp_path / "aluminium-gaps.json").read_text())["settings"]
+    assert settings["fermi_mesh"] == 10
+    code, _, err = run(["bands", "silicon", "--exact-only", "--k-points", "10", "--fermi-mesh",
+                        "10", "--out", str(tmp_path)])
+    assert code == 0, err        # an insulator: its zero is the valence top, the mesh unused
+    assert json.loads((tmp_path / "silicon-exact-bands.json").read_text()
+                      )["settings"]["fermi_mesh"] is None
+
+
+@pytest.mark.parametrize("value, words", [("1", "at least 2"), ("101", "expected at most")])
+def test_bad_fermi_mesh_is_refused_in_one_line(value, words, tmp_path):
+    code, _, err = run(["bands", str(MATERIALS / "aluminium.toml"), "--fermi-mesh", value,
+                        "--out", str(tmp_path)])
+    assert_user_error(code, err, "--fermi-mesh", words)
+    assert no_dot_files(tmp_path) and not any(tmp_path.iterdir())

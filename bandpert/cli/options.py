@@ -18,6 +18,7 @@ import typer
 from rich.console import Console
 from rich.progress import BarColumn, Progress, TextColumn, TimeRemainingColumn
 
+from ..crystal.kmesh import MAX_MESH_POINTS
 from ..errors import InputError
 from ..input.file_kind import KIND_NAMES, file_kind
 from ..output.style import PNG_DPI
@@ -55,6 +56,22 @@ EMinOption = Annotated[float | None, typer.Option(
 EMaxOption = Annotated[float | None, typer.Option(
     "--emax", help="Upper energy limit of the plot (eV from the energy zero).",
     show_default=False)]
+FermiMeshOption = Annotated[int | None, typer.Option(
+    "--fermi-mesh", help="Points per reciprocal axis of the uniform mesh that fixes a metal's "
+    "Fermi level, the energy zero (default 24 in 3D, 60 in 2D, 600 in 1D; at most 10⁶ points "
+    "in all; unused for an insulator). Fewer is faster: the mesh of a metal with little "
+    "symmetry can cost more than the path.", show_default=False)]
+
+
+def check_fermi_mesh(fermi_mesh: int | None, dimension: int) -> None:
+    """Refuse a ``--fermi-mesh`` below 2 points per axis or above the mesh limit in all."""
+    check_count(fermi_mesh, "--fermi-mesh", 2)
+    if fermi_mesh is not None and float(fermi_mesh) ** dimension > MAX_MESH_POINTS:
+        raise InputError(f"{fermi_mesh} points per axis make {float(fermi_mesh) ** dimension:.3g} "
+                         f"points in {dimension}D; expected at most {MAX_MESH_POINTS:.0e}",
+                         key="--fermi-mesh")
+
+
 CutoffOption = Annotated[float | None, typer.Option(
     "--cutoff-eV", help="Plane-wave kinetic-energy cutoff in eV (default: the file's, else a "
     "converged one).", show_default=False)]

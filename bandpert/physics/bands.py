@@ -109,6 +109,9 @@ class BandStructure:
     solver : str
         The solver of the exact bands: "dense" (LAPACK) or "iterative" (LOBPCG,
         :func:`~bandpert.planewave.solver.choose_solver`).
+    fermi_mesh : int or None
+        Points per axis of the mesh that gave a metal's Fermi level (None when the zero is a
+        valence-band maximum or absolute).
     """
 
     material: Material
@@ -123,6 +126,7 @@ class BandStructure:
     comparison: Comparison | None = None
     k_centred: KCentredModel | None = None
     solver: str = "dense"
+    fermi_mesh: int | None = None
 
     @property
     def reference_energies_eV(self) -> np.ndarray:
@@ -172,6 +176,10 @@ def choose_energy_zero(energies_eV: np.ndarray, n_electrons: int | None,
     return float(fermi_level_eV()), "Fermi level", None
 
 
+#: Points per axis of the mesh for a metal's Fermi level, by dimension (1D, 2D, 3D).
+DEFAULT_FERMI_MESH = {1: 600, 2: 60, 3: 24}
+
+
 def energy_reference(material: Material, path_energies_eV: np.ndarray,
                      mesh_energies: Callable[[np.ndarray, int], np.ndarray],
                      fermi_mesh: int | None = None, fermi_method: str = "tetrahedron",
@@ -208,7 +216,7 @@ def energy_reference(material: Material, path_energies_eV: np.ndarray,
         material.valence_electrons * 2 // material.electrons_per_band)
 
     def fermi() -> float:
-        n = fermi_mesh or {1: 600, 2: 60, 3: 24}[material.dimension]
+        n = fermi_mesh or DEFAULT_FERMI_MESH[material.dimension]
         mesh = reciprocal_mesh(material, n)
         energies = mesh_energies(mesh.k_cart_invA, n_el // 2 + 4)
         return fermi_level_from_count(mesh, energies, n_el, method=fermi_method,
@@ -326,7 +334,10 @@ def compute_band_structure(material: Material, n_k: int = 200, n_bands: int | No
         zero, kind, edges = choose_energy_zero(reference, n_el, lambda: 0.0)
         if edges is None:
             zero, kind = 0.0, "absolute"
+    mesh = ((fermi_mesh or DEFAULT_FERMI_MESH[material.dimension]) if kind == "Fermi level"
+            else None)
     return BandStructure(material=material, symmetry=crystal_symmetry(material), path=path,
                          model=model, energies_eV=energies, energy_zero_eV=float(zero),
                          energy_zero_kind=kind, edges=edges, perturbative=pert,
-                         comparison=comparison, k_centred=k_centred, solver=used)
+                         comparison=comparison, k_centred=k_centred, solver=used,
+                         fermi_mesh=mesh)

@@ -41,11 +41,13 @@ from ..options import (
     CutoffOption,
     EMaxOption,
     EMinOption,
+    FermiMeshOption,
     FormatOption,
     ImageFormat,
     MaterialFile,
     PlotCsvJsonDir,
     check_count,
+    check_fermi_mesh,
     energy_window,
     json_option,
     name_option,
@@ -73,6 +75,7 @@ def bands(
                                                 "file's basis.bands, else occupied + 4).",
                                                 show_default=False)] = None,
     cutoff_eV: CutoffOption = None,
+    fermi_mesh: FermiMeshOption = None,
     image_format: FormatOption = ImageFormat.png,
     json_path: Annotated[Path | None, json_option("bands")] = None,
     name: Annotated[str | None, name_option("<file>-bands; with --exact-only "
@@ -141,13 +144,16 @@ def bands(
         raise InputError("the iterative solver takes local spinless models only; expected "
                          "--solver dense or auto for a material with spin-orbit or nonlocal "
                          "terms", key="--solver")
+    check_fermi_mesh(fermi_mesh, material.dimension)
     with progress_bar("diagonalising") as progress:
         bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV,
-                                    progress=progress, exact=not no_exact,
+                                    progress=progress, fermi_mesh=fermi_mesh,
+                                    exact=not no_exact,
                                     perturbation=settings_p, solver=solver)
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
-                "real_hamiltonian": bs.model.is_real, "solver": bs.solver, "exact": not no_exact,
+                "real_hamiltonian": bs.model.is_real, "fermi_mesh": bs.fermi_mesh,
+                "solver": bs.solver, "exact": not no_exact,
                 "perturbative": not exact_only}
     labels, critical = label_and_classify(material, bs.model.basis.cutoff_eV,
                                           standard_path(material)[0], bs.n_bands,

@@ -23,10 +23,12 @@ from ..options import (
     CutoffOption,
     EMaxOption,
     EMinOption,
+    FermiMeshOption,
     FormatOption,
     ImageFormat,
     MaterialFile,
     check_count,
+    check_fermi_mesh,
     energy_window,
     json_option,
     name_option,
@@ -60,6 +62,7 @@ def gaps(
                                                 "file's basis.bands, else occupied + 4).",
                                                 show_default=False)] = None,
     cutoff_eV: CutoffOption = None,
+    fermi_mesh: FermiMeshOption = None,
     out_dir: Annotated[Path, typer.Option("--out", help="Folder for the figure and the JSON.")]
     = DEFAULT_OUT,
     k_points: Annotated[int, typer.Option("--k-points", help="k-points of the band plot.")] = 200,
@@ -84,14 +87,15 @@ def gaps(
     points = [parse_point(p) for p in point] if point else None
     resolve_points(material, points)  # refuse a bad --point before the diagonalisation
     search = (not point) if crossings is None else crossings
+    check_fermi_mesh(fermi_mesh, material.dimension)
     with progress_bar("diagonalising") as progress:
         bs = compute_band_structure(material, n_k=k_points, n_bands=n_bands, cutoff_eV=cutoff_eV,
-                                    progress=progress)
+                                    progress=progress, fermi_mesh=fermi_mesh)
     report = gap_analysis(material, model=bs.model, n_bands=bs.n_bands, points=points,
                           crossings=search)
     settings = {"k_points": len(bs.path.k_frac), "bands": bs.n_bands,
                 "cutoff_eV": bs.model.basis.cutoff_eV, "basis_size": bs.model.size,
-                "real_hamiltonian": bs.model.is_real,
+                "real_hamiltonian": bs.model.is_real, "fermi_mesh": bs.fermi_mesh,
                 "points": list(point) if point else "labelled points of the path",
                 "crossings": search}
     doc = document("gaps", material, settings, gap_results(report, bs))
