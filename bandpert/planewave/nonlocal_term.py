@@ -52,6 +52,7 @@ With s = 0 the key is ignored and the model is the constant-depth one, bit for b
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 import numpy as np
@@ -261,7 +262,7 @@ class NonlocalTerm:
             if slope == 0.0:
                 continue
             radius = next(r for ell, _, r in self.channels[s] if ell == 0)
-            x, w = np.polynomial.legendre.leggauss(quadrature_order(float(k.max()), radius))
+            x, w = _gauss_legendre(quadrature_order(float(k.max()), radius))
             r, w = 0.5 * radius * (x + 1.0), 0.5 * radius * w
             phase = np.exp(-1j * (kg @ np.asarray(position)))
             columns.append(phase[:, None] * (r * np.sqrt(w))[None, :]
@@ -339,20 +340,18 @@ class MetricRoot:
         slowest; the metric is 1₂ ⊗ S there).
 
         With X = S^{−1/2} − 1 = U D U†, (1 + X) H_c (1 + X) = H_c + U Z + (U Z)†, Z = D U† H_c
-        + ½ (D U† H_c U D) U†, each product taken block by block of spin (U acts on each
-        block alike): 8 r n² complex multiply-adds for a spinor H_c, r the kept rank.
+        + ½ (D U† H_c U D) U†, with U acting on each spin block alike (H_c viewed as
+        (c, n, c, n) blocks): 8 r n² complex multiply-adds for a spinor H_c, r the kept rank.
         """
         u, d = self.vectors, self.shifts
-        n = u.shape[0]
+        n, r = u.shape
         c = h.shape[0] // n
         uh = u.conj().T
-        blocks = range(c)
-        t = np.vstack([d[:, None] * (uh @ h[s * n:(s + 1) * n]) for s in blocks])  # D U† H_c
-        dd = np.tile(d, c)
-        core = np.hstack([t[:, s * n:(s + 1) * n] @ u for s in blocks]) * (0.5 * dd)[None, :]
-        r = len(d)
-        z = t + np.hstack([core[:, s * r:(s + 1) * r] @ uh for s in blocks])
-        y = np.vstack([u @ z[s * r:(s + 1) * r] for s in blocks])               # U Z
+        blocks = h.reshape(c, n, c, n)
+        t = np.tensordot(uh, blocks, axes=([1], [1])) * d[:, None, None, None]  # (r, c, c, n)
+        core = (t @ u) * (0.5 * d)                                              # (r, c, c, r)
+        z = t + core @ uh                                                       # (r, c, c, n)
+        y = np.tensordot(u, z, axes=([1], [0])).transpose(1, 0, 2, 3).reshape(c * n, c * n)
         out = h + y
         out += y.conj().T
         return out
@@ -372,6 +371,13 @@ def nonlocal_term(material: Material) -> NonlocalTerm | None:
                         atom_species=tuple(species.index(a.species) for a in material.atoms),
                         positions_A=tuple(tuple(float(x) for x in r)
                                           for r in material.positions_cart_A))
+
+
+@functools.lru_cache(maxsize=64)
+def _gauss_legendre(order: int) -> tuple[np.ndarray, np.ndarray]:
+    """Gauss–Legendre nodes and weights on [−1, 1] (:func:`numpy.polynomial.legendre.leggauss`,
+    which finds the nodes by Newton steps: kept per order, not recomputed per k)."""
+    return np.polynomial.legendre.leggauss(order)
 
 
 def quadrature_order(k_max_invA: float, radius_A: float) -> int:
