@@ -154,15 +154,11 @@ class PlaneWaveModel:
     def wells_eV(self, k_cart_invA: np.ndarray) -> np.ndarray:
         """H(k) less the same model without its wells, (matrix_size, matrix_size), at one k.
 
-        1_c ⊗ V_NL(k) for constant depths; with an energy-dependent well S^{−1/2} H_c S^{−1/2}
-        − (H0 + V + H_so) (:mod:`~bandpert.planewave.nonlocal_term`), which is not
-        spin-diagonal in general.
+        1_c ⊗ V_NL(k) (to rounding) for constant depths; with an energy-dependent well
+        S^{−1/2} H_c S^{−1/2} − (H0 + V + H_so) (:mod:`~bandpert.planewave.nonlocal_term`), which
+        is not spin-diagonal in general.
         """
         k = np.asarray(k_cart_invA, dtype=float).reshape(-1)
-        wells = self.nonlocal_term
-        if not wells.energy_dependent:
-            v = wells.matrix(k + self.basis.g_cart_invA, self.structure)
-            return v if self.n_components == 1 else np.kron(np.eye(self.n_components), v)
         return self.hamiltonian(k) - replace(self, nonlocal_term=None).hamiltonian(k)
 
     def hamiltonian(self, k_cart_invA: np.ndarray) -> np.ndarray:
@@ -184,8 +180,8 @@ class PlaneWaveModel:
             h = h + wells.matrix(k + self.basis.g_cart_invA, self.structure)
         if self.spin_orbit is not None:
             h = spinor_hamiltonian(h, self.spin_orbit_coupling(k_cart_invA))
-        if wells is not None and wells.energy_dependent:
-            h = wells.metric_root(k + self.basis.g_cart_invA).apply(h)
+        if wells is not None:
+            h = wells.orthogonalised(h, k + self.basis.g_cart_invA)
         return h
 
 

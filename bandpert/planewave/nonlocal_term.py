@@ -232,6 +232,13 @@ class NonlocalTerm:
         """True when some l = 0 depth follows the state's energy."""
         return any(s != 0.0 for s in self.energy_slopes)
 
+    def orthogonalised(self, h: np.ndarray, kg_cart_invA: np.ndarray) -> np.ndarray:
+        """S^{−1/2} H_c S^{−1/2} of a whole H_c (spinless or spinor) on the plane waves K = k + G;
+        H_c itself for constant depths. Every builder of a full H(k) ends with this."""
+        if not self.energy_dependent:
+            return h
+        return self.metric_root(kg_cart_invA).apply(h)
+
     def metric_root(self, kg_cart_invA: np.ndarray) -> MetricRoot | None:
         """S^{−1/2} of the metric S = 1 − M on the plane waves K = k + G (module docstring).
 
@@ -256,18 +263,20 @@ class NonlocalTerm:
         kg = np.asarray(kg_cart_invA, dtype=float)
         k = np.linalg.norm(kg, axis=1)
         scale = 4.0 * np.pi / (self.atom_volume_A3 * len(self.positions_A))
+        radial: dict[int, np.ndarray] = {}  # r_q √w_q j_0(K r_q), once per species
         columns, weights = [], []
         for s, position in zip(self.atom_species, self.positions_A, strict=True):
             slope = self.energy_slopes[s]
             if slope == 0.0:
                 continue
-            radius = next(r for ell, _, r in self.channels[s] if ell == 0)
-            x, w = _gauss_legendre(quadrature_order(float(k.max()), radius))
-            r, w = 0.5 * radius * (x + 1.0), 0.5 * radius * w
+            if s not in radial:
+                radius = next(r for ell, _, r in self.channels[s] if ell == 0)
+                x, w = _gauss_legendre(quadrature_order(float(k.max()), radius))
+                r, w = 0.5 * radius * (x + 1.0), 0.5 * radius * w
+                radial[s] = (r * np.sqrt(w))[None, :] * np.sinc(k[:, None] * r[None, :] / np.pi)
             phase = np.exp(-1j * (kg @ np.asarray(position)))
-            columns.append(phase[:, None] * (r * np.sqrt(w))[None, :]
-                           * np.sinc(k[:, None] * r[None, :] / np.pi))
-            weights.append(np.full(len(r), scale * slope))
+            columns.append(phase[:, None] * radial[s])
+            weights.append(np.full(radial[s].shape[1], scale * slope))
         q, upper = np.linalg.qr(np.hstack(columns))
         d = np.concatenate(weights)
         mu, v = np.linalg.eigh(upper @ (d[:, None] * upper.conj().T))

@@ -383,8 +383,8 @@ def per_k_hamiltonians(model: PlaneWaveModel | KCentredModel, k_cart_invA: np.nd
         if term is not None:
             w = term.coupling(kk + g, structure)
             h = spinor_hamiltonian(h, w, np.empty((2 * n, 2 * n), complex, order="F"))
-        if wells is not None and wells.energy_dependent:  # S^{-1/2} H_c S^{-1/2}
-            h = wells.metric_root(kk + g).apply(h)
+        if wells is not None:  # S^{-1/2} H_c S^{-1/2} for an energy-dependent well
+            h = wells.orthogonalised(h, kk + g)
         yield np.asfortranarray(h)
 
 

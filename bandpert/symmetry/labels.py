@@ -355,8 +355,7 @@ def k_centred_states(model: KCentredModel, k_cart: np.ndarray, n_states: int | N
         s = model.structure_table(float(np.linalg.norm(k_cart)))
         pairs = origin + codes[:, None] - codes[None, :]
         h = h + model.nonlocal_term.matrix(kg[inside], s[:, pairs])
-        if model.nonlocal_term.energy_dependent:  # S^{-1/2} H_c S^{-1/2}: same irreps
-            h = model.nonlocal_term.metric_root(kg[inside]).apply(h)
+        h = model.nonlocal_term.orthogonalised(h, kg[inside])  # same irreps
     top = inside.size if n_states is None else min(inside.size, n_states)
     with single_blas_thread():  # small matrices: one thread (planewave.solver)
         if top == inside.size:
